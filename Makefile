@@ -1,0 +1,48 @@
+# Two set-up commands: `make run` and `make test`. Both create .venv and install
+# the package with its extras once; later runs skip the install unless
+# pyproject.toml changed.
+
+PYTHON ?= python3
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed
+PTYPE_DATA_DIR ?= $(CURDIR)/.data
+HOST ?= 127.0.0.1
+PORT ?= 8080
+export PTYPE_DATA_DIR
+
+.PHONY: run test install system-deps bench lint clean
+
+$(STAMP): pyproject.toml
+	test -x $(PY) || $(PYTHON) -m venv $(VENV)
+	$(PY) -m pip install -q --upgrade pip
+	$(PY) -m pip install -q -e '.[dev]'
+	touch $(STAMP)
+
+install: $(STAMP)
+
+# Debian's chromium drives the browser tests (never a browser download).
+system-deps:
+	@if ! command -v chromium >/dev/null 2>&1; then \
+	  if [ "$$(id -u)" = "0" ]; then \
+	    echo "installing Debian chromium for the browser tests"; \
+	    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; \
+	  else \
+	    echo "chromium is missing: run 'sudo apt-get install chromium' for the browser tests"; \
+	  fi; \
+	fi
+
+test: $(STAMP) system-deps
+	$(PY) -m pytest -q
+
+run: $(STAMP)
+	$(VENV)/bin/ptype serve --host $(HOST) --port $(PORT) --demo
+
+bench: $(STAMP)
+	$(PY) bench/run_all.py
+
+lint: $(STAMP)
+	$(VENV)/bin/ruff check ptype api tests bench
+
+clean:
+	rm -rf $(VENV) .data .pytest_cache build *.egg-info

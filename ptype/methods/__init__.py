@@ -1,0 +1,21 @@
+"""Published precipitation-type methods, one module each (see :mod:`ptype.methods.base`)."""
+
+from __future__ import annotations
+
+import importlib
+
+#: Method names in the order results list them.
+METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",
+                "thickness", "jennings")
+
+_MODULE_OF = {"baldwin_revised": "baldwin"}
+
+
+def get_method(name: str):
+    """The module implementing method ``name`` (``baldwin_revised`` lives in ``baldwin``)."""
+    if name not in METHOD_NAMES:
+        from ..errors import OptionError
+        raise OptionError(f"unknown method {name!r}; expected one of {', '.join(METHOD_NAMES)}",
+                          field="methods")
+    module = importlib.import_module(f"{__name__}.{_MODULE_OF.get(name, name)}")
+    return module

@@ -1,0 +1,139 @@
+"""Readers: turn files or text in any supported format into a :class:`~ptype.profile.Profile`.
+
+``read_profile(path_or_text, format=None)`` detects the format from the file
+extension or, for text, from its content.  Each format lives in its own module
+and returns a profile *document* (dict); validation is shared.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from pathlib import Path
+from typing import Any
+
+from ..errors import ReaderError
+from ..profile import Profile
+from . import csv_format, json_format
+
+FORMATS = ("json", "csv", "temp", "netcdf")
+_EXTENSIONS = {".json": "json", ".csv": "csv", ".txt": "temp", ".temp": "temp", ".tmp": "temp",
+               ".nc": "netcdf", ".nc4": "netcdf", ".cdf": "netcdf"}
+
+
+def detect_format(text: str) -> str:
+    """Guess the format of a text: JSON object, CSV with a header, or WMO TEMP."""
+    stripped = text.lstrip()
+    if stripped.startswith("{") or stripped.startswith("["):
+        return "json"
+    upper = stripped.upper()
+    if "TTAA" in upper or "TTBB" in upper:
+        return "temp"
+    for line in stripped.splitlines():
+        line = line.strip()
+        if not line or line.startswith("#"):
+            continue
+        if "," in line and "pressure_hpa" in line.lower():
+            return "csv"
+        break
+    raise ReaderError("could not tell the format: expected a JSON object, a CSV header naming "
+                      "pressure_hpa, or a WMO TEMP message (TTAA/TTBB); pass format= explicitly")
+
+
+def _is_path(source: Any) -> bool:
+    if isinstance(source, Path):
+        return True
+    if isinstance(source, str) and "\n" not in source and len(source) < 4096:
+        s = source.strip()
+        if s.startswith("{") or s.upper().startswith("TT"):
+            return False
+        return os.path.exists(s) or s.endswith(tuple(_EXTENSIONS))
+    return False
+
+
+def read_document(source: str | os.PathLike | bytes, format: str | None = None) -> tuple[dict, str]:
+    """Read ``source`` into a profile document; returns ``(document, name)`` where ``name``
+    describes the source for messages (the file name, or ``<text>``)."""
+    if format is not None and format not in FORMATS:
+        raise ReaderError(f"format {format!r} is not supported; expected one of {', '.join(FORMATS)}")
+    if _is_path(source):
+        path = Path(source)
+        name = str(path)
+        if not path.exists():
+            raise ReaderError(f"{name}: no such file")
+        fmt = format or _EXTENSIONS.get(path.suffix.lower())
+        if fmt == "netcdf":
+            from . import netcdf_format
+            return netcdf_format.read_netcdf_document(path), name
+        try:
+            text = path.read_text(encoding="utf-8")
+        except UnicodeDecodeError:
+            raise ReaderError(f"{name}: not a UTF-8 text file") from None
+        except OSError as exc:
+            raise ReaderError(f"{name}: cannot be read ({exc.strerror})") from None
+    else:
+        name = "<text>"
+        if isinstance(source, bytes):
+            if format == "netcdf" or source[:3] == b"CDF" or source[:4] == b"\x89HDF":
+                from . import netcdf_format
+                return netcdf_format.read_netcdf_document(source), name
+            try:
+                text = source.decode("utf-8")
+            except UnicodeDecodeError:
+                raise ReaderError("<text>: not UTF-8 text") from None
+        elif isinstance(source, str):
+            text = source
+        else:
+            raise ReaderError(f"expected a path, text or bytes, got {type(source).__name__}")
+        fmt = format
+    if fmt is None:
+        fmt = detect_format(text)
+    if fmt == "json":
+        return json_format.read_json_document(text, name), name
+    if fmt == "csv":
+        return csv_format.read_csv_document(text, name), name
+    if fmt == "temp":
+        from . import temp_format
+        return temp_format.read_temp_document(text, name), name
+    if fmt == "netcdf":
+        raise ReaderError(f"{name}: NetCDF must be given as a file path or bytes")
+    raise ReaderError(f"{name}: format {fmt!r} is not supported")
+
+
+def read_profile(path_or_text: str | os.PathLike | bytes, format: str | None = None) -> Profile:
+    """Read one profile from a file path, text or bytes.
+
+    Parameters
+    ----------
+    path_or_text : str, os.PathLike or bytes
+        A path to a ``.json``, ``.csv``, ``.txt``/``.temp`` (WMO TEMP) or ``.nc`` file, or
+        the content itself.
+    format : {"json", "csv", "temp", "netcdf"}, optional
+        Skip detection.
+
+    Raises
+    ------
+    ptype.errors.ReaderError
+        The source cannot be read; the message names it and the line or group.
+    ptype.errors.ProfileError
+        The content was read but is not a valid profile.
+    """
+    document, name = read_document(path_or_text, format)
+    from ..document import parse_document
+    from ..errors import ProfileError
+    try:
+        return Profile.from_document(parse_document(document))
+    except ReaderError:
+        raise
+    except ProfileError as exc:
+        if name != "<text>":
+            raise ProfileError(f"{name}: {exc.message}", field=exc.field) from None
+        raise
+
+
+def loads_json(text: str, name: str = "<text>") -> Any:
+    """Parse JSON text with a one-line error naming the line and column."""
+    try:
+        return json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise ReaderError(f"{name}: line {exc.lineno} column {exc.colno}: invalid JSON ({exc.msg})") from None

@@ -1,0 +1,102 @@
+"""CSV profiles: a header naming columns with their units, ``#`` comment lines for metadata.
+
+Example::
+
+    # site_name: Harrowgate Pass
+    # latitude: 47.1
+    # longitude: 8.3
+    # elevation_m: 640
+    # valid_time: 2026-01-14T06:00Z
+    # surface.temperature_2m_c: -1.2
+    pressure_hpa,height_m,temperature_c,dewpoint_c
+    950,640,-1.0,-1.8
+    ...
+
+Columns are any of the level fields of the profile document
+(``pressure_hpa``, ``height_m``, ``temperature_c``, ``dewpoint_c``,
+``relative_humidity_pct``, ``mixing_ratio_g_kg``, ``wetbulb_c``); an empty
+cell is a missing value.  Metadata keys: ``site_id``, ``site_name``,
+``latitude``, ``longitude``, ``elevation_m``, ``valid_time``, ``source`` and
+``surface.<field>`` for any surface field.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+
+from ..errors import ReaderError
+from ..profile import LEVEL_FIELDS
+
+_SITE_KEYS = {"site_id": "id", "site_name": "name", "latitude": "latitude",
+              "longitude": "longitude", "elevation_m": "elevation_m"}
+_NUMERIC_SITE = {"latitude", "longitude", "elevation_m"}
+
+
+def _number(text: str, name: str, line: int, column: str) -> float:
+    try:
+        return float(text)
+    except ValueError:
+        raise ReaderError(f"{name}: line {line}: column {column}: {text!r} is not a number") from None
+
+
+def read_csv_document(text: str, name: str = "<text>") -> dict:
+    """Parse CSV text into a profile document dict."""
+    doc: dict = {}
+    site: dict = {}
+    surface: dict = {}
+    data_lines: list[tuple[int, str]] = []
+    for lineno, raw in enumerate(text.splitlines(), start=1):
+        line = raw.strip()
+        if not line:
+            continue
+        if line.startswith("#"):
+            body = line.lstrip("#").strip()
+            if ":" not in body:
+                continue  # a plain comment
+            key, _, value = body.partition(":")
+            key, value = key.strip(), value.strip()
+            if key in _SITE_KEYS:
+                site[_SITE_KEYS[key]] = (_number(value, name, lineno, key)
+                                         if key in _NUMERIC_SITE else value)
+            elif key in ("valid_time", "source"):
+                doc[key] = value
+            elif key.startswith("surface."):
+                surface[key[len("surface."):]] = _number(value, name, lineno, key)
+            else:
+                raise ReaderError(f"{name}: line {lineno}: unknown metadata key {key!r}; expected one of "
+                                  f"{', '.join(list(_SITE_KEYS) + ['valid_time', 'source', 'surface.<field>'])}")
+            continue
+        data_lines.append((lineno, raw))
+    if not data_lines:
+        raise ReaderError(f"{name}: no header line found; expected e.g. "
+                          "'pressure_hpa,height_m,temperature_c,dewpoint_c'")
+    header_line, header = data_lines[0]
+    columns = [c.strip().lower() for c in next(csv.reader([header]))]
+    unknown = [c for c in columns if c not in LEVEL_FIELDS]
+    if unknown:
+        raise ReaderError(f"{name}: line {header_line}: unknown column {unknown[0]!r}; "
+                          f"expected names with units from: {', '.join(LEVEL_FIELDS)}")
+    if len(set(columns)) != len(columns):
+        raise ReaderError(f"{name}: line {header_line}: a column name is repeated")
+    for required in ("pressure_hpa", "temperature_c"):
+        if required not in columns:
+            raise ReaderError(f"{name}: line {header_line}: the header has no {required} column")
+    levels = []
+    reader = csv.reader(io.StringIO("\n".join(raw for _, raw in data_lines[1:])))
+    for (lineno, _), row in zip(data_lines[1:], reader):
+        if len(row) != len(columns):
+            raise ReaderError(f"{name}: line {lineno}: {len(row)} value(s) for {len(columns)} columns")
+        level = {}
+        for column, cell in zip(columns, row):
+            cell = cell.strip()
+            if cell == "":
+                continue
+            level[column] = _number(cell, name, lineno, column)
+        levels.append(level)
+    doc["levels"] = levels
+    if site:
+        doc["site"] = site
+    if surface:
+        doc["surface"] = surface
+    return doc
