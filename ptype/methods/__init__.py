@@ -8,11 +8,11 @@ import importlib
 METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",
                 "thickness", "jennings")
 
-_MODULE_OF = {"baldwin_revised": "baldwin"}
+_MODULE_OF: dict[str, str] = {}
 
 
 def get_method(name: str):
-    """The module implementing method ``name`` (``baldwin_revised`` lives in ``baldwin``)."""
+    """The module implementing method ``name``."""
     if name not in METHOD_NAMES:
         from ..errors import OptionError
         raise OptionError(f"unknown method {name!r}; expected one of {', '.join(METHOD_NAMES)}",

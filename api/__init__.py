@@ -1,0 +1,62 @@
+"""The ptype HTTP service (Flask application factory).
+
+``create_app(config)`` builds the application; each resource is a blueprint in
+its own module listed in :data:`BLUEPRINT_MODULES` (a module exposes ``bp``).
+Views only parse the request, call the library and serialise the answer; all
+errors are mapped to JSON ``{"error": {"code", "message", "field"?}}`` by
+:mod:`api.errors`.
+"""
+
+from __future__ import annotations
+
+import importlib
+import os
+from pathlib import Path
+from typing import Any, Mapping
+
+from flask import Flask
+
+#: Blueprint modules, registered in this order.  Each exposes ``bp`` and may expose
+#: ``init_app(app)`` for set-up (database, caches).
+BLUEPRINT_MODULES = ["api.health"]
+
+DEFAULT_CONFIG: dict[str, Any] = {
+    # Largest request body accepted, bytes.
+    "MAX_CONTENT_LENGTH": 1 * 1024 * 1024,
+    # Largest number of levels in one profile.
+    "PTYPE_MAX_LEVELS": 2000,
+    # Largest number of profiles in one batch request.
+    "PTYPE_MAX_BATCH": 500,
+    # Largest Monte-Carlo member count a request may ask for.
+    "PTYPE_MAX_MEMBERS": 1000,
+    # Where the service keeps its database and other state.
+    "PTYPE_DATA_DIR": None,
+    # Load the demo sites and storm into an empty store on start.
+    "PTYPE_DEMO": False,
+    "JSON_SORT_KEYS": False,
+}
+
+
+def create_app(config: Mapping[str, Any] | None = None) -> Flask:
+    """Build the application.
+
+    Parameters
+    ----------
+    config : mapping, optional
+        Overrides of :data:`DEFAULT_CONFIG` (and any Flask setting).  ``PTYPE_DATA_DIR``
+        defaults to the environment variable of that name, else ``./.data``.
+    """
+    app = Flask(__name__, static_folder="static", static_url_path="/static")
+    app.config.update(DEFAULT_CONFIG)
+    app.config["PTYPE_DATA_DIR"] = os.environ.get("PTYPE_DATA_DIR") or str(Path.cwd() / ".data")
+    if config:
+        app.config.update(dict(config))
+    app.json.sort_keys = False
+    from . import errors
+    errors.init_app(app)
+    for name in BLUEPRINT_MODULES:
+        module = importlib.import_module(name)
+        if hasattr(module, "init_app"):
+            module.init_app(app)
+        app.register_blueprint(module.bp)
+    return app

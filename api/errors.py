@@ -1,0 +1,64 @@
+"""One place that turns every error into a JSON body ``{"error": {"code", "message", "field"?}}``.
+
+Bad input is a 4xx with a message naming the field; an unexpected failure is a
+500 with a generic message (never a traceback in a response).
+"""
+
+from __future__ import annotations
+
+import logging
+
+from flask import Flask, jsonify
+from werkzeug.exceptions import HTTPException
+
+from ptype.errors import OptionError, ProfileError
+
+log = logging.getLogger("ptype.api")
+
+
+class ApiError(Exception):
+    """An error with an HTTP status, a stable code and a message (and optionally the field)."""
+
+    def __init__(self, status: int, code: str, message: str, field: str | None = None):
+        super().__init__(message)
+        self.status = status
+        self.code = code
+        self.message = message
+        self.field = field
+
+
+def error_body(code: str, message: str, field: str | None = None) -> dict:
+    body = {"code": code, "message": message}
+    if field:
+        body["field"] = field
+    return {"error": body}
+
+
+def init_app(app: Flask) -> None:
+    @app.errorhandler(ApiError)
+    def _api_error(exc: ApiError):
+        return jsonify(error_body(exc.code, exc.message, exc.field)), exc.status
+
+    @app.errorhandler(ProfileError)
+    def _profile_error(exc: ProfileError):
+        return jsonify(error_body("invalid_profile", str(exc), exc.field)), 422
+
+    @app.errorhandler(OptionError)
+    def _option_error(exc: OptionError):
+        return jsonify(error_body("invalid_option", str(exc), exc.field)), 400
+
+    @app.errorhandler(HTTPException)
+    def _http_error(exc: HTTPException):
+        code = (exc.name or "error").lower().replace(" ", "_")
+        if exc.code == 413:
+            limit = app.config.get("MAX_CONTENT_LENGTH")
+            message = f"request body is larger than the limit of {limit} bytes"
+        else:
+            message = exc.description or exc.name
+        return jsonify(error_body(code, message)), exc.code
+
+    @app.errorhandler(Exception)
+    def _unexpected(exc: Exception):  # pragma: no cover - exercised only by bugs
+        log.exception("unexpected error")
+        return jsonify(error_body("internal_error", "the server failed to handle this request; "
+                                  "it has been logged")), 500
