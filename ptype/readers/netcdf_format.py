@@ -1,0 +1,237 @@
+"""Single-profile NetCDF files, found through CF standard names (CF Conventions 1.13).
+
+Variables are identified by their ``standard_name`` attribute, never by their
+variable name, so any CF-conforming file works:
+
+============================  ========================================  ===========================
+standard_name                 role                                      units understood
+============================  ========================================  ===========================
+air_pressure                  pressure (data variable or the vertical   Pa, hPa, mbar, mb, kPa
+                              coordinate); required
+air_temperature               temperature; required                     K, degC (and spellings)
+dew_point_temperature         dew point; this or relative humidity      K, degC
+relative_humidity             relative humidity over water              1 (fraction), %
+geopotential_height,          height above mean sea level; optional     m, km
+altitude
+latitude, longitude           site position (scalar); optional          degrees_north / _east
+surface_altitude              station elevation (scalar); optional      m
+time                          valid time (scalar); optional             CF time units
+============================  ========================================  ===========================
+
+A variable with ``cf_role = "profile_id"`` names the site.  Exactly one column is
+accepted: a variable with a second dimension longer than one is refused,
+naming that dimension.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+import os
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import ReaderError
+
+_PRESSURE_TO_HPA = {"pa": 0.01, "hpa": 1.0, "mbar": 1.0, "mb": 1.0, "millibar": 1.0,
+                    "hectopascal": 1.0, "hectopascals": 1.0, "kpa": 10.0, "pascal": 0.01,
+                    "pascals": 0.01}
+_KELVIN = {"k", "kelvin", "degk", "deg_k", "degrees_k"}
+_CELSIUS = {"degc", "deg_c", "celsius", "degree_celsius", "degrees_celsius", "c", "°c",
+            "degree_c", "degrees_c"}
+_HEIGHT_TO_M = {"m": 1.0, "meter": 1.0, "meters": 1.0, "metre": 1.0, "metres": 1.0,
+                "km": 1000.0, "gpm": 1.0}
+
+
+def _units(var) -> str | None:
+    u = var.attrs.get("units")
+    return None if u is None else str(u).strip()
+
+
+def _open(source):
+    import xarray as xr
+    try:
+        if isinstance(source, (bytes, bytearray)):
+            import netCDF4
+            nc = netCDF4.Dataset("in-memory.nc", mode="r", memory=bytes(source))
+            return xr.open_dataset(xr.backends.NetCDF4DataStore(nc), decode_times=True)
+        return xr.open_dataset(source, decode_times=True)
+    except (OSError, ValueError, RuntimeError, TypeError) as exc:
+        raise ReaderError(f"{_name(source)}: not a readable NetCDF file ({exc})") from None
+
+
+def _name(source) -> str:
+    if isinstance(source, (bytes, bytearray, io.IOBase)):
+        return "<bytes>"
+    return str(source)
+
+
+def _find(ds, standard_name: str):
+    """The variables or coordinates carrying ``standard_name`` (data variables first)."""
+    found = [ds[k] for k in ds.data_vars if ds[k].attrs.get("standard_name") == standard_name]
+    found += [ds[k] for k in ds.coords if ds[k].attrs.get("standard_name") == standard_name
+              and all(k != f.name for f in found)]
+    return found
+
+
+def _column(var, name: str, vertical_dim: str | None) -> np.ndarray:
+    """A variable as one 1-D column; refuses a second dimension longer than one."""
+    extra = [d for d in var.dims if d != vertical_dim and var.sizes[d] > 1]
+    if extra:
+        dim = extra[0]
+        raise ReaderError(
+            f"{name}: variable {var.name!r} ({var.attrs.get('standard_name')}) has "
+            f"{var.sizes[dim]} entries along dimension {dim!r}; expected a single profile "
+            "(one column); select one with xarray before reading")
+    values = np.asarray(var.squeeze().values, dtype=float)
+    return np.atleast_1d(values)
+
+
+def _convert(var, name: str, values: np.ndarray, kind: str) -> np.ndarray:
+    units = _units(var)
+    key = units.lower().replace(" ", "_") if units else None
+    sn = var.attrs.get("standard_name")
+    label = f"variable {var.name!r} ({sn})"
+    if kind == "pressure":
+        if key not in _PRESSURE_TO_HPA:
+            raise ReaderError(f"{name}: {label} has units {units!r}; expected Pa, hPa, mbar or kPa")
+        return values * _PRESSURE_TO_HPA[key]
+    if kind == "temperature":
+        if key in _KELVIN:
+            return values - 273.15
+        if key in _CELSIUS:
+            return values
+        raise ReaderError(f"{name}: {label} has units {units!r}; expected K or degC")
+    if kind == "humidity":
+        if units is None:
+            raise ReaderError(f"{name}: {label} has no units attribute; expected '1' "
+                              "(fraction) or '%'")
+        if key in ("1", "fraction"):
+            return values * 100.0
+        if key in ("%", "percent"):
+            return values
+        raise ReaderError(f"{name}: {label} has units {units!r}; expected '1' (fraction) or '%'")
+    if kind == "height":
+        if key not in _HEIGHT_TO_M:
+            raise ReaderError(f"{name}: {label} has units {units!r}; expected m or km")
+        return values * _HEIGHT_TO_M[key]
+    raise AssertionError(kind)  # pragma: no cover
+
+
+def _scalar(ds, standard_name: str) -> float | None:
+    for var in _find(ds, standard_name):
+        if var.size == 1:
+            value = float(np.asarray(var.values, dtype=float).ravel()[0])
+            if math.isfinite(value):
+                return value
+    return None
+
+
+def read_netcdf_document(path_or_bytes: str | os.PathLike | bytes) -> dict:
+    """Read one vertical profile from a CF NetCDF file (path) or its bytes.
+
+    Returns a profile document dict (levels with ``pressure_hpa``, ``temperature_c``,
+    ``dewpoint_c`` or ``relative_humidity_pct``, and ``height_m`` when present).
+
+    Raises
+    ------
+    ptype.errors.ReaderError
+        Naming the file and the missing ``standard_name``, a unit that cannot be
+        converted, or the dimension that holds more than one profile.
+    """
+    source = path_or_bytes
+    if isinstance(source, Path):
+        source = str(source)
+    name = _name(source)
+    ds = _open(source)
+    try:
+        return _read(ds, name)
+    finally:
+        ds.close()
+
+
+def _read(ds, name: str) -> dict:
+    def one(standard_name: str, required: bool, hint: str = ""):
+        found = _find(ds, standard_name)
+        if not found:
+            if required:
+                raise ReaderError(f"{name}: no variable or coordinate with standard_name "
+                                  f"'{standard_name}'{hint}")
+            return None
+        if len(found) > 1:
+            names = ", ".join(repr(v.name) for v in found)
+            raise ReaderError(f"{name}: several variables have standard_name '{standard_name}' "
+                              f"({names}); expected one")
+        return found[0]
+
+    p_var = one("air_pressure", True, " (the pressure levels); expected a variable or the "
+                                      "vertical coordinate")
+    t_var = one("air_temperature", True)
+    td_var = one("dew_point_temperature", False)
+    rh_var = None if td_var is not None else one("relative_humidity", False)
+    if td_var is None and rh_var is None:
+        raise ReaderError(f"{name}: no variable with standard_name 'dew_point_temperature' or "
+                          "'relative_humidity'; expected one of them for the humidity")
+    z_var = one("geopotential_height", False) or one("altitude", False)
+
+    # The vertical dimension is the one pressure runs along (or the longest one it has).
+    p_dims = [d for d in p_var.dims if p_var.sizes[d] > 1]
+    if not p_dims:
+        raise ReaderError(f"{name}: variable {p_var.name!r} (air_pressure) has a single value; "
+                          "expected a profile of several levels")
+    vertical = max(p_dims, key=lambda d: p_var.sizes[d])
+    if t_var.sizes.get(vertical, 0) <= 1 and t_var.ndim:
+        vertical = max((d for d in t_var.dims), key=lambda d: t_var.sizes[d])
+    p = _convert(p_var, name, _column(p_var, name, vertical), "pressure")
+    t = _convert(t_var, name, _column(t_var, name, vertical), "temperature")
+    n = p.size
+    columns = {"pressure_hpa": p, "temperature_c": t}
+    if td_var is not None:
+        columns["dewpoint_c"] = _convert(td_var, name, _column(td_var, name, vertical),
+                                         "temperature")
+    else:
+        columns["relative_humidity_pct"] = _convert(rh_var, name,
+                                                    _column(rh_var, name, vertical), "humidity")
+    if z_var is not None and z_var.size > 1:
+        columns["height_m"] = _convert(z_var, name, _column(z_var, name, vertical), "height")
+    for key, values in columns.items():
+        if values.size != n:
+            raise ReaderError(f"{name}: {key} has {values.size} values but air_pressure has {n}; "
+                              f"expected both along dimension {vertical!r}")
+
+    levels = []
+    for i in range(n):
+        if not (math.isfinite(p[i]) and math.isfinite(t[i])):
+            continue  # a fill value in pressure or temperature: no level there
+        level = {}
+        for key in ("pressure_hpa", "height_m", "temperature_c", "dewpoint_c",
+                    "relative_humidity_pct"):
+            if key in columns and math.isfinite(columns[key][i]):
+                level[key] = float(columns[key][i])
+        levels.append(level)
+
+    doc: dict = {"levels": levels}
+    site: dict = {}
+    for var in ds.variables.values():
+        if var.attrs.get("cf_role") == "profile_id" and var.size == 1:
+            value = var.values.ravel()[0]
+            site["id"] = value.decode() if isinstance(value, bytes) else str(value)
+    lat, lon = _scalar(ds, "latitude"), _scalar(ds, "longitude")
+    if lat is not None and lon is not None:
+        site["latitude"], site["longitude"] = lat, lon
+    elevation = _scalar(ds, "surface_altitude")
+    if elevation is not None:
+        site["elevation_m"] = elevation
+    if not site.get("id") and ds.attrs.get("station_name"):
+        site["name"] = str(ds.attrs["station_name"])[:200]
+    if site:
+        doc["site"] = site
+    for var in _find(ds, "time"):
+        if var.size == 1 and np.issubdtype(var.dtype, np.datetime64):
+            stamp = np.datetime_as_string(var.values.ravel()[0], unit="s")
+            if not stamp.startswith("NaT"):
+                doc["valid_time"] = stamp + "Z"
+    source = ds.attrs.get("source") or ds.attrs.get("title")
+    doc["source"] = (f"NetCDF {Path(name).name}" + (f": {source}" if source else ""))[:200]
+    return doc
