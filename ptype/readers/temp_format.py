@@ -33,7 +33,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass, field
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 
 import numpy as np
 
@@ -95,7 +95,7 @@ def encode_temperature(temperature_c: float) -> str:
     The parity rule costs up to 0.1 degC of precision.
     """
     x = abs(temperature_c) * 10.0
-    n = int(math.floor(x + 0.5))
+    n = math.floor(x + 0.5)
     if n == 0 and temperature_c > -0.05:
         return "000"
     want_odd = temperature_c < 0
@@ -112,10 +112,10 @@ def encode_depression(depression_c: float) -> str:
     whole degrees + 50 from 6 to 49 degC; 5.05-5.5 is coded 50, larger values cap at 99."""
     d = max(0.0, depression_c)
     if d < 5.05:
-        return f"{int(math.floor(d * 10 + 0.5)):02d}"
+        return f"{math.floor(d * 10 + 0.5):02d}"
     if d < 5.5:
         return "50"
-    return f"{min(99, 50 + int(math.floor(d + 0.5))):02d}"
+    return f"{min(99, 50 + math.floor(d + 0.5)):02d}"
 
 
 def _decode_height_m(code: str, hhh: str, surface_hpa: float | None = None) -> float | None:
@@ -142,11 +142,11 @@ def _encode_height(code: str, height_m: float) -> str:
     if not math.isfinite(height_m):
         return "///"
     if code == "00":
-        h = int(round(height_m))
+        h = round(height_m)
         return f"{500 + abs(h):03d}" if h < 0 else f"{h % 1000:03d}"
     if code in ("92", "85", "70"):
-        return f"{int(round(height_m)) % 1000:03d}"
-    return f"{int(round(height_m / 10.0)) % 1000:03d}"
+        return f"{round(height_m) % 1000:03d}"
+    return f"{round(height_m / 10.0) % 1000:03d}"
 
 
 # --- decoding -----------------------------------------------------------------------------
@@ -456,7 +456,7 @@ def _merge(station, day, hour, parts, name, year, month) -> dict:
         when += f", launch {launch[:2]}:{launch[2:]} UTC"
     if year is not None and month is not None:
         try:
-            doc["valid_time"] = datetime(year, month, day, hour, tzinfo=timezone.utc).isoformat()
+            doc["valid_time"] = datetime(year, month, day, hour, tzinfo=UTC).isoformat()
         except ValueError as exc:
             raise ReaderError(f"{name}: station {station}: day {day} with year {year} and "
                               f"month {month}: {exc}") from None
@@ -564,7 +564,7 @@ def write_temp(document: dict, *, station: str = "99901", day: int = 15, hour: i
         return encode_temperature(temp) + encode_depression(temp - dew)
 
     a = ["TTAA", date + "/", station,
-         f"99{int(round(surface_hpa)) % 1000:03d}", tttdd(t[0], td[0]), "/////"]
+         f"99{round(surface_hpa) % 1000:03d}", tttdd(t[0], td[0]), "/////"]
     for code, ps in STANDARD_SURFACES:
         if ps < p[-1] - 1e-9:
             break  # above the top of the profile: not reported
@@ -581,7 +581,7 @@ def write_temp(document: dict, *, station: str = "99901", day: int = 15, hour: i
     seen: set[int] = set()
     number = 0
     for k in range(p.size):
-        whole = int(round(float(p[k])))
+        whole = round(float(p[k]))
         if whole < 100 or whole in seen:
             continue
         seen.add(whole)
