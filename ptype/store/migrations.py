@@ -1,0 +1,146 @@
+"""Versioned schema migrations.
+
+A ``schema_version`` table records every migration applied (version, name,
+time).  :data:`MIGRATIONS` is an ordered list of ``(version, name, function)``;
+:func:`migrate` applies the missing ones in order, each in the same
+transaction as its ``schema_version`` row, so a crash leaves the schema at a
+known version.  Concurrent starters (several gunicorn workers, several hosts
+on one PostgreSQL database) are serialised: SQLite by ``BEGIN IMMEDIATE`` (the
+write lock), PostgreSQL by a transaction-scoped advisory lock.
+
+Why not Alembic: the schema is small, migrations must run unattended at
+service start from several processes at once, and the project ships no
+separate migration tool or configuration; a table plus ordered functions does
+this in one page, with the same portable SQLAlchemy DDL.  Each migration
+declares its own tables (a frozen copy), so later changes to
+:mod:`ptype.store.models` never rewrite history.
+"""
+
+from __future__ import annotations
+
+from datetime import datetime, timezone
+from typing import Callable
+
+import sqlalchemy as sa
+from sqlalchemy.engine import Connection
+
+_LOCK_KEY = 0x70747970  # PostgreSQL advisory-lock key ("ptyp")
+
+
+def _v1_initial(conn: Connection) -> None:
+    md = sa.MetaData()
+    dt = sa.DateTime
+    sa.Table("api_keys", md,
+             sa.Column("id", sa.Integer, primary_key=True),
+             sa.Column("key_id", sa.String(32), nullable=False, unique=True),
+             sa.Column("name", sa.String(200), nullable=False),
+             sa.Column("salt_hex", sa.String(64), nullable=False),
+             sa.Column("hash_hex", sa.String(128), nullable=False),
+             sa.Column("kdf", sa.String(64), nullable=False),
+             sa.Column("created_at", dt, nullable=False),
+             sa.Column("revoked_at", dt, nullable=True))
+    sa.Table("sites", md,
+             sa.Column("id", sa.Integer, primary_key=True),
+             sa.Column("code", sa.String(100), nullable=True, unique=True),
+             sa.Column("name", sa.String(200), nullable=False),
+             sa.Column("latitude", sa.Float, nullable=False),
+             sa.Column("longitude", sa.Float, nullable=False),
+             sa.Column("elevation_m", sa.Float, nullable=True),
+             sa.Column("thresholds", sa.JSON, nullable=False),
+             sa.Column("created_at", dt, nullable=False))
+    sa.Table("profiles", md,
+             sa.Column("id", sa.Integer, primary_key=True),
+             sa.Column("site_id", sa.Integer, sa.ForeignKey("sites.id", ondelete="CASCADE"),
+                       nullable=False),
+             sa.Column("source", sa.String(200), nullable=False),
+             sa.Column("valid_time", dt, nullable=False),
+             sa.Column("issued_time", dt, nullable=False),
+             sa.Column("document", sa.JSON, nullable=False),
+             sa.Column("received_at", dt, nullable=False),
+             sa.UniqueConstraint("site_id", "source", "valid_time",
+                                 name="uq_profiles_site_source_valid"),
+             sa.Index("ix_profiles_site_issued", "site_id", "issued_time"))
+    sa.Table("observations", md,
+             sa.Column("id", sa.Integer, primary_key=True),
+             sa.Column("site_id", sa.Integer, sa.ForeignKey("sites.id", ondelete="CASCADE"),
+                       nullable=False),
+             sa.Column("time", dt, nullable=False),
+             sa.Column("air_temperature_c", sa.Float),
+             sa.Column("dewpoint_c", sa.Float),
+             sa.Column("road_surface_temperature_c", sa.Float),
+             sa.Column("precipitation_rate_mm_h", sa.Float),
+             sa.Column("wind_speed_m_s", sa.Float),
+             sa.Column("present_weather", sa.String(40)),
+             sa.Column("received_at", dt, nullable=False),
+             sa.UniqueConstraint("site_id", "time", name="uq_observations_site_time"))
+    sa.Table("alerts", md,
+             sa.Column("id", sa.String(64), primary_key=True),
+             sa.Column("site_id", sa.Integer, sa.ForeignKey("sites.id", ondelete="CASCADE"),
+                       nullable=False),
+             sa.Column("event", sa.String(40), nullable=False),
+             sa.Column("status", sa.String(16), nullable=False),
+             sa.Column("severity", sa.String(16), nullable=False),
+             sa.Column("certainty", sa.String(16), nullable=False),
+             sa.Column("urgency", sa.String(16), nullable=False),
+             sa.Column("onset", dt, nullable=False),
+             sa.Column("expires", dt, nullable=False),
+             sa.Column("details", sa.JSON, nullable=False),
+             sa.Column("version", sa.Integer, nullable=False),
+             sa.Column("created_at", dt, nullable=False),
+             sa.Column("updated_at", dt, nullable=False),
+             sa.Column("ended_at", dt, nullable=True),
+             sa.Index("ix_alerts_site_event_status", "site_id", "event", "status"))
+    sa.Table("alert_messages", md,
+             sa.Column("id", sa.Integer, primary_key=True),
+             sa.Column("alert_id", sa.String(64), sa.ForeignKey("alerts.id", ondelete="CASCADE"),
+                       nullable=False),
+             sa.Column("seq", sa.Integer, nullable=False),
+             sa.Column("identifier", sa.String(128), nullable=False, unique=True),
+             sa.Column("msg_type", sa.String(16), nullable=False),
+             sa.Column("sent", dt, nullable=False),
+             sa.Column("snapshot", sa.JSON, nullable=False),
+             sa.UniqueConstraint("alert_id", "seq", name="uq_alert_messages_seq"))
+    md.create_all(conn)
+
+
+#: Ordered migrations: (version, name, function(connection)).  Append only.
+MIGRATIONS: list[tuple[int, str, Callable[[Connection], None]]] = [
+    (1, "initial schema: keys, sites, profiles, observations, alerts, alert messages", _v1_initial),
+]
+
+LATEST_VERSION = MIGRATIONS[-1][0]
+
+_version_table = sa.Table(
+    "schema_version", sa.MetaData(),
+    sa.Column("version", sa.Integer, primary_key=True, autoincrement=False),
+    sa.Column("name", sa.String(200), nullable=False),
+    sa.Column("applied_at", sa.DateTime, nullable=False),
+)
+
+
+def current_version(conn: Connection) -> int:
+    """Highest applied version, 0 for an empty database."""
+    if not sa.inspect(conn).has_table("schema_version"):
+        return 0
+    value = conn.execute(sa.select(sa.func.max(_version_table.c.version))).scalar()
+    return int(value or 0)
+
+
+def migrate(engine: sa.Engine) -> list[int]:
+    """Apply the missing migrations in order; returns the versions applied by this call."""
+    applied: list[int] = []
+    # ptype_write makes the SQLite begin listener take the write lock up front.
+    with engine.execution_options(ptype_write=True).begin() as conn:
+        if conn.dialect.name == "postgresql":
+            conn.execute(sa.text("SELECT pg_advisory_xact_lock(:k)"), {"k": _LOCK_KEY})
+        _version_table.create(conn, checkfirst=True)
+        have = current_version(conn)
+        for version, name, func in MIGRATIONS:
+            if version <= have:
+                continue
+            func(conn)
+            conn.execute(_version_table.insert().values(
+                version=version, name=name,
+                applied_at=datetime.now(timezone.utc).replace(tzinfo=None, microsecond=0)))
+            applied.append(version)
+    return applied

@@ -1,0 +1,143 @@
+"""SQLAlchemy 2 ORM models of the store.
+
+Times are stored as naive UTC ``DateTime`` columns (portable between SQLite and
+PostgreSQL) and handed back as aware UTC datetimes by :class:`UTCDateTime`.
+The tables themselves are created by the versioned migrations in
+:mod:`ptype.store.migrations`, never by ``create_all``; these classes describe
+the latest schema.
+"""
+
+from __future__ import annotations
+
+from datetime import datetime, timezone
+from typing import Any
+
+import sqlalchemy as sa
+from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column, relationship
+
+
+class UTCDateTime(sa.types.TypeDecorator):
+    """Aware UTC datetimes in, aware UTC datetimes out; stored naive UTC."""
+
+    impl = sa.DateTime
+    cache_ok = True
+
+    def process_bind_param(self, value, dialect):
+        if value is None:
+            return None
+        if value.tzinfo is None:
+            value = value.replace(tzinfo=timezone.utc)
+        return value.astimezone(timezone.utc).replace(tzinfo=None)
+
+    def process_result_value(self, value, dialect):
+        if value is None:
+            return None
+        return value.replace(tzinfo=timezone.utc)
+
+
+class Base(DeclarativeBase):
+    pass
+
+
+class ApiKey(Base):
+    """An API key: only a per-key salt and the scrypt hash of the secret are kept."""
+
+    __tablename__ = "api_keys"
+    id: Mapped[int] = mapped_column(primary_key=True)
+    key_id: Mapped[str] = mapped_column(sa.String(32), unique=True)
+    name: Mapped[str] = mapped_column(sa.String(200))
+    salt_hex: Mapped[str] = mapped_column(sa.String(64))
+    hash_hex: Mapped[str] = mapped_column(sa.String(128))
+    kdf: Mapped[str] = mapped_column(sa.String(64))
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    revoked_at: Mapped[datetime | None] = mapped_column(UTCDateTime, nullable=True)
+
+
+class Site(Base):
+    __tablename__ = "sites"
+    id: Mapped[int] = mapped_column(primary_key=True)
+    code: Mapped[str | None] = mapped_column(sa.String(100), unique=True, nullable=True)
+    name: Mapped[str] = mapped_column(sa.String(200))
+    latitude: Mapped[float] = mapped_column(sa.Float)
+    longitude: Mapped[float] = mapped_column(sa.Float)
+    elevation_m: Mapped[float | None] = mapped_column(sa.Float, nullable=True)
+    thresholds: Mapped[dict[str, Any]] = mapped_column(sa.JSON, default=dict)
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+
+    profiles: Mapped[list["ProfileRecord"]] = relationship(back_populates="site",
+                                                           cascade="all, delete-orphan")
+
+
+class ProfileRecord(Base):
+    """One forecast profile of a site; (site, source, valid_time) is unique."""
+
+    __tablename__ = "profiles"
+    __table_args__ = (sa.UniqueConstraint("site_id", "source", "valid_time",
+                                          name="uq_profiles_site_source_valid"),
+                      sa.Index("ix_profiles_site_issued", "site_id", "issued_time"))
+    id: Mapped[int] = mapped_column(primary_key=True)
+    site_id: Mapped[int] = mapped_column(sa.ForeignKey("sites.id", ondelete="CASCADE"))
+    source: Mapped[str] = mapped_column(sa.String(200))
+    valid_time: Mapped[datetime] = mapped_column(UTCDateTime)
+    issued_time: Mapped[datetime] = mapped_column(UTCDateTime)
+    document: Mapped[dict[str, Any]] = mapped_column(sa.JSON)
+    received_at: Mapped[datetime] = mapped_column(UTCDateTime)
+
+    site: Mapped[Site] = relationship(back_populates="profiles")
+
+
+class Observation(Base):
+    """A surface observation of a site; (site, time) is unique (a re-post replaces it)."""
+
+    __tablename__ = "observations"
+    __table_args__ = (sa.UniqueConstraint("site_id", "time", name="uq_observations_site_time"),)
+    id: Mapped[int] = mapped_column(primary_key=True)
+    site_id: Mapped[int] = mapped_column(sa.ForeignKey("sites.id", ondelete="CASCADE"))
+    time: Mapped[datetime] = mapped_column(UTCDateTime)
+    air_temperature_c: Mapped[float | None] = mapped_column(sa.Float, nullable=True)
+    dewpoint_c: Mapped[float | None] = mapped_column(sa.Float, nullable=True)
+    road_surface_temperature_c: Mapped[float | None] = mapped_column(sa.Float, nullable=True)
+    precipitation_rate_mm_h: Mapped[float | None] = mapped_column(sa.Float, nullable=True)
+    wind_speed_m_s: Mapped[float | None] = mapped_column(sa.Float, nullable=True)
+    present_weather: Mapped[str | None] = mapped_column(sa.String(40), nullable=True)
+    received_at: Mapped[datetime] = mapped_column(UTCDateTime)
+
+
+class Alert(Base):
+    """The current state of one alert (a hazard episode at a site)."""
+
+    __tablename__ = "alerts"
+    __table_args__ = (sa.Index("ix_alerts_site_event_status", "site_id", "event", "status"),)
+    id: Mapped[str] = mapped_column(sa.String(64), primary_key=True)
+    site_id: Mapped[int] = mapped_column(sa.ForeignKey("sites.id", ondelete="CASCADE"))
+    event: Mapped[str] = mapped_column(sa.String(40))
+    status: Mapped[str] = mapped_column(sa.String(16))          # active | cancelled | expired
+    severity: Mapped[str] = mapped_column(sa.String(16))
+    certainty: Mapped[str] = mapped_column(sa.String(16))
+    urgency: Mapped[str] = mapped_column(sa.String(16))
+    onset: Mapped[datetime] = mapped_column(UTCDateTime)
+    expires: Mapped[datetime] = mapped_column(UTCDateTime)
+    details: Mapped[dict[str, Any]] = mapped_column(sa.JSON, default=dict)
+    version: Mapped[int] = mapped_column(sa.Integer, default=1)
+    created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    updated_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    ended_at: Mapped[datetime | None] = mapped_column(UTCDateTime, nullable=True)
+
+    messages: Mapped[list["AlertMessage"]] = relationship(
+        back_populates="alert", order_by="AlertMessage.seq", cascade="all, delete-orphan")
+
+
+class AlertMessage(Base):
+    """One CAP message sent for an alert (Alert, then Updates, then possibly a Cancel)."""
+
+    __tablename__ = "alert_messages"
+    __table_args__ = (sa.UniqueConstraint("alert_id", "seq", name="uq_alert_messages_seq"),)
+    id: Mapped[int] = mapped_column(primary_key=True)
+    alert_id: Mapped[str] = mapped_column(sa.ForeignKey("alerts.id", ondelete="CASCADE"))
+    seq: Mapped[int] = mapped_column(sa.Integer)
+    identifier: Mapped[str] = mapped_column(sa.String(128), unique=True)
+    msg_type: Mapped[str] = mapped_column(sa.String(16))
+    sent: Mapped[datetime] = mapped_column(UTCDateTime)
+    snapshot: Mapped[dict[str, Any]] = mapped_column(sa.JSON)
+
+    alert: Mapped[Alert] = relationship(back_populates="messages")
