@@ -229,6 +229,8 @@ class CloudLayers:
     top_temperature_c: np.ndarray
     min_temperature_c: np.ndarray
     count: np.ndarray
+    bottom_index: np.ndarray
+    top_index: np.ndarray
 
     def column(self, i: int) -> list[dict]:
         out = []
@@ -281,4 +283,17 @@ def level_runs(mask: np.ndarray, pressure_hpa: np.ndarray, height_m: np.ndarray,
     return CloudLayers(bottom_hpa=pick(pressure_hpa, s), top_hpa=pick(pressure_hpa, e),
                        bottom_m=pick(height_m, s), top_m=pick(height_m, e),
                        top_temperature_c=pick(temperature_c, e),
-                       min_temperature_c=np.where(present, tmin, np.nan), count=count)
+                       min_temperature_c=np.where(present, tmin, np.nan), count=count,
+                       bottom_index=start, top_index=end)
+
+
+def cumulative_dry_depth_m(height_m: np.ndarray, dry: np.ndarray) -> np.ndarray:
+    """``(n, L)`` depth of dry air between the lowest level and each level, m.
+
+    An interval between two levels counts as dry when both of its ends are dry.
+    """
+    dz = np.nan_to_num(np.diff(height_m, axis=1), nan=0.0)
+    both = dry[:, 1:] & dry[:, :-1]
+    out = np.zeros(height_m.shape)
+    out[:, 1:] = np.cumsum(np.where(both, dz, 0.0), axis=1)
+    return out
