@@ -1,0 +1,38 @@
+"""``POST /v1/diagram``: the skew-T log-p diagram of a profile as PNG or SVG.
+
+The body is the same as for ``POST /v1/diagnose`` (JSON document, CSV or WMO
+TEMP); the image format comes from ``?format=png|svg`` or else the ``Accept``
+header (PNG by default).  Errors are JSON like everywhere else.
+"""
+
+from __future__ import annotations
+
+from flask import Blueprint, Response, request
+
+import ptype
+from ptype.diagram import FORMATS, draw_diagram
+
+from .diagnose import diagnose_kwargs, parse_options, profile_from_request
+from .models import DiagramOptions
+
+bp = Blueprint("diagram", __name__, url_prefix="/v1")
+
+
+def image_format(options: DiagramOptions) -> str:
+    if options.image_format:
+        return options.image_format
+    best = request.accept_mimetypes.best_match(["image/png", "image/svg+xml"], default="image/png")
+    return "svg" if best == "image/svg+xml" else "png"
+
+
+@bp.post("/diagram")
+def diagram():
+    options = parse_options(DiagramOptions)
+    kwargs = diagnose_kwargs(options)
+    fmt = image_format(options)
+    profile = profile_from_request(options)
+    result = ptype.diagnose(profile, **kwargs)
+    image = draw_diagram(result, fmt)
+    response = Response(image, mimetype=FORMATS[fmt])
+    response.headers["Cache-Control"] = "no-store"
+    return response

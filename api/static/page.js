@@ -1,0 +1,243 @@
+// The forecaster page: load or paste a sounding, diagnose it, show the answer and the diagram.
+// Plain browser JavaScript, no external assets.
+"use strict";
+
+(function () {
+  const $ = (id) => document.getElementById(id);
+
+  // One plain-language line per type, so a newcomer knows what the code means on the road.
+  const MEANING = {
+    FZRA: "Rain that falls as liquid but freezes on contact with the ground, roads, wires and trees: glaze ice.",
+    FZDZ: "Fine drizzle that freezes on contact: a thin, hard-to-see glaze.",
+    FZRAPL: "Freezing rain mixed with ice pellets: glaze plus bouncing pellets.",
+    PL: "Ice pellets: drops that melted aloft and refroze before landing; they bounce and pile up like grit.",
+    SN: "Snow: the flakes stay frozen all the way down.",
+    RA: "Rain: liquid and the ground is not cold enough to freeze it.",
+    DZ: "Drizzle: fine liquid drops from shallow cloud.",
+    RASN: "A mix of rain and partly melted snow.",
+    RAPL: "Rain with some ice pellets.",
+    NONE: "Nothing reaches the ground.",
+  };
+  const FREEZING = new Set(["FZRA", "FZDZ", "FZRAPL"]);
+
+  let lastBody = null;
+  let diagramUrl = null;
+
+  function setStatus(text) { $("status").textContent = text; }
+
+  function showError(message) {
+    const box = $("error");
+    box.textContent = message;
+    box.hidden = !message;
+  }
+
+  function contentType(text) {
+    const head = text.trimStart();
+    if (head.startsWith("{") || head.startsWith("[")) return "application/json";
+    return "text/plain";  // the server tells CSV from WMO TEMP
+  }
+
+  function query() {
+    const params = new URLSearchParams();
+    const members = $("opt-members").value.trim();
+    if (members !== "") params.set("members", members);
+    const seed = $("opt-seed").value.trim();
+    if (seed !== "") params.set("seed", seed);
+    params.set("wetbulb", $("opt-wetbulb").value);
+    return params;
+  }
+
+  async function errorMessage(response) {
+    try {
+      const body = await response.json();
+      if (body && body.error) {
+        return body.error.message + (body.error.field ? " (field: " + body.error.field + ")" : "");
+      }
+    } catch (e) { /* not JSON */ }
+    return "The server answered " + response.status + ".";
+  }
+
+  async function loadDemoList() {
+    const select = $("demo-select");
+    try {
+      const response = await fetch("/v1/demo");
+      const body = await response.json();
+      select.innerHTML = "";
+      const placeholder = new Option("Choose a demo sounding…", "");
+      select.add(placeholder);
+      for (const entry of body.soundings) {
+        select.add(new Option(entry.title, entry.name));
+      }
+      if (!body.soundings.length) placeholder.textContent = "No demo soundings installed";
+    } catch (e) {
+      select.innerHTML = "";
+      select.add(new Option("Demo list unavailable", ""));
+    }
+  }
+
+  async function loadDemo() {
+    const name = $("demo-select").value;
+    if (!name) { showError("Choose a demo sounding first."); $("demo-select").focus(); return; }
+    showError("");
+    setStatus("Loading " + name + "…");
+    const response = await fetch("/v1/demo/" + encodeURIComponent(name));
+    if (!response.ok) { showError(await errorMessage(response)); setStatus(""); return; }
+    $("profile-text").value = await response.text();
+    await diagnose();
+  }
+
+  function readFile(file) {
+    return new Promise((resolve, reject) => {
+      const reader = new FileReader();
+      reader.onload = () => resolve(reader.result);
+      reader.onerror = () => reject(reader.error);
+      reader.readAsText(file);
+    });
+  }
+
+  async function diagnose() {
+    const text = $("profile-text").value;
+    if (!text.trim()) {
+      showError("Paste, upload or load a sounding first.");
+      $("profile-text").focus();
+      return;
+    }
+    showError("");
+    setStatus("Diagnosing…");
+    $("diagnose-button").disabled = true;
+    const body = { text: text, type: contentType(text) };
+    try {
+      const response = await fetch("/v1/diagnose?" + query(), {
+        method: "POST", headers: { "Content-Type": body.type }, body: body.text,
+      });
+      if (!response.ok) {
+        showError(await errorMessage(response));
+        setStatus("");
+        return;
+      }
+      const result = await response.json();
+      lastBody = body;
+      render(result);
+      setStatus("Diagnosis ready: " + result.ptype_label + " (" + result.ptype + ").");
+      $("result-heading").focus();
+      await loadDiagram(result);
+    } catch (e) {
+      showError("Could not reach the server: " + e.message);
+      setStatus("");
+    } finally {
+      $("diagnose-button").disabled = false;
+    }
+  }
+
+  async function loadDiagram(result) {
+    const img = $("diagram");
+    const params = query();
+    params.set("format", "svg");
+    const response = await fetch("/v1/diagram?" + params, {
+      method: "POST", headers: { "Content-Type": lastBody.type }, body: lastBody.text,
+    });
+    if (!response.ok) { img.hidden = true; return; }
+    const blob = await response.blob();
+    if (diagramUrl) URL.revokeObjectURL(diagramUrl);
+    diagramUrl = URL.createObjectURL(blob);
+    img.src = diagramUrl;
+    img.alt = "Skew-T log-p diagram of the sounding; consensus " + result.ptype_label +
+      ". " + result.explanation.join(" ");
+    img.hidden = false;
+  }
+
+  function el(tag, attrs, text) {
+    const node = document.createElement(tag);
+    for (const [k, v] of Object.entries(attrs || {})) node.setAttribute(k, v);
+    if (text !== undefined) node.textContent = text;
+    return node;
+  }
+
+  function render(result) {
+    $("result").hidden = false;
+    const code = $("verdict-code");
+    code.textContent = result.ptype;
+    $("verdict").className = "verdict" + (FREEZING.has(result.ptype) ? " verdict-freezing" : "");
+    $("verdict-label").textContent = result.ptype_label.charAt(0).toUpperCase() + result.ptype_label.slice(1);
+    const where = [];
+    if (result.site && (result.site.name || result.site.id)) where.push(result.site.name || result.site.id);
+    if (result.valid_time) where.push(result.valid_time.replace("T", " "));
+    where.push(result.confidence + " confidence");
+    $("verdict-meta").textContent = where.join(" · ");
+    $("verdict-meaning").textContent = (FREEZING.has(result.ptype) ? "Hazard: " : "") + (MEANING[result.ptype] || "");
+
+    const list = $("explanation");
+    list.innerHTML = "";
+    for (const sentence of result.explanation) list.appendChild(el("li", {}, sentence));
+
+    const bars = $("bars");
+    bars.innerHTML = "";
+    const probs = Object.entries(result.probabilities).sort((a, b) => b[1] - a[1]);
+    for (const [type, p] of probs) {
+      const pct = Math.round(p * 100);
+      const li = el("li", { class: "bar" + (type === result.ptype ? " bar-top" : "") });
+      li.appendChild(el("span", { class: "bar-name" }, type));
+      const track = el("span", { class: "bar-track", role: "meter", "aria-valuemin": "0",
+        "aria-valuemax": "100", "aria-valuenow": String(pct), "aria-label": "Probability of " + type });
+      const fill = el("span", { class: "bar-fill" });
+      fill.style.width = Math.max(pct, p > 0 ? 1 : 0) + "%";
+      track.appendChild(fill);
+      li.appendChild(track);
+      li.appendChild(el("span", { class: "bar-value" }, pct + " %"));
+      bars.appendChild(li);
+    }
+
+    const tbody = $("methods-body");
+    tbody.innerHTML = "";
+    for (const [name, m] of Object.entries(result.methods)) {
+      const tr = el("tr");
+      const th = el("th", { scope: "row" }, m.title || name);
+      tr.appendChild(th);
+      tr.appendChild(el("td", { class: "type-cell" }, m.ptype || "no decision"));
+      const steps = m.steps || [];
+      const last = steps.length ? steps[steps.length - 1] : null;
+      const cell = el("td");
+      if (last) {
+        cell.appendChild(el("code", {}, last.rule));
+        cell.appendChild(el("span", { class: "rule-text" }, " " + last.text));
+      } else {
+        cell.textContent = "—";
+      }
+      tr.appendChild(cell);
+      tr.appendChild(el("td", { class: "ref" }, m.reference || ""));
+      tbody.appendChild(tr);
+    }
+
+    const warnings = $("warnings");
+    warnings.innerHTML = "";
+    if (result.warnings && result.warnings.length) {
+      warnings.appendChild(el("h3", {}, "Input notes"));
+      const ul = el("ul");
+      for (const w of result.warnings) ul.appendChild(el("li", {}, w));
+      warnings.appendChild(ul);
+      warnings.hidden = false;
+    } else {
+      warnings.hidden = true;
+    }
+    $("caution").textContent = result.caution;
+  }
+
+  document.addEventListener("DOMContentLoaded", () => {
+    loadDemoList();
+    $("demo-load").addEventListener("click", loadDemo);
+    $("demo-select").addEventListener("keydown", (ev) => {
+      if (ev.key === "Enter") { ev.preventDefault(); loadDemo(); }
+    });
+    $("profile-file").addEventListener("change", async (ev) => {
+      const file = ev.target.files[0];
+      if (!file) return;
+      try {
+        $("profile-text").value = await readFile(file);
+        setStatus("Read " + file.name + ".");
+      } catch (e) {
+        showError("Could not read the file: " + e.message);
+      }
+    });
+    $("sounding-form").addEventListener("submit", (ev) => { ev.preventDefault(); diagnose(); });
+  });
+})();
