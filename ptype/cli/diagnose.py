@@ -1,0 +1,95 @@
+"""``ptype diagnose PATH...``: the type at the ground, its probability and the reasons."""
+
+from __future__ import annotations
+
+import json
+import shutil
+import sys
+
+from .. import CAUTION
+from ..probability import DEFAULT_MEMBERS
+
+BAR_WIDTH = 30
+
+
+def register(sub) -> None:
+    p = sub.add_parser("diagnose", help="diagnose the precipitation type of one or more profiles",
+                       description="Diagnose the precipitation type reaching the ground for each profile "
+                                   "(JSON, CSV, WMO TEMP or NetCDF), with probabilities and the reasoning "
+                                   "of every method.")
+    p.add_argument("paths", nargs="+", metavar="PATH", help="profile files (- for standard input)")
+    p.add_argument("--format", choices=("table", "json"), default="table", help="output format")
+    p.add_argument("--members", type=int, default=DEFAULT_MEMBERS,
+                   help=f"Monte-Carlo members for the probabilities (default {DEFAULT_MEMBERS}; 0 = none)")
+    p.add_argument("--seed", type=int, default=None, help="random seed for reproducible probabilities")
+    p.add_argument("--methods", default=None, help="comma-separated subset of methods")
+    p.add_argument("--wetbulb", choices=("isobaric", "adiabatic"), default="isobaric",
+                   help="wet-bulb reported in the profile and wet-bulb layers")
+    p.set_defaults(func=run)
+
+
+def run(args) -> int:
+    from ..diagnosis import diagnose
+    out = []
+    for path in args.paths:
+        source = sys.stdin.read() if path == "-" else path
+        d = diagnose(source, members=args.members, seed=args.seed, methods=args.methods,
+                     wetbulb=args.wetbulb)
+        result = d.to_dict()
+        result["source"] = path
+        out.append(result)
+    if args.format == "json":
+        print(json.dumps(out[0] if len(out) == 1 else out, indent=2, ensure_ascii=False))
+        return 0
+    for k, result in enumerate(out):
+        if k:
+            print()
+        print(render_table(result))
+    return 0
+
+
+def render_table(r: dict) -> str:
+    """A readable terminal summary of one diagnosis dict."""
+    width = min(shutil.get_terminal_size((100, 24)).columns, 110)
+    lines = []
+    title = r.get("source", "")
+    site = (r.get("site") or {}).get("name")
+    if site:
+        title = f"{site} - {title}"
+    if r.get("valid_time"):
+        title += f" - valid {r['valid_time']}"
+    lines.append(title)
+    lines.append("=" * min(len(title), width))
+    head = f"{r['ptype']}  {r['ptype_label']}"
+    if r.get("probability") is not None:
+        head += f"   p = {r['probability']:.2f}   {r['confidence']} confidence ({r['members']} members)"
+    lines.append(head)
+    if r["probabilities"]:
+        lines.append("")
+        for code, p in r["probabilities"].items():
+            bar = "#" * max(1, round(p * BAR_WIDTH)) if p > 0 else ""
+            lines.append(f"  {code:<7} {bar:<{BAR_WIDTH}} {p:5.2f}")
+    lines.append("")
+    lines.append(f"  {'method':<16} {'type':<7} rule that fired")
+    for name, m in r["methods"].items():
+        fired = [s for s in m["steps"] if s["rule"] == m.get("rule")]
+        text = (fired or m["steps"] or [{"text": ""}])[-1]["text"]
+        code = m["ptype"] or "-"
+        lines.append(f"  {name:<16} {code:<7} {_clip(text, width - 27)}")
+    lines.append("")
+    for sentence in r["explanation"]:
+        lines.append(_wrap(sentence, width, "  "))
+    for w in r.get("warnings", []):
+        lines.append(_wrap("note: " + w, width, "  "))
+    lines.append("")
+    lines.append(_wrap(CAUTION, width, ""))
+    return "\n".join(lines)
+
+
+def _clip(text: str, n: int) -> str:
+    return text if len(text) <= n else text[: max(n - 3, 10)] + "..."
+
+
+def _wrap(text: str, width: int, indent: str) -> str:
+    import textwrap
+    return textwrap.fill(text, width=width, initial_indent=indent, subsequent_indent=indent + "  ")
