@@ -21,8 +21,8 @@ Several rules below could not be checked against the WMO text and are marked
   degrees plus 50;
 * a 1000 hPa height below mean sea level is coded 500 + |h|;
 * the surface always carries a wind group (even with ``Id`` = ``/``);
-* the 850 hPa and 700 hPa heights drop their leading digit(s); which one is
-  restored is a heuristic (850: 800-1799 m; 700: 2500-3499 m).
+* heights drop their leading digit(s); which ones are restored is a heuristic
+  (a window of plausible heights per standard surface, see ``_HEIGHT_WINDOWS``).
 
 Nothing about winds reaches the profile document: wind groups are checked for
 form and skipped.
@@ -118,35 +118,46 @@ def encode_depression(depression_c: float) -> str:
     return f"{min(99, 50 + math.floor(d + 0.5)):02d}"
 
 
-def _decode_height_m(code: str, hhh: str, surface_hpa: float | None = None) -> float | None:
-    """Geopotential height of a standard surface from its ``hhh`` figures (FM 35, see table)."""
+#: Standard surface -> (unit of hhh in metres, window of plausible heights in metres).  The
+#: figures give the height modulo 1000 units; the value is placed in the window.  Windows
+#: follow FM 35 ("leading digit(s) dropped", NAVEDTRA 14270 ch. 1) and are otherwise a
+#: heuristic of ours covering observed extremes: 925 hPa 200-1199 m, 850 hPa 800-1799 m,
+#: 700 hPa 2500-3499 m, 300 hPa 3000-12990 m (hhh < 300 -> +1000 dam), 250 hPa
+#: 5000-14990 m (so that a cold 980 dam stays 9800 m).
+_HEIGHT_WINDOWS = {"92": (1.0, 200.0), "85": (1.0, 800.0), "70": (1.0, 2500.0),
+                   "50": (10.0, 0.0), "40": (10.0, 0.0), "30": (10.0, 3000.0),
+                   "25": (10.0, 5000.0), "20": (10.0, 10000.0), "15": (10.0, 10000.0),
+                   "10": (10.0, 10000.0)}
+
+
+def _decode_height_m(code: str, hhh: str) -> float | None:
+    """Geopotential height of a standard surface from its ``hhh`` figures, m (see above)."""
     if "/" in hhh:
         return None
     h = int(hhh)
     if code == "00":
         return -(h - 500.0) if h >= 500 else float(h)  # below MSL: 500 + |h| (from memory)
-    if code == "92":
-        return float(h)
-    if code == "85":
-        return float(h) if h >= 800 else 1000.0 + h  # leading 1 dropped; 800-1799 m (heuristic)
-    if code == "70":
-        return 2000.0 + h if h >= 500 else 3000.0 + h  # leading 2/3 dropped (heuristic)
-    if code in ("50", "40"):
-        return 10.0 * h  # decametres
-    if code == "30":
-        return 10.0 * h + (10000.0 if h < 300 else 0.0)  # < 300 dam -> add 1000 dam (heuristic)
-    return 10.0 * h + 10000.0  # 250-100 hPa: decametres, leading 1 dropped
+    unit, low = _HEIGHT_WINDOWS[code]
+    value = unit * h
+    while value < low:
+        value += 1000.0 * unit
+    return value
 
 
 def _encode_height(code: str, height_m: float) -> str:
+    """``hhh`` figures for a standard-surface height; ``///`` when outside the decodable window."""
     if not math.isfinite(height_m):
         return "///"
     if code == "00":
         h = round(height_m)
-        return f"{500 + abs(h):03d}" if h < 0 else f"{h % 1000:03d}"
-    if code in ("92", "85", "70"):
-        return f"{round(height_m) % 1000:03d}"
-    return f"{round(height_m / 10.0) % 1000:03d}"
+        if -499 <= h < 0:
+            return f"{500 + abs(h):03d}"
+        return f"{h:03d}" if 0 <= h < 500 else "///"
+    unit, low = _HEIGHT_WINDOWS[code]
+    n = round(height_m / unit)
+    if not low <= n * unit < low + 1000.0 * unit:
+        return "///"
+    return f"{n % 1000:03d}"
 
 
 # --- decoding -----------------------------------------------------------------------------
@@ -184,10 +195,11 @@ class _Groups:
 
     def error(self, problem: str, index: int | None = None) -> ReaderError:
         k = self.i if index is None else index
+        # Groups are counted from the part indicator (TTAA = group 1).
         if k < len(self.groups):
-            where = f"group {k + 1} '{self.groups[k]}'"
+            where = f"group {k + 2} '{self.groups[k]}'"
         else:
-            where = f"after group {len(self.groups)} (end of message)"
+            where = f"after group {len(self.groups) + 1} (end of message)"
         return ReaderError(f"{self.name}: message {self.message_no} Part {self.part}: {where}: {problem}")
 
     def peek(self, ahead: int = 0) -> str | None:
@@ -494,8 +506,8 @@ def read_temp_document(text: str, name: str = "<text>", *, year: int | None = No
     Raises
     ------
     ptype.errors.ReaderError
-        Naming the source, the message and part, the group (1-based index after the part
-        indicator, and its text) and the problem.
+        Naming the source, the message and part, the group (its position counted from the
+        part indicator ``TTAA``/``TTBB`` as group 1, and its text) and the problem.
     """
     docs = read_temp_documents(text, name, year=year, month=month)
     if station is not None:
