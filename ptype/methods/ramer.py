@@ -1,0 +1,478 @@
+"""Ramer (1993) ice-fraction method.
+
+Ramer, J., 1993: An empirical technique for diagnosing precipitation type from model
+output.  Preprints, 5th Conf. on Aviation Weather Systems, Vienna VA, Amer. Meteor. Soc.,
+227-230 (citation key ``Ramer1993``).  Constants as used in operational model
+post-processing (brief ``methods.md`` section 3, confirmed there).
+
+The method follows a particle from its generation level to the ground on the **isobaric
+wet-bulb** profile ``Tw`` and tracks its ice fraction ``I`` (1 = all ice, 0 = all liquid):
+
+1. Gross checks: surface ``Tw >= +2 degC`` -> RA; column maximum ``Tw <= -6.6 degC`` -> SN.
+2. Generation level: the highest layer (``p >= 400 hPa``) whose RH is at least 80 % and whose
+   depth satisfies ``p_bottom / p_top >= 1.02``; RH is interpolated linearly in ln p to find
+   its edges.  No such layer -> no decision.
+3. Initial ice fraction: 1 if ``Tw`` at the generation top is at or below -6.6 degC, else 0
+   (supercooled liquid; the particle "was liquid").
+4. Downward march, layer by layer (top ``p_t``, bottom ``p_b``)::
+
+       dI = ln(p_b / p_t) * <T0 - Tw> / (E * RH^efac),  E = 0.045, efac = 1
+
+   ``<T0 - Tw>`` is the layer mean (negative in warm layers: melting), RH the layer-mean
+   fraction.  Ice cannot begin to melt until ``Tw > 0``; an all-liquid drop cannot begin to
+   freeze until ``Tw < -6.6 degC`` and only the depth colder than -6.6 counts (the
+   difference is still measured from 0 degC); a partly frozen particle keeps freezing at
+   any ``Tw < 0``.  Each layer is split where ``Tw`` crosses 0 and -6.6 degC (``Tw`` linear
+   in ln p) so every piece lies on one side of each limit.  ``I`` is clipped to [0, 1];
+   reaching 0 sets the "was liquid" flag.
+5. Final type: ``I >= 0.85`` -> PL if the particle was ever all liquid, else SN;
+   ``I <= 0.04`` -> FZRA if surface ``Tw < 0``, else RA.
+
+Between 0.04 and 0.85 the particle lands partly melted.  Operational multi-algorithm
+practice lets Ramer abstain there (brief section 11).  ptype reports a mix instead by
+default, chosen from what the particle went through:
+
+* surface ``Tw < 0 degC``: FZRAPL (liquid that freezes on contact with partly frozen
+  pellets; a partly melted flake that refreezes partly is a pellet in the making);
+* surface ``Tw >= 0``, particle was all liquid at some point: RAPL (drops partly refrozen
+  aloft, now melting again);
+* surface ``Tw >= 0``, never all liquid: RASN (partly melted snow).
+
+Set :data:`ABSTAIN_ON_MIX` to True (or pass ``abstain_on_mix=True`` to :func:`run`) to
+abstain in that band as operational practice does.
+
+Worked magnitude (brief section 3): a 50 hPa layer centred near 850 hPa, ``Tw = +2 degC``,
+RH = 1 gives ``dI = ln(875/825) * (-2) / 0.045 = -2.6``: it melts completely.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..codes import NO_RESULT, Code
+from .base import Context, MethodResult, Step
+
+NAME = "ramer"
+TITLE = "Ramer (1993) ice fraction"
+REFERENCE = "Ramer1993"
+WETBULB = "isobaric"
+
+#: Surface wet-bulb at or above which the gross check gives rain, degC (Ramer 1993; brief s.3).
+GROSS_RAIN_SURFACE_TW_C = 2.0
+#: Wet-bulb below which liquid can begin to freeze, and at or below which the generation top
+#: produces ice, degC: 266.55 K (Ramer 1993; brief s.3).
+FREEZING_ONSET_TW_C = -6.6
+#: Minimum RH of the generating layer, % (Ramer 1993 as implemented operationally; some
+#: secondary descriptions give 90 %, from memory, unverified).
+GENERATION_RH_PCT = 80.0
+#: Minimum depth of the generating layer as a pressure ratio p_bottom / p_top.
+GENERATION_DEPTH_RATIO = 1.02
+#: The generating layer is sought at pressures at or above this, hPa.
+GENERATION_TOP_LIMIT_HPA = 400.0
+#: Melting/freezing coefficient E ("emelt") and exponent on RH ("efac").
+MELT_COEFFICIENT = 0.045
+RH_EXPONENT = 1.0
+#: Ice fraction at or below which the particle is liquid, at or above which it is solid.
+LIQUID_LIMIT = 0.04
+SOLID_LIMIT = 0.85
+#: Layer-mean RH is floored here (fraction) so that a desert-dry layer cannot divide by ~0.
+#: Ours: RH computed from a finite dew point is always positive, this only guards round-off.
+MIN_RH_FRACTION = 1e-3
+#: Abstain (NO_RESULT) when the final ice fraction lies between the two limits, as
+#: operational multi-algorithm practice does.  Default False: ptype reports a mix.
+ABSTAIN_ON_MIX = False
+
+RULES = (
+    "insufficient_levels",      # 0
+    "gross_warm_surface",       # 1
+    "gross_cold_column",        # 2
+    "no_generation_layer",      # 3
+    "solid_never_liquid",       # 4  -> SN
+    "solid_refrozen",           # 5  -> PL
+    "liquid_freezing",          # 6  -> FZRA
+    "liquid_rain",              # 7  -> RA
+    "mix_freezing",             # 8  -> FZRAPL
+    "mix_refrozen_rain",        # 9  -> RAPL
+    "mix_partly_melted_snow",   # 10 -> RASN
+    "mix_abstain",              # 11 -> NO_RESULT
+)
+_RULE = {name: k for k, name in enumerate(RULES)}
+
+SOURCE = "Ramer (1993); constants as used operationally"
+
+
+def ice_fraction_change(pressure_bottom_hpa, pressure_top_hpa, mean_wetbulb_c,
+                        mean_relative_humidity_fraction):
+    """Ramer's (1993) change of ice fraction across a layer.
+
+    ``dI = ln(p_b / p_t) * (T0 - Tw) / (E * RH^efac)`` with the layer-mean wet-bulb and RH;
+    ``T0 - Tw`` in kelvin equals ``-Tw`` in degC.  Negative (melting) in a warm layer.
+    """
+    rh = np.maximum(np.asarray(mean_relative_humidity_fraction, dtype=np.float64),
+                    MIN_RH_FRACTION)
+    return (np.log(np.asarray(pressure_bottom_hpa) / np.asarray(pressure_top_hpa))
+            * (-np.asarray(mean_wetbulb_c, dtype=np.float64))
+            / (MELT_COEFFICIENT * rh ** RH_EXPONENT))
+
+
+def generation_layer(pressure_hpa, relative_humidity_pct, wetbulb_c=None):
+    """The highest generating layer of each column.
+
+    Returns ``(top_hpa, bottom_hpa)``, each ``(n,)``, NaN where a column has none, and, when
+    ``wetbulb_c`` is given, a third array: the wet-bulb at the top (linear in ln p).  Moist
+    levels are those with ``RH >= 80 %`` at ``p >= 400 hPa``; the edges of a run of moist
+    levels are where RH crosses 80 %, interpolated linearly in ln p, and the top is capped at
+    400 hPa.  A run qualifies when ``p_bottom / p_top >= 1.02``.
+    """
+    p = np.asarray(pressure_hpa, dtype=np.float64)
+    rh = np.asarray(relative_humidity_pct, dtype=np.float64)
+    n, L = p.shape
+    valid = np.isfinite(p) & np.isfinite(rh)
+    x = np.log(np.where(valid, p, 1.0))
+    moist = valid & (p >= GENERATION_TOP_LIMIT_HPA) & (rh >= GENERATION_RH_PCT)
+    start, end = _runs(moist)
+    R = start.shape[1]
+    rows = np.arange(n)[:, None]
+    present = start >= 0
+    s = np.maximum(start, 0)
+    e = np.maximum(end, 0)
+    # Top edge: the 80 % crossing between level e and e+1 (or level e at the column top).
+    e1 = np.minimum(e + 1, L - 1)
+    has_above = present & (e + 1 < L) & valid[rows, e1]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        f_top = (rh[rows, e] - GENERATION_RH_PCT) / (rh[rows, e] - rh[rows, e1])
+    f_top = np.where(has_above & np.isfinite(f_top), np.clip(f_top, 0.0, 1.0), 0.0)
+    x_top = x[rows, e] + f_top * (x[rows, e1] - x[rows, e])
+    x_top = np.maximum(x_top, np.log(GENERATION_TOP_LIMIT_HPA))
+    # Bottom edge: the crossing between level s-1 and s (or level s at the bottom).
+    s0 = np.maximum(s - 1, 0)
+    has_below = present & (s >= 1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        f_bot = (GENERATION_RH_PCT - rh[rows, s0]) / (rh[rows, s] - rh[rows, s0])
+    f_bot = np.where(has_below & np.isfinite(f_bot), np.clip(f_bot, 0.0, 1.0), 1.0)
+    x_bot = x[rows, s0] + f_bot * (x[rows, s] - x[rows, s0])
+    ok = present & (x_bot - x_top >= np.log(GENERATION_DEPTH_RATIO) - 1e-12)
+    # Highest qualifying run: runs are listed bottom -> top.
+    last = np.where(ok, np.arange(R)[None, :], -1).max(axis=1)
+    found = last >= 0
+    k = np.maximum(last, 0)
+    r = np.arange(n)
+    top = np.where(found, np.exp(x_top[r, k]), np.nan)
+    bottom = np.where(found, np.exp(x_bot[r, k]), np.nan)
+    if wetbulb_c is None:
+        return top, bottom
+    tw = np.asarray(wetbulb_c, dtype=np.float64)
+    ke, ke1 = e[r, k], e1[r, k]
+    dx = x[r, ke1] - x[r, ke]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.where(has_above[r, k] & (dx != 0.0), (x_top[r, k] - x[r, ke]) / dx, 0.0)
+    step = np.where(w != 0.0, w * (tw[r, ke1] - tw[r, ke]), 0.0)
+    top_tw = np.where(found, tw[r, ke] + step, np.nan)
+    return top, bottom, top_tw
+
+
+def _runs(mask):
+    """Contiguous True runs of each row, ``(start, end)`` inclusive level indices, ``(n, R)``
+    padded with -1, listed from the lowest level up."""
+    n, L = mask.shape
+    padded = np.zeros((n, L + 2), dtype=np.int8)
+    padded[:, 1:-1] = mask
+    d = np.diff(padded, axis=1)
+    si, sj = np.nonzero(d == 1)
+    ei, ej = np.nonzero(d == -1)
+    count = np.bincount(si, minlength=n)
+    R = int(max(count.max(initial=0), 1))
+    start = np.full((n, R), -1)
+    end = np.full((n, R), -1)
+    offsets = np.concatenate([[0], np.cumsum(count)[:-1]])
+    rank = np.arange(si.size) - offsets[si]
+    start[si, rank] = sj
+    end[ei, rank] = ej - 1
+    return start, end
+
+
+def _pieces(p, tw, rh_frac, top_hpa):
+    """Split every interval below the generation top where Tw crosses 0 and -6.6 degC.
+
+    Returns dicts of ``(n, L-1, 3)`` arrays: top and bottom pressure, mean Tw, mean RH and a
+    validity mask; pieces run top -> bottom inside each interval (Tw and RH linear in ln p).
+    """
+    x = np.log(p)
+    xg = np.log(top_hpa)[:, None]
+    x_b, x_t = x[:, :-1], x[:, 1:]
+    tw_b, tw_t = tw[:, :-1], tw[:, 1:]
+    rh_b, rh_t = rh_frac[:, :-1], rh_frac[:, 1:]
+    ok = np.isfinite(x_b) & np.isfinite(x_t) & np.isfinite(tw_b) & np.isfinite(tw_t) \
+        & np.isfinite(xg)
+    # Clip the interval's top to the generation top.
+    x_top = np.maximum(x_t, xg)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.where(x_t != x_b, (x_top - x_b) / (x_t - x_b), 0.0)
+    tw_top = tw_b + w * (tw_t - tw_b)
+    rh_top = rh_b + w * (rh_t - rh_b)
+    ok &= x_b > x_top
+    # Fractions (0 at the clipped top, 1 at the bottom) where Tw crosses each limit.
+    cuts = []
+    for limit in (0.0, FREEZING_ONSET_TW_C):
+        with np.errstate(invalid="ignore", divide="ignore"):
+            f = (tw_top - limit) / (tw_top - tw_b)
+        cuts.append(np.where((f > 0.0) & (f < 1.0), f, 1.0))
+    lo, hi = np.minimum(cuts[0], cuts[1]), np.maximum(cuts[0], cuts[1])
+    bounds = np.stack([np.zeros_like(lo), lo, hi, np.ones_like(lo)], axis=-1)
+    f0, f1 = bounds[..., :-1], bounds[..., 1:]
+    dx = (x_b - x_top)[..., None]
+    xa = x_top[..., None] + f0 * dx
+    xb = x_top[..., None] + f1 * dx
+    tw_a = tw_top[..., None] + f0 * (tw_b - tw_top)[..., None]
+    tw_z = tw_top[..., None] + f1 * (tw_b - tw_top)[..., None]
+    rh_a = rh_top[..., None] + f0 * (rh_b - rh_top)[..., None]
+    rh_z = rh_top[..., None] + f1 * (rh_b - rh_top)[..., None]
+    valid = ok[..., None] & (f1 - f0 > 1e-12)
+    return {
+        "top_hpa": np.exp(xa), "bottom_hpa": np.exp(xb),
+        "tw_top": tw_a, "tw_bottom": tw_z,
+        "tw_mean": 0.5 * (tw_a + tw_z), "rh_mean": 0.5 * (rh_a + rh_z),
+        "valid": valid,
+    }
+
+
+def _march(p, tw, rh_frac, top_hpa, initial_ice):
+    """Follow the ice fraction down from the generation top, vectorised over columns.
+
+    Returns the final ice fraction, the "was liquid" flag and the stages (maximal runs of
+    warm, Tw > 0, or not-warm pieces) with the ice fraction at their ends.
+    """
+    n, L = p.shape
+    pieces = _pieces(p, tw, rh_frac, top_hpa)
+    ice = np.where(np.isfinite(initial_ice), initial_ice, 0.0).astype(np.float64)
+    was_liquid = ice <= 0.0
+    S = max(L, 1)
+    stage = np.full(n, -1)
+    last_kind = np.zeros(n, dtype=np.int8)
+    st = {k: np.full((n, S), np.nan) for k in ("top_hpa", "bottom_hpa", "kind", "extreme_c",
+                                                "ice_start", "ice_end")}
+    for j in range(L - 2, -1, -1):          # intervals from the top down
+        for k in range(3):                  # pieces inside an interval, top -> bottom
+            valid = pieces["valid"][:, j, k]
+            if not valid.any():
+                continue
+            twm = pieces["tw_mean"][:, j, k]
+            d_ice = ice_fraction_change(pieces["bottom_hpa"][:, j, k], pieces["top_hpa"][:, j, k],
+                                        twm, pieces["rh_mean"][:, j, k])
+            warm = twm > 0.0
+            cold = twm < FREEZING_ONSET_TW_C
+            # An all-liquid drop needs Tw < -6.6 degC to begin freezing; ice needs Tw > 0 to
+            # begin melting (automatic: dI >= 0 there and I is capped at 1).
+            can_change = warm | cold | (ice > 0.0)
+            new = np.where(valid & can_change, np.clip(ice + d_ice, 0.0, 1.0), ice)
+            kind = np.where(warm, 1, -1).astype(np.int8)
+            starts = valid & (kind != last_kind)
+            stage = np.where(starts, stage + 1, stage)
+            r = np.nonzero(starts)[0]
+            st["top_hpa"][r, stage[r]] = pieces["top_hpa"][r, j, k]
+            st["kind"][r, stage[r]] = kind[r]
+            st["ice_start"][r, stage[r]] = ice[r]
+            st["extreme_c"][r, stage[r]] = pieces["tw_top"][r, j, k]
+            r = np.nonzero(valid)[0]
+            st["bottom_hpa"][r, stage[r]] = pieces["bottom_hpa"][r, j, k]
+            st["ice_end"][r, stage[r]] = new[r]
+            ext = st["extreme_c"][r, stage[r]]
+            twb = pieces["tw_bottom"][r, j, k]
+            st["extreme_c"][r, stage[r]] = np.where(kind[r] > 0, np.maximum(ext, twb),
+                                                    np.minimum(ext, twb))
+            last_kind = np.where(valid, kind, last_kind)
+            ice = new
+            was_liquid |= valid & (ice <= 0.0)
+    count = stage + 1
+    width = int(max(count.max(initial=0), 1))
+    stages = {k: v[:, :width] for k, v in st.items()}
+    return ice, was_liquid, stages, count
+
+
+def run(ctx: Context, *, abstain_on_mix: bool | None = None) -> MethodResult:
+    """Ramer (1993) for every column of ``ctx`` (see the module docstring)."""
+    abstain = ABSTAIN_ON_MIX if abstain_on_mix is None else bool(abstain_on_mix)
+    c = ctx.columns
+    n = c.n_columns
+    p = c.pressure_hpa
+    tw = c.wetbulb_c
+    rh = c.relative_humidity_pct
+    sfc_tw = c.surface_wetbulb_c
+    with np.errstate(invalid="ignore"):
+        max_tw = np.fmax(np.nanmax(np.where(c.valid, tw, -np.inf), axis=1), sfc_tw)
+    enough = c.n_levels >= 2
+
+    gen_top, gen_bottom, top_tw = generation_layer(p, rh, tw)
+    initial = np.where(top_tw <= FREEZING_ONSET_TW_C, 1.0, 0.0)
+    initial = np.where(np.isfinite(gen_top), initial, np.nan)
+    ice, was_liquid, stages, count = _march(p, tw, rh / 100.0, gen_top, initial)
+    ice = np.where(np.isfinite(gen_top), ice, np.nan)
+
+    freezing_sfc = sfc_tw < 0.0
+    solid = ice >= SOLID_LIMIT
+    liquid = ice <= LIQUID_LIMIT
+    conditions = [
+        ~enough,
+        sfc_tw >= GROSS_RAIN_SURFACE_TW_C,
+        max_tw <= FREEZING_ONSET_TW_C,
+        ~np.isfinite(gen_top),
+        solid & ~was_liquid,
+        solid & was_liquid,
+        liquid & freezing_sfc,
+        liquid,
+        (abstain & np.ones(n, bool)),
+        freezing_sfc,
+        was_liquid,
+    ]
+    choices = [_RULE[r] for r in ("insufficient_levels", "gross_warm_surface", "gross_cold_column",
+                                  "no_generation_layer", "solid_never_liquid", "solid_refrozen",
+                                  "liquid_freezing", "liquid_rain", "mix_abstain", "mix_freezing",
+                                  "mix_refrozen_rain")]
+    rule = np.select(conditions, choices, default=_RULE["mix_partly_melted_snow"])
+    code_of_rule = np.array([NO_RESULT, Code.RA, Code.SN, NO_RESULT, Code.SN, Code.PL, Code.FZRA,
+                             Code.RA, Code.FZRAPL, Code.RAPL, Code.RASN, NO_RESULT], dtype=np.int64)
+    code = code_of_rule[rule]
+
+    values = {
+        "surface_wetbulb_c": sfc_tw,
+        "max_wetbulb_c": max_tw,
+        "generation_top_hpa": gen_top,
+        "generation_bottom_hpa": gen_bottom,
+        "generation_top_wetbulb_c": top_tw,
+        "initial_ice_fraction": initial,
+        "ice_fraction": ice,
+        "was_liquid": was_liquid.astype(np.float64),
+        "stage_count": count.astype(np.float64),
+    }
+    values.update({f"stage_{k}": v for k, v in stages.items()})
+    return MethodResult(name=NAME, code=code, rule=rule, values=values, explainer=explain)
+
+
+def _f(x, digits=1):
+    """A number for a sentence: true minus sign, no negative zero."""
+    text = f"{x + 0.0:.{digits}f}"
+    if float(text) == 0.0:
+        text = text.lstrip("-")
+    return text.replace("-", "\u2212")
+
+
+def explain(result: MethodResult, i: int) -> list[Step]:
+    """Ramer's reasoning for column ``i``, from the numbers in ``result.values`` only."""
+    v = {k: a[i] for k, a in result.values.items()}
+    rule = RULES[int(result.rule[i])]
+    steps: list[Step] = []
+    if rule == "insufficient_levels":
+        return [Step(rule, "Fewer than two valid levels: Ramer's method cannot follow a particle "
+                     "down the column.", source=SOURCE)]
+    sfc = float(v["surface_wetbulb_c"])
+    gross = {"surface_wetbulb_c": sfc}
+    if rule == "gross_warm_surface":
+        return [Step(rule, f"Surface wet-bulb {_f(sfc)} \u00b0C \u2265 "
+                     f"{_f(GROSS_RAIN_SURFACE_TW_C)} \u00b0C: rain, whatever happens aloft.",
+                     gross, {"surface_wetbulb_c": GROSS_RAIN_SURFACE_TW_C}, SOURCE)]
+    steps.append(Step("gross_warm_surface", f"Surface wet-bulb {_f(sfc)} \u00b0C is below "
+                      f"{_f(GROSS_RAIN_SURFACE_TW_C)} \u00b0C, so the gross rain check does not "
+                      "apply.", gross, {"surface_wetbulb_c": GROSS_RAIN_SURFACE_TW_C}, SOURCE))
+    mx = float(v["max_wetbulb_c"])
+    if rule == "gross_cold_column":
+        steps.append(Step(rule, f"The warmest wet-bulb in the column is {_f(mx)} \u00b0C \u2264 "
+                          f"{_f(FREEZING_ONSET_TW_C)} \u00b0C: nothing can melt, snow.",
+                          {"max_wetbulb_c": mx}, {"max_wetbulb_c": FREEZING_ONSET_TW_C}, SOURCE))
+        return steps
+    steps.append(Step("gross_cold_column", f"The warmest wet-bulb in the column is {_f(mx)} "
+                      f"\u00b0C, above {_f(FREEZING_ONSET_TW_C)} \u00b0C, so the particle must be "
+                      "followed down.", {"max_wetbulb_c": mx},
+                      {"max_wetbulb_c": FREEZING_ONSET_TW_C}, SOURCE))
+    if rule == "no_generation_layer":
+        steps.append(Step(rule, f"No layer at or below {GENERATION_TOP_LIMIT_HPA:.0f} hPa has RH "
+                          f"\u2265 {GENERATION_RH_PCT:.0f} % over a depth p_bottom/p_top \u2265 "
+                          f"{GENERATION_DEPTH_RATIO}: no generating layer, so Ramer's method "
+                          "gives no type.", {},
+                          {"relative_humidity_pct": GENERATION_RH_PCT,
+                           "depth_ratio": GENERATION_DEPTH_RATIO}, SOURCE))
+        return steps
+    top, bot, ttw = (float(v["generation_top_hpa"]), float(v["generation_bottom_hpa"]),
+                     float(v["generation_top_wetbulb_c"]))
+    ice0 = float(v["initial_ice_fraction"])
+    start = ("so the particle starts as ice (I = 1)." if ice0 >= 1.0 else
+             "so the particle starts as supercooled liquid (I = 0).")
+    relation = "\u2264" if ice0 >= 1.0 else ">"
+    steps.append(Step("generation_layer",
+                      f"Precipitation is generated in the moist layer {bot:.0f}\u2013{top:.0f} hPa "
+                      f"(RH \u2265 {GENERATION_RH_PCT:.0f} %, depth ratio {bot / top:.3f}); the "
+                      f"wet-bulb at its top is {_f(ttw)} \u00b0C {relation} "
+                      f"{_f(FREEZING_ONSET_TW_C)} \u00b0C, {start}",
+                      {"generation_top_hpa": top, "generation_bottom_hpa": bot,
+                       "generation_top_wetbulb_c": ttw, "initial_ice_fraction": ice0},
+                      {"relative_humidity_pct": GENERATION_RH_PCT,
+                       "depth_ratio": GENERATION_DEPTH_RATIO,
+                       "generation_top_wetbulb_c": FREEZING_ONSET_TW_C}, SOURCE))
+    for s in range(int(v["stage_count"])):
+        st_top, st_bot = float(v["stage_top_hpa"][s]), float(v["stage_bottom_hpa"][s])
+        i0, i1 = float(v["stage_ice_start"][s]), float(v["stage_ice_end"][s])
+        ext = float(v["stage_extreme_c"][s])
+        vals = {"top_hpa": st_top, "bottom_hpa": st_bot, "ice_fraction_start": i0,
+                "ice_fraction_end": i1}
+        if v["stage_kind"][s] > 0:
+            vals["max_wetbulb_c"] = ext
+            if i1 <= 0.0:
+                what = "the particle melted completely"
+            elif i1 < i0:
+                what = "the particle melted partly"
+            else:
+                what = "nothing was left to melt"
+            text = (f"Ice fraction after the warm layer {st_top:.0f}\u2013{st_bot:.0f} hPa "
+                    f"(wet-bulb up to {_f(ext)} \u00b0C) is {i1:.2f}: {what}.")
+            steps.append(Step("warm_layer", text, vals, {"wetbulb_c": 0.0}, SOURCE))
+        else:
+            vals["min_wetbulb_c"] = ext
+            if i0 <= 0.0 and i1 <= 0.0:
+                what = (f"the drop stays supercooled, as the wet-bulb never falls below "
+                        f"{_f(FREEZING_ONSET_TW_C)} \u00b0C" if ext >= FREEZING_ONSET_TW_C else
+                        "the drop stays liquid: too little of the layer is colder than "
+                        f"{_f(FREEZING_ONSET_TW_C)} \u00b0C")
+            elif i1 >= 1.0 and i0 >= 1.0:
+                what = "the particle stays ice"
+            elif i1 >= 1.0:
+                what = "the particle refroze completely"
+            elif i1 > i0:
+                what = "the particle refroze partly"
+            else:
+                what = "the ice fraction is unchanged"
+            text = (f"Ice fraction after the cold layer {st_top:.0f}\u2013{st_bot:.0f} hPa "
+                    f"(wet-bulb down to {_f(ext)} \u00b0C) is {i1:.2f}: {what}.")
+            steps.append(Step("cold_layer", text, vals,
+                              {"wetbulb_c": 0.0, "freezing_onset_wetbulb_c": FREEZING_ONSET_TW_C},
+                              SOURCE))
+    ice = float(v["ice_fraction"])
+    liquid = bool(v["was_liquid"])
+    fv = {"ice_fraction": ice, "was_liquid": liquid, "surface_wetbulb_c": sfc}
+    th = {"liquid_limit": LIQUID_LIMIT, "solid_limit": SOLID_LIMIT, "surface_wetbulb_c": 0.0}
+    texts = {
+        "solid_never_liquid": f"Final ice fraction {ice:.2f} \u2265 {SOLID_LIMIT} and the particle "
+                              "was never all liquid: snow.",
+        "solid_refrozen": f"Final ice fraction {ice:.2f} \u2265 {SOLID_LIMIT} and the particle was "
+                          "all liquid on the way down, so it refroze: ice pellets.",
+        "liquid_freezing": f"Final ice fraction {ice:.2f} \u2264 {LIQUID_LIMIT} and surface wet-bulb "
+                           f"{_f(sfc)} \u00b0C < 0 \u00b0C: freezing rain.",
+        "liquid_rain": f"Final ice fraction {ice:.2f} \u2264 {LIQUID_LIMIT} and surface wet-bulb "
+                       f"{_f(sfc)} \u00b0C \u2265 0 \u00b0C: rain.",
+        "mix_freezing": f"Final ice fraction {ice:.2f} lies between {LIQUID_LIMIT} and "
+                        f"{SOLID_LIMIT} with surface wet-bulb {_f(sfc)} \u00b0C < 0 \u00b0C: "
+                        "freezing rain mixed with ice pellets (ptype's reading of Ramer's "
+                        "undecided band).",
+        "mix_refrozen_rain": f"Final ice fraction {ice:.2f} lies between {LIQUID_LIMIT} and "
+                             f"{SOLID_LIMIT}, surface wet-bulb {_f(sfc)} \u00b0C \u2265 0 \u00b0C "
+                             "and the particle had been all liquid: rain mixed with ice pellets "
+                             "(ptype's reading of Ramer's undecided band).",
+        "mix_partly_melted_snow": f"Final ice fraction {ice:.2f} lies between {LIQUID_LIMIT} and "
+                                  f"{SOLID_LIMIT}, surface wet-bulb {_f(sfc)} \u00b0C \u2265 0 "
+                                  "\u00b0C and the particle was never all liquid: partly melted "
+                                  "snow, rain and snow (ptype's reading of Ramer's undecided "
+                                  "band).",
+        "mix_abstain": f"Final ice fraction {ice:.2f} lies between {LIQUID_LIMIT} and "
+                       f"{SOLID_LIMIT}: Ramer's method leaves this undecided and abstains, as in "
+                       "operational multi-algorithm practice.",
+    }
+    steps.append(Step(rule, texts[rule], fv, th, SOURCE))
+    return steps
