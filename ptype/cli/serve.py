@@ -1,0 +1,125 @@
+"""``ptype serve``: run the HTTP service under gunicorn (a production WSGI server).
+
+The application is ``api:create_app()``; state lives in ``PTYPE_DATA_DIR``
+(default ``./.data``).  ``--demo`` sets ``PTYPE_DEMO=1`` so the application
+loads the demo sites and storm into an empty store on start.
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+
+DEFAULT_HOST = "127.0.0.1"
+DEFAULT_PORT = 8080
+DEFAULT_WORKERS = 2
+
+
+def register(sub) -> None:
+    p = sub.add_parser("serve", help="run the HTTP service (JSON API, forecaster page, diagrams)",
+                       description="Run the ptype HTTP service under gunicorn. The forecaster page "
+                                   "is at /, the API reference at /docs.")
+    p.add_argument("--host", default=DEFAULT_HOST, help=f"address to listen on (default {DEFAULT_HOST})")
+    p.add_argument("--port", type=_port, default=DEFAULT_PORT,
+                   help=f"TCP port (default {DEFAULT_PORT}; 0 picks a free one)")
+    p.add_argument("--workers", type=_positive, default=DEFAULT_WORKERS,
+                   help=f"worker processes (default {DEFAULT_WORKERS})")
+    p.add_argument("--threads", type=_positive, default=1,
+                   help="threads per worker (default 1; more helps slow clients, not CPU-bound work)")
+    p.add_argument("--timeout", type=_positive, default=60,
+                   help="seconds before a stuck worker is restarted (default 60)")
+    p.add_argument("--demo", action="store_true",
+                   help="load the demo sites and storm into an empty store on start")
+    p.add_argument("--access-log", action="store_true", help="log every request on stderr")
+    p.set_defaults(func=run)
+
+
+def _port(text: str) -> int:
+    import argparse
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"port {text!r} is not a number") from None
+    if not 0 <= value <= 65535:
+        raise argparse.ArgumentTypeError(f"port {value} is outside 0-65535")
+    return value
+
+
+def _positive(text: str) -> int:
+    import argparse
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"{value} must be at least 1")
+    return value
+
+
+def _url(host: str, port: int) -> str:
+    shown = f"[{host}]" if ":" in host else host
+    if host in ("0.0.0.0", "::"):
+        shown = "127.0.0.1"
+    return f"http://{shown}:{port}/"
+
+
+def gunicorn_options(args) -> dict:
+    """Settings handed to gunicorn (also used by the load benchmark)."""
+    bind = f"[{args.host}]:{args.port}" if ":" in args.host else f"{args.host}:{args.port}"
+    options = {
+        "bind": bind,
+        "workers": args.workers,
+        "threads": args.threads,
+        "worker_class": "gthread" if args.threads > 1 else "sync",
+        "timeout": args.timeout,
+        "graceful_timeout": 10,
+        "keepalive": 5,
+        # Load the application once in the master so workers fork with it imported
+        # (numpy, matplotlib, the engine): faster start, less memory.
+        "preload_app": True,
+        "accesslog": "-" if args.access_log else None,
+        "errorlog": "-",
+        "loglevel": "warning",
+        "proc_name": "ptype",
+    }
+    return options
+
+
+def run(args) -> int:
+    if args.demo:
+        os.environ["PTYPE_DEMO"] = "1"
+    data_dir = os.environ.get("PTYPE_DATA_DIR") or os.path.join(os.getcwd(), ".data")
+    os.environ["PTYPE_DATA_DIR"] = data_dir
+    os.makedirs(data_dir, exist_ok=True)
+
+    from gunicorn.app.base import BaseApplication
+
+    options = gunicorn_options(args)
+
+    class _Service(BaseApplication):
+        def load_config(self):
+            for key, value in options.items():
+                if value is not None:
+                    self.cfg.set(key, value)
+            self.cfg.set("when_ready", _announce)
+
+        def load(self):
+            from api import create_app
+            return create_app({"PTYPE_DEMO": bool(args.demo)})
+
+    def _announce(server):
+        # Print the real address (port 0 resolves to the one the kernel chose).
+        for listener in server.LISTENERS:
+            host, port = listener.sock.getsockname()[:2]
+            shown = args.host if args.host not in ("0.0.0.0", "::") else host
+            print(f"ptype serving on {_url(shown, port)} "
+                  f"({args.workers} worker{'s' if args.workers != 1 else ''}; data in {data_dir}"
+                  f"{'; demo data' if args.demo else ''}) - Ctrl-C to stop", flush=True)
+
+    _Service().run()
+    return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    from . import main
+    sys.exit(main(["serve", *sys.argv[1:]]))
