@@ -304,6 +304,16 @@ def _adiabatic_wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, tolerance_k=1
 
 
 WET_BULB_KINDS = ("isobaric", "adiabatic")
+#: Arrays of at least this many valid points use the compiled solver of ptype.fastthermo.
+_FAST_MIN_SIZE = 4096
+
+
+def _fast_available() -> bool:
+    try:
+        from . import fastthermo
+    except ImportError:  # pragma: no cover - numba missing: the numpy path serves every size
+        return False
+    return fastthermo.AVAILABLE
 
 
 def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "isobaric"):
@@ -337,6 +347,11 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     if not valid.any():
         return out if out.ndim else out[()]
     pv, tv, tdv = p[valid], t[valid], td[valid]
+    if kind in WET_BULB_KINDS and pv.size >= _FAST_MIN_SIZE and _fast_available():
+        # Large arrays: the compiled per-point solver (same equations; ptype.fastthermo).
+        from . import fastthermo
+        out[valid] = fastthermo.wet_bulb_c(pv, tv, tdv, kind=kind)
+        return out if out.ndim else out[()]
     if kind == "isobaric":
         out[valid] = _isobaric_wet_bulb_c(pv, tv, tdv)
     elif kind == "adiabatic":
