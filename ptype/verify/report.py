@@ -1,0 +1,477 @@
+"""Run a verification over paired cases and write it as JSON, a text table or HTML.
+
+:func:`run_verification` parses the observations, diagnoses every profile in one
+vectorised pass (:func:`ptype.diagnosis.diagnose_columns` on stacked
+:class:`~ptype.columns.Columns`; Monte-Carlo probabilities from
+:func:`ptype.probability.member_probabilities`) and scores the consensus and every
+method with :mod:`ptype.verify.scores`.  The renderers only format that dict.
+
+Category order
+--------------
+Tables, the Gerrity score and the ranked probability score use one ordered list of
+categories, :data:`ORDER` (ours, documented in docs/verification.md): decreasing ice
+fraction of what reaches the ground - all ice (SN, never melted; PL, melted and
+refrozen), mixed (RASN, FZRAPL, RAPL: snow-bearing first, freezing before
+non-freezing), all liquid (FZRA, FZDZ, RA, DZ: freezing before non-freezing, rain
+before drizzle) - and NONE last, next to drizzle, the lightest precipitation.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import io
+import math
+from collections import Counter
+from typing import Any, Sequence
+
+import numpy as np
+
+from .. import CAUTION, __version__
+from ..codes import LABELS, NO_RESULT, Code
+from ..methods import METHOD_NAMES
+from . import scores as sc
+from .manifest import Case
+from .observations import parse_observation
+
+ORDER: tuple[Code, ...] = (Code.SN, Code.PL, Code.RASN, Code.FZRAPL, Code.RAPL, Code.FZRA,
+                           Code.FZDZ, Code.RA, Code.DZ, Code.NONE)
+#: Position of each code in :data:`ORDER`, indexed by the code's integer value.
+_POS = np.array([ORDER.index(Code(v)) for v in range(len(Code))])
+#: Perturbed columns diagnosed per batch (bounds memory); batch ``k`` draws its members from
+#: the seed ``[seed, k]``, so a report is reproducible for a given seed.
+MEMBER_BATCH_COLUMNS = 20_000
+RELIABILITY_BINS = 10
+DEFAULT_SEED = 0
+
+
+def _num(x, digits: int = 4):
+    """JSON-ready number: None for nan/inf, rounded float otherwise."""
+    if x is None:
+        return None
+    x = float(x)
+    return round(x, digits) if math.isfinite(x) else None
+
+
+# --------------------------------------------------------------------------- scoring
+
+def categorical_scores(predicted: np.ndarray, observed: np.ndarray,
+                       categories: Sequence[Code]) -> dict[str, Any]:
+    """Scores of predicted vs observed code arrays over ``categories`` (a subset of ORDER,
+    in order, holding every code that occurs)."""
+    index = {c: i for i, c in enumerate(categories)}
+    f = np.array([index[Code(int(v))] for v in predicted], dtype=np.int64)
+    o = np.array([index[Code(int(v))] for v in observed], dtype=np.int64)
+    table = sc.contingency_table(f, o, len(categories))
+    collapsed, kept = sc.collapse_unobserved(table)
+    cls = sc.class_scores(table)
+    per_class = {}
+    for i, c in enumerate(categories):
+        per_class[c.name] = {
+            "n_observed": int(cls["n_observed"][i]), "n_forecast": int(cls["n_forecast"][i]),
+            "hits": int(cls["hits"][i]), "misses": int(cls["misses"][i]),
+            "false_alarms": int(cls["false_alarms"][i]),
+            "pod": _num(cls["pod"][i]), "far": _num(cls["far"][i]), "csi": _num(cls["csi"][i]),
+            "bias": _num(cls["bias"][i]),
+        }
+    return {
+        "n": int(table.sum()),
+        "table": {"categories": [c.name for c in categories], "rows": "predicted",
+                  "columns": "observed", "counts": table.tolist()},
+        "accuracy": _num(sc.accuracy(table)),
+        "heidke": _num(sc.heidke_skill_score(table)),
+        "peirce": _num(sc.peirce_skill_score(table)),
+        "gerrity": _num(sc.gerrity_score(collapsed) if kept.size >= 2 else float("nan")),
+        "gerrity_categories": [categories[k].name for k in kept],
+        "classes": per_class,
+    }
+
+
+def probabilistic_scores(prob: np.ndarray, observed: np.ndarray,
+                         n_bins: int = RELIABILITY_BINS) -> dict[str, Any]:
+    """Brier per class, RPS over :data:`ORDER` and reliability-diagram data.
+
+    ``prob`` is ``(n, len(Code))`` indexed by code value; ``observed`` holds code values.
+    """
+    ordered = prob[:, [int(c) for c in ORDER]]
+    obs_pos = _POS[observed.astype(np.int64)]
+    bs = sc.brier_scores(ordered, obs_pos)
+    bss = sc.brier_skill_scores(ordered, obs_pos)
+    onehot = sc.one_hot(obs_pos, len(ORDER))
+    brier = {}
+    reliability = {}
+    for k, code in enumerate(ORDER):
+        seen = onehot[:, k].any() or (ordered[:, k] > 0).any()
+        if not seen:
+            continue
+        brier[code.name] = {"brier": _num(bs[k]), "brier_skill": _num(bss[k]),
+                            "observed_frequency": _num(onehot[:, k].mean())}
+        reliability[code.name] = _reliability_dict(
+            sc.reliability(ordered[:, k], onehot[:, k], n_bins))
+    pooled = sc.reliability(ordered.ravel(), onehot.ravel(), n_bins)
+    return {
+        "brier": brier,
+        "rps": _num(sc.ranked_probability_score(ordered, obs_pos)),
+        "rps_skill": _num(sc.ranked_probability_skill_score(ordered, obs_pos)),
+        "rps_order": [c.name for c in ORDER],
+        "reliability": {"all": _reliability_dict(pooled), "classes": reliability},
+    }
+
+
+def _reliability_dict(r: dict) -> dict:
+    bins = [{"lower": _num(lo, 3), "upper": _num(hi, 3), "count": int(n),
+             "mean_forecast": _num(mf), "observed_frequency": _num(of)}
+            for lo, hi, n, mf, of in zip(r["bin_lower"], r["bin_upper"], r["count"],
+                                         r["mean_forecast"], r["observed_frequency"])]
+    return {"bins": bins, "reliability_term": _num(r["reliability_term"]),
+            "resolution_term": _num(r["resolution_term"]),
+            "uncertainty": _num(r["uncertainty"]), "brier": _num(r["brier"])}
+
+
+# --------------------------------------------------------------------------- running
+
+def _batch_seed(seed, index: int):
+    return None if seed is None else [int(seed), int(index)]
+
+
+def diagnose_cases(profiles: Sequence, *, members: int, seed, methods=None
+                   ) -> tuple[dict[str, np.ndarray], np.ndarray | None]:
+    """Consensus and method codes for every profile, and member probabilities (or None)."""
+    from ..columns import Columns
+    from ..diagnosis import diagnose_columns
+    from ..probability import check_members, member_probabilities
+    members = check_members(members)
+    columns = Columns.from_profiles(list(profiles))
+    codes = {k: np.asarray(v) for k, v in diagnose_columns(columns, methods=methods).items()
+             if not k.startswith("_")}
+    if members == 0:
+        return codes, None
+    n = columns.n_columns
+    prob = np.empty((n, len(Code)))
+    per_batch = max(1, MEMBER_BATCH_COLUMNS // members)
+    for k, start in enumerate(range(0, n, per_batch)):
+        idx = np.arange(start, min(n, start + per_batch))
+        prob[idx] = member_probabilities(columns.take(idx), members, _batch_seed(seed, k),
+                                         methods=methods)
+    return codes, prob
+
+
+def run_verification(cases: Sequence[Case], *, members: int = 50, seed=DEFAULT_SEED,
+                     methods=None, source: str | None = None) -> dict[str, Any]:
+    """Verify the diagnoses of ``cases`` against their observations; the JSON-ready report.
+
+    Cases whose observation cannot be verified are listed under ``excluded`` with the
+    reason; profile errors raise :class:`ptype.errors.ProfileError` naming the entry.
+    """
+    parsed = [parse_observation(c.observed) for c in cases]
+    kept = [i for i, ob in enumerate(parsed) if not ob.excluded]
+    reasons = Counter(parsed[i].reason for i in range(len(cases)) if parsed[i].excluded)
+    excluded = {
+        "count": len(cases) - len(kept),
+        "reasons": dict(sorted(reasons.items(), key=lambda kv: (-kv[1], kv[0]))),
+        "cases": [{"profile": cases[i].profile_ref, "where": cases[i].where,
+                   "observed_raw": cases[i].observed, "reason": parsed[i].reason,
+                   **({"detail": parsed[i].detail} if parsed[i].detail else {})}
+                  for i in range(len(cases)) if parsed[i].excluded],
+    }
+    report: dict[str, Any] = {
+        "ptype_version": __version__, "source": source, "n": len(kept),
+        "n_cases": len(cases), "members": int(members), "seed": seed,
+        "excluded": excluded, "order": [c.name for c in ORDER], "cases": [],
+        "consensus": None, "methods": {}, "caution": CAUTION,
+    }
+    if not kept:
+        return report
+    profiles = [cases[i].load_profile() for i in kept]
+    codes, prob = diagnose_cases(profiles, members=members, seed=seed, methods=methods)
+    observed = np.array([int(parsed[i].code) for i in kept], dtype=np.int64)
+    predicted = codes["ptype"].astype(np.int64)
+    method_names = [k for k in METHOD_NAMES if k in codes]
+    present = set(observed.tolist()) | set(predicted.tolist())
+    for name in method_names:
+        present |= {int(v) for v in codes[name] if int(v) != NO_RESULT}
+    categories = [c for c in ORDER if int(c) in present]
+
+    for row, i in enumerate(kept):
+        case, profile = cases[i], profiles[row]
+        site = case.site or (profile.site.name or profile.site.id if profile.site else None)
+        vt = case.valid_time or profile.valid_time
+        entry = {"profile": case.profile_ref, "site": site,
+                 "valid_time": vt.isoformat().replace("+00:00", "Z") if vt else None,
+                 "observed_raw": case.observed, "observed": parsed[i].code.name,
+                 "predicted": Code(int(predicted[row])).name,
+                 "correct": bool(predicted[row] == observed[row])}
+        if prob is not None:
+            entry["probabilities"] = {Code(k).name: round(float(p), 4)
+                                      for k, p in enumerate(prob[row]) if p > 0}
+        entry["methods"] = {name: (None if int(codes[name][row]) == NO_RESULT
+                                   else Code(int(codes[name][row])).name)
+                            for name in method_names}
+        report["cases"].append(entry)
+
+    consensus = categorical_scores(predicted, observed, categories)
+    if prob is not None:
+        consensus.update(probabilistic_scores(prob, observed))
+    report["consensus"] = consensus
+    for name in method_names:
+        m = codes[name].astype(np.int64)
+        ok = m != NO_RESULT
+        block = categorical_scores(m[ok], observed[ok], categories)
+        block["abstained"] = int((~ok).sum())
+        report["methods"][name] = block
+    return report
+
+
+# --------------------------------------------------------------------------- text table
+
+def _fmt(x, width: int = 6, digits: int = 3) -> str:
+    return f"{'-':>{width}}" if x is None else f"{x:>{width}.{digits}f}"
+
+
+def render_table(report: dict) -> str:
+    """Plain-text report for a terminal."""
+    out = [f"ptype verification: {report['n']} verified cases of {report['n_cases']}"
+           + (f" ({report['source']})" if report.get("source") else "")]
+    ex = report["excluded"]
+    if ex["count"]:
+        out.append(f"excluded: {ex['count']} ("
+                   + "; ".join(f"{r}: {n}" for r, n in ex["reasons"].items()) + ")")
+    cons = report["consensus"]
+    if cons is None:
+        out.append("nothing to verify: every observation was excluded")
+        out.append(CAUTION)
+        return "\n".join(out) + "\n"
+    cats = cons["table"]["categories"]
+    out.append("")
+    out.append("Consensus contingency table (rows predicted, columns observed)")
+    w = max(6, max(len(c) for c in cats) + 1)
+    out.append(" " * w + "".join(f"{c:>{w}}" for c in cats) + f"{'total':>{w}}")
+    for c, row in zip(cats, cons["table"]["counts"]):
+        out.append(f"{c:<{w}}" + "".join(f"{v:>{w}d}" for v in row) + f"{sum(row):>{w}d}")
+    totals = np.sum(cons["table"]["counts"], axis=0)
+    out.append(f"{'total':<{w}}" + "".join(f"{int(v):>{w}d}" for v in totals)
+               + f"{int(totals.sum()):>{w}d}")
+    out.append("")
+    out.append(f"{'':<{w}}{'obs':>5}{'fcst':>6}{'POD':>7}{'FAR':>7}{'CSI':>7}{'bias':>7}")
+    for c in cats:
+        s = cons["classes"][c]
+        out.append(f"{c:<{w}}{s['n_observed']:>5d}{s['n_forecast']:>6d} {_fmt(s['pod'])} "
+                   f"{_fmt(s['far'])} {_fmt(s['csi'])} {_fmt(s['bias'])}")
+    out.append("")
+    out.append(f"{'':<16}{'n':>5}{'abst':>6}{'acc':>7}{'HSS':>7}{'PSS':>7}{'GS':>7}")
+    rows = [("consensus", cons, 0)] + [(k, v, v["abstained"])
+                                        for k, v in report["methods"].items()]
+    for name, s, abst in rows:
+        out.append(f"{name:<16}{s['n']:>5d}{abst:>6d} {_fmt(s['accuracy'])} "
+                   f"{_fmt(s['heidke'])} {_fmt(s['peirce'])} {_fmt(s['gerrity'])}")
+    if "rps" in cons:
+        out.append("")
+        out.append(f"Probabilities from {report['members']} members: RPS {_fmt(cons['rps'], 0)}"
+                   f" (skill vs sample climatology {_fmt(cons['rps_skill'], 0)})")
+        out.append(f"{'':<{w}}{'Brier':>7}{'BSS':>7}{'freq':>7}")
+        for c, s in cons["brier"].items():
+            out.append(f"{c:<{w}} {_fmt(s['brier'])} {_fmt(s['brier_skill'])} "
+                       f"{_fmt(s['observed_frequency'])}")
+    out.append("")
+    out.append(CAUTION)
+    return "\n".join(out) + "\n"
+
+
+# --------------------------------------------------------------------------- figures + HTML
+
+_INK = "#1f2933"
+_ACCENT = "#2b6cb0"
+_MUTED = "#9aa5b1"
+_CLASS_COLOURS = {"SN": "#3c6fd1", "PL": "#8e44ad", "RASN": "#2a9d8f", "FZRAPL": "#c2185b",
+                  "RAPL": "#b07d2b", "FZRA": "#d1495b", "FZDZ": "#f28482", "RA": "#2e8b57",
+                  "DZ": "#84a98c", "NONE": "#7b8794"}
+
+
+def _png(fig) -> bytes:
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=110, bbox_inches="tight")
+    return buf.getvalue()
+
+
+def make_figures(report: dict) -> dict[str, bytes]:
+    """PNG figures of a report: ``reliability`` (if probabilities) and ``skill``."""
+    from matplotlib.figure import Figure
+    figures: dict[str, bytes] = {}
+    cons = report.get("consensus")
+    if cons is None:
+        return figures
+    if "reliability" in cons:
+        fig = Figure(figsize=(6.4, 6.4))
+        ax, axn = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [3, 1]})
+        ax.plot([0, 1], [0, 1], color=_MUTED, lw=1, ls="--", label="perfect reliability")
+        def curve(rel, **kw):
+            x = [b["mean_forecast"] for b in rel["bins"] if b["count"] > 0]
+            y = [b["observed_frequency"] for b in rel["bins"] if b["count"] > 0]
+            ax.plot(x, y, marker="o", **kw)
+        for name, rel in cons["reliability"]["classes"].items():
+            if cons["brier"][name]["observed_frequency"]:
+                curve(rel, color=_CLASS_COLOURS.get(name, _MUTED), lw=1, ms=3, alpha=0.75,
+                      label=name)
+        pooled = cons["reliability"]["all"]
+        curve(pooled, color=_INK, lw=2.2, ms=5, label="all classes")
+        ax.set_xlim(0, 1)
+        ax.set_ylim(0, 1)
+        ax.set_ylabel("observed relative frequency")
+        ax.set_title("Reliability of the member probabilities (one class vs the rest)")
+        ax.legend(fontsize=7, ncol=2, loc="upper left", frameon=False)
+        ax.grid(alpha=0.3)
+        lows = [b["lower"] for b in pooled["bins"]]
+        counts = [b["count"] for b in pooled["bins"]]
+        width = pooled["bins"][0]["upper"] - pooled["bins"][0]["lower"]
+        axn.bar(lows, counts, width=width, align="edge", color=_ACCENT, alpha=0.7)
+        axn.set_yscale("log")
+        axn.set_ylabel("count")
+        axn.set_xlabel("forecast probability")
+        axn.grid(alpha=0.3)
+        figures["reliability"] = _png(fig)
+    names = ["consensus"] + list(report["methods"])
+    blocks = [cons] + [report["methods"][k] for k in report["methods"]]
+    fig = Figure(figsize=(7.2, 3.6))
+    ax = fig.subplots()
+    keys = (("accuracy", "accuracy"), ("heidke", "Heidke"), ("peirce", "Peirce"),
+            ("gerrity", "Gerrity"))
+    x = np.arange(len(names))
+    width = 0.2
+    shades = ("#9fb3c8", _ACCENT, "#d1495b", "#2a9d8f")
+    for k, ((key, label), colour) in enumerate(zip(keys, shades)):
+        vals = [b[key] if b[key] is not None else np.nan for b in blocks]
+        ax.bar(x + (k - 1.5) * width, vals, width, label=label, color=colour)
+    ax.axhline(0, color=_INK, lw=0.8)
+    ax.set_xticks(x, names, rotation=30, ha="right", fontsize=8)
+    ax.set_ylabel("score")
+    ax.set_title("Categorical scores, consensus and methods")
+    ax.legend(fontsize=7, ncol=4, frameon=False, loc="lower left")
+    ax.grid(axis="y", alpha=0.3)
+    figures["skill"] = _png(fig)
+    return figures
+
+
+_CSS = """
+body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;color:#1f2933;max-width:1000px;
+margin:2em auto;padding:0 1em;line-height:1.4}
+h1{font-size:1.5em;margin-bottom:.2em}h2{font-size:1.15em;margin-top:1.6em;border-bottom:1px solid
+#d9e2ec;padding-bottom:.2em}
+.caution{background:#fff4e5;border-left:4px solid #d97706;padding:.6em 1em;margin:1em 0}
+table{border-collapse:collapse;font-size:.85em;margin:.5em 0}
+td,th{border:1px solid #d9e2ec;padding:.25em .5em;text-align:right}
+th{background:#f0f4f8}td.l,th.l{text-align:left}td.hit{background:#e3f2e8;font-weight:600}
+.muted{color:#7b8794}img{max-width:100%}
+"""
+
+
+def _cell(x) -> str:
+    return "&ndash;" if x is None else (f"{x:.3f}" if isinstance(x, float) else html.escape(str(x)))
+
+
+def render_html(report: dict, figures: dict[str, bytes] | None = None,
+                image_files: dict[str, str] | None = None) -> str:
+    """Self-contained HTML: tables, figures embedded as PNG data URIs (or linked to
+    ``image_files`` names when given), and the caution."""
+    e = html.escape
+    figures = make_figures(report) if figures is None else figures
+    parts = ["<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>",
+             "<title>ptype verification</title>", f"<style>{_CSS}</style></head><body>",
+             "<h1>Precipitation-type verification</h1>",
+             f"<p class='caution'><strong>Caution.</strong> {e(CAUTION)}</p>",
+             f"<p>{report['n']} verified cases of {report['n_cases']}"
+             + (f" from <code>{e(report['source'])}</code>" if report.get("source") else "")
+             + f"; {report['members']} Monte-Carlo members, seed {e(str(report['seed']))}; "
+             f"ptype {e(report['ptype_version'])}.</p>"]
+    ex = report["excluded"]
+    if ex["count"]:
+        parts.append(f"<p>{ex['count']} cases excluded: "
+                     + "; ".join(f"{e(r)} ({n})" for r, n in ex["reasons"].items()) + ".</p>")
+    cons = report["consensus"]
+    if cons is None:
+        parts.append("<p>Nothing to verify: every observation was excluded.</p></body></html>")
+        return "".join(parts)
+
+    def img(name, alt):
+        if name not in figures and not (image_files and name in image_files):
+            return ""
+        if image_files and name in image_files:
+            src = e(image_files[name])
+        else:
+            src = "data:image/png;base64," + base64.b64encode(figures[name]).decode("ascii")
+        return f"<p><img src='{src}' alt='{e(alt)}'></p>"
+
+    parts.append("<h2>Scores</h2><table><tr><th class='l'>diagnosis</th><th>n</th>"
+                 "<th>abstained</th><th>accuracy</th><th>Heidke</th><th>Peirce</th>"
+                 "<th>Gerrity</th></tr>")
+    rows = [("consensus", cons, 0)] + [(k, v, v["abstained"])
+                                        for k, v in report["methods"].items()]
+    for name, s, abst in rows:
+        parts.append(f"<tr><td class='l'>{e(name)}</td><td>{s['n']}</td><td>{abst}</td>"
+                     f"<td>{_cell(s['accuracy'])}</td><td>{_cell(s['heidke'])}</td>"
+                     f"<td>{_cell(s['peirce'])}</td><td>{_cell(s['gerrity'])}</td></tr>")
+    parts.append("</table>")
+    parts.append(img("skill", "bar chart of accuracy, Heidke, Peirce and Gerrity scores"))
+
+    cats = cons["table"]["categories"]
+    parts.append("<h2>Consensus contingency table</h2><p class='muted'>Rows: predicted; "
+                 "columns: observed. Categories in the documented order.</p><table><tr><th></th>"
+                 + "".join(f"<th>{e(c)}</th>" for c in cats) + "<th>total</th></tr>")
+    for i, (c, row) in enumerate(zip(cats, cons["table"]["counts"])):
+        cells = "".join(f"<td class='hit'>{v}</td>" if j == i else f"<td>{v}</td>"
+                        for j, v in enumerate(row))
+        parts.append(f"<tr><th class='l' title='{e(LABELS[Code[c]])}'>{e(c)}</th>{cells}"
+                     f"<td>{sum(row)}</td></tr>")
+    totals = np.sum(cons["table"]["counts"], axis=0)
+    parts.append("<tr><th class='l'>total</th>" + "".join(f"<td>{int(v)}</td>" for v in totals)
+                 + f"<td>{int(totals.sum())}</td></tr></table>")
+
+    parts.append("<h2>Per class (consensus)</h2><table><tr><th class='l'>class</th>"
+                 "<th>observed</th><th>predicted</th><th>POD</th><th>FAR</th><th>CSI</th>"
+                 "<th>bias</th>" + ("<th>Brier</th><th>BSS</th>" if "brier" in cons else "")
+                 + "</tr>")
+    for c in cats:
+        s = cons["classes"][c]
+        b = cons.get("brier", {}).get(c)
+        extra = ""
+        if "brier" in cons:
+            extra = (f"<td>{_cell(b['brier'])}</td><td>{_cell(b['brier_skill'])}</td>" if b
+                     else "<td>&ndash;</td><td>&ndash;</td>")
+        parts.append(f"<tr><td class='l'>{e(c)} <span class='muted'>{e(LABELS[Code[c]])}"
+                     f"</span></td><td>{s['n_observed']}</td><td>{s['n_forecast']}</td>"
+                     f"<td>{_cell(s['pod'])}</td><td>{_cell(s['far'])}</td>"
+                     f"<td>{_cell(s['csi'])}</td><td>{_cell(s['bias'])}</td>{extra}</tr>")
+    parts.append("</table>")
+    if "rps" in cons:
+        parts.append(f"<h2>Probabilities</h2><p>Ranked probability score {_cell(cons['rps'])} "
+                     f"(skill against the sample climatology {_cell(cons['rps_skill'])}) over "
+                     f"the ordered categories {e(', '.join(cons['rps_order']))}.</p>")
+        parts.append(img("reliability", "reliability diagram with counts per bin"))
+
+    parts.append("<h2>Methods by class (POD / FAR)</h2><table><tr><th class='l'>method</th>"
+                 + "".join(f"<th>{e(c)}</th>" for c in cats) + "</tr>")
+    for name, s in report["methods"].items():
+        cells = "".join(f"<td>{_cell(s['classes'][c]['pod'])} / {_cell(s['classes'][c]['far'])}"
+                        "</td>" for c in cats)
+        parts.append(f"<tr><td class='l'>{e(name)}</td>{cells}</tr>")
+    parts.append("</table>")
+
+    parts.append("<h2>Cases</h2><table><tr><th class='l'>profile</th><th class='l'>site</th>"
+                 "<th class='l'>valid time</th><th class='l'>observed (as reported)</th>"
+                 "<th>observed</th><th>predicted</th></tr>")
+    for c in report["cases"]:
+        mark = " class='hit'" if c["correct"] else ""
+        parts.append(f"<tr><td class='l'>{e(c['profile'])}</td><td class='l'>"
+                     f"{e(c['site'] or '')}</td><td class='l'>{e(c['valid_time'] or '')}</td>"
+                     f"<td class='l'><code>{e(c['observed_raw'])}</code></td>"
+                     f"<td>{e(c['observed'])}</td><td{mark}>{e(c['predicted'])}</td></tr>")
+    parts.append("</table>")
+    if ex["count"]:
+        parts.append("<h2>Excluded observations</h2><table><tr><th class='l'>entry</th>"
+                     "<th class='l'>observed</th><th class='l'>reason</th></tr>")
+        for c in ex["cases"]:
+            parts.append(f"<tr><td class='l'>{e(c['where'])}</td><td class='l'><code>"
+                         f"{e(c['observed_raw'])}</code></td><td class='l'>{e(c['reason'])}"
+                         + (f": {e(c['detail'])}" if c.get("detail") else "") + "</td></tr>")
+        parts.append("</table>")
+    parts.append(f"<p class='caution'>{e(CAUTION)}</p></body></html>")
+    return "".join(parts)
