@@ -66,7 +66,7 @@ def read_document(source: str | os.PathLike | bytes, format: str | None = None) 
             from . import netcdf_format
             return netcdf_format.read_netcdf_document(path), name
         try:
-            text = path.read_text(encoding="utf-8")
+            text = path.read_text(encoding="utf-8-sig")  # tolerate a byte-order mark
         except UnicodeDecodeError:
             raise ReaderError(f"{name}: not a UTF-8 text file") from None
         except OSError as exc:
@@ -78,11 +78,11 @@ def read_document(source: str | os.PathLike | bytes, format: str | None = None) 
                 from . import netcdf_format
                 return netcdf_format.read_netcdf_document(source), name
             try:
-                text = source.decode("utf-8")
+                text = source.decode("utf-8-sig")
             except UnicodeDecodeError:
                 raise ReaderError("<text>: not UTF-8 text") from None
         elif isinstance(source, str):
-            text = source
+            text = source.removeprefix("\ufeff")
         else:
             raise ReaderError(f"expected a path, text or bytes, got {type(source).__name__}")
         fmt = format
