@@ -173,7 +173,9 @@ def _read(ds, name: str) -> dict:
     if td_var is None and rh_var is None:
         raise ReaderError(f"{name}: no variable with standard_name 'dew_point_temperature' or "
                           "'relative_humidity'; expected one of them for the humidity")
-    z_var = one("geopotential_height", False) or one("altitude", False)
+    z_var = one("geopotential_height", False)
+    if z_var is None:
+        z_var = one("altitude", False)
 
     # The vertical dimension is the one pressure runs along (or the longest one it has).
     p_dims = [d for d in p_var.dims if p_var.sizes[d] > 1]
