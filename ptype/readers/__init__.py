@@ -24,7 +24,7 @@ _EXTENSIONS = {".json": "json", ".csv": "csv", ".txt": "temp", ".temp": "temp", 
 def detect_format(text: str) -> str:
     """Guess the format of a text: JSON object, CSV with a header, or WMO TEMP."""
     stripped = text.lstrip()
-    if stripped.startswith("{") or stripped.startswith("["):
+    if stripped.startswith(("{", "[")):
         return "json"
     upper = stripped.upper()
     if "TTAA" in upper or "TTBB" in upper:

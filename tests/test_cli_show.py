@@ -1,0 +1,85 @@
+"""``ptype show`` run as a user would, as a subprocess of the installed command."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+from pathlib import Path
+
+import pytest
+
+from ptype import CAUTION, thermo
+
+ROOT = Path(__file__).resolve().parents[1]
+PTYPE = ROOT / ".venv" / "bin" / "ptype"
+DATA = Path(__file__).parent / "data"
+
+
+def _run(*args, stdin: str | None = None) -> subprocess.CompletedProcess:
+    return subprocess.run([str(PTYPE), "show", *map(str, args)], check=False, capture_output=True,
+                          text=True, input=stdin, timeout=120, cwd=ROOT)
+
+
+def test_show_table():
+    out = _run(DATA / "fzra_sounding.json")
+    assert out.returncode == 0, out.stderr
+    lines = out.stdout.splitlines()
+    assert lines[0] == "Kestrel Ridge (invented test site) | 2026-01-15 12:00 UTC"
+    assert lines[1].split() == ["p", "hPa", "z", "m", "T", "C", "Td", "C", "RH", "%", "Tw", "C"]
+    rows = [line.split() for line in lines[2:14]]
+    assert [float(r[0]) for r in rows][:3] == [978.0, 950.0, 925.0]
+    assert float(rows[0][1]) == 310.0  # station elevation
+    assert any(line.startswith("note: heights computed hypsometrically") for line in lines)
+    assert lines[-1] == CAUTION
+
+
+def test_show_json():
+    out = _run(DATA / "fzra_sounding.csv", "--format", "json")
+    assert out.returncode == 0, out.stderr
+    doc = json.loads(out.stdout)
+    assert doc["caution"] == CAUTION
+    assert doc["site"]["id"] == "KESTREL" and len(doc["levels"]) == 12
+    row = doc["derived"][3]  # 900 hPa, T 1.4, Td 0.8
+    assert row["pressure_hpa"] == 900.0
+    # Derived columns are those of ptype.thermo, rounded for display.
+    assert row["relative_humidity_pct"] == round(float(thermo.relative_humidity_pct(1.4, 0.8)))
+    assert row["wetbulb_c"] == round(float(thermo.wet_bulb_temperature(900.0, 1.4, 0.8)), 1)
+    assert doc["warnings"]
+
+
+def test_show_temp_from_stdin():
+    text = (DATA / "fzra_sounding.temp").read_text()
+    out = _run("-", "--input-format", "temp", stdin=text)
+    assert out.returncode == 0, out.stderr
+    assert "978.0" in out.stdout and out.stdout.rstrip().endswith(CAUTION)
+
+
+def test_show_help():
+    out = _run("--help")
+    assert out.returncode == 0
+    assert "--format {table,json}" in out.stdout and "--input-format" in out.stdout
+
+
+@pytest.mark.parametrize("content, name, expected", [
+    (None, "missing.json", "missing.json: no such file"),
+    ("pressure_hpa,temperature_c\n1000,1\n900,x\n", "bad.csv", "line 3: column temperature_c"),
+    ('{"levels": [{"pressure_hpa": 1000, "temperature_c": 99, "dewpoint_c": 0}]}', "hot.json",
+     "temperature_c = 99: expected -100 to +60 degC"),
+    ("TTAA 15127 07999 99990 0100 /////=", "cut.temp", "group 5 '0100'"),
+])
+def test_show_bad_input_one_line_exit_2(tmp_path, content, name, expected):
+    path = tmp_path / name
+    if content is not None:
+        path.write_text(content)
+    out = _run(path)
+    assert out.returncode == 2
+    assert out.stdout == ""
+    assert "Traceback" not in out.stderr
+    lines = out.stderr.splitlines()
+    assert len(lines) == 1 and lines[0].startswith("ptype show: error: ") and expected in lines[0]
+
+
+def test_show_bad_option_exit_2():
+    out = _run(DATA / "fzra_sounding.json", "--format", "xml")
+    assert out.returncode == 2 and "Traceback" not in out.stderr
+    assert len(out.stderr.strip().splitlines()) == 1
