@@ -199,3 +199,17 @@ def test_read_profile_not_utf8(tmp_path):
 def test_read_profile_netcdf_text_refused():
     with pytest.raises(ReaderError, match="NetCDF must be given as a file path or bytes"):
         read_profile("CDF whatever\nmore", format="netcdf")
+
+
+# --- the examples in docs/formats.md are valid ------------------------------------------------
+
+def test_read_profile_docs_examples():
+    text = (Path(__file__).resolve().parents[1] / "docs" / "formats.md").read_text()
+    blocks = text.split("```")
+    json_example = next(b for b in blocks if b.startswith("json\n"))[len("json\n"):]
+    csv_example = next(b for b in blocks if b.lstrip("\n").startswith("# site_name"))
+    a = read_profile(json_example)
+    b = read_profile(csv_example)
+    assert a.n_levels == b.n_levels == 4
+    assert a.site.name == b.site.name and a.valid_time == b.valid_time
+    assert a.surface.road_surface_temperature_c == b.surface.road_surface_temperature_c == -3.1
