@@ -119,8 +119,16 @@ def profile_from_request(options: DiagnoseOptions) -> ptype.Profile:
         raw = request.get_data(cache=True)
         if not raw.strip():
             raise ApiError(400, "empty_body", "request body is empty; expected a profile")
+        try:
+            text = raw.decode("utf-8")
+        except UnicodeDecodeError:
+            raise ApiError(400, "invalid_text", "request body is not UTF-8 text") from None
+        # Always hand the reader text with a line break, so that it is never taken for a
+        # file path (the service reads nothing from its own disk on a client's behalf).
+        if "\n" not in text:
+            text += "\n"
         fmt = TEXT_FORMATS[kind] or options.input_format
-        document, _ = read_document(raw, format=fmt)
+        document, _ = read_document(text, format=fmt)
     else:
         shown = kind or "none"
         raise ApiError(415, "unsupported_media_type",

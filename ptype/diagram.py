@@ -19,6 +19,7 @@ The palette and layout are our own.
 from __future__ import annotations
 
 import io
+import warnings
 from typing import Any
 
 import numpy as np
@@ -69,6 +70,13 @@ def draw_diagram(diagnosis_or_profile: Any, fmt: str = "png", *, width_in: float
     if fmt not in FORMATS:
         raise OptionError(f"format {fmt!r} is not supported; expected png or svg", field="format")
     data = _as_dict(diagnosis_or_profile)
+    with warnings.catch_warnings():
+        # MetPy's skewed axes still call a helper matplotlib 3.11 deprecated; harmless here.
+        warnings.filterwarnings("ignore", message=".*interval_contains.*")
+        return _render(data, fmt, width_in, dpi)
+
+
+def _render(data: dict, fmt: str, width_in: float, dpi: int) -> bytes:
     fig = _figure(data, width_in)
     buf = io.BytesIO()
     metadata = {"Title": " ".join(_title_text(data)[:2])}
@@ -76,7 +84,10 @@ def draw_diagram(diagnosis_or_profile: Any, fmt: str = "png", *, width_in: float
         metadata = {"Title": metadata["Title"], "Description": CAUTION}
     else:
         metadata["Description"] = CAUTION
-    fig.savefig(buf, format=fmt, dpi=dpi, facecolor=PALETTE["background"], metadata=metadata)
+    import matplotlib
+    # SVG keeps its text as text (searchable, readable by screen readers, smaller).
+    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "ptype"}):
+        fig.savefig(buf, format=fmt, dpi=dpi, facecolor=PALETTE["background"], metadata=metadata)
     return buf.getvalue()
 
 

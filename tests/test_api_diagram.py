@@ -1,0 +1,100 @@
+"""HTTP tests of ``POST /v1/diagram`` (api/diagram.py) and of the drawing itself
+(ptype/diagram.py): formats, content negotiation, what the picture carries, and errors."""
+
+from __future__ import annotations
+
+import io
+import re
+import xml.etree.ElementTree as ET
+
+import pytest
+
+import ptype
+from api import create_app
+from api_support import freezing_rain_document, snow_document
+from ptype.diagram import draw_diagram
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C / ISO/IEC 15948), section 5.2
+SVG_NS = "{http://www.w3.org/2000/svg}"  # W3C SVG 1.1 namespace
+
+
+@pytest.fixture(scope="module")
+def client():
+    return create_app({"TESTING": True}).test_client()
+
+
+def _svg_text(svg: bytes) -> str:
+    root = ET.fromstring(svg)
+    assert root.tag == f"{SVG_NS}svg"
+    return " ".join("".join(el.itertext()) for el in root.iter(f"{SVG_NS}text"))
+
+
+def test_diagram_png_by_default(client):
+    response = client.post("/v1/diagram?seed=1", json=freezing_rain_document())
+    assert response.status_code == 200
+    assert response.mimetype == "image/png"
+    assert response.data.startswith(PNG_SIGNATURE)
+    from matplotlib.image import imread
+    pixels = imread(io.BytesIO(response.data), format="png")
+    assert pixels.shape[0] > 500 and pixels.shape[1] > 500
+
+
+@pytest.mark.parametrize("query,accept,mime", [
+    ("format=svg", None, "image/svg+xml"),
+    ("format=png", "image/svg+xml", "image/png"),       # the query wins over Accept
+    ("", "image/svg+xml", "image/svg+xml"),
+    ("", "image/svg+xml;q=0.4, image/png;q=0.9", "image/png"),
+    ("", "*/*", "image/png"),
+])
+def test_diagram_format_negotiation(client, query, accept, mime):
+    headers = {"Accept": accept} if accept else {}
+    response = client.post(f"/v1/diagram?{query}", json=snow_document(), headers=headers)
+    assert response.status_code == 200
+    assert response.mimetype == mime
+
+
+def test_diagram_svg_carries_type_areas_and_caution(client):
+    document = freezing_rain_document()
+    response = client.post("/v1/diagram?format=svg&seed=2", json=document)
+    text = _svg_text(response.data)
+    diagnosis = ptype.diagnose(document, seed=2).to_dict()
+    assert "FZRA" in text and "freezing rain" in text
+    # Every melting layer and the refreezing layer beneath it are labelled with their J/kg.
+    warm = [lyr for lyr in diagnosis["layers"] if lyr["kind"] == "warm"]
+    assert warm
+    for layer in warm:
+        assert f"melting {layer['area_j_kg']:.0f} J/kg" in text
+    surface_cold = diagnosis["layers"][0]
+    assert f"refreezing {surface_cold['area_j_kg']:.0f} J/kg" in text
+    for word in ("Temperature", "Dew point", "Wet-bulb", "0 \u00b0C isotherm", "cloud"):
+        assert word in text
+    assert ptype.CAUTION in text
+    assert re.search(r"FZRA \d+%", text)
+
+
+def test_draw_diagram_from_profile_has_no_type():
+    profile = ptype.Profile.from_document(snow_document())
+    text = _svg_text(draw_diagram(profile, "svg"))
+    assert "Sounding" in text and not re.search(r"melting \d+ J/kg", text)
+    assert ptype.CAUTION in text
+
+
+def test_draw_diagram_rejects_unknown_format():
+    with pytest.raises(ptype.OptionError, match="png or svg"):
+        draw_diagram(ptype.Profile.from_document(snow_document()), "gif")
+
+
+@pytest.mark.parametrize("query,body,content_type,status", [
+    ("format=gif", None, None, 400),
+    ("", "{broken", "application/json", 400),
+    ("", "<svg/>", "image/svg+xml", 415),
+    ("", '{"levels": []}', "application/json", 422),
+])
+def test_diagram_errors_are_json(client, query, body, content_type, status):
+    if body is None:
+        response = client.post(f"/v1/diagram?{query}", json=snow_document())
+    else:
+        response = client.post(f"/v1/diagram?{query}", data=body, content_type=content_type)
+    assert response.status_code == status
+    assert response.mimetype == "application/json"
+    assert set(response.get_json()["error"]) >= {"code", "message"}
