@@ -1,0 +1,71 @@
+"""Benchmark: one full diagnosis (default members) of a 60-level profile.
+
+Reports the median time per ``ptype.diagnose(...).to_dict()`` and, as the
+in-process reference, the time of MetPy's ``wet_bulb_temperature`` on the same
+60 levels (a single MetPy call that any pure-Python approach would need at
+least once per member).  Target: <= 20 ms per diagnosis with default members.
+
+    .venv/bin/python bench/bench_diagnose.py
+"""
+
+from __future__ import annotations
+
+import json
+import statistics
+import time
+import warnings
+from pathlib import Path
+
+import numpy as np
+
+import ptype
+from ptype.probability import DEFAULT_MEMBERS
+
+
+def sixty_level_document() -> dict:
+    p = np.linspace(1000.0, 250.0, 60)
+    z = np.linspace(0.0, 10500.0, 60)
+    # A freezing-rain shape: warm nose peaking at +4 degC near 820 hPa over a cold surface layer.
+    t = np.interp(p, [250, 500, 700, 760, 820, 880, 950, 1000],
+                  [-50, -22, -6, 0.5, 4.0, 0.5, -4.0, -2.0])
+    td = t - np.where(p > 450, 0.6, 8.0)
+    return {"levels": [{"pressure_hpa": float(a), "height_m": float(b), "temperature_c": float(c),
+                        "dewpoint_c": float(d)} for a, b, c, d in zip(p, z, t, td)]}
+
+
+def timeit(fn, repeat):
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times)
+
+
+def main() -> dict:
+    doc = sixty_level_document()
+    ptype.diagnose(doc, seed=0).to_dict()  # warm up imports and caches
+    t_diag = timeit(lambda: ptype.diagnose(doc, seed=0).to_dict(), 40)
+    t_nomc = timeit(lambda: ptype.diagnose(doc, members=0).to_dict(), 40)
+    import metpy.calc as mpcalc
+    from metpy.units import units
+    prof = ptype.Profile.from_document(doc)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        t_metpy = timeit(lambda: mpcalc.wet_bulb_temperature(prof.pressure_hpa * units.hPa,
+                                                             prof.temperature_c * units.degC,
+                                                             prof.dewpoint_c * units.degC), 3)
+    result = {"levels": 60, "members": DEFAULT_MEMBERS,
+              "diagnose_ms": round(t_diag * 1e3, 2), "diagnose_no_members_ms": round(t_nomc * 1e3, 2),
+              "metpy_wet_bulb_60_levels_ms": round(t_metpy * 1e3, 2),
+              "ratio_metpy_wetbulb_over_full_diagnosis": round(t_metpy / t_diag, 1),
+              "target_ms": 20.0, "meets_target": t_diag <= 0.020}
+    out = Path(__file__).parent / "results"
+    out.mkdir(exist_ok=True)
+    (out / "diagnose.json").write_text(json.dumps(result, indent=2) + "\n")
+    print(json.dumps(result, indent=2))
+    return result
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,194 @@
+"""ptype.diagnose: the contract, the consensus flow, invariances and physical monotonicity."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+import ptype
+from ptype import thermo
+from ptype.codes import Code
+from ptype.columns import Columns
+from ptype.consensus import consensus
+from ptype.diagnosis import diagnose_columns
+from ptype.methods import METHOD_NAMES
+from ptype.methods.base import Context, MethodResult
+from ptype.probability import correlated_noise, member_probabilities
+
+
+def document(p, t, td, **extra):
+    doc = {"levels": [{"pressure_hpa": a, "temperature_c": b, "dewpoint_c": c} for a, b, c in zip(p, t, td)]}
+    doc.update(extra)
+    return doc
+
+
+# A classic freezing-rain sounding: ice-producing cloud, warm nose ~ +4.6 degC (about 100 J/kg),
+# shallow cold surface layer.  Constructed here, not measured.
+FZRA_P = [990, 950, 900, 870, 820, 780, 750, 700, 600, 500, 400, 300]
+FZRA_T = [-2.5, -3.5, -1.0, 2.0, 4.6, 1.0, -1.5, -5.0, -12.0, -22.0, -33.0, -45.0]
+FZRA_TD = [-3.0, -4.0, -1.5, 1.5, 4.0, 0.5, -2.0, -5.5, -13.0, -23.5, -40.0, -55.0]
+
+
+def test_contract_keys_and_caution():
+    d = ptype.diagnose(document(FZRA_P, FZRA_T, FZRA_TD), seed=1, members=20)
+    out = d.to_dict()
+    for key in ("ptype", "probabilities", "methods", "layers", "wetbulb_layers", "profile",
+                "explanation", "caution", "confidence", "consensus"):
+        assert key in out
+    assert set(out["methods"]) == set(METHOD_NAMES)
+    assert out["ptype"] == "FZRA"
+    assert sum(out["probabilities"].values()) == pytest.approx(1.0, abs=1e-3)
+    assert "official warnings" in out["caution"].lower()
+    lay = out["layers"][0]
+    for key in ("kind", "bottom_hpa", "top_hpa", "bottom_m", "top_m", "area_j_kg", "extreme_c"):
+        assert key in lay
+    assert all(a["area_j_kg"] >= 0 for a in out["layers"])
+    for m in out["methods"].values():
+        for step in m["steps"]:
+            assert {"rule", "text", "values", "thresholds", "source"} <= set(step)
+    import json
+    json.dumps(out)  # JSON-ready
+
+
+def test_explanation_sentences_carry_numbers():
+    out = ptype.diagnose(document(FZRA_P, FZRA_T, FZRA_TD), seed=1, members=10).to_dict()
+    warm = [x for x in out["layers"] if x["kind"] == "warm"][0]
+    text = " ".join(out["explanation"])
+    assert f"{warm['area_j_kg']:.0f} J/kg" in text
+    assert f"{warm['extreme_c']:+.1f} °C" in text
+
+
+def test_level_order_invariance():
+    doc = document(FZRA_P, FZRA_T, FZRA_TD)
+    shuffled = dict(doc)
+    rng = np.random.default_rng(5)
+    shuffled["levels"] = [doc["levels"][i] for i in rng.permutation(len(doc["levels"]))]
+    a = ptype.diagnose(doc, seed=9, members=30).to_dict()
+    b = ptype.diagnose(shuffled, seed=9, members=30).to_dict()
+    assert a["ptype"] == b["ptype"] and a["probabilities"] == b["probabilities"]
+    assert a["layers"] == b["layers"]
+
+
+def test_relative_humidity_instead_of_dewpoint():
+    rh = thermo.relative_humidity_pct(np.array(FZRA_T), np.array(FZRA_TD))
+    doc_rh = {"levels": [{"pressure_hpa": p, "temperature_c": t, "relative_humidity_pct": float(r)}
+                         for p, t, r in zip(FZRA_P, FZRA_T, rh)]}
+    a = ptype.diagnose(document(FZRA_P, FZRA_T, FZRA_TD), seed=2, members=30).to_dict()
+    b = ptype.diagnose(doc_rh, seed=2, members=30).to_dict()
+    assert a["ptype"] == b["ptype"]
+    assert a["probabilities"] == b["probabilities"]
+    for x, y in zip(a["layers"], b["layers"]):
+        assert x["area_j_kg"] == pytest.approx(y["area_j_kg"], abs=0.2)
+
+
+def test_no_ice_cloud_gives_freezing_drizzle_whatever_the_melting_methods_say():
+    # Shallow saturated stratus, top -6 degC, very dry above, surface -3 degC (Huffman & Norman
+    # 1988 freezing-drizzle pattern).  Melting methods see an all-cold column and say snow.
+    p = [1000, 970, 940, 900, 870, 850, 800, 700, 600, 500]
+    t = [-3.0, -4.0, -5.0, -6.0, -3.0, -2.0, -4.0, -10.0, -18.0, -28.0]
+    td = [-3.2, -4.2, -5.2, -6.2, -20.0, -25.0, -30.0, -35.0, -40.0, -45.0]
+    out = ptype.diagnose(document(p, t, td), seed=1, members=10).to_dict()
+    assert out["methods"]["bourgouin"]["ptype"] == "SN"
+    assert out["ptype"] == "FZDZ"
+    assert out["consensus"]["rule"] == "no_ice_drizzle"
+
+
+def test_surface_humidity_turns_marginal_rain_into_snow():
+    # Surface +1.5 degC but very dry (wet-bulb below 0): Jennings p_snow high -> SN.
+    p = [1000, 975, 950, 900, 850, 700, 500]
+    t = [1.5, 0.8, 0.2, -2.0, -5.0, -12.0, -28.0]
+    td = [-8.0, -6.0, -2.0, -2.3, -5.3, -12.3, -28.5]
+    d = ptype.diagnose(document(p, t, td), seed=1, members=10)
+    out = d.to_dict()
+    assert d.columns.surface_wetbulb_c[0] < 0
+    assert out["methods"]["bourgouin"]["ptype"] in ("RA", "RASN")  # the surface layer melts
+    assert out["ptype"] in ("SN", "RASN")
+
+
+def _fake(name, codes):
+    codes = np.asarray(codes, dtype=np.int64)
+    return MethodResult(name, codes, np.zeros(codes.size, dtype=np.int64), {})
+
+
+def test_vote_ties_go_to_the_more_hazardous_type():
+    # Operational multi-algorithm practice (brief section 11): ties to FZRA > SN > IP > RA.
+    p = np.array([[1000.0, 850.0, 700.0, 500.0]] * 3)
+    t = np.array([[1.0, 3.0, -5.0, -20.0]] * 3)
+    cols = Columns.from_arrays(p, t, t - 20.0)  # dry: no cloud, so no ice check, no humidity check
+    ctx = Context(cols)
+    results = {"bourgouin": _fake("bourgouin", [Code.RA, Code.PL, Code.SN]),
+               "ramer": _fake("ramer", [Code.FZRA, Code.SN, Code.PL])}
+    res = consensus(ctx, results)
+    assert [Code(int(c)) for c in res.code[:2]] == [Code.FZRA, Code.SN]
+    assert bool(res.values["tie"][0])
+
+
+def test_vectorised_matches_single_profile():
+    rng = np.random.default_rng(4)
+    docs = []
+    for _ in range(12):
+        nose = rng.uniform(-2.0, 6.0)
+        sfc = rng.uniform(-6.0, 4.0)
+        t = [sfc, sfc - 1.0, (sfc + nose) / 2, nose, nose - 1.0, -4.0, -12.0, -24.0]
+        p = [1000, 950, 900, 850, 800, 700, 600, 500]
+        docs.append(document(p, t, [x - rng.uniform(0.1, 3.0) for x in t]))
+    profiles = [ptype.Profile.from_document(d) for d in docs]
+    batch = diagnose_columns(Columns.from_profiles(profiles))
+    for i, d in enumerate(docs):
+        assert int(batch["ptype"][i]) == int(ptype.diagnose(d, members=0).code)
+
+
+def test_probabilities_seeded_and_members_zero():
+    doc = document(FZRA_P, FZRA_T, FZRA_TD)
+    a = ptype.diagnose(doc, seed=123, members=25).probabilities
+    b = ptype.diagnose(doc, seed=123, members=25).probabilities
+    assert a == b
+    none = ptype.diagnose(doc, members=0).to_dict()
+    assert none["probabilities"] == {} and none["confidence"] == "not assessed"
+
+
+def test_member_probabilities_rows_sum_to_one():
+    prof = ptype.Profile.from_document(document(FZRA_P, FZRA_T, FZRA_TD))
+    cols = Columns.from_profiles([prof, prof])
+    probs = member_probabilities(cols, 40, seed=3)
+    assert probs.shape == (2, len(Code))
+    assert np.allclose(probs.sum(axis=1), 1.0)
+
+
+def test_correlated_noise_has_the_stated_correlation():
+    # AR(1) construction: corr(e_k, e_k+1) = exp(-dz / L).
+    rng = np.random.default_rng(0)
+    z = np.tile(np.array([0.0, 500.0, 1000.0, 3000.0]), (40000, 1))
+    e = correlated_noise(z, rng, 1500.0)
+    assert np.corrcoef(e[:, 0], e[:, 1])[0, 1] == pytest.approx(np.exp(-500 / 1500), abs=0.02)
+    assert np.corrcoef(e[:, 2], e[:, 3])[0, 1] == pytest.approx(np.exp(-2000 / 1500), abs=0.02)
+    assert e.std() == pytest.approx(1.0, abs=0.02)
+
+
+@pytest.mark.parametrize("kwargs,field", [({"members": -1}, "members"), ({"methods": "bourgouin,magic"}, "methods"),
+                                          ({"wetbulb": "frozen"}, "wetbulb"), ({"seed": -4}, "seed")])
+def test_bad_options_name_the_field(kwargs, field):
+    with pytest.raises(ptype.OptionError) as err:
+        ptype.diagnose(document(FZRA_P, FZRA_T, FZRA_TD), **kwargs)
+    assert err.value.field == field
+
+
+_P = [1000, 950, 900, 850, 800, 750, 700, 600, 500]
+
+
+@settings(max_examples=40, deadline=None)
+@given(sfc=st.floats(-8.0, 6.0), nose=st.floats(-4.0, 8.0), dep=st.floats(0.1, 4.0),
+       warming=st.floats(0.2, 4.0))
+def test_warming_never_turns_rain_into_snow(sfc, nose, dep, warming):
+    # Physical monotonicity (common practice): warming every level (same dew-point depression)
+    # cannot turn rain into snow at the ground.
+    t = np.array([sfc, sfc - 0.5, (sfc + nose) / 2, nose, nose - 0.5, -3.0, -6.0, -14.0, -26.0])
+    td = t - dep
+    base = Columns.from_arrays(np.array([_P], float), t[None], td[None])
+    warm = Columns.from_arrays(np.array([_P], float), (t + warming)[None], (td + warming)[None])
+    before = Code(int(diagnose_columns(base)["ptype"][0]))
+    after = Code(int(diagnose_columns(warm)["ptype"][0]))
+    if before is Code.RA:
+        assert after is not Code.SN
