@@ -122,8 +122,8 @@ DRY_ADIABATIC_K_PER_KM = 9.8
 
 
 def pressure_levels(surface_hpa: float, standard_near_ground: bool = False) -> np.ndarray:
-    """Levels: the surface, every 10 hPa up to 700 hPa (925 instead of 930 and 920), then every 25 hPa to
-    300 hPa, then 250 and 200 hPa.  All whole hPa, so the TEMP copy needs no rounding."""
+    """Levels: the surface, every 10 hPa up to 700 hPa (925 instead of 930 and 920), then every
+    25 hPa to 300 hPa, then 250 and 200 hPa.  All whole hPa, so the TEMP copy needs no rounding."""
     grid = sorted((set(range(1000, 699, -10)) - {930, 920}) | {925} | set(range(675, 299, -25))
                   | {250, 200}, reverse=True)
     # With ``standard_near_ground`` the standard surfaces are kept even close to the ground,
@@ -138,8 +138,9 @@ def temperature_profile(p: np.ndarray, prm: dict) -> np.ndarray:
 
     Knots: surface ``t_sfc``; top of the cold air ``ib_agl`` hPa above the surface at ``t_ib``;
     the warm nose ``t_nose`` at ``p_nose`` and, ``nose_depth`` hPa higher, the top of the
-    frontal zone, cooler by 0.012 K per hPa (0.8 K over 70 hPa); then a moist lapse of 43 K per unit ln p (about 5.5 K/km) to
-    700 hPa and 50 K per unit ln p (6.5-7.5 K/km) to the tropopause.
+    frontal zone, cooler by 0.012 K per hPa (0.8 K over 70 hPa); then a moist lapse of 43 K per
+    unit ln p (about 5.5 K/km) to 700 hPa and 50 K per unit ln p (6.5-7.5 K/km) to the
+    tropopause.
     """
     p_top_nose = prm["p_nose"] - prm.get("nose_depth", 0.0)
     t_top_nose = prm["t_nose"] - 0.012 * prm.get("nose_depth", 0.0)
@@ -168,7 +169,8 @@ def depression_profile(p: np.ndarray, t: np.ndarray, prm: dict) -> np.ndarray:
     ct = prm["cloud_top"]
     # Mixed-phase cloud: water-saturated above -4 degC, tending to ice saturation below -14.
     frac_ice = np.clip((-t - 4.0) / 10.0, 0.0, 1.0)
-    in_cloud = np.where(t > 0.0, 0.2, 0.3 + frac_ice * (_ice_saturated_depression(np.minimum(t, 0.0)) - 0.3))
+    ice_dep = _ice_saturated_depression(np.minimum(t, 0.0))
+    in_cloud = np.where(t > 0.0, 0.2, 0.3 + frac_ice * (ice_dep - 0.3))
     dep = np.full(p.shape, prm["dep_dry"])
     # Below cloud: sub-cloud depression, blending to the surface value over the lowest 30 hPa.
     below = p > cb
@@ -273,37 +275,48 @@ MSLP = {0: 1026.0, 6: 1021.0, 12: 1012.0, 18: 1004.0, 24: 1001.0}
 LOW = {
     # The sea keeps the causeway mild: a shallow warm surface layer melts the snow early.
     "sennet-causeway": dict(shift=-1.5, aloft={}, knots={
-        0: dict(t_sfc=2.6, ib_agl=20.0, t_ib=3.2, dep_sfc=2.0, dep_sub=6.0, rate=0.0, wind=2.0, road=-1.8),
+        0: dict(t_sfc=2.6, ib_agl=20.0, t_ib=3.2, dep_sfc=2.0, dep_sub=6.0,
+                rate=0.0, wind=2.0, road=-1.8),
         5: dict(t_sfc=2.0, ib_agl=20.0, t_ib=2.6, dep_sfc=1.8, rate=0.0, wind=4.0, road=-1.2),
-        6: dict(t_sfc=0.6, ib_agl=40.0, t_ib=-2.0, dep_sfc=1.0, dep_sub=3.0, rate=0.4, wind=7.0, road=-0.2),
-        7: dict(t_sfc=1.8, ib_agl=45.0, t_ib=-0.8, dep_sfc=1.0, dep_sub=1.5, rate=1.2, wind=9.0, road=0.0),
+        6: dict(t_sfc=0.6, ib_agl=40.0, t_ib=-2.0, dep_sfc=1.0, dep_sub=3.0,
+                rate=0.4, wind=7.0, road=-0.2),
+        7: dict(t_sfc=1.8, ib_agl=45.0, t_ib=-0.8, dep_sfc=1.0, dep_sub=1.5,
+                rate=1.2, wind=9.0, road=0.0),
         9: dict(t_sfc=3.8, ib_agl=35.0, t_ib=1.5, dep_sfc=0.6, rate=2.2, wind=12.0, road=0.3),
         12: dict(t_sfc=6.0, ib_agl=30.0, t_ib=4.5, dep_sfc=0.5, rate=3.0, wind=15.0),
         18: dict(t_sfc=7.5, ib_agl=30.0, t_ib=6.0, rate=2.5, wind=16.0),
         20: dict(rate=1.0, dep_sub=1.0),
         22: dict(t_sfc=7.2, rate=0.3, wind=13.0),
-        24: dict(t_sfc=7.0, ib_agl=30.0, t_ib=5.5, dep_sfc=0.5, dep_sub=0.8, rate=0.2, wind=11.0, road=0.3),
+        24: dict(t_sfc=7.0, ib_agl=30.0, t_ib=5.5, dep_sfc=0.5, dep_sub=0.8,
+                 rate=0.2, wind=11.0, road=0.3),
     }),
     # Cold air drains into the enclosed valley and stays: hours of freezing rain, then
     # freezing drizzle from stratus trapped in the cold pool under the dry slot.
     "mistleby-bridge": dict(shift=0.0, aloft={}, knots={
-        0: dict(t_sfc=-4.5, ib_agl=30.0, t_ib=-1.5, dep_sfc=2.0, dep_sub=8.0, rate=0.0, wind=0.5, road=-3.4),
+        0: dict(t_sfc=-4.5, ib_agl=30.0, t_ib=-1.5, dep_sfc=2.0, dep_sub=8.0,
+                rate=0.0, wind=0.5, road=-3.4),
         5: dict(t_sfc=-6.0, ib_agl=35.0, t_ib=-2.5, dep_sfc=2.0, rate=0.0, wind=0.5, road=-3.6),
-        7: dict(t_sfc=-5.5, ib_agl=80.0, t_ib=-9.0, dep_sfc=1.5, dep_sub=3.0, rate=0.0, wind=1.5, road=-1.5),
-        8: dict(t_sfc=-5.0, ib_agl=85.0, t_ib=-9.5, dep_sfc=1.0, dep_sub=1.5, rate=0.8, wind=2.0, road=-0.5),
+        7: dict(t_sfc=-5.5, ib_agl=80.0, t_ib=-9.0, dep_sfc=1.5, dep_sub=3.0,
+                rate=0.0, wind=1.5, road=-1.5),
+        8: dict(t_sfc=-5.0, ib_agl=85.0, t_ib=-9.5, dep_sfc=1.0, dep_sub=1.5,
+                rate=0.8, wind=2.0, road=-0.5),
         12: dict(t_sfc=-4.5, ib_agl=80.0, t_ib=-9.0, rate=1.5, wind=3.0, road=-0.3),
         14: dict(t_sfc=-3.2, ib_agl=60.0, t_ib=-3.8, rate=2.0),
         16: dict(t_sfc=-2.4, ib_agl=45.0, t_ib=-2.8, rate=2.4, wind=3.5, road=-0.2),
         19: dict(t_sfc=-1.6, ib_agl=35.0, t_ib=-1.8, rate=2.0),
         21: dict(t_sfc=-1.2, ib_agl=30.0, t_ib=-1.4, rate=0.6, dep_sub=0.8),
         22: dict(rate=0.3),
-        24: dict(t_sfc=-0.8, ib_agl=30.0, t_ib=-1.0, dep_sfc=0.4, dep_sub=0.6, rate=0.2, wind=3.0, road=-0.1),
+        24: dict(t_sfc=-0.8, ib_agl=30.0, t_ib=-1.0, dep_sfc=0.4, dep_sub=0.6,
+                 rate=0.2, wind=3.0, road=-0.1),
     }),
     "ulmbrook-cutting": dict(shift=0.0, aloft={}, knots={
-        0: dict(t_sfc=-3.0, ib_agl=25.0, t_ib=-0.8, dep_sfc=1.8, dep_sub=8.0, rate=0.0, wind=1.0, road=-3.0),
+        0: dict(t_sfc=-3.0, ib_agl=25.0, t_ib=-0.8, dep_sfc=1.8, dep_sub=8.0,
+                rate=0.0, wind=1.0, road=-3.0),
         5: dict(t_sfc=-4.0, ib_agl=30.0, t_ib=-1.5, dep_sfc=1.8, rate=0.0, wind=1.0, road=-3.0),
-        7: dict(t_sfc=-3.8, ib_agl=70.0, t_ib=-8.5, dep_sfc=1.5, dep_sub=3.0, rate=0.0, wind=3.0, road=-1.0),
-        8: dict(t_sfc=-3.6, ib_agl=75.0, t_ib=-8.8, dep_sfc=1.0, dep_sub=1.5, rate=1.0, wind=4.0, road=-0.3),
+        7: dict(t_sfc=-3.8, ib_agl=70.0, t_ib=-8.5, dep_sfc=1.5, dep_sub=3.0,
+                rate=0.0, wind=3.0, road=-1.0),
+        8: dict(t_sfc=-3.6, ib_agl=75.0, t_ib=-8.8, dep_sfc=1.0, dep_sub=1.5,
+                rate=1.0, wind=4.0, road=-0.3),
         12: dict(t_sfc=-3.0, ib_agl=70.0, t_ib=-8.2, rate=1.8, wind=6.0, road=0.0),
         14: dict(t_sfc=-1.6, ib_agl=45.0, t_ib=-2.2, rate=2.2, wind=7.0),
         15: dict(t_sfc=-0.8, ib_agl=35.0, t_ib=-1.2, rate=2.5, wind=8.0, road=0.2),
@@ -311,13 +324,17 @@ LOW = {
         18: dict(t_sfc=3.5, ib_agl=30.0, t_ib=3.2, rate=2.0, wind=9.0),
         20: dict(rate=0.8, dep_sub=0.8),
         22: dict(t_sfc=4.0, rate=0.3),
-        24: dict(t_sfc=4.2, ib_agl=30.0, t_ib=4.0, dep_sfc=0.5, dep_sub=0.6, rate=0.2, wind=7.0, road=0.4),
+        24: dict(t_sfc=4.2, ib_agl=30.0, t_ib=4.0, dep_sfc=0.5, dep_sub=0.6,
+                 rate=0.2, wind=7.0, road=0.4),
     }),
     "tessary-viaduct": dict(shift=0.5, aloft={}, knots={
-        0: dict(t_sfc=-3.5, ib_agl=25.0, t_ib=-1.2, dep_sfc=2.0, dep_sub=9.0, rate=0.0, wind=1.5, road=-3.4),
+        0: dict(t_sfc=-3.5, ib_agl=25.0, t_ib=-1.2, dep_sfc=2.0, dep_sub=9.0,
+                rate=0.0, wind=1.5, road=-3.4),
         5: dict(t_sfc=-4.5, ib_agl=30.0, t_ib=-2.0, dep_sfc=2.0, rate=0.0, wind=1.5, road=-3.6),
-        7: dict(t_sfc=-4.2, ib_agl=65.0, t_ib=-8.5, dep_sfc=1.5, dep_sub=3.0, rate=0.0, wind=3.0, road=-1.5),
-        8: dict(t_sfc=-4.0, ib_agl=70.0, t_ib=-8.8, dep_sfc=1.0, dep_sub=1.5, rate=0.9, wind=5.0, road=-0.6),
+        7: dict(t_sfc=-4.2, ib_agl=65.0, t_ib=-8.5, dep_sfc=1.5, dep_sub=3.0,
+                rate=0.0, wind=3.0, road=-1.5),
+        8: dict(t_sfc=-4.0, ib_agl=70.0, t_ib=-8.8, dep_sfc=1.0, dep_sub=1.5,
+                rate=0.9, wind=5.0, road=-0.6),
         12.5: dict(t_sfc=-3.4, ib_agl=65.0, t_ib=-8.4, dep_sfc=0.8, rate=1.8, wind=7.0, road=-0.3),
         14.5: dict(t_sfc=-1.8, ib_agl=40.0, t_ib=-2.2, rate=2.2, wind=8.0),
         16: dict(t_sfc=-0.6, ib_agl=30.0, t_ib=-1.0, rate=2.4, wind=9.0, road=-0.1),
@@ -328,16 +345,20 @@ LOW = {
     }),
     # The open plateau holds a deep, very cold layer under the nose: the longest ice-pellet spell.
     "drovan-junction": dict(shift=1.0, aloft={}, knots={
-        0: dict(t_sfc=-6.0, ib_agl=20.0, t_ib=-4.0, dep_sfc=2.0, dep_sub=10.0, rate=0.0, wind=2.0, road=-3.0),
+        0: dict(t_sfc=-6.0, ib_agl=20.0, t_ib=-4.0, dep_sfc=2.0, dep_sub=10.0,
+                rate=0.0, wind=2.0, road=-3.0),
         5: dict(t_sfc=-7.0, ib_agl=25.0, t_ib=-5.0, dep_sfc=2.0, rate=0.0, wind=2.0, road=-3.2),
-        7: dict(t_sfc=-7.0, ib_agl=40.0, t_ib=-9.5, dep_sfc=1.5, dep_sub=3.0, rate=0.0, wind=5.0, road=-1.2),
-        8: dict(t_sfc=-7.0, ib_agl=45.0, t_ib=-10.0, dep_sfc=1.0, dep_sub=1.5, rate=1.0, wind=7.0, road=-0.5),
+        7: dict(t_sfc=-7.0, ib_agl=40.0, t_ib=-9.5, dep_sfc=1.5, dep_sub=3.0,
+                rate=0.0, wind=5.0, road=-1.2),
+        8: dict(t_sfc=-7.0, ib_agl=45.0, t_ib=-10.0, dep_sfc=1.0, dep_sub=1.5,
+                rate=1.0, wind=7.0, road=-0.5),
         15: dict(t_sfc=-6.0, ib_agl=45.0, t_ib=-9.5, dep_sfc=0.8, rate=1.6, wind=10.0, road=-0.3),
         17: dict(t_sfc=-2.8, ib_agl=25.0, t_ib=-3.2, rate=2.0, wind=11.0),
         19.5: dict(t_sfc=-0.8, ib_agl=20.0, t_ib=-1.0, rate=2.0, wind=12.0, road=-0.1),
         20.5: dict(t_sfc=1.2, ib_agl=20.0, t_ib=1.4, rate=1.5, dep_sub=0.8),
         22: dict(t_sfc=2.5, t_ib=2.8, rate=0.4),
-        24: dict(t_sfc=3.0, ib_agl=20.0, t_ib=3.2, dep_sfc=0.5, dep_sub=0.6, rate=0.1, wind=11.0, road=0.3),
+        24: dict(t_sfc=3.0, ib_agl=20.0, t_ib=3.2, dep_sfc=0.5, dep_sub=0.6,
+                 rate=0.1, wind=11.0, road=0.3),
     }),
     # The pass sits near 860 hPa.  Upslope flow keeps it cold: the nose arrives later, weaker
     # and higher there, so snow lasts longest and then turns to ice pellets; the deep cloud
@@ -350,12 +371,15 @@ LOW = {
         16: dict(dt_nose=-4.0, p_nose=790.0, nose_depth=30.0),
         24: dict(dt_nose=-4.0, p_nose=790.0, nose_depth=30.0, cloud_top=400.0),
     }, knots={
-        0: dict(t_sfc=-9.0, ib_agl=15.0, t_ib=-8.0, dep_sfc=2.5, dep_sub=12.0, rate=0.0, wind=6.0, road=-2.0),
+        0: dict(t_sfc=-9.0, ib_agl=15.0, t_ib=-8.0, dep_sfc=2.5, dep_sub=12.0,
+                rate=0.0, wind=6.0, road=-2.0),
         5: dict(t_sfc=-9.5, ib_agl=15.0, t_ib=-8.5, dep_sfc=2.0, rate=0.0, wind=7.0, road=-2.2),
-        6: dict(t_sfc=-9.0, ib_agl=20.0, t_ib=-9.5, dep_sfc=0.5, dep_sub=1.0, rate=0.6, wind=10.0, road=-0.6),
+        6: dict(t_sfc=-9.0, ib_agl=20.0, t_ib=-9.5, dep_sfc=0.5, dep_sub=1.0,
+                rate=0.6, wind=10.0, road=-0.6),
         12: dict(t_sfc=-7.5, ib_agl=20.0, t_ib=-8.0, rate=2.0, wind=16.0, road=-0.4),
         18: dict(t_sfc=-6.5, ib_agl=30.0, t_ib=-8.0, rate=2.2, wind=18.0),
-        24: dict(t_sfc=-5.5, ib_agl=30.0, t_ib=-7.0, dep_sfc=0.5, dep_sub=1.0, rate=1.0, wind=15.0, road=-0.2),
+        24: dict(t_sfc=-5.5, ib_agl=30.0, t_ib=-7.0, dep_sfc=0.5, dep_sub=1.0,
+                 rate=1.0, wind=15.0, road=-0.2),
     }),
 }
 
@@ -655,15 +679,17 @@ def generate(out: Path, quiet: bool = False, diagnose: bool = False) -> list[str
         if "csv" in case.get("formats", ()):
             write_text(out / "csv" / f"{name}.csv", dumps_csv(doc))
         if "temp" in case.get("formats", ()):
-            write_text(out / "temp" / f"{name}.txt",
-                       write_temp(doc, station=site["temp_station"], day=valid.day, hour=valid.hour))
+            temp = write_temp(doc, station=site["temp_station"], day=valid.day, hour=valid.hour)
+            write_text(out / "temp" / f"{name}.txt", temp)
         s = design_summary(doc)
         check = design_type(s, prm["rate"])
         mark = "" if check in case["design"].split() else f"  <- drawn as {check}"
         say(format_row(name, s, case["design"], _diagnose(doc) if diagnose else "-") + mark)
 
     manifest = {"issued_time": _iso(ISSUED), "source": SERIES_SOURCE,
-                "note": "Invented forecast of an invented storm, for the ptype demo only.",
+                "note": ("Invented forecast of an invented storm, for the ptype demo only. "
+                         "File paths are relative to this manifest; 'design' is the type each "
+                         "profile was drawn to show (Bourgouin areas plus a cloud-ice check)."),
                 "sites": {}}
     for site in SITES:
         say(f"-- series {site['id']}")
@@ -673,12 +699,12 @@ def generate(out: Path, quiet: bool = False, diagnose: bool = False) -> list[str
             prm = series_params(site["id"], hour)
             doc = make_document(site, valid, prm, SERIES_SOURCE, f"{site['id']}/{hour}",
                                 temp_code=False)
-            rel = f"series/{site['id']}/{valid.strftime('%Y%m%dT%H%MZ')}.json"
-            write_text(out / rel, dumps_document(doc))
+            rel = f"{site['id']}/{valid.strftime('%Y%m%dT%H%MZ')}.json"  # relative to the manifest
+            write_text(out / "series" / rel, dumps_document(doc))
             files.append(rel)
             s = design_summary(doc)
             design = design_type(s, prm["rate"])
-            timeline.append({"valid_time": _iso(valid), "design": design})
+            timeline.append({"valid_time": _iso(valid), "file": rel, "design": design})
             say(format_row(f"  +{hour:02d}h {valid:%H}Z", s, design,
                            _diagnose(doc) if diagnose else "-"))
         manifest["sites"][site["id"]] = {"files": files, "timeline": timeline}
