@@ -18,7 +18,7 @@ from flask import Flask
 
 #: Blueprint modules, registered in this order.  Each exposes ``bp`` and may expose
 #: ``init_app(app)`` for set-up (database, caches).
-BLUEPRINT_MODULES = ["api.health", "api.page", "api.diagnose", "api.diagram", "api.demo", "api.docs", "api.sites", "api.alerts", "api.sites_page"]
+BLUEPRINT_MODULES = ["api.health", "api.page", "api.diagnose", "api.diagram", "api.demo", "api.docs", "api.verify", "api.sites", "api.alerts", "api.sites_page"]
 
 DEFAULT_CONFIG: dict[str, Any] = {
     # Largest request body accepted, bytes.

@@ -23,8 +23,13 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from sklearn.calibration import calibration_curve
-from sklearn.metrics import (accuracy_score, balanced_accuracy_score, brier_score_loss,
-                             cohen_kappa_score, matthews_corrcoef)
+from sklearn.metrics import (
+    accuracy_score,
+    balanced_accuracy_score,
+    brier_score_loss,
+    cohen_kappa_score,
+    matthews_corrcoef,
+)
 
 from ptype.verify import scores as sc
 
@@ -43,7 +48,7 @@ def _pairs_from_table(table):
 # --------------------------------------------------------------------------- 2x2: Finley
 
 def test_accuracy_finley_table():
-    a, b, c, d = 28, 72, 23, 2680
+    a, d = 28, 2680
     # PC = (a + d) / n (Wilks 2011, ch. 8); Wilks quotes 0.966 (from memory).
     assert sc.accuracy(FINLEY) == pytest.approx((a + d) / 2803, rel=1e-12)
     assert sc.accuracy(FINLEY) == pytest.approx(0.966, abs=5e-4)

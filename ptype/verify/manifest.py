@@ -26,9 +26,10 @@ import csv
 import dataclasses
 import io
 import json
-from datetime import datetime, timezone
+from collections.abc import Iterable, Mapping
+from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any, Iterable, Mapping
+from typing import Any
 
 from ..errors import ProfileError, ReaderError
 
@@ -51,6 +52,10 @@ class Case:
     valid_time: datetime | None
     site: str | None
     where: str
+    field_prefix: str | None = None
+
+    def _field(self, name: str) -> str:
+        return f"{self.field_prefix}.{name}" if self.field_prefix else name
 
     def load_profile(self):
         """Read and validate the profile; errors name the manifest entry and the field."""
@@ -61,7 +66,7 @@ class Case:
                 return Profile.from_document(self.profile)
             return read_profile(self.profile)
         except ProfileError as exc:
-            field = f"profile.{exc.field}" if exc.field else "profile"
+            field = self._field(f"profile.{exc.field}" if exc.field else "profile")
             raise type(exc)(f"{self.where}: field 'profile' ({self.profile_ref}): {exc}",
                             field=field) from None
 
@@ -78,16 +83,26 @@ def _parse_time(value: Any, where: str) -> datetime | None:
     except ValueError:
         raise ReaderError(f"{where}: field 'valid_time': {value!r} is not an ISO 8601 time "
                           "(e.g. 2025-01-14T06:00Z)", field="valid_time") from None
-    return t if t.tzinfo is not None else t.replace(tzinfo=timezone.utc)
+    return t if t.tzinfo is not None else t.replace(tzinfo=UTC)
 
 
 def case_from_entry(entry: Any, where: str, base_dir: Path | None, *,
-                    allow_paths: bool = True) -> Case:
+                    allow_paths: bool = True, field_prefix: str | None = None) -> Case:
     """Validate one entry (a mapping) into a :class:`Case`.
 
     ``base_dir`` resolves relative profile paths; ``allow_paths=False`` (the HTTP service)
-    accepts only inline profile documents.
+    accepts only inline profile documents.  ``field_prefix`` (``cases[3]``) is put in front
+    of the ``field`` of every error.
     """
+    try:
+        return _case_from_entry(entry, where, base_dir, allow_paths, field_prefix)
+    except ProfileError as exc:
+        if field_prefix:
+            exc.field = f"{field_prefix}.{exc.field}" if exc.field else field_prefix
+        raise
+
+
+def _case_from_entry(entry, where, base_dir, allow_paths, field_prefix) -> Case:
     if not isinstance(entry, Mapping):
         raise ReaderError(f"{where}: expected an object with fields {', '.join(FIELDS)}, got "
                           f"{type(entry).__name__}")
@@ -134,16 +149,21 @@ def case_from_entry(entry: Any, where: str, base_dir: Path | None, *,
         raise ReaderError(f"{where}: field 'profile': expected a path or a profile document, "
                           f"got {type(profile).__name__}", field="profile")
     return Case(profile=resolved, profile_ref=str(ref), observed=observed,
-                valid_time=_parse_time(entry.get("valid_time"), where), site=site, where=where)
+                valid_time=_parse_time(entry.get("valid_time"), where), site=site, where=where,
+                field_prefix=field_prefix)
 
 
 def cases_from_entries(entries: Any, *, name: str = "cases", base_dir: Path | None = None,
                        allow_paths: bool = True) -> list[Case]:
-    """Validate a list of entries (JSON manifests and HTTP bodies); entries named ``name[i]``."""
+    """Validate a list of entries (JSON manifests and HTTP bodies).
+
+    Messages locate entry ``i`` as ``name[i]``; error fields read ``cases[i].<field>``.
+    """
     if not isinstance(entries, list):
         raise ReaderError(f"{name}: expected a list of cases, got {type(entries).__name__}",
-                          field=name)
-    return [case_from_entry(e, f"{name}[{i}]", base_dir, allow_paths=allow_paths)
+                          field="cases")
+    return [case_from_entry(e, f"{name}[{i}]", base_dir, allow_paths=allow_paths,
+                            field_prefix=f"cases[{i}]")
             for i, e in enumerate(entries)]
 
 
@@ -195,7 +215,7 @@ def read_manifest(path: str | Path) -> list[Case]:
                               f"({exc.msg})") from None
         if isinstance(data, dict):
             if set(data) - {"cases"}:
-                extra = sorted(set(data) - {"cases"})[0]
+                extra = min(set(data) - {"cases"})
                 raise ReaderError(f"{label}: unknown top-level field {extra!r}; expected "
                                   "'cases'", field=extra)
             if "cases" not in data:

@@ -23,7 +23,8 @@ import html
 import io
 import math
 from collections import Counter
-from typing import Any, Sequence
+from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 
@@ -304,16 +305,21 @@ def make_figures(report: dict) -> dict[str, bytes]:
         fig = Figure(figsize=(6.4, 6.4))
         ax, axn = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [3, 1]})
         ax.plot([0, 1], [0, 1], color=_MUTED, lw=1, ls="--", label="perfect reliability")
-        def curve(rel, **kw):
-            x = [b["mean_forecast"] for b in rel["bins"] if b["count"] > 0]
-            y = [b["observed_frequency"] for b in rel["bins"] if b["count"] > 0]
-            ax.plot(x, y, marker="o", **kw)
+        def curve(rel, min_count=1, **kw):
+            pts = [(b["mean_forecast"], b["observed_frequency"]) for b in rel["bins"]
+                   if b["count"] >= min_count]
+            if pts:
+                ax.plot(*zip(*pts), marker="o", **kw)
+        # Classes with enough observations, bins with at least 5 cases: fewer, readable lines.
         for name, rel in cons["reliability"]["classes"].items():
-            if cons["brier"][name]["observed_frequency"]:
-                curve(rel, color=_CLASS_COLOURS.get(name, _MUTED), lw=1, ms=3, alpha=0.75,
-                      label=name)
+            if (cons["brier"][name]["observed_frequency"] or 0) >= 0.05:
+                curve(rel, min_count=5, color=_CLASS_COLOURS.get(name, _MUTED), lw=1, ms=3,
+                      alpha=0.8, label=f"{name} (bins with 5+ cases)")
         pooled = cons["reliability"]["all"]
-        curve(pooled, color=_INK, lw=2.2, ms=5, label="all classes")
+        curve(pooled, color=_INK, lw=2.2, ms=5, label="all classes pooled")
+        n_classes = len(ORDER)
+        ax.axhline(1.0 / n_classes, color=_MUTED, lw=0.8, ls=":",
+                   label="pooled climatology (1/K)")
         ax.set_xlim(0, 1)
         ax.set_ylim(0, 1)
         ax.set_ylabel("observed relative frequency")
@@ -345,7 +351,7 @@ def make_figures(report: dict) -> dict[str, bytes]:
     ax.set_xticks(x, names, rotation=30, ha="right", fontsize=8)
     ax.set_ylabel("score")
     ax.set_title("Categorical scores, consensus and methods")
-    ax.legend(fontsize=7, ncol=4, frameon=False, loc="lower left")
+    ax.legend(fontsize=7, frameon=False, loc="upper left", bbox_to_anchor=(1.01, 1.0))
     ax.grid(axis="y", alpha=0.3)
     figures["skill"] = _png(fig)
     return figures

@@ -1,9 +1,9 @@
 """Generate the invented verification demo set: parametric profiles + "observed" weather.
 
-    .venv/bin/python soundings_demo/verification/make_cases.py
+    .venv/bin/python soundings_demo/verification/make_cases.py [OUT_DIR]
 
 Writes ``profiles/case_NNN.json`` (compact ptype profile documents) and ``cases.csv``
-(the manifest) beside this script.  Deterministic: the same files on every run.
+(the manifest) beside this script (or into OUT_DIR).  Deterministic: the same files on every run.
 
 EVERYTHING HERE IS INVENTED: the sites, the region, the profiles and the observations.
 The set exists to exercise ``ptype verify``; it says nothing about how well any method
@@ -52,7 +52,7 @@ from __future__ import annotations
 import csv
 import json
 import sys
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
 import numpy as np
@@ -60,8 +60,8 @@ import numpy as np
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parents[1]))
 
-from ptype import thermo  # noqa: E402
-from ptype.profile import Profile  # noqa: E402
+from ptype import thermo
+from ptype.profile import Profile
 
 N_CASES = 240
 SEED = 20260114
@@ -178,13 +178,16 @@ def write_report(code: str, rng: np.random.Generator) -> str:
     return " ".join([text] + sorted(set(extra), key=extra.index))
 
 
-def main() -> int:
+def main(argv: list[str] | None = None) -> int:
+    """Write the set beside this script, or into the folder given as the only argument."""
+    argv = sys.argv[1:] if argv is None else argv
+    root = Path(argv[0]) if argv else HERE
     rng = np.random.default_rng(SEED)
-    out_dir = HERE / "profiles"
-    out_dir.mkdir(exist_ok=True)
+    out_dir = root / "profiles"
+    out_dir.mkdir(parents=True, exist_ok=True)
     for old in out_dir.glob("case_*.json"):
         old.unlink()
-    start = datetime(2025, 1, 13, 0, tzinfo=timezone.utc)
+    start = datetime(2025, 1, 13, 0, tzinfo=UTC)
     rows = []
     counts: dict[str, int] = {}
     for i in range(N_CASES):
@@ -211,13 +214,13 @@ def main() -> int:
         (out_dir / name).write_text(json.dumps(doc, separators=(",", ":")) + "\n")
         rows.append({"profile": f"profiles/{name}", "observed": report,
                      "valid_time": doc["valid_time"], "site": site})
-    with open(HERE / "cases.csv", "w", newline="") as fh:
+    with open(root / "cases.csv", "w", newline="") as fh:
         fh.write("# Invented verification demo set (see README.md); made by make_cases.py\n")
         writer = csv.DictWriter(fh, fieldnames=["profile", "observed", "valid_time", "site"],
                                 lineterminator="\n")
         writer.writeheader()
         writer.writerows(rows)
-    print(f"wrote {N_CASES} cases to {HERE}; classes before text/exclusions: "
+    print(f"wrote {N_CASES} cases to {root}; classes before text/exclusions: "
           + ", ".join(f"{k} {v}" for k, v in sorted(counts.items())))
     return 0
 
