@@ -1,0 +1,73 @@
+"""``ptype keys create|list|revoke``: API keys for the write endpoints of the service.
+
+The database is the one the service uses (``PTYPE_DATABASE_URL``, else ``ptype.sqlite3``
+under ``PTYPE_DATA_DIR``).  ``create`` prints the new key on the last line of standard
+output; only its salted hash is stored, so it cannot be shown again.
+"""
+
+from __future__ import annotations
+
+import json
+
+
+def register(sub) -> None:
+    p = sub.add_parser("keys", help="create, list or revoke API keys for the service",
+                       description="Manage the API keys that the service's write endpoints "
+                                   "require (Authorization: Bearer KEY).")
+    ks = p.add_subparsers(dest="keys_command", metavar="ACTION", parser_class=type(p))
+    c = ks.add_parser("create", help="create a key and print it (shown once)")
+    c.add_argument("--name", required=True, help="who or what the key is for")
+    c.set_defaults(func=run_create)
+    li = ks.add_parser("list", help="list keys (never the secrets)")
+    li.add_argument("--format", choices=("table", "json"), default="table")
+    li.set_defaults(func=run_list)
+    r = ks.add_parser("revoke", help="revoke a key by its id (or the full key)")
+    r.add_argument("key_id")
+    r.set_defaults(func=run_revoke)
+    p.set_defaults(func=lambda args: (p.print_help(), 2)[1])
+
+
+def _store():
+    from ..store import open_store
+    return open_store()
+
+
+def run_create(args) -> int:
+    from ..store import keys
+    from ..store.clock import utcnow
+    store = _store()
+    try:
+        with store.write() as s:
+            key, info = keys.create_key(s, args.name, utcnow())
+    except ValueError as exc:
+        from ..errors import OptionError
+        raise OptionError(str(exc), field="name") from None
+    print(f"created key {info.key_id} for {info.name!r}; store it now, it is not shown again:")
+    print(key)
+    return 0
+
+
+def run_list(args) -> int:
+    from ..store import keys
+    with _store().read() as s:
+        rows = [k.to_dict() for k in keys.list_keys(s)]
+    if args.format == "json":
+        print(json.dumps({"keys": rows}, indent=2))
+        return 0
+    print(f"{'key id':<14} {'status':<8} {'created':<21} name")
+    for r in rows:
+        print(f"{r['key_id']:<14} {r['status']:<8} {r['created_at']:<21} {r['name']}")
+    return 0
+
+
+def run_revoke(args) -> int:
+    from ..errors import OptionError
+    from ..store import keys
+    from ..store.clock import utcnow
+    with _store().write() as s:
+        info = keys.revoke_key(s, args.key_id, utcnow())
+    if info is None:
+        raise OptionError(f"key_id = {args.key_id!r}: no such key (see 'ptype keys list')",
+                          field="key_id")
+    print(f"revoked key {info.key_id} ({info.name})")
+    return 0
