@@ -32,9 +32,11 @@ class Site(_Strict):
 
     id: str | None = Field(None, max_length=100, description="Identifier chosen by the user.")
     name: str | None = Field(None, max_length=200, description="Human-readable site name.")
-    latitude: float | None = Field(None, ge=-90, le=90, description="Degrees north.")
-    longitude: float | None = Field(None, ge=-180, le=360, description="Degrees east.")
-    elevation_m: float | None = Field(None, ge=-500, le=9000,
+    latitude: float | None = Field(None, ge=-90, le=90, allow_inf_nan=False,
+                                   description="Degrees north.")
+    longitude: float | None = Field(None, ge=-180, le=360, allow_inf_nan=False,
+                                    description="Degrees east.")
+    elevation_m: float | None = Field(None, ge=-500, le=9000, allow_inf_nan=False,
                                       description="Station elevation above mean sea level, m.")
 
 
@@ -52,15 +54,26 @@ class Level(_Strict):
 
 
 class Surface(_Strict):
-    """Surface (screen-level and road) readings that go with the profile."""
+    """Surface (screen-level and road) readings that go with the profile.
 
-    temperature_2m_c: float | None = Field(None, description="Screen-level (2 m) air temperature, degC.")
-    dewpoint_2m_c: float | None = Field(None, description="Screen-level (2 m) dew point, degC.")
-    road_surface_temperature_c: float | None = Field(None, description="Road-surface temperature, degC.")
-    precipitation_rate_mm_h: float | None = Field(None, ge=0, description="Precipitation rate, mm/h (liquid equivalent).")
-    wind_speed_m_s: float | None = Field(None, ge=0, description="Wind speed, m/s.")
-    elevation_m: float | None = Field(None, ge=-500, le=9000, description="Station elevation, m.")
-    pressure_hpa: float | None = Field(None, description="Station pressure, hPa.")
+    Values must be finite and physically possible (common-practice bounds); a NaN or an
+    infinity here would silently switch off the surface checks of the diagnosis.
+    """
+
+    temperature_2m_c: float | None = Field(None, ge=-100, le=60, allow_inf_nan=False,
+                                           description="Screen-level (2 m) air temperature, degC.")
+    dewpoint_2m_c: float | None = Field(None, ge=-100, le=60, allow_inf_nan=False,
+                                        description="Screen-level (2 m) dew point, degC.")
+    road_surface_temperature_c: float | None = Field(None, ge=-80, le=80, allow_inf_nan=False,
+                                                     description="Road-surface temperature, degC.")
+    precipitation_rate_mm_h: float | None = Field(None, ge=0, le=500, allow_inf_nan=False,
+                                                  description="Precipitation rate, mm/h (liquid equivalent).")
+    wind_speed_m_s: float | None = Field(None, ge=0, le=150, allow_inf_nan=False,
+                                         description="Wind speed, m/s.")
+    elevation_m: float | None = Field(None, ge=-500, le=9000, allow_inf_nan=False,
+                                      description="Station elevation, m.")
+    pressure_hpa: float | None = Field(None, gt=0, le=1100, allow_inf_nan=False,
+                                       description="Station pressure, hPa.")
 
 
 class ProfileDocument(_Strict):

@@ -385,3 +385,22 @@ def test_json_schema_module_entry_point_prints_schema():
     out = subprocess.run([sys.executable, "-m", "ptype.document"], capture_output=True, text=True,
                          check=True, cwd=ROOT)
     assert json.loads(out.stdout) == json_schema()
+
+
+# --- surface and site readings ----------------------------------------------------------------
+
+@pytest.mark.parametrize("section, field, value, expected", [
+    ("surface", "temperature_2m_c", math.nan, "finite number"),
+    ("surface", "road_surface_temperature_c", math.inf, "finite number"),
+    ("surface", "road_surface_temperature_c", 500.0, "less than or equal to 80"),
+    ("surface", "pressure_hpa", 0.0, "greater than 0"),
+    ("surface", "precipitation_rate_mm_h", -1.0, "greater than or equal to 0"),
+    ("surface", "wind_speed_m_s", "3", "valid number"),
+    ("site", "latitude", math.nan, "finite number"),
+    ("site", "elevation_m", 12000.0, "less than or equal to 9000"),
+])
+def test_from_document_surface_and_site_values_checked(section, field, value, expected):
+    # A NaN road temperature would silently disable the surface checks downstream.
+    err = _error(_levels(), **{section: {field: value}})
+    assert str(err).startswith(f"{section}.{field}: ") and expected in str(err)
+    assert err.field == f"{section}.{field}"
