@@ -83,3 +83,11 @@ def test_show_bad_option_exit_2():
     out = _run(DATA / "fzra_sounding.json", "--format", "xml")
     assert out.returncode == 2 and "Traceback" not in out.stderr
     assert len(out.stderr.strip().splitlines()) == 1
+
+
+def test_show_temp_heading_names_station_and_day():
+    # TEMP carries no month or year: the heading shows the station and the message's day/hour.
+    out = _run(DATA / "fzra_sounding.temp")
+    assert out.returncode == 0, out.stderr
+    first = out.stdout.splitlines()[0]
+    assert first.startswith("99901 | WMO TEMP Part A+B, station 99901, day 15 12 UTC")

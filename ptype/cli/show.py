@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import json
 
-from .. import CAUTION, thermo
+from .. import CAUTION
 from ..readers import read_profile
 
 
@@ -46,10 +46,12 @@ def run(args) -> int:
         print(json.dumps(out, indent=2))
         return 0
     head = []
-    if profile.site is not None and profile.site.name:
-        head.append(profile.site.name)
+    if profile.site is not None and (profile.site.name or profile.site.id):
+        head.append(profile.site.name or profile.site.id)
     if profile.valid_time is not None:
         head.append(profile.valid_time.strftime("%Y-%m-%d %H:%M UTC"))
+    elif profile.source:
+        head.append(profile.source)  # e.g. a TEMP's day and hour when the month is unknown
     if head:
         print(" | ".join(head))
     print(f"{'p hPa':>8} {'z m':>7} {'T C':>6} {'Td C':>6} {'RH %':>5} {'Tw C':>6}")
