@@ -1,10 +1,10 @@
-"""Tests of ptype.methods.czys against Czys et al. (1996) as summarised in methods.md section 5.
+"""Tests of ptype.methods.czys against Czys et al. (1996) (docs/methods.md).
 
 The melting time is the textbook form t_m = rho_i L_f r0^2 / (2 f [K_a dT + L_v D_v d_rho_v])
-(Mason 1971; Pruppacher & Klett 1997 -- from memory, unverified, as the brief marks it);
+(Mason 1971; Pruppacher & Klett 1997 -- from memory, unverified);
 tau = (depth / fall speed) / t_m; tau >= 1 -> FZRA, tau < 1 -> PL, on three-layer profiles
 only (Rauber et al. 2001).  Expected values are recomputed here from those formulas with
-the brief's constants, independently of the module's code.
+textbook constants (from memory), independently of the module's code.
 """
 
 from __future__ import annotations
@@ -22,7 +22,7 @@ from ptype.errors import OptionError
 from ptype.methods import czys, get_method
 from ptype.methods.base import Context
 
-# Constants of methods.md section 5 (from memory there, [M]): rho_i, L_f, L_v, K_a.
+# Textbook constants near 0 degC (from memory, [M]): rho_i, L_f, L_v, K_a.
 RHO_I, LF, LV, KA = 917.0, 3.34e5, 2.5e6, 0.024
 RD, RV, T0 = 287.04, 461.5, 273.15
 
@@ -148,7 +148,7 @@ def tau_from_values(r, i=0):
 
 
 def test_run_mean_excess_is_layer_area_over_rd_lnp():
-    # Bourgouin-style area identity A = R_d * dT_mean * ln(p_b/p_t) (methods.md section 1).
+    # Bourgouin-style area identity A = R_d * dT_mean * ln(p_b/p_t) (Bourgouin 2000).
     r = run(P, three_layer(3.0))
     expected = r.value("warm_area_j_kg", 0) / (RD * math.log(r.value("warm_bottom_hpa", 0)
                                                               / r.value("warm_top_hpa", 0)))
@@ -202,7 +202,7 @@ def test_run_dry_warm_layer_cannot_melt():
 
 @pytest.mark.parametrize("cloud_c,decides", [(-10.1, True), (-9.9, False)])
 def test_run_ice_cloud_aloft_boundary(cloud_c, decides):
-    # Ice-producing cloud aloft: colder than about -10 degC (methods.md s.5/s.6, from memory).
+    # Ice-producing cloud aloft: colder than about -10 degC (from memory; common ice-nucleation guide).
     t = np.array([-3.0, -2.0, 3.0, 3.0, -2.0, -5.0, -7.0, -9.0, cloud_c])
     r = run(P, t)
     assert (r.code[0] != NO_RESULT) == decides

@@ -1,9 +1,9 @@
-"""Tests of ptype.methods.ramer against Ramer (1993) as summarised in methods.md section 3.
+"""Tests of ptype.methods.ramer against Ramer (1993) (docs/methods.md).
 
 Expected values are computed here, independently of the module, from the published
 formula ``dI = ln(p_b/p_t) * (T0 - Tw) / (E * RH)`` with E = 0.045 and the thresholds
 (2 degC, -6.6 degC, 80 %, 1.02, 0.04, 0.85) of Ramer (1993) as used operationally
-(methods.md section 3, confirmed there).  Saturated levels (Td = T) make the isobaric
+(operational model post-processing).  Saturated levels (Td = T) make the isobaric
 wet-bulb equal to T exactly and RH exactly 100 %, so the expected numbers are closed forms.
 """
 
@@ -21,7 +21,7 @@ from ptype.columns import Columns
 from ptype.methods import get_method, ramer
 from ptype.methods.base import Context
 
-E = 0.045  # Ramer (1993) melting coefficient (methods.md s.3, operational constant)
+E = 0.045  # Ramer (1993) melting coefficient (operational constant)
 
 
 def run_columns(p, t, td=None, **kw):
@@ -55,7 +55,7 @@ def test_module_interface():
 
 
 def test_ice_fraction_change_worked_magnitude():
-    # Ramer (1993), methods.md s.3 worked magnitude: 50 hPa near 850 hPa, 2 K warm, RH = 1
+    # Ramer (1993) worked magnitude: 50 hPa near 850 hPa, 2 K warm, RH = 1
     # gives dI ~ -2.6 (the particle melts fully).
     d_ice = ramer.ice_fraction_change(875.0, 825.0, 2.0, 1.0)
     assert d_ice == pytest.approx(-2.6, abs=0.05)
@@ -102,7 +102,7 @@ def test_run_final_ice_fraction_limits(target, inside, outside):
 
 
 def test_run_abstains_in_mix_band_when_asked():
-    # Operational multi-algorithm practice abstains between the limits (methods.md s.3, s.11).
+    # Operational multi-algorithm practice abstains between the limits (common practice).
     t = trapezoid_t(0.3)
     assert run_columns(TRAPEZOID_P, t).code[0] == Code.RASN
     r = run_columns(TRAPEZOID_P, t, abstain_on_mix=True)
@@ -199,7 +199,7 @@ def test_explain_carries_the_numbers():
     r = run_columns(TRAPEZOID_P, trapezoid_t(2.0, surface_c=-1.0))
     steps = r.steps(0)
     texts = " ".join(s.text for s in steps)
-    assert "Ice fraction after the warm layer 800\u2013900 hPa" in texts
+    assert "Ice fraction after the warm layer 900\u2013800 hPa" in texts
     assert "is 0.00: the particle melted completely" in texts
     final = steps[-1]
     assert final.rule == "liquid_freezing"

@@ -3,8 +3,7 @@
 Baldwin, M., R. Treadon and S. Contorno, 1994: Precipitation type prediction using a
 decision tree approach with a mesoscale model.  Preprints, 10th Conf. on Numerical Weather
 Prediction, Portland OR, Amer. Meteor. Soc., 30-31 (citation key ``Baldwin1994``).  All
-thresholds as used in operational model post-processing (brief ``methods.md`` section 4,
-confirmed there).  The revision (:mod:`ptype.methods.baldwin_revised`) only replaces the
+thresholds as used in operational model post-processing (see ``docs/methods.md``).  The revision (:mod:`ptype.methods.baldwin_revised`) only replaces the
 snow test (step 3).
 
 Baldwin's tree reads the **pseudo-adiabatic wet-bulb** ``Tw`` (Normand's rule; Columns'
@@ -37,7 +36,7 @@ equation with the interval's mean virtual temperature).  "Surface T" is the scre
 temperature when the profile has one, else the lowest level's.  Dew points come from the
 profile; Baldwin derived them with Tetens' formula from model humidity.
 
-Bias (brief section 4, quoting Reeves 2016): the original leans toward PL; the revision was
+Bias (Reeves 2016, as commonly quoted): the original leans toward PL; the revision was
 written to reduce its FZRA/PL bias.
 """
 

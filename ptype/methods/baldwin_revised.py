@@ -1,8 +1,7 @@
 """The 2005 revision of the Baldwin et al. (1994) decision tree.
 
-Written to reduce the original's freezing-rain/ice-pellet bias (brief ``methods.md``
-section 4, thresholds as used in operational model post-processing, confirmed there;
-citation key ``Baldwin1994``).  It keeps every step of :mod:`ptype.methods.baldwin` except the
+Written to reduce the original's freezing-rain/ice-pellet bias (thresholds as used in
+operational model post-processing, see ``docs/methods.md``; citation key ``Baldwin1994``).  It keeps every step of :mod:`ptype.methods.baldwin` except the
 snow test: instead of ``AREAP4 < 3000 K m`` it uses
 
 ``AREAP0 = integral of Tw dz`` over the parts with ``Tw >= 0 degC`` from the ground to the

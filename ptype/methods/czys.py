@@ -19,7 +19,7 @@ Czys abstains and says why.  Here "three-layer" means the air-temperature profil
 exactly three layers about 0 degC (cold, warm, cold from the ground up), the surface is below
 0 degC, and some cloud level (see :func:`ptype.layers.cloud_mask`) above the warm layer is
 at or below :data:`ICE_CLOUD_MAX_C` (about -10 degC, from memory: heterogeneous ice
-nucleation becomes likely below -10 degC, methods.md section 6).
+nucleation becomes likely below -10 degC).
 
 Melting time (Mason 1971; Pruppacher & Klett 1997; the form is from memory, unverified)::
 
@@ -28,7 +28,7 @@ Melting time (Mason 1971; Pruppacher & Klett 1997; the form is from memory, unve
 with ``dT`` the warm layer's mean excess over 0 degC, ``f`` the ventilation factor and
 ``rho_v`` vapour densities (ambient, and saturated at the melting surface).  A dry warm layer
 (``rho_v,inf < rho_v,s(0)``) slows melting through evaporative cooling; leaving the vapour
-term out (:data:`VAPOUR_TERM` False) gives the dry-air bound of the brief.
+term out (:data:`VAPOUR_TERM` False) gives the dry-air upper bound on ``t_m``.
 
 Choices (ours, documented in ``docs/methods.md``):
 
@@ -36,7 +36,7 @@ Choices (ours, documented in ``docs/methods.md``):
   The size Czys et al. used is not verified.  The value is chosen so that the ``tau = 1``
   line sits where Stewart & King's (1987) guide puts the partial/complete melting boundary
   for warm layers 1-2 km deep (maximum wet-bulb 1-3 degC: partial; above 3-4: complete;
-  methods.md section 6).  With 200 um every warm layer deeper than about 100 m would melt
+  see ``docs/methods.md``).  With 200 um every warm layer deeper than about 100 m would melt
   the particle.  ``t_m`` grows as r0^2, so the choice matters: pass ``radius_m``.
 * Fall speed: the drop the particle becomes, from the Atlas, Srivastava & Sekhon (1973) fit
   ``v = 9.65 - 10.3 exp(-0.6 D[mm])`` m/s to the Gunn & Kinzer (1949) measurements, scaled
@@ -72,7 +72,7 @@ WETBULB = None  # Czys et al. work on the air temperature
 #: Czys et al. used is not verified.
 PARTICLE_RADIUS_M = 750e-6
 #: Cloud above the warm layer must reach this temperature for ice, degC (about -10 degC,
-#: from memory; ice-nucleation guide of methods.md section 6).
+#: from memory; common ice-nucleation guide).
 ICE_CLOUD_MAX_C = -10.0
 #: Include the vapour (latent heat) term of the melting equation.
 VAPOUR_TERM = True
@@ -80,7 +80,7 @@ VAPOUR_TERM = True
 AIR_CONDUCTIVITY_W_M_K = 0.024
 #: Water-vapour diffusivity at 0 degC and 1013.25 hPa, m2 s-1 (P&K 1997, from memory).
 VAPOUR_DIFFUSIVITY_M2_S = 2.11e-5
-#: Latent heat of vaporisation near 0 degC, J kg-1 (methods.md section 5 value).
+#: Latent heat of vaporisation near 0 degC, J kg-1 (textbook value near 0 degC).
 LATENT_HEAT_VAPORIZATION = 2.5e6
 #: Schmidt number of water vapour in air (from memory, unverified).
 SCHMIDT_NUMBER = 0.6
@@ -347,10 +347,13 @@ def explain(result: MethodResult, i: int) -> list[Step]:
                   {"surface_temperature_c": 0.0}, SOURCE)]
     cmin = v["cloud_coldest_above_c"]
     if rule == "no_ice_cloud_aloft":
-        what = ("there is no cloud above the warm layer" if not np.isfinite(cmin) else
-                f"the cloud above the warm layer is no colder than {_f(cmin)} \u00b0C")
-        steps.append(Step(rule, f"But {what}, warmer than {_f(ICE_CLOUD_MAX_C)} \u00b0C, so it is "
-                          f"unlikely to make ice: {domain}.", {"cloud_coldest_above_c": cmin},
+        if np.isfinite(cmin):
+            text = (f"But the cloud above the warm layer is no colder than {_f(cmin)} \u00b0C, "
+                    f"warmer than {_f(ICE_CLOUD_MAX_C)} \u00b0C, so it is unlikely to make ice: "
+                    f"{domain}.")
+        else:
+            text = f"But there is no cloud above the warm layer to make ice: {domain}."
+        steps.append(Step(rule, text, {"cloud_coldest_above_c": cmin},
                           {"cloud_coldest_above_c": ICE_CLOUD_MAX_C}, SOURCE))
         return steps
     steps.append(Step("ice_cloud_aloft", f"Cloud above the warm layer reaches {_f(cmin)} \u00b0C "

@@ -3,7 +3,7 @@
 Ramer, J., 1993: An empirical technique for diagnosing precipitation type from model
 output.  Preprints, 5th Conf. on Aviation Weather Systems, Vienna VA, Amer. Meteor. Soc.,
 227-230 (citation key ``Ramer1993``).  Constants as used in operational model
-post-processing (brief ``methods.md`` section 3, confirmed there).
+post-processing (see ``docs/methods.md``).
 
 The method follows a particle from its generation level to the ground on the **isobaric
 wet-bulb** profile ``Tw`` and tracks its ice fraction ``I`` (1 = all ice, 0 = all liquid):
@@ -29,7 +29,7 @@ wet-bulb** profile ``Tw`` and tracks its ice fraction ``I`` (1 = all ice, 0 = al
    ``I <= 0.04`` -> FZRA if surface ``Tw < 0``, else RA.
 
 Between 0.04 and 0.85 the particle lands partly melted.  Operational multi-algorithm
-practice lets Ramer abstain there (brief section 11).  ptype reports a mix instead by
+practice lets Ramer abstain there and leaves the call to the other methods.  ptype reports a mix instead by
 default, chosen from what the particle went through:
 
 * surface ``Tw < 0 degC``: FZRAPL (liquid that freezes on contact with partly frozen
@@ -41,7 +41,7 @@ default, chosen from what the particle went through:
 Set :data:`ABSTAIN_ON_MIX` to True (or pass ``abstain_on_mix=True`` to :func:`run`) to
 abstain in that band as operational practice does.
 
-Worked magnitude (brief section 3): a 50 hPa layer centred near 850 hPa, ``Tw = +2 degC``,
+Worked magnitude: a 50 hPa layer centred near 850 hPa, ``Tw = +2 degC``,
 RH = 1 gives ``dI = ln(875/825) * (-2) / 0.045 = -2.6``: it melts completely.
 """
 
@@ -57,10 +57,10 @@ TITLE = "Ramer (1993) ice fraction"
 REFERENCE = "Ramer1993"
 WETBULB = "isobaric"
 
-#: Surface wet-bulb at or above which the gross check gives rain, degC (Ramer 1993; brief s.3).
+#: Surface wet-bulb at or above which the gross check gives rain, degC (Ramer 1993).
 GROSS_RAIN_SURFACE_TW_C = 2.0
 #: Wet-bulb below which liquid can begin to freeze, and at or below which the generation top
-#: produces ice, degC: 266.55 K (Ramer 1993; brief s.3).
+#: produces ice, degC: 266.55 K (Ramer 1993).
 FREEZING_ONSET_TW_C = -6.6
 #: Minimum RH of the generating layer, % (Ramer 1993 as implemented operationally; some
 #: secondary descriptions give 90 %, from memory, unverified).
@@ -421,7 +421,7 @@ def explain(result: MethodResult, i: int) -> list[Step]:
                 what = "the particle melted partly"
             else:
                 what = "nothing was left to melt"
-            text = (f"Ice fraction after the warm layer {st_top:.0f}\u2013{st_bot:.0f} hPa "
+            text = (f"Ice fraction after the warm layer {st_bot:.0f}\u2013{st_top:.0f} hPa "
                     f"(wet-bulb up to {_f(ext)} \u00b0C) is {i1:.2f}: {what}.")
             steps.append(Step("warm_layer", text, vals, {"wetbulb_c": 0.0}, SOURCE))
         else:
@@ -439,7 +439,7 @@ def explain(result: MethodResult, i: int) -> list[Step]:
                 what = "the particle refroze partly"
             else:
                 what = "the ice fraction is unchanged"
-            text = (f"Ice fraction after the cold layer {st_top:.0f}\u2013{st_bot:.0f} hPa "
+            text = (f"Ice fraction after the cold layer {st_bot:.0f}\u2013{st_top:.0f} hPa "
                     f"(wet-bulb down to {_f(ext)} \u00b0C) is {i1:.2f}: {what}.")
             steps.append(Step("cold_layer", text, vals,
                               {"wetbulb_c": 0.0, "freezing_onset_wetbulb_c": FREEZING_ONSET_TW_C},
