@@ -440,7 +440,7 @@ CASES = [
               "cold layer below -9 degC", set={}),
     dict(site="mistleby-bridge", hour=16, design="FZRA", formats=("csv", "temp"),
          note="freezing rain: warm nose near +6 degC over a shallow valley cold pool of -2 degC",
-         set={}),
+         set=dict(p_nose=880.0, ib_agl=25.0, t_ib=-2.4)),
     dict(site="mistleby-bridge", hour=22, design="FZDZ",
          note="freezing drizzle: dry slot aloft, stratus left in the cold pool, no ice in the "
               "cloud", set={}),
