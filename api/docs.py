@@ -43,6 +43,9 @@ EXAMPLE_CSV = ("# site_name: Kestrel Vale\n# valid_time: 2026-01-14T06:00Z\n"
                "900,1.5,1.0\n850,4.2,3.8\n800,1.0,0.6\n700,-6.5,-7.2\n600,-14.0,-15.5\n"
                "500,-23.0,-26.0\n")
 EXAMPLE_ERRORS = {
+    401: ("unauthorized", "this operation needs an API key", None),
+    403: ("forbidden", "this API key may not do that", None),
+    409: ("conflict", "a resource with that identifier already exists", "id"),
     400: ("invalid_option", "unknown query option 'member'; accepted: format, members, methods, "
                             "seed, wetbulb", "member"),
     404: ("not_found", "no demo sounding named 'nowhere.json'; GET /v1/demo lists them", "name"),
@@ -55,6 +58,8 @@ EXAMPLE_ERRORS = {
            "levels[2].temperature_c"),
 }
 ERROR_TEXT = {400: "Bad query option or unreadable JSON.", 404: "No such resource.",
+              401: "Missing or unknown API key.", 403: "Not allowed for this API key.",
+              409: "Conflicts with what is stored.",
               413: "Body, levels or batch larger than the server accepts.",
               415: "Content type not accepted.",
               422: "The body was read but is not a valid profile."}
@@ -111,10 +116,29 @@ OPERATIONS: list[dict[str, Any]] = [
 ]
 
 
-def _schemas() -> tuple[dict[str, dict], dict]:
+def all_operations() -> list[dict[str, Any]]:
+    """:data:`OPERATIONS` plus those other resource modules declare.
+
+    A blueprint module listed in ``api.BLUEPRINT_MODULES`` documents itself by exposing
+    ``OPENAPI_OPERATIONS``: a list of dicts of the same shape as :data:`OPERATIONS`
+    (``path``, ``method``, ``id``, ``tag``, ``summary``, ``description``, optional ``query``
+    model, ``path_params``, ``body`` {media type: {"model"|"schema", "example"}}, ``ok``
+    (media type, model) and ``errors`` (statuses answered with :class:`ErrorResponse`)).
+    """
+    import importlib
+
+    from . import BLUEPRINT_MODULES
+    ops = list(OPERATIONS)
+    for name in BLUEPRINT_MODULES:
+        module = importlib.import_module(name)
+        ops += list(getattr(module, "OPENAPI_OPERATIONS", ()))
+    return ops
+
+
+def _schemas(operations: list[dict]) -> tuple[dict[str, dict], dict]:
     """Component schemas of every model used, with `#/components/schemas/...` references."""
     used: list[type[BaseModel]] = [m.ErrorResponse]
-    for op in OPERATIONS:
+    for op in operations:
         for spec in (op.get("body") or {}).values():
             if "model" in spec:
                 used.append(spec["model"])
@@ -144,20 +168,24 @@ def _query_parameters(model: type[BaseModel]) -> list[dict]:
 
 
 def _error_response(status: int, ref: str) -> dict:
-    code, message, field = EXAMPLE_ERRORS[status]
+    code, message, field = EXAMPLE_ERRORS.get(status, ("error", "what went wrong", None))
     example = {"error": {"code": code, "message": message}}
     if field:
         example["error"]["field"] = field
-    return {"description": ERROR_TEXT[status],
+    return {"description": ERROR_TEXT.get(status, "Error."),
             "content": {"application/json": {"schema": {"$ref": ref}, "example": example}}}
 
 
 def build_openapi(max_body_bytes: int | None = None) -> dict:
     """The OpenAPI 3.1 document of the service."""
-    schemas, refs = _schemas()
+    operations = all_operations()
+    schemas, refs = _schemas(operations)
     error_ref = refs[m.ErrorResponse]
     paths: dict[str, dict] = {}
-    for op in OPERATIONS:
+    tags: list[str] = []
+    for op in operations:
+        if op["tag"] not in tags:
+            tags.append(op["tag"])
         operation: dict[str, Any] = {"operationId": op["id"], "tags": [op["tag"]],
                                      "summary": op["summary"], "description": op["description"]}
         params = []
@@ -175,7 +203,9 @@ def build_openapi(max_body_bytes: int | None = None) -> dict:
                 content[mime] = {"schema": schema, "example": spec["example"]}
             operation["requestBody"] = {"required": True, "content": content}
         kind, model = op["ok"]
-        if kind == "image":
+        if model is None and kind not in ("image", "document"):
+            ok = {"description": "Success.", "content": {kind: {"schema": {"type": "string"}}}}
+        elif kind == "image":
             ok = {"description": "The diagram.",
                   "content": {"image/png": {"schema": {"type": "string", "format": "binary"}},
                               "image/svg+xml": {"schema": {"type": "string"}}}}
@@ -202,8 +232,7 @@ def build_openapi(max_body_bytes: int | None = None) -> dict:
                                 + limit + "\n\n" + ptype.CAUTION,
                  "license": {"name": "Apache-2.0", "identifier": "Apache-2.0"}},
         "jsonSchemaDialect": "https://spec.openapis.org/oas/3.1/dialect/base",
-        "tags": [{"name": "Diagnosis"}, {"name": "Diagram"}, {"name": "Demo"},
-                 {"name": "Service"}],
+        "tags": [{"name": tag} for tag in tags],
         "paths": paths,
         "components": {"schemas": schemas},
     }
@@ -270,7 +299,7 @@ def _type_text(prop: dict) -> str:
 def docs_page():
     doc = _document()
     operations = []
-    for op in OPERATIONS:
+    for op in all_operations():
         spec = doc["paths"][op["path"]][op["method"]]
         operations.append({
             "anchor": op["id"], "method": op["method"].upper(), "path": op["path"],
