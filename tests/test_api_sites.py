@@ -1,0 +1,187 @@
+"""Tests of the sites, profiles, observations, timeline and alerts endpoints."""
+
+import pytest
+from series_helpers import storm_docs
+
+from api import create_app
+from ptype.store import keys
+from ptype.store.clock import parse_time
+
+NOW = "2026-01-27T00:00:00Z"
+
+
+@pytest.fixture
+def app(tmp_path):
+    app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True, "PTYPE_NOW": NOW,
+                      "PTYPE_ALERT_MEMBERS": 5})
+    yield app
+    app.extensions["ptype_store"].dispose()
+
+
+@pytest.fixture
+def client(app):
+    return app.test_client()
+
+
+def _key(app, name="ops"):
+    with app.extensions["ptype_store"].write() as s:
+        return keys.create_key(s, name, parse_time(NOW))
+
+
+@pytest.fixture
+def auth(app):
+    key, _ = _key(app)
+    return {"Authorization": f"Bearer {key}"}
+
+
+SITE = {"name": "Test Hill", "latitude": 47.1, "longitude": -33.2, "elevation_m": 100.0}
+
+
+def _site(client, auth, **extra):
+    r = client.post("/v1/sites", json={**SITE, **extra}, headers=auth)
+    assert r.status_code == 201, r.json
+    return r.json["id"]
+
+
+def test_post_site_without_key_401(client):
+    r = client.post("/v1/sites", json=SITE)
+    assert r.status_code == 401 and r.json["error"]["field"] == "Authorization"
+
+
+def test_post_site_wrong_or_revoked_key(app, client):
+    key, info = _key(app)
+    assert client.post("/v1/sites", json=SITE,
+                       headers={"Authorization": "Bearer ptk_abc_def"}).status_code == 401
+    assert client.post("/v1/sites", json=SITE,
+                       headers={"Authorization": f"Token {key}"}).status_code == 401
+    assert client.post("/v1/sites", json=SITE,
+                       headers={"Authorization": f"Bearer {key}"}).status_code == 201
+    with app.extensions["ptype_store"].write() as s:
+        keys.revoke_key(s, info.key_id, parse_time(NOW))
+    # Revocation applies at once, even to a key this process has already verified.
+    assert client.post("/v1/sites", json=SITE,
+                       headers={"Authorization": f"Bearer {key}"}).status_code == 403
+
+
+def test_read_endpoints_open(client, auth):
+    site = _site(client, auth)
+    assert client.get("/v1/sites").status_code == 200
+    assert client.get(f"/v1/sites/{site}").status_code == 200
+    assert client.get("/v1/alerts").status_code == 200
+    assert client.get("/healthz").status_code == 200
+
+
+def test_post_site_returns_id_and_lists(client, auth):
+    site = _site(client, auth, thresholds={"freezing_probability": 0.5}, code="th-1")
+    r = client.get(f"/v1/sites/{site}")
+    assert r.json["name"] == "Test Hill" and r.json["thresholds"] == {"freezing_probability": 0.5}
+    assert [s["id"] for s in client.get("/v1/sites").json["sites"]] == [site]
+    assert client.post("/v1/sites", json={**SITE, "code": "th-1"}, headers=auth).status_code == 409
+
+
+@pytest.mark.parametrize("body,field", [
+    ({"latitude": 1, "longitude": 1}, "name"),
+    ({**SITE, "latitude": 95}, "latitude"),
+    ({**SITE, "colour": "red"}, "colour"),
+    ({**SITE, "thresholds": {"freezing_probability": 2}}, "thresholds.freezing_probability"),
+])
+def test_post_site_invalid_names_field(client, auth, body, field):
+    r = client.post("/v1/sites", json=body, headers=auth)
+    assert r.status_code == 422 and r.json["error"]["field"] == field
+
+
+def test_get_site_404(client):
+    r = client.get("/v1/sites/999")
+    assert r.status_code == 404 and "999" in r.json["error"]["message"]
+
+
+def test_post_profiles_all_or_nothing(client, auth):
+    site = _site(client, auth)
+    docs = storm_docs()
+    bad = dict(docs[1])
+    bad["levels"] = [dict(lv) for lv in docs[1]["levels"]]
+    bad["levels"][2]["temperature_c"] = 99.0
+    r = client.post(f"/v1/sites/{site}/profiles",
+                    json={"profiles": [docs[0], bad], "source": "model"}, headers=auth)
+    assert r.status_code == 422
+    assert r.json["error"]["field"] == "profiles[1].levels[2].temperature_c"
+    assert "profiles[1]" in r.json["error"]["message"]
+    assert client.get(f"/v1/sites/{site}").json["latest_issue"] is None  # nothing stored
+
+
+def test_post_profiles_requires_valid_time(client, auth):
+    site = _site(client, auth)
+    doc = dict(storm_docs()[0])
+    del doc["valid_time"]
+    r = client.post(f"/v1/sites/{site}/profiles", json={"profiles": [doc]}, headers=auth)
+    assert r.status_code == 422 and r.json["error"]["field"] == "profiles[0].valid_time"
+
+
+def test_post_profiles_repost_replaces(client, auth):
+    site = _site(client, auth)
+    body = {"profiles": storm_docs(), "source": "model", "issued_time": NOW}
+    r = client.post(f"/v1/sites/{site}/profiles", json=body, headers=auth)
+    assert r.status_code == 201 and r.json["stored"] == 4 and r.json["replaced"] == 0
+    r = client.post(f"/v1/sites/{site}/profiles", json=body, headers=auth)
+    assert r.json["replaced"] == 4
+    info = client.get(f"/v1/sites/{site}").json["latest_issue"]
+    assert info["profiles"] == 4 and info["source"] == "model"
+
+
+def test_post_observations_single_and_batch(client, auth):
+    site = _site(client, auth)
+    ob = {"time": "2026-01-26T23:50:00Z", "air_temperature_c": -2.5, "dewpoint_c": -3.0,
+          "road_surface_temperature_c": -1.0, "precipitation_rate_mm_h": 0.0,
+          "wind_speed_m_s": 4.0, "present_weather": "-SN"}
+    assert client.post(f"/v1/sites/{site}/observations", json=ob, headers=auth).status_code == 201
+    r = client.post(f"/v1/sites/{site}/observations",
+                    json={"observations": [ob, {**ob, "time": "2026-01-26T23:55:00Z"}]},
+                    headers=auth)
+    assert r.status_code == 201 and r.json["stored"] == 2
+    latest = client.get(f"/v1/sites/{site}").json["latest_observation"]
+    assert latest["time"] == "2026-01-26T23:55:00Z"
+    r = client.post(f"/v1/sites/{site}/observations",
+                    json={**ob, "precipitation_rate_mm_h": -1}, headers=auth)
+    assert r.status_code == 422 and r.json["error"]["field"] == "precipitation_rate_mm_h"
+
+
+def test_timeline_endpoint_shape(client, auth):
+    site = _site(client, auth)
+    client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs(), "issued_time": NOW},
+                headers=auth)
+    r = client.get(f"/v1/sites/{site}/timeline?hours=6&step=30min&members=5")
+    assert r.status_code == 200
+    body = r.json
+    assert len(body["steps"]) == 13 and body["caution"]
+    step = body["steps"][0]
+    assert {"valid_time", "ptype", "probabilities", "hazards"} <= set(step)
+    assert body["transitions"] and {"time", "from", "to"} == set(body["transitions"][0])
+    assert "ice_accretion_mm" in body["totals"]
+    bad = client.get(f"/v1/sites/{site}/timeline?step=banana")
+    assert bad.status_code == 400 and bad.json["error"]["field"] == "step"
+
+
+def test_ingest_raises_alerts_with_cap_and_atom(client, auth):
+    site = _site(client, auth)
+    client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs(), "issued_time": NOW},
+                headers=auth)
+    alerts = client.get("/v1/alerts").json["alerts"]
+    events = {a["event"] for a in alerts}
+    assert "freezing_precipitation" in events
+    a = next(a for a in alerts if a["event"] == "freezing_precipitation")
+    assert a["status"] == "active" and a["msg_type"] == "Alert" and a["references"] == []
+    assert a["site"]["id"] == site
+    cap = client.get(f"/v1/alerts/{a['id']}.cap")
+    assert cap.status_code == 200 and cap.mimetype == "application/cap+xml"
+    assert b"urn:oasis:names:tc:emergency:cap:1.2" in cap.data
+    feed = client.get("/v1/alerts.atom")
+    assert feed.mimetype == "application/atom+xml" and a["id"].encode() in feed.data
+    assert client.get("/v1/alerts/nope.cap").status_code == 404
+
+
+def test_sites_page_lists_sites_and_links_home(client, auth):
+    _site(client, auth)
+    r = client.get("/sites")
+    assert r.status_code == 200
+    html = r.get_data(as_text=True)
+    assert "Test Hill" in html and 'href="/"' in html and "Guidance only" in html
