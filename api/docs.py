@@ -46,14 +46,14 @@ EXAMPLE_ERRORS = {
     401: ("unauthorized", "this operation needs an API key", None),
     403: ("forbidden", "this API key may not do that", None),
     409: ("conflict", "a resource with that identifier already exists", "id"),
-    400: ("invalid_option", "unknown query option 'member'; accepted: format, members, methods, "
-                            "seed, wetbulb", "member"),
+    400: ("invalid_option", ("unknown query option 'member'; accepted: input, members, methods, "
+                            "seed, wetbulb"), "member"),
     404: ("not_found", "no demo sounding named 'nowhere.json'; GET /v1/demo lists them", "name"),
     413: ("request_entity_too_large", "request body is larger than the limit of 1048576 bytes",
           None),
-    415: ("unsupported_media_type", "Content-Type 'application/xml' is not accepted; send "
+    415: ("unsupported_media_type", ("Content-Type 'application/xml' is not accepted; send "
                                     "application/json (profile document), text/csv or "
-                                    "text/plain (WMO TEMP or CSV)", None),
+                                    "text/plain (WMO TEMP or CSV)"), None),
     422: ("invalid_profile", "levels[2].temperature_c = 'warm': expected a number",
            "levels[2].temperature_c"),
 }

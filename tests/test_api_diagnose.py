@@ -7,12 +7,12 @@ from __future__ import annotations
 import json
 
 import pytest
+from api_support import document_to_csv, freezing_rain_document, snow_document
 
 import ptype
 from api import create_app
 from api.models import BatchResponse, Diagnosis, ErrorResponse
 from ptype.readers.temp_format import write_temp
-from api_support import document_to_csv, freezing_rain_document, snow_document
 
 
 @pytest.fixture(scope="module")
@@ -129,9 +129,9 @@ HOSTILE_JSON = [
     ("array", "[1, 2, 3]", 422, "invalid_profile", None),
     ("string", '"levels"', 422, "invalid_profile", None),
     ("deep", "[" * 100000 + "]" * 100000, 400, "invalid_json", None),
-    ("huge_number", '{"levels": [{"pressure_hpa": 1e999, "temperature_c": 1, "dewpoint_c": 0},'
+    ("huge_number", ('{"levels": [{"pressure_hpa": 1e999, "temperature_c": 1, "dewpoint_c": 0},'
                     '{"pressure_hpa": 900, "temperature_c": 1, "dewpoint_c": 0},'
-                    '{"pressure_hpa": 800, "temperature_c": 1, "dewpoint_c": 0}]}',
+                    '{"pressure_hpa": 800, "temperature_c": 1, "dewpoint_c": 0}]}'),
      422, "invalid_profile", "levels[0].pressure_hpa"),
 ]
 

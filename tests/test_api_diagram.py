@@ -8,10 +8,10 @@ import re
 import xml.etree.ElementTree as ET
 
 import pytest
+from api_support import freezing_rain_document, snow_document
 
 import ptype
 from api import create_app
-from api_support import freezing_rain_document, snow_document
 from ptype.diagram import draw_diagram
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C / ISO/IEC 15948), section 5.2
