@@ -204,3 +204,12 @@ def test_read_netcdf_document_altitude_when_no_geopotential_height(tmp_path):
                  {"standard_name": "altitude", "units": "m"})
     doc = read_netcdf_document(_write(ds, tmp_path))
     assert [lvl["height_m"] for lvl in doc["levels"]][::11] == [310.0, 9000.0]
+
+
+@pytest.mark.parametrize("file_format", ["NETCDF4", "NETCDF3_CLASSIC"])
+def test_read_profile_netcdf_bytes_detected(tmp_path, file_format):
+    # HDF5-based NetCDF-4 starts with the HDF5 signature, classic NetCDF with 'CDF'.
+    path = tmp_path / "profile.nc"
+    _dataset().to_netcdf(path, format=file_format)
+    prof = read_profile(path.read_bytes())
+    assert prof.n_levels == P_HPA.size
