@@ -107,6 +107,14 @@ def test_read_temp_document_worked_example_valid_time_with_year_month():
     assert doc["valid_time"] == "2026-01-15T12:00:00+00:00"
 
 
+@pytest.mark.parametrize("date", ["65127", "15127"])
+def test_read_temp_document_day_with_and_without_knots_offset_from_memory(date):
+    # From memory (standards.md 1.3, unverified): YY + 50 flags wind speeds in knots; the day
+    # is the same either way (65 -> 15 kt, 15 -> 15 m/s).
+    doc = read_temp_document(WORKED_EXAMPLE.replace("65127", date).replace("65128", date[:4] + "8"))
+    assert "day 15 12 UTC" in doc["source"]
+
+
 def test_read_temp_document_bad_calendar_date():
     with pytest.raises(ReaderError, match="day 15 with year 2026 and month 13"):
         read_temp_document(WORKED_EXAMPLE, year=2026, month=13)
@@ -272,7 +280,8 @@ def _part_a_with_winds(last_wind_hpa: float | None, id_figure: str) -> str:
     (200, "2"), (100, "1"), (None, "/")])
 def test_read_temp_document_wind_groups_up_to_id_level(last_wind, figure):
     # From memory (Code table 1734, unverified): Id is the leading figure of the last standard
-    # surface with a wind group; above it each surface has only PPhhh TTTaDD.
+    # surface with a wind group; above it each surface has only PPhhh TTTaDD.  The surface
+    # keeps its wind group even with Id '/' (from memory, unverified).
     doc = read_temp_document(_part_a_with_winds(last_wind, figure))
     assert len(doc["levels"]) == 12  # surface + 11 standard surfaces
     assert _by_pressure(doc)[500.0]["temperature_c"] == -19.9
