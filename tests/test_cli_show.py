@@ -91,3 +91,28 @@ def test_show_temp_heading_names_station_and_day():
     assert out.returncode == 0, out.stderr
     first = out.stdout.splitlines()[0]
     assert first.startswith("99901 | WMO TEMP Part A+B, station 99901, day 15 12 UTC")
+
+
+def test_show_netcdf_from_stdin(tmp_path):
+    import numpy as np
+    import xarray as xr
+    p = np.array([1000.0, 900.0, 800.0, 700.0])
+    ds = xr.Dataset(
+        {"ta": ("z", [275.15, 272.15, 268.15, 263.15], {"standard_name": "air_temperature", "units": "K"}),
+         "hur": ("z", [90.0, 85.0, 70.0, 60.0], {"standard_name": "relative_humidity", "units": "%"})},
+        coords={"z": ("z", p, {"standard_name": "air_pressure", "units": "hPa"})})
+    path = tmp_path / "p.nc"
+    ds.to_netcdf(path)
+    out = subprocess.run([str(PTYPE), "show", "-", "--format", "json"], input=path.read_bytes(),
+                         capture_output=True, timeout=120, check=False, cwd=ROOT)
+    assert out.returncode == 0, out.stderr
+    doc = json.loads(out.stdout)
+    assert [lvl["pressure_hpa"] for lvl in doc["levels"]] == [1000.0, 900.0, 800.0, 700.0]
+    assert doc["levels"][0]["temperature_c"] == pytest.approx(2.0)
+
+
+def test_show_binary_garbage_on_stdin_exit_2():
+    out = subprocess.run([str(PTYPE), "show", "-"], input=b"\xff\xfe\x00garbage", capture_output=True,
+                         timeout=120, check=False, cwd=ROOT)
+    assert out.returncode == 2 and b"Traceback" not in out.stderr
+    assert out.stderr.decode().strip() == "ptype show: error: <text>: not UTF-8 text"

@@ -35,7 +35,8 @@ def profile_rows(profile) -> list[dict]:
 
 def run(args) -> int:
     import sys
-    source = sys.stdin.read() if args.path == "-" else args.path
+    # Standard input as bytes: text formats are decoded as UTF-8, NetCDF is recognised by its signature.
+    source = sys.stdin.buffer.read() if args.path == "-" else args.path
     profile = read_profile(source, format=args.input_format)
     rows = profile_rows(profile)
     if args.format == "json":
