@@ -101,6 +101,33 @@ def test_run_final_ice_fraction_limits(target, inside, outside):
     assert list(r.code) == [inside, outside]
 
 
+def test_run_mix_over_freezing_surface_is_fzrapl():
+    # Ramer (1993) march: the trapezoid leaves I = 1 + trapezoid_melt(0.3); a 5 hPa surface
+    # layer from 0 to -0.5 degC then refreezes the partly melted particle by
+    # ln(1000/995) * 0.25 / E.  In the undecided band over Tw < 0: ptype's FZRAPL.
+    p = [1000.0, 995.0, 900.0, 875.0, 825.0, 800.0, 700.0, 500.0]
+    t = [-0.5, 0.0, 0.0, 0.3, 0.3, 0.0, -10.0, -25.0]
+    r = run_columns(p, t)
+    expected = 1.0 + trapezoid_melt(0.3) + math.log(1000 / 995) * 0.25 / E
+    assert r.value("ice_fraction", 0) == pytest.approx(expected, abs=1e-9)
+    assert r.code[0] == Code.FZRAPL and ramer.RULES[r.rule[0]] == "mix_freezing"
+
+
+def test_run_mix_after_refreezing_is_rapl():
+    # Ramer (1993) march: a 2 K plateau melts the particle (was liquid), the layer colder than
+    # -6.6 degC near 925 hPa starts refreezing, which then continues at any Tw < 0 up to I = 1;
+    # a surface warm layer 960-1000 hPa (0 -> +0.5 degC) melts back ln(1000/960) * 0.25 / E.
+    p = [1000.0, 960.0, 925.0, 900.0, 875.0, 825.0, 800.0, 700.0, 500.0]
+    t = [0.5, 0.0, -8.0, 0.0, 2.0, 2.0, 0.0, -10.0, -25.0]
+    r = run_columns(p, t)
+    expected = 1.0 - math.log(1000 / 960) * 0.25 / E
+    assert r.value("ice_fraction", 0) == pytest.approx(expected, abs=1e-9)
+    assert r.value("was_liquid", 0) == 1.0
+    assert r.code[0] == Code.RAPL and ramer.RULES[r.rule[0]] == "mix_refrozen_rain"
+    texts = [s.text for s in r.steps(0)]
+    assert any("is 1.00: the particle refroze completely" in t for t in texts)
+
+
 def test_run_abstains_in_mix_band_when_asked():
     # Operational multi-algorithm practice abstains between the limits (common practice).
     t = trapezoid_t(0.3)
