@@ -68,38 +68,42 @@ REGION = {
 }
 
 #: The road-weather sites.  ``temp_station`` is the invented five-digit number used in the
-#: WMO TEMP copies; ``road`` holds optional site thresholds for road alerts.
+#: WMO TEMP copies; ``road_surface`` describes the pavement; the optional ``thresholds``
+#: override the alert defaults of :mod:`ptype.alerts.rules` for that site (bridge decks ice
+#: first, so their freezing-precipitation alerts start at a lower probability; the pass is
+#: ploughed at a lower snowfall rate).
 SITES = [
     {"id": "korrim-pass", "name": "Korrim Pass", "latitude": 47.412, "longitude": -33.187,
      "elevation_m": 1380.0, "temp_station": "99911",
      "description": "Mountain pass on the trunk road over the Korrim range; exposed, "
                     "snow-prone, often in cloud.",
-     "road": {"surface": "asphalt, exposed", "treat_below_road_c": 1.0}},
+     "road_surface": "asphalt, exposed", "thresholds": {"snow_rate_mm_h": 0.5}},
     {"id": "drovan-junction", "name": "Drovan Plateau Junction", "latitude": 47.296,
      "longitude": -33.402, "elevation_m": 720.0, "temp_station": "99912",
      "description": "Junction on the open moorland plateau; deep cold air pools here "
                     "under a warm nose.",
-     "road": {"surface": "asphalt", "treat_below_road_c": 1.0}},
+     "road_surface": "asphalt"},
     {"id": "tessary-viaduct", "name": "Tessary Gorge Viaduct", "latitude": 47.233,
      "longitude": -33.561, "elevation_m": 390.0, "temp_station": "99913",
      "description": "Concrete viaduct over the Tessary gorge; the deck cools faster "
                     "than the approach roads.",
-     "road": {"surface": "concrete bridge deck", "treat_below_road_c": 1.5}},
+     "road_surface": "concrete bridge deck", "thresholds": {"freezing_probability": 0.2}},
     {"id": "ulmbrook-cutting", "name": "Ulmbrook Cutting", "latitude": 47.158,
      "longitude": -33.702, "elevation_m": 260.0, "temp_station": "99914",
      "description": "Motorway cutting in the rolling lowland east of the coast; shaded, "
                     "holds frost in the morning.",
-     "road": {"surface": "asphalt, shaded", "treat_below_road_c": 1.0}},
+     "road_surface": "asphalt, shaded"},
     {"id": "mistleby-bridge", "name": "Mistleby Valley Bridge", "latitude": 47.341,
      "longitude": -33.655, "elevation_m": 140.0, "temp_station": "99915",
      "description": "Bridge over the river in the enclosed Mistleby valley; cold air "
                     "drains into the valley and lingers long after the hills have thawed.",
-     "road": {"surface": "steel-concrete bridge deck", "treat_below_road_c": 1.5}},
+     "road_surface": "steel-concrete bridge deck",
+     "thresholds": {"freezing_probability": 0.2, "freezing_window_hours": 9.0}},
     {"id": "sennet-causeway", "name": "Sennet Causeway", "latitude": 47.021,
      "longitude": -33.948, "elevation_m": 4.0, "temp_station": "99916",
      "description": "Low causeway across the tidal flats on the south-west coast; "
                     "the sea keeps the surface air mild.",
-     "road": {"surface": "asphalt on embankment", "treat_below_road_c": 0.5}},
+     "road_surface": "asphalt on embankment"},
 ]
 SITE_BY_ID = {s["id"]: s for s in SITES}
 

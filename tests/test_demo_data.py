@@ -269,6 +269,10 @@ def test_sites_are_complete():
     for s in sites:
         assert set(s) >= {"id", "name", "latitude", "longitude", "elevation_m", "description"}
         assert -90 <= s["latitude"] <= 90 and -180 <= s["longitude"] <= 180
+        # Optional alert thresholds use the alert rules' own keys and types.
+        from ptype.alerts.rules import DEFAULT_THRESHOLDS
+        for key, value in s.get("thresholds", {}).items():
+            assert type(value) is type(DEFAULT_THRESHOLDS[key]), key
     by_id = {s["id"]: s for s in sites}
     for path in _files("json") + _files("series"):
         site = json.loads(path.read_text(encoding="utf-8"))["site"]
