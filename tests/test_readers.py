@@ -15,6 +15,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from ptype import read_profile
 from ptype.errors import ProfileError, ReaderError
@@ -213,3 +215,24 @@ def test_read_profile_docs_examples():
     assert a.n_levels == b.n_levels == 4
     assert a.site.name == b.site.name and a.valid_time == b.valid_time
     assert a.surface.road_surface_temperature_c == b.surface.road_surface_temperature_c == -3.1
+
+
+# --- robustness: any text is a profile or a one-line ProfileError/ReaderError ---------------
+
+_CSV_PIECES = st.sampled_from(["pressure_hpa", "temperature_c", "dewpoint_c", "height_m", ",", "\n",
+                               "# ", "site_id: A", "elevation_m: x", "1000", "900", "-5.5", "",
+                               "nan", "inf", "\"", "1e999", "surface.wind_speed_m_s: 3", "{", "TTAA"])
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.one_of(_CSV_PIECES, st.text(max_size=4)), max_size=40))
+def test_read_profile_fuzz_only_profile_errors(pieces):
+    text = "".join(pieces)
+    try:
+        read_profile(text, format="csv")
+    except ProfileError as exc:  # ReaderError is a ProfileError
+        assert "\n" not in str(exc)
+    try:
+        read_profile(text)
+    except ProfileError as exc:
+        assert "\n" not in str(exc)

@@ -17,7 +17,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from ptype.errors import ReaderError
+from ptype.errors import ProfileError, ReaderError
 from ptype.profile import Profile
 from ptype.readers import detect_format, read_profile
 from ptype.readers.temp_format import (
@@ -568,3 +568,35 @@ def test_write_temp_bad_arguments():
         write_temp(SOUNDING, station="ABCDE")
     with pytest.raises(ValueError, match="expected 1-31 and 0-23"):
         write_temp(SOUNDING, day=0)
+
+
+# --- robustness: any text gives a document or a ReaderError, never another exception ---------
+
+_TOKENS = st.sampled_from(["TTAA", "TTBB", "TTCC", "NIL", "=", "\n", "99985", "00130", "/////",
+                           "85415", "03410", "21540", "88230", "88999", "77999", "77240", "41020",
+                           "21212", "31313", "41414", "51515", "11940", "00304", "22900", "65127",
+                           "07999", "1512/", "00153", "12345", "559//"])
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.one_of(_TOKENS, st.text("0123456789/ =", min_size=1, max_size=6)), max_size=40))
+def test_read_temp_document_fuzz_only_reader_errors(tokens):
+    text = " ".join(tokens)
+    try:
+        doc = read_temp_document(text, "fuzz")
+    except ReaderError as exc:
+        assert str(exc).startswith("fuzz") and "\n" not in str(exc)
+        return
+    try:
+        Profile.from_document(doc)
+    except ProfileError:
+        pass
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.sampled_from(WORKED_EXAMPLE.split()), min_size=1, max_size=60))
+def test_read_temp_document_fuzz_shuffled_groups(groups):
+    try:
+        read_temp_documents(" ".join(groups), "fuzz")
+    except ReaderError as exc:
+        assert str(exc).startswith("fuzz")
