@@ -1,0 +1,112 @@
+"""``ptype grid IN.nc [IN2.nc ...] -o OUT.nc``: diagnose every column of model output."""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+
+from .. import CAUTION
+
+
+def register(sub) -> None:
+    p = sub.add_parser(
+        "grid", help="diagnose every column of CF NetCDF model output on pressure levels",
+        description="Read CF NetCDF model output on pressure levels (variables found by CF "
+                    "standard_name; several files are combined along time), diagnose the "
+                    "precipitation type of every column in chunks, and write CF-1.13 NetCDF with "
+                    "the type as WMO GRIB2 code table 4.201 values, layer energies, the "
+                    "wet-bulb-zero height and, with --members, per-type probabilities.",
+        epilog="Example: ptype grid soundings_demo/grid/demo_grid.nc -o ptype_grid.nc "
+               "--members 20 --seed 1 --plot ptype_grid.png")
+    p.add_argument("inputs", nargs="+", metavar="IN.nc", help="model output file(s)")
+    p.add_argument("-o", "--output", required=True, metavar="OUT.nc", help="NetCDF file to write")
+    p.add_argument("--members", type=int, default=0, metavar="N",
+                   help="Monte-Carlo members per column for probabilities (default 0: none)")
+    p.add_argument("--seed", type=int, default=None, metavar="S",
+                   help="seed for the members (reproducible for the same seed and chunks)")
+    p.add_argument("--chunks", default=None, metavar="DIM=SIZE,...",
+                   help="chunk sizes by dimension name, e.g. y=256,x=256 (default: about "
+                        "32768 columns per chunk, one time step)")
+    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                   help="run on a dask.distributed scheduler at ADDRESS (e.g. tcp://host:8786)")
+    p.add_argument("--methods", default=None, metavar="NAME,...",
+                   help="restrict to these methods (default: all)")
+    p.add_argument("--per-method", action="store_true",
+                   help="also write one type variable per method")
+    p.add_argument("--plot", default=None, metavar="MAP.png", help="also draw a map of the type")
+    p.add_argument("--plot-time", type=int, default=0, metavar="INDEX",
+                   help="time step drawn by --plot (default 0, the first)")
+    p.add_argument("--progress", action=argparse.BooleanOptionalAction, default=None,
+                   help="show a progress bar (default: when standard error is a terminal)")
+    p.set_defaults(func=run)
+
+
+def run(args) -> int:
+    from .. import grid
+    from ..errors import OptionError
+
+    if os.path.abspath(args.output) in {os.path.abspath(p) for p in args.inputs}:
+        raise OptionError(f"output {args.output}: would overwrite an input file", field="output")
+    out_dir = os.path.dirname(os.path.abspath(args.output))
+    if not os.path.isdir(out_dir):
+        raise OptionError(f"output {args.output}: directory {out_dir} does not exist",
+                          field="output")
+    progress = sys.stderr.isatty() if args.progress is None else args.progress
+    chunks = grid.parse_chunks(args.chunks)
+    client = None
+    if args.scheduler:
+        client = _connect(args.scheduler)
+    try:
+        start = time.perf_counter()
+        ds = grid.open_grid(args.inputs, chunks)
+        out = grid.diagnose_dataset(ds, members=args.members, seed=args.seed,
+                                    methods=args.methods, per_method=args.per_method)
+        grid.write_grid(out, args.output, progress=progress, client=client, argv=_argv(args))
+        elapsed = time.perf_counter() - start
+    finally:
+        if client is not None:
+            client.close()
+    counts = grid.summary(args.output)
+    total = sum(counts.values())
+    print(f"wrote {args.output}: {total} columns in {grid._fmt_seconds(elapsed)}")
+    for meaning, k in sorted(counts.items(), key=lambda kv: -kv[1]):
+        print(f"  {meaning.replace('_', ' '):<28} {k:>10}  {100.0 * k / total:5.1f} %")
+    if args.plot:
+        import xarray as xr
+
+        from ..gridplot import plot_types
+        with xr.open_dataset(args.output, mask_and_scale=False) as written:
+            plot_types(written, args.plot, time_index=args.plot_time)
+        print(f"map: {args.plot}")
+    print(CAUTION)
+    return 0
+
+
+def _argv(args) -> list[str]:
+    parts = list(args.inputs) + ["-o", args.output]
+    if args.members:
+        parts += ["--members", str(args.members)]
+    if args.seed is not None:
+        parts += ["--seed", str(args.seed)]
+    if args.chunks:
+        parts += ["--chunks", args.chunks]
+    if args.methods:
+        parts += ["--methods", args.methods]
+    if args.per_method:
+        parts.append("--per-method")
+    return parts
+
+
+def _connect(address: str):
+    from ..errors import OptionError
+    try:
+        from distributed import Client
+    except ImportError:  # pragma: no cover - distributed is a declared dependency
+        raise OptionError("--scheduler needs the 'distributed' package", field="scheduler") from None
+    try:
+        return Client(address, timeout="10s")
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise OptionError(f"--scheduler {address}: cannot connect ({exc})",
+                          field="scheduler") from None
