@@ -1,7 +1,7 @@
 """``GET /v1/demo`` and ``GET /v1/demo/<name>``: the invented demo soundings.
 
 The soundings live in ``soundings_demo/{json,csv,temp}/`` at the project root
-(override with the ``PTYPE_DEMO_DIR`` setting).  A sounding's name is its file
+(override with the ``PTYPE_DEMO_DIR`` setting or environment variable).  A sounding's name is its file
 name; the document is returned as stored, with the content type of its format,
 so a client can post it back to ``/v1/diagnose`` unchanged.
 """
@@ -9,6 +9,7 @@ so a client can post it back to ``/v1/diagnose`` unchanged.
 from __future__ import annotations
 
 import json
+import os
 import re
 from pathlib import Path
 
@@ -35,7 +36,8 @@ def default_demo_dir() -> Path:
 
 
 def init_app(app) -> None:
-    app.config.setdefault("PTYPE_DEMO_DIR", str(default_demo_dir()))
+    app.config.setdefault("PTYPE_DEMO_DIR",
+                          os.environ.get("PTYPE_DEMO_DIR") or str(default_demo_dir()))
 
 
 def _catalogue() -> dict[str, tuple[Path, str, str]]:

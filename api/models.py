@@ -101,11 +101,14 @@ class MethodOutcome(_Open):
     ptype: PtypeCode | None = Field(..., description="Type this method diagnosed; null when it "
                                                      "abstains (outside its domain).")
     title: str = Field(..., description="Human-readable method name.")
+    rule: str | None = Field(None, description="The rule that decided (last step).")
+    wetbulb: str | None = Field(None, description="Wet-bulb kind the method uses, if any.")
     reference: str = Field(..., description="Published source of the method.")
     steps: list[Step] = Field(default_factory=list)
 
 
 class Consensus(_Open):
+    rule: str | None = Field(None, description="The consensus rule that decided.")
     steps: list[Step] = Field(default_factory=list)
 
 
@@ -154,7 +157,11 @@ class Diagnosis(_Open):
     probabilities: dict[str, float] = Field(
         ..., description="Probability of each type over the Monte-Carlo members (sums to 1).",
         examples=[{"FZRA": 0.82, "FZRAPL": 0.12, "PL": 0.06}])
+    probability: float | None = Field(None, description="Probability of the consensus type "
+                                                        "(null without members).")
     confidence: str = Field(..., description="high, moderate or low.", examples=["high"])
+    members: int | None = Field(None, description="Monte-Carlo members used.")
+    seed: int | None = Field(None, description="Random seed used, when one was given.")
     methods: dict[str, MethodOutcome]
     consensus: Consensus
     layers: list[Layer] = Field(..., description="Warm and cold layers of air temperature.")
@@ -162,6 +169,9 @@ class Diagnosis(_Open):
     cloud_layers: list[CloudLayer]
     freezing_level_m: Number = None
     wetbulb_zero_height_m: Number = None
+    warm_area_j_kg: Number = Field(None, description="Melting area aloft, J/kg.")
+    cold_area_j_kg: Number = Field(None, description="Refreezing area below it, J/kg.")
+    surface: dict[str, Number] | None = Field(None, description="Screen-level values used.")
     profile: ProfileArrays
     explanation: list[str] = Field(..., description="Plain-language sentences, most important "
                                                     "first.")

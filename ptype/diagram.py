@@ -235,7 +235,7 @@ def _fit_x(ax, p: np.ndarray, values: np.ndarray, bottom: float) -> None:
         return
     lo, hi = float(pts[:, 0].min()), float(pts[:, 0].max())
     ax.set_xlim(lo - 5.0, hi + 8.0)
-    for _ in range(4):
+    for _ in range(8):
         disp = ax.transData.transform(pts)
         y_bottom = ax.transData.transform([(0.0, bottom)])[0, 1]
         back = ax.transData.inverted().transform(np.column_stack([disp[:, 0],

@@ -37,12 +37,16 @@
     return "text/plain";  // the server tells CSV from WMO TEMP
   }
 
+  let runSeed = null;
+
   function query() {
     const params = new URLSearchParams();
     const members = $("opt-members").value.trim();
     if (members !== "") params.set("members", members);
+    // One seed per run (the user's, or a fresh random one) so the diagram's probabilities
+    // match the bars of the diagnosis shown.
     const seed = $("opt-seed").value.trim();
-    if (seed !== "") params.set("seed", seed);
+    params.set("seed", seed !== "" ? seed : String(runSeed));
     params.set("wetbulb", $("opt-wetbulb").value);
     return params;
   }
@@ -106,6 +110,7 @@
     setStatus("Diagnosing…");
     $("diagnose-button").disabled = true;
     const body = { text: text, type: contentType(text) };
+    runSeed = Math.floor(Math.random() * 2147483647);
     try {
       const response = await fetch("/v1/diagnose?" + query(), {
         method: "POST", headers: { "Content-Type": body.type }, body: body.text,

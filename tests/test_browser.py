@@ -1,0 +1,100 @@
+"""The forecaster page in a real browser: Debian's headless Chromium driven by Playwright.
+
+Loads a demo sounding with the keyboard only and checks that the type, the probability bars,
+the per-method table and the diagram image appear."""
+
+from __future__ import annotations
+
+import json
+import os
+import shutil
+
+import pytest
+
+from api_support import freezing_rain_document
+from test_server import start_server, stop_server
+
+CHROMIUM = "/usr/bin/chromium"
+CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                 "--disable-component-update", "--disable-sync", "--no-first-run"]
+
+pytestmark = [
+    pytest.mark.browser,
+    pytest.mark.skipif(not os.path.exists(CHROMIUM) and not os.environ.get("CI"),
+                       reason="Debian chromium is not installed (make system-deps)"),
+]
+
+
+@pytest.fixture(scope="module")
+def server(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("browser")
+    demo = tmp / "demo"
+    (demo / "json").mkdir(parents=True)
+    (demo / "json" / "gullmere_0600.json").write_text(json.dumps(freezing_rain_document()))
+    os.environ["PTYPE_DEMO_DIR"] = str(demo)
+    try:
+        proc, url = start_server(tmp, "--workers", "2")
+    finally:
+        del os.environ["PTYPE_DEMO_DIR"]
+    yield url
+    stop_server(proc)
+
+
+@pytest.fixture(scope="module")
+def browser():
+    assert shutil.which(CHROMIUM) or os.path.exists(CHROMIUM), "chromium missing"
+    from playwright.sync_api import sync_playwright
+    with sync_playwright() as pw:
+        browser = pw.chromium.launch(executable_path=CHROMIUM, args=CHROMIUM_ARGS, headless=True)
+        yield browser
+        browser.close()
+
+
+def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
+    page = browser.new_page(viewport={"width": 1280, "height": 1800})
+    external = []
+    page.on("request", lambda req: external.append(req.url)
+            if not req.url.startswith((server, "blob:", "data:")) else None)
+    page.goto(server + "/")
+    page.wait_for_selector("#demo-select option[value='gullmere_0600.json']", state="attached")
+
+    # Keyboard only: Tab from the top reaches the skip link, the navigation, then the picker.
+    page.keyboard.press("Tab")
+    assert page.evaluate("document.activeElement.className") == "skip"
+    for _ in range(20):
+        page.keyboard.press("Tab")
+        if page.evaluate("document.activeElement.id") == "demo-select":
+            break
+    assert page.evaluate("document.activeElement.id") == "demo-select"
+    page.select_option("#demo-select", "gullmere_0600.json")
+    page.keyboard.press("Tab")
+    assert page.evaluate("document.activeElement.id") == "demo-load"
+    page.keyboard.press("Enter")
+
+    page.wait_for_function("document.getElementById('verdict-code').textContent.length > 0",
+                           timeout=30000)
+    # Freezing rain: Bourgouin (2000) warm nose over a shallow refreezing layer, cold ground.
+    assert page.inner_text("#verdict-code") == "FZRA"
+    assert "Freezing rain" in page.inner_text("#verdict-label")
+    assert "freezes on contact" in page.inner_text("#verdict-meaning")
+    assert page.locator("#bars li").count() >= 1
+    assert page.locator("#methods-body tr").count() == 8
+    assert "Guidance only" in page.inner_text("#caution")
+
+    page.wait_for_function("(() => { const i = document.getElementById('diagram');"
+                           " return !i.hidden && i.complete && i.naturalWidth > 300; })()",
+                           timeout=30000)
+    assert "freezing rain" in page.get_attribute("#diagram", "alt")
+    # The focus moved to the result heading so keyboard and screen-reader users land on it.
+    assert page.evaluate("document.activeElement.id") == "result-heading"
+    page.screenshot(path=str(tmp_path / "page.png"), full_page=True)
+    assert external == []  # no asset from anywhere but the service itself
+
+
+def test_page_shows_error_for_bad_paste(server, browser):
+    page = browser.new_page()
+    page.goto(server + "/")
+    page.fill("#profile-text", '{"levels": [{"pressure_hpa": 1000, "temperature_c": "cold"}]}')
+    page.click("#diagnose-button")
+    page.wait_for_selector("#error:not([hidden])", timeout=15000)
+    assert "temperature_c" in page.inner_text("#error")
