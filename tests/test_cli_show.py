@@ -21,7 +21,7 @@ def _run(*args, stdin: str | None = None) -> subprocess.CompletedProcess:
 
 
 def test_show_table():
-    out = _run(DATA / "fzra_sounding.json")
+    out = _run(DATA / "warm_nose_sounding.json")
     assert out.returncode == 0, out.stderr
     lines = out.stdout.splitlines()
     assert lines[0] == "Kestrel Ridge (invented test site) | 2026-01-15 12:00 UTC"
@@ -34,7 +34,7 @@ def test_show_table():
 
 
 def test_show_json():
-    out = _run(DATA / "fzra_sounding.csv", "--format", "json")
+    out = _run(DATA / "warm_nose_sounding.csv", "--format", "json")
     assert out.returncode == 0, out.stderr
     doc = json.loads(out.stdout)
     assert doc["caution"] == CAUTION
@@ -48,7 +48,7 @@ def test_show_json():
 
 
 def test_show_temp_from_stdin():
-    text = (DATA / "fzra_sounding.temp").read_text()
+    text = (DATA / "warm_nose_sounding.temp").read_text()
     out = _run("-", "--input-format", "temp", stdin=text)
     assert out.returncode == 0, out.stderr
     assert "978.0" in out.stdout and out.stdout.rstrip().endswith(CAUTION)
@@ -80,14 +80,14 @@ def test_show_bad_input_one_line_exit_2(tmp_path, content, name, expected):
 
 
 def test_show_bad_option_exit_2():
-    out = _run(DATA / "fzra_sounding.json", "--format", "xml")
+    out = _run(DATA / "warm_nose_sounding.json", "--format", "xml")
     assert out.returncode == 2 and "Traceback" not in out.stderr
     assert len(out.stderr.strip().splitlines()) == 1
 
 
 def test_show_temp_heading_names_station_and_day():
     # TEMP carries no month or year: the heading shows the station and the message's day/hour.
-    out = _run(DATA / "fzra_sounding.temp")
+    out = _run(DATA / "warm_nose_sounding.temp")
     assert out.returncode == 0, out.stderr
     first = out.stdout.splitlines()[0]
     assert first.startswith("99901 | WMO TEMP Part A+B, station 99901, day 15 12 UTC")

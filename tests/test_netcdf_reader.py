@@ -1,7 +1,7 @@
 """NetCDF single-profile reader (ptype/readers/netcdf_format.py).
 
 Files are written here with xarray/netCDF4 from the invented test sounding in
-tests/data/fzra_sounding.json.  Variables are found by CF standard names
+tests/data/warm_nose_sounding.json.  Variables are found by CF standard names
 (CF Conventions 1.13, standard-name table v94: air_pressure, air_temperature,
 dew_point_temperature, relative_humidity, geopotential_height, altitude; canonical
 units Pa, K, 1, m).  Kelvin = degC + 273.15 (SI Brochure, 9th edition, 2019, 2.3.1).
@@ -21,7 +21,7 @@ from ptype.errors import ReaderError
 from ptype.readers.netcdf_format import read_netcdf_document
 
 DATA = Path(__file__).parent / "data"
-REF = json.loads((DATA / "fzra_sounding.json").read_text())
+REF = json.loads((DATA / "warm_nose_sounding.json").read_text())
 P_HPA = np.array([lvl["pressure_hpa"] for lvl in REF["levels"]], dtype=float)
 T_C = np.array([lvl["temperature_c"] for lvl in REF["levels"]])
 TD_C = np.array([lvl["dewpoint_c"] for lvl in REF["levels"]])
@@ -107,7 +107,7 @@ def test_read_netcdf_document_bytes_same_as_path(tmp_path):
 def test_read_profile_netcdf_matches_json(tmp_path):
     path = _write(_dataset(), tmp_path)
     a = read_profile(path)
-    b = read_profile(DATA / "fzra_sounding.json")
+    b = read_profile(DATA / "warm_nose_sounding.json")
     np.testing.assert_allclose(a.temperature_c, b.temperature_c, atol=1e-9)
     np.testing.assert_allclose(a.dewpoint_c, b.dewpoint_c, atol=1e-9)
 

@@ -1,7 +1,7 @@
 """Readers (ptype/readers/): one invented sounding in JSON, CSV and WMO TEMP reads the same.
 
-tests/data/fzra_sounding.{json,csv} are the same invented sounding (fictional site);
-fzra_sounding.temp was produced from the JSON by ``write_temp`` and is read back here
+tests/data/warm_nose_sounding.{json,csv} are the same invented sounding (fictional site);
+warm_nose_sounding.temp was produced from the JSON by ``write_temp`` and is read back here
 within the precision of the TEMP code (WMO-No. 306 FM 35: temperature to 0.1 degC with
 the sign on the tenths parity, dew-point depression in tenths up to 5 degC, whole
 degrees above; pressures in whole hPa; heights in metres up to 700 hPa, decametres above).
@@ -25,9 +25,9 @@ from ptype.readers.csv_format import read_csv_document
 from ptype.readers.temp_format import write_temp
 
 DATA = Path(__file__).parent / "data"
-JSON_PATH = DATA / "fzra_sounding.json"
-CSV_PATH = DATA / "fzra_sounding.csv"
-TEMP_PATH = DATA / "fzra_sounding.temp"
+JSON_PATH = DATA / "warm_nose_sounding.json"
+CSV_PATH = DATA / "warm_nose_sounding.csv"
+TEMP_PATH = DATA / "warm_nose_sounding.temp"
 
 
 def _at(profile, pressure):
@@ -236,3 +236,11 @@ def test_read_profile_fuzz_only_profile_errors(pieces):
         read_profile(text)
     except ProfileError as exc:
         assert "\n" not in str(exc)
+
+
+def test_diagnose_same_category_from_every_format():
+    # TEMP's 0.1 degC precision must not change the diagnosis of a clear-cut sounding.
+    import ptype
+    codes = {fmt: ptype.diagnose(read_profile(DATA / f"warm_nose_sounding.{fmt}"), seed=3).to_dict()["ptype"]
+             for fmt in ("json", "csv", "temp")}
+    assert len(set(codes.values())) == 1, codes
