@@ -13,17 +13,90 @@ Profiles must be inline documents: the service never reads files named in a requ
 
 from __future__ import annotations
 
-from flask import Blueprint, current_app, jsonify, request
+from typing import Any
 
+from flask import Blueprint, current_app, jsonify, request
+from pydantic import Field
+
+from ptype.document import ProfileDocument
 from ptype.verify.manifest import cases_from_entries
 from ptype.verify.report import DEFAULT_SEED, run_verification
 
+from . import models as m
 from .errors import ApiError
 
 bp = Blueprint("verify", __name__)
 
 BODY_FIELDS = ("cases", "members", "seed", "methods")
 DEFAULT_MEMBERS = 50
+
+
+# -- OpenAPI description (api.docs collects OPENAPI_OPERATIONS) -------------------------
+class VerifyCase(m._Model):
+    """One paired case: a profile and the present weather observed with it."""
+
+    profile: ProfileDocument
+    observed: str = Field(..., max_length=200, description=(
+        "Present weather as written in a METAR/SYNOP-style report, e.g. `-FZRA BR`, "
+        "`FZRA PL`, `+SN BLSN`, `NSW` (docs/verification.md has the mapping table)."),
+        examples=["-FZRA BR"])
+    valid_time: str | None = Field(None, description="ISO 8601 time; overrides the profile's.")
+    site: str | None = Field(None, description="Site name shown in the report.")
+
+
+class VerifyRequest(m._Model):
+    """Cases to verify and the Monte-Carlo settings."""
+
+    cases: list[VerifyCase] = Field(..., min_length=1, description=(
+        "Paired cases; at most the server's case limit (500 by default)."))
+    members: int | None = Field(DEFAULT_MEMBERS, ge=0, description=(
+        "Monte-Carlo members per case for the probabilities (0 = none). cases x members is "
+        "limited by the server (50 000 by default)."))
+    seed: int | None = Field(DEFAULT_SEED, ge=0, description="Seed of the members.")
+    methods: list[str] | str | None = Field(None, description="Methods to run (default all).")
+
+
+class VerifyReport(m._Open):
+    """The verification report (docs/verification.md describes every field)."""
+
+    n: int = Field(..., description="Verified cases.")
+    n_cases: int = Field(..., description="All cases sent.")
+    members: int
+    seed: int | None
+    order: list[str] = Field(..., description="Category order of the tables, Gerrity and RPS.")
+    excluded: dict[str, Any] = Field(..., description="count, reasons {reason: count}, cases.")
+    cases: list[dict[str, Any]]
+    consensus: dict[str, Any] | None = Field(..., description=(
+        "Scores of the consensus; null when every observation was excluded."))
+    methods: dict[str, dict[str, Any]]
+    caution: str
+
+
+_EXAMPLE_CASE_PROFILE = {
+    "levels": [
+        {"pressure_hpa": 990, "temperature_c": -2.4, "dewpoint_c": -3.0},
+        {"pressure_hpa": 900, "temperature_c": 1.5, "dewpoint_c": 1.0},
+        {"pressure_hpa": 850, "temperature_c": 4.2, "dewpoint_c": 3.8},
+        {"pressure_hpa": 800, "temperature_c": 1.0, "dewpoint_c": 0.6},
+        {"pressure_hpa": 700, "temperature_c": -6.5, "dewpoint_c": -7.2},
+        {"pressure_hpa": 500, "temperature_c": -23.0, "dewpoint_c": -26.0},
+    ]}
+
+OPENAPI_OPERATIONS = [
+    {"path": "/v1/verify", "method": "post", "id": "verify", "tag": "Verification",
+     "summary": "Score diagnoses against observed present weather",
+     "description": "Send paired cases (an inline profile document and the present weather "
+                    "observed with it). Each profile is diagnosed and the consensus and every "
+                    "method are scored: contingency table, accuracy, Heidke, Peirce and "
+                    "Gerrity scores, POD/FAR/CSI/bias per class and, for the Monte-Carlo "
+                    "probabilities, Brier and ranked probability scores and reliability "
+                    "data. Unverifiable observations are excluded and counted by reason.",
+     "body": {"application/json": {"model": VerifyRequest, "example": {
+         "cases": [{"profile": _EXAMPLE_CASE_PROFILE, "observed": "-FZRA BR"},
+                   {"profile": _EXAMPLE_CASE_PROFILE, "observed": "FZRA PL"}],
+         "members": 20, "seed": 0}}},
+     "ok": ("application/json", VerifyReport), "errors": (400, 413, 422)},
+]
 
 
 def init_app(app) -> None:

@@ -9,6 +9,14 @@ import json
 from pathlib import Path
 
 import pytest
+import schemathesis
+from hypothesis import HealthCheck, Phase, settings
+from schemathesis.checks import not_a_server_error
+from schemathesis.specs.openapi.checks import (
+    content_type_conformance,
+    response_schema_conformance,
+    status_code_conformance,
+)
 
 import ptype
 from api import create_app
@@ -105,3 +113,22 @@ def test_verify_not_json(client):
     assert r.status_code == 400 and r.json["error"]["code"] == "invalid_json"
     r = client.post("/v1/verify", json=[1, 2])
     assert r.status_code == 400 and r.json["error"]["code"] == "invalid_body"
+
+
+# -- property-based run against the endpoint's own OpenAPI description -------------------
+# schemathesis drives the WSGI app with generated bodies, valid and invalid: none may give a
+# server error, an undocumented status, a wrong content type or a body outside its schema.
+# Small limits keep every generated verification cheap.
+
+_FUZZ_APP = create_app({"TESTING": True, "PTYPE_MAX_VERIFY_CASES": 3,
+                        "PTYPE_MAX_VERIFY_MEMBER_COLUMNS": 150})
+_schema = schemathesis.openapi.from_wsgi("/openapi.json", _FUZZ_APP).include(
+    path_regex=r"^/v1/verify$")
+
+
+@_schema.parametrize()
+@settings(max_examples=25, deadline=None, derandomize=True, database=None,
+          phases=[Phase.explicit, Phase.generate], suppress_health_check=list(HealthCheck))
+def test_verify_conforms_to_openapi(case):
+    case.call_and_validate(checks=[not_a_server_error, status_code_conformance,
+                                   content_type_conformance, response_schema_conformance])
