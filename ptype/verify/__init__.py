@@ -4,10 +4,20 @@
 * :mod:`ptype.verify.scores` - contingency tables and skill scores (pure numpy)
 * :mod:`ptype.verify.manifest` - reading a manifest of paired cases
 * :mod:`ptype.verify.report` - running the verification and writing JSON/table/HTML reports
+
+::
+
+    from ptype.verify import read_manifest, run_verification
+    report = run_verification(read_manifest("soundings_demo/verification/cases.csv"))
+
+See docs/verification.md.
 """
 
 from __future__ import annotations
 
+from .manifest import Case, read_manifest
 from .observations import Observation, parse_observation
+from .report import ORDER, run_verification
 
-__all__ = ["Observation", "parse_observation"]
+__all__ = ["ORDER", "Case", "Observation", "parse_observation", "read_manifest",
+           "run_verification"]
