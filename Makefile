@@ -11,7 +11,7 @@ HOST ?= 127.0.0.1
 PORT ?= 8080
 export PTYPE_DATA_DIR
 
-.PHONY: run test install system-deps bench lint clean
+.PHONY: run test install system-deps bench bench-deps bench-load lint clean
 
 $(STAMP): pyproject.toml
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
@@ -36,10 +36,22 @@ test: $(STAMP) system-deps
 	$(PY) -m pytest -q
 
 run: $(STAMP)
+	@echo "ptype: starting the service on http://$(HOST):$(PORT)/ (forecaster page at /, API reference at /docs)"
 	$(VENV)/bin/ptype serve --host $(HOST) --port $(PORT) --demo
 
-bench: $(STAMP)
+bench: $(STAMP) bench-deps
 	$(PY) bench/run_all.py
+
+# Debian's wrk drives the HTTP load benchmark (bench/load_diagnose.py falls back to Python
+# client threads without it).
+bench-deps:
+	@if ! command -v wrk >/dev/null 2>&1 && [ "$$(id -u)" = "0" ]; then \
+	  echo "installing Debian wrk for the load benchmark"; \
+	  apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq wrk >/dev/null; \
+	fi
+
+bench-load: $(STAMP) bench-deps
+	$(PY) bench/load_diagnose.py
 
 lint: $(STAMP)
 	$(VENV)/bin/ruff check ptype api tests bench
