@@ -73,9 +73,11 @@ def alerts_atom():
 @bp.post("/v1/alerts/evaluate")
 def evaluate():
     require_key()
-    from .sites import _evaluate_alerts
-    from ptype.store import Site
     import sqlalchemy as sa
+
+    from ptype.store import Site
+
+    from .sites import _evaluate_alerts
     with get_store().read() as s:
         ids = list(s.scalars(sa.select(Site.id).order_by(Site.id)))
     actions = []

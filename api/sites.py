@@ -15,7 +15,7 @@ import hashlib
 import logging
 import os
 import threading
-from datetime import datetime
+from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
@@ -339,8 +339,7 @@ def post_profiles(site_id: int):
 
 
 def _naive(dt: datetime) -> datetime:
-    from datetime import timezone
-    return dt.astimezone(timezone.utc).replace(tzinfo=None)
+    return dt.astimezone(UTC).replace(tzinfo=None)
 
 
 @bp.post("/v1/sites/<int:site_id>/observations")

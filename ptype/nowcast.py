@@ -15,18 +15,20 @@ The adjustment constants are our own choices (labelled so), not published values
 
 from __future__ import annotations
 
+import itertools
 import math
 import re
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
-from datetime import datetime, timedelta, timezone
-from typing import Any, Iterable, Mapping, Sequence
+from datetime import UTC, datetime, timedelta
+from typing import Any
 
 import numpy as np
 
 from . import CAUTION, hazards, thermo
 from .codes import GRIB2_4201, LABELS, Code
 from .columns import Columns
-from .constants import Cp_d, Lf, Rd, T0, rho_w
+from .constants import T0, Cp_d, Lf, Rd, rho_w
 from .errors import OptionError, ProfileError
 from .profile import Profile
 
@@ -65,11 +67,11 @@ class SurfaceObservation:
     present_weather: str | None = None
 
     @classmethod
-    def from_mapping(cls, m: Mapping[str, Any]) -> "SurfaceObservation":
+    def from_mapping(cls, m: Mapping[str, Any]) -> SurfaceObservation:
         return cls(**{k: m.get(k) for k in cls.__dataclass_fields__})
 
 
-def parse_step(text: str | timedelta | int | float) -> timedelta:
+def parse_step(text: str | timedelta | float) -> timedelta:
     """A step such as ``15min``, ``30m``, ``1h``, ``90s`` or a plain number of minutes."""
     if isinstance(text, timedelta):
         step = text
@@ -276,7 +278,7 @@ def _select_observation(observations, now: datetime) -> SurfaceObservation | Non
 
 
 def _iso(t: datetime) -> str:
-    return t.astimezone(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+    return t.astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def _r(x, nd=2):
@@ -514,7 +516,7 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
 def transitions(steps: Sequence[Mapping[str, Any]]) -> list[dict[str, str]]:
     """Changes of type between consecutive steps: ``{"time", "from", "to"}``."""
     out = []
-    for prev, cur in zip(steps, steps[1:]):
+    for prev, cur in itertools.pairwise(steps):
         if prev["ptype"] != cur["ptype"]:
             out.append({"time": cur["valid_time"], "from": prev["ptype"], "to": cur["ptype"]})
     return out

@@ -1,10 +1,10 @@
 """Synthetic profile series for the timeline, alert and API tests (made up, no real place)."""
 
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 
 import numpy as np
 
-T0 = datetime(2026, 1, 27, 0, 0, tzinfo=timezone.utc)
+T0 = datetime(2026, 1, 27, 0, 0, tzinfo=UTC)
 PRESSURES = np.array([1000, 975, 950, 925, 900, 875, 850, 825, 800, 750, 700, 600, 500])
 
 

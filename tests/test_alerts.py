@@ -1,14 +1,14 @@
 """Tests of ptype.alerts: rules, lifecycle decisions, and the lifecycle through the service."""
 
-from datetime import datetime, timedelta, timezone
+from datetime import timedelta
 
 import pytest
+from series_helpers import T0, profile_doc, storm_docs
 
 from api import create_app
 from ptype.alerts.lifecycle import CHANGE_TOLERANCE, decide
 from ptype.alerts.rules import Candidate, certainty_word, evaluate_rules, urgency_word
 from ptype.store import keys
-from series_helpers import T0, profile_doc, storm_docs
 
 NOW = T0
 

@@ -6,7 +6,7 @@ date-time pattern without fractional seconds.  lxml validates against it.
 """
 
 import re
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 from xml.etree import ElementTree as ET
 
@@ -17,7 +17,7 @@ from ptype.alerts import atom, cap
 
 NS = {"c": cap.NAMESPACE}
 XSD = etree.XMLSchema(etree.parse(str(Path(__file__).parent / "data" / "cap12_subset.xsd")))
-SENT = datetime(2026, 1, 27, 6, 0, 12, 345678, tzinfo=timezone.utc)
+SENT = datetime(2026, 1, 27, 6, 0, 12, 345678, tzinfo=UTC)
 SNAPSHOT = {
     "event": "freezing_precipitation", "severity": "Severe", "certainty": "Likely",
     "urgency": "Expected", "onset": "2026-01-27T07:00:00Z", "expires": "2026-01-27T12:15:00Z",
@@ -27,8 +27,8 @@ SNAPSHOT = {
     "parameters": {"ptype": "FZRA", "grib2_code": 3, "max_probability": 0.8},
     "site": {"id": 1, "name": "Test Hill", "latitude": 47.1, "longitude": -33.2},
 }
-EARLIER = [{"identifier": "a1.1", "sent": datetime(2026, 1, 27, 3, tzinfo=timezone.utc)},
-           {"identifier": "a1.2", "sent": datetime(2026, 1, 27, 4, 30, tzinfo=timezone.utc)}]
+EARLIER = [{"identifier": "a1.1", "sent": datetime(2026, 1, 27, 3, tzinfo=UTC)},
+           {"identifier": "a1.2", "sent": datetime(2026, 1, 27, 4, 30, tzinfo=UTC)}]
 
 
 def _xml(msg_type="Update", earlier=EARLIER, **kw):

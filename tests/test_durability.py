@@ -99,7 +99,7 @@ def test_acknowledged_writes_survive_sigkill(tmp_path):
                 try:
                     st, _ = _post(port, f"/v1/sites/{site_id}/observations",
                                   {"time": t, "air_temperature_c": -1.0}, key, timeout=3)
-                except Exception:  # noqa: BLE001 - refused, reset, cut short: not acknowledged
+                except Exception:  # noqa: BLE001, S112 - refused, reset, cut short: not acknowledged
                     continue
                 if 200 <= st < 300:
                     acked.append(t)
@@ -156,7 +156,7 @@ def test_concurrent_writer_processes_lose_nothing(tmp_path):
                               stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
              for off in (0, 100_000)]
     for p in procs:
-        out, err = p.communicate(timeout=120)
+        _, err = p.communicate(timeout=120)
         assert p.returncode == 0, err
     assert store.integrity_check() == "ok"
     with store.read() as s:

@@ -5,7 +5,8 @@ import math
 import numpy as np
 import psychrolib
 import pytest
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from ptype import hazards
 from ptype.codes import Code

@@ -1,17 +1,18 @@
 """Tests of ptype.nowcast: interpolation, the three nowcast adjustments, and the timeline."""
 
+import itertools
 import math
 from datetime import timedelta
 
 import numpy as np
 import pytest
-from hypothesis import given, settings, strategies as st
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from series_helpers import T0, profile_doc, storm_docs
 
-from ptype import Profile
-from ptype import nowcast
+from ptype import Profile, nowcast
 from ptype.constants import Cp_d, Lf, rho_w
 from ptype.errors import OptionError, ProfileError
-from series_helpers import T0, profile_doc, storm_docs
 
 
 def _profiles(docs):
@@ -45,7 +46,7 @@ def test_build_timeline_transitions_and_totals():
     assert types[0] == "SN" and types[-1] == "RA" and "FZRA" in types
     for t in out["transitions"]:
         assert t["from"] != t["to"]
-    assert len(out["transitions"]) == sum(a != b for a, b in zip(types, types[1:]))
+    assert len(out["transitions"]) == sum(a != b for a, b in itertools.pairwise(types))
     fz = [s for s in out["steps"] if s["ptype"] == "FZRA"]
     assert all(s["hazards"]["freezing_on_road"] for s in fz)
     assert out["totals"]["ice_accretion_mm"] == pytest.approx(
@@ -114,7 +115,7 @@ def test_onset_cooling_limits_and_wetbulb():
 
 
 def test_build_timeline_onset_cools_dry_subcloud_layer():
-    dry = dict(dry_below_hpa=900)
+    dry = {"dry_below_hpa": 900}
     docs = [profile_doc(T0, sfc_c=3.0, rate=0.0, **dry),
             profile_doc(T0 + timedelta(hours=1), sfc_c=3.0, rate=2.0, **dry),
             profile_doc(T0 + timedelta(hours=3), sfc_c=3.0, rate=2.0, **dry)]
@@ -143,7 +144,7 @@ def test_apply_melting_cooling_never_below_zero_and_monotonic(rate, hours, nose)
     p = np.array([[1000, 950, 900, 850, 800, 750, 700.0]])
     z = np.array([[0, 450, 900, 1400, 1950, 2500, 3000.0]])
     t = np.array([[-2, -3, nose, nose, -1, -4, -8.0]])
-    new, cooled = nowcast.apply_melting_cooling(p, z, t, np.array([rate]), np.array([hours]))
+    new, _ = nowcast.apply_melting_cooling(p, z, t, np.array([rate]), np.array([hours]))
     warm = t > 0
     assert np.all(new[warm] >= 0.0) and np.all(new <= t + 1e-12)
     assert np.array_equal(new[~warm], t[~warm])  # cold levels untouched

@@ -2,7 +2,7 @@
 
 import hashlib
 import threading
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 
 import pytest
 import sqlalchemy as sa
@@ -11,7 +11,7 @@ from ptype.errors import OptionError
 from ptype.store import Store, database_url, keys, migrations, open_store
 from ptype.store.clock import iso, parse_time, utcnow
 
-NOW = datetime(2026, 1, 27, 0, 0, tzinfo=timezone.utc)
+NOW = datetime(2026, 1, 27, 0, 0, tzinfo=UTC)
 
 
 @pytest.fixture
@@ -57,7 +57,7 @@ def test_migrate_concurrent_starters_apply_once(tmp_path):
     def start():
         try:
             Store(url).dispose()
-        except Exception as exc:  # pragma: no cover - the failure is reported below
+        except Exception as exc:  # noqa: BLE001  # pragma: no cover - the failure is reported below
             errors.append(exc)
     threads = [threading.Thread(target=start) for _ in range(4)]
     for t in threads:
@@ -71,16 +71,15 @@ def test_migrate_concurrent_starters_apply_once(tmp_path):
 
 
 def test_foreign_keys_enforced(store):
-    with pytest.raises(sa.exc.IntegrityError):
-        with store.write() as s:
-            s.execute(sa.text("INSERT INTO observations (site_id, time, received_at) "
-                              "VALUES (999, '2026-01-01 00:00:00', '2026-01-01 00:00:00')"))
+    with pytest.raises(sa.exc.IntegrityError), store.write() as s:
+        s.execute(sa.text("INSERT INTO observations (site_id, time, received_at) "
+                          "VALUES (999, '2026-01-01 00:00:00', '2026-01-01 00:00:00')"))
 
 
 def test_create_key_stores_only_salted_scrypt_hash(store):
     with store.write() as s:
         key, info = keys.create_key(s, "ops", NOW)
-        key2, _ = keys.create_key(s, "ops2", NOW)
+        keys.create_key(s, "ops2", NOW)
     secret = key.split("_", 2)[2]
     with store.read() as s:
         rows = s.execute(sa.text("SELECT key_id, salt_hex, hash_hex, kdf FROM api_keys")).all()
@@ -111,14 +110,13 @@ def test_verify_key_ok_unknown_revoked(store):
 
 
 def test_create_key_empty_name_refused(store):
-    with store.write() as s:
-        with pytest.raises(ValueError, match="name"):
-            keys.create_key(s, "  ", NOW)
+    with store.write() as s, pytest.raises(ValueError, match="name"):
+        keys.create_key(s, "  ", NOW)
 
 
 def test_utcnow_fixed_by_config_and_env(monkeypatch):
     assert utcnow({"PTYPE_NOW": "2026-01-27T06:00:00Z"}) == datetime(2026, 1, 27, 6,
-                                                                      tzinfo=timezone.utc)
+                                                                      tzinfo=UTC)
     monkeypatch.setenv("PTYPE_NOW", "2026-01-27T07:30:00+01:00")
     assert iso(utcnow()) == "2026-01-27T06:30:00Z"
     with pytest.raises(OptionError, match="PTYPE_NOW"):
@@ -126,4 +124,4 @@ def test_utcnow_fixed_by_config_and_env(monkeypatch):
 
 
 def test_parse_time_naive_is_utc():
-    assert parse_time("2026-01-27T06:00:00") == datetime(2026, 1, 27, 6, tzinfo=timezone.utc)
+    assert parse_time("2026-01-27T06:00:00") == datetime(2026, 1, 27, 6, tzinfo=UTC)

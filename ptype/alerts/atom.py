@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 import uuid
-from datetime import datetime, timezone
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from datetime import UTC, datetime
+from typing import Any
 from xml.etree import ElementTree as ET
 
 from .. import CAUTION
@@ -14,7 +15,7 @@ ATOM = "http://www.w3.org/2005/Atom"
 
 def atom_time(dt: datetime) -> str:
     """RFC 3339 date-time (RFC 4287 sec. 3.3), UTC with a ``Z``."""
-    return dt.astimezone(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+    return dt.astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
 def _sub(parent, tag, text=None, **attrs):

@@ -17,8 +17,9 @@ dominant precipitation type is carried in a ``parameter``.
 
 from __future__ import annotations
 
-from datetime import datetime, timezone
-from typing import Any, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from datetime import UTC, datetime
+from typing import Any
 from xml.etree import ElementTree as ET
 
 from .rules import EVENTS
@@ -40,7 +41,7 @@ DEFAULT_RADIUS_KM = 10.0
 
 def cap_time(dt: datetime) -> str:
     """``YYYY-MM-DDThh:mm:ss+00:00``."""
-    return dt.astimezone(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S+00:00")
+    return dt.astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%S+00:00")
 
 
 def reference(sender: str, identifier: str, sent: datetime) -> str:

@@ -15,9 +15,10 @@ timeline moving forward does not count as a change.
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from datetime import datetime, timedelta
-from typing import Any, Mapping, Sequence
+from typing import Any
 
 from .rules import Candidate
 

@@ -25,9 +25,10 @@ begun, Expected within the next hour, Future beyond.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from datetime import datetime, timedelta
-from typing import Any, Mapping
+from typing import Any
 
 from .. import CAUTION
 from ..codes import GRIB2_4201, Code

@@ -9,8 +9,9 @@ always has its alerts evaluated.
 from __future__ import annotations
 
 import uuid
+from collections.abc import Mapping
 from datetime import datetime, timedelta
-from typing import Any, Mapping
+from typing import Any
 
 import sqlalchemy as sa
 from sqlalchemy.orm import Session

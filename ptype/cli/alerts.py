@@ -18,11 +18,12 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
+    import os
+
     from .. import CAUTION
     from ..alerts import service
     from ..store import Alert, open_store
     from ..store.clock import utcnow
-    import os
     store = open_store()
     now = utcnow()
     sender = os.environ.get("PTYPE_CAP_SENDER") or "ptype@localhost"

@@ -16,9 +16,10 @@ of failing on a lock upgrade.  Schema versions are handled by
 from __future__ import annotations
 
 import os
+from collections.abc import Iterator, Mapping
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any, Iterator, Mapping
+from typing import Any
 
 import sqlalchemy as sa
 from sqlalchemy import event
@@ -27,8 +28,18 @@ from sqlalchemy.orm import Session, sessionmaker
 from . import migrations
 from .models import Alert, AlertMessage, ApiKey, Base, Observation, ProfileRecord, Site
 
-__all__ = ["Store", "open_store", "database_url", "Alert", "AlertMessage", "ApiKey", "Base",
-           "Observation", "ProfileRecord", "Site"]
+__all__ = [
+    "Alert",
+    "AlertMessage",
+    "ApiKey",
+    "Base",
+    "Observation",
+    "ProfileRecord",
+    "Site",
+    "Store",
+    "database_url",
+    "open_store",
+]
 
 DB_FILENAME = "ptype.sqlite3"
 #: How long a writer waits for the SQLite write lock before giving up, ms.
@@ -91,16 +102,14 @@ class Store:
 
     @contextmanager
     def read(self) -> Iterator[Session]:
-        with self._read() as session:
-            with session.begin():
-                yield session
+        with self._read() as session, session.begin():
+            yield session
 
     @contextmanager
     def write(self) -> Iterator[Session]:
         """A write transaction: committed on normal exit, rolled back on an exception."""
-        with self._write() as session:
-            with session.begin():
-                yield session
+        with self._write() as session, session.begin():
+            yield session
 
     def schema_version(self) -> int:
         with self.engine.connect() as conn:

@@ -10,8 +10,9 @@ this way so that their results are deterministic.
 from __future__ import annotations
 
 import os
-from datetime import datetime, timezone
-from typing import Any, Mapping
+from collections.abc import Mapping
+from datetime import UTC, datetime
+from typing import Any
 
 from ..errors import OptionError
 
@@ -32,8 +33,8 @@ def parse_time(value: Any, field: str = "time") -> datetime:
     else:
         raise OptionError(f"{field} = {value!r}: expected an ISO 8601 time string", field=field)
     if dt.tzinfo is None:
-        dt = dt.replace(tzinfo=timezone.utc)
-    return dt.astimezone(timezone.utc)
+        dt = dt.replace(tzinfo=UTC)
+    return dt.astimezone(UTC)
 
 
 def utcnow(config: Mapping[str, Any] | None = None) -> datetime:
@@ -41,11 +42,11 @@ def utcnow(config: Mapping[str, Any] | None = None) -> datetime:
     fixed = (config or {}).get("PTYPE_NOW") or os.environ.get("PTYPE_NOW")
     if fixed:
         return parse_time(fixed, "PTYPE_NOW")
-    return datetime.now(timezone.utc).replace(microsecond=0)
+    return datetime.now(UTC).replace(microsecond=0)
 
 
 def iso(dt: datetime | None) -> str | None:
     """``YYYY-MM-DDThh:mm:ssZ`` (UTC, whole seconds) for JSON bodies."""
     if dt is None:
         return None
-    return dt.astimezone(timezone.utc).replace(microsecond=0).strftime("%Y-%m-%dT%H:%M:%SZ")
+    return dt.astimezone(UTC).replace(microsecond=0).strftime("%Y-%m-%dT%H:%M:%SZ")

@@ -18,8 +18,8 @@ declares its own tables (a frozen copy), so later changes to
 
 from __future__ import annotations
 
-from datetime import datetime, timezone
-from typing import Callable
+from collections.abc import Callable
+from datetime import UTC, datetime
 
 import sqlalchemy as sa
 from sqlalchemy.engine import Connection
@@ -141,6 +141,6 @@ def migrate(engine: sa.Engine) -> list[int]:
             func(conn)
             conn.execute(_version_table.insert().values(
                 version=version, name=name,
-                applied_at=datetime.now(timezone.utc).replace(tzinfo=None, microsecond=0)))
+                applied_at=datetime.now(UTC).replace(tzinfo=None, microsecond=0)))
             applied.append(version)
     return applied

@@ -9,7 +9,7 @@ the latest schema.
 
 from __future__ import annotations
 
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from typing import Any
 
 import sqlalchemy as sa
@@ -26,13 +26,13 @@ class UTCDateTime(sa.types.TypeDecorator):
         if value is None:
             return None
         if value.tzinfo is None:
-            value = value.replace(tzinfo=timezone.utc)
-        return value.astimezone(timezone.utc).replace(tzinfo=None)
+            value = value.replace(tzinfo=UTC)
+        return value.astimezone(UTC).replace(tzinfo=None)
 
     def process_result_value(self, value, dialect):
         if value is None:
             return None
-        return value.replace(tzinfo=timezone.utc)
+        return value.replace(tzinfo=UTC)
 
 
 class Base(DeclarativeBase):
@@ -64,7 +64,7 @@ class Site(Base):
     thresholds: Mapped[dict[str, Any]] = mapped_column(sa.JSON, default=dict)
     created_at: Mapped[datetime] = mapped_column(UTCDateTime)
 
-    profiles: Mapped[list["ProfileRecord"]] = relationship(back_populates="site",
+    profiles: Mapped[list[ProfileRecord]] = relationship(back_populates="site",
                                                            cascade="all, delete-orphan")
 
 
@@ -123,7 +123,7 @@ class Alert(Base):
     updated_at: Mapped[datetime] = mapped_column(UTCDateTime)
     ended_at: Mapped[datetime | None] = mapped_column(UTCDateTime, nullable=True)
 
-    messages: Mapped[list["AlertMessage"]] = relationship(
+    messages: Mapped[list[AlertMessage]] = relationship(
         back_populates="alert", order_by="AlertMessage.seq", cascade="all, delete-orphan")
 
 
