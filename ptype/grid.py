@@ -274,9 +274,11 @@ def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | N
         if not os.path.exists(path):
             raise FileNotFoundError(2, "No such file or directory", path)
         try:
-            ds = xr.open_dataset(path, chunks={}, decode_timedelta=False)
+            ds = xr.open_dataset(path, engine="netcdf4", chunks={}, decode_timedelta=False)
         except (OSError, ValueError, TypeError) as exc:
-            raise ReaderError(f"{path}: not a readable NetCDF file ({exc})", field="input") from None
+            reason = (str(exc).strip().splitlines() or [type(exc).__name__])[0]
+            raise ReaderError(f"{path}: not a readable NetCDF file ({reason})",
+                              field="input") from None
         datasets.append((path, ds))
     fields = find_fields(datasets[0][1], datasets[0][0])
     for path, ds in datasets[1:]:

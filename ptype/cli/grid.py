@@ -9,6 +9,9 @@ import time
 
 from .. import CAUTION
 
+#: Seconds to wait for a --scheduler to answer.
+CONNECT_TIMEOUT_S = 10
+
 
 def register(sub) -> None:
     p = sub.add_parser(
@@ -106,7 +109,7 @@ def _connect(address: str):
     except ImportError:  # pragma: no cover - distributed is a declared dependency
         raise OptionError("--scheduler needs the 'distributed' package", field="scheduler") from None
     try:
-        return Client(address, timeout="10s")
+        return Client(address, timeout=f"{CONNECT_TIMEOUT_S}s")
     except (OSError, TimeoutError, ValueError) as exc:
         raise OptionError(f"--scheduler {address}: cannot connect ({exc})",
                           field="scheduler") from None
