@@ -126,9 +126,9 @@ def run_wrk(url: str, path: str, body: bytes | None, connections: int, duration:
             script.write_text('wrk.method = "GET"\n')
         out = subprocess.run(["wrk", "-t", "2", "-c", str(connections), "-d", f"{int(duration)}s",
                               "--timeout", "10s", "--latency", "-s", str(script), url + path],
-                             capture_output=True, text=True, timeout=duration + 60).stdout
+                             capture_output=True, text=True, timeout=duration + 60, check=False).stdout
     pct = {m.group(1): _wrk_ms(m.group(2))
-           for m in re.finditer(r"^\s+(50|75|90|99)%\s+(\S+)", out, re.M)}
+           for m in re.finditer(r"^\s+(50|75|90|99)%\s+(\S+)", out, re.MULTILINE)}
     total = int(re.search(r"(\d+) requests in", out).group(1))
     non2xx = re.search(r"Non-2xx or 3xx responses: (\d+)", out)
     sock = re.search(r"Socket errors: connect (\d+), read (\d+), write (\d+), timeout (\d+)", out)

@@ -10,7 +10,6 @@ import os
 import shutil
 
 import pytest
-
 from api_support import freezing_rain_document
 from test_server import start_server, stop_server
 

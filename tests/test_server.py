@@ -12,7 +12,6 @@ from pathlib import Path
 
 import pytest
 import requests
-
 from api_support import free_port, freezing_rain_document
 
 PTYPE = Path(sys.executable).with_name("ptype")
@@ -22,7 +21,7 @@ def start_server(tmp_path, *extra: str, port: int | None = None):
     """Start ``ptype serve`` and wait until it prints its URL; returns (process, base URL)."""
     port = port or free_port()
     env = dict(os.environ, PTYPE_DATA_DIR=str(tmp_path / "data"))
-    log = open(tmp_path / "server.log", "w+")
+    log = open(tmp_path / "server.log", "w+")  # noqa: SIM115 - closed by stop_server
     proc = subprocess.Popen([str(PTYPE), "serve", "--host", "127.0.0.1", "--port", str(port),
                              *extra], stdout=log, stderr=subprocess.STDOUT, env=env,
                             start_new_session=True)
@@ -121,6 +120,6 @@ def test_serve_demo_flag_sets_environment(tmp_path):
 
 def test_serve_bad_port_is_one_line_error():
     result = subprocess.run([str(PTYPE), "serve", "--port", "99999"], capture_output=True,
-                            text=True, timeout=60)
+                            text=True, timeout=60, check=False)
     assert result.returncode == 2
     assert "outside 0-65535" in result.stderr and "Traceback" not in result.stderr
