@@ -108,7 +108,8 @@ OPERATIONS: list[dict[str, Any]] = [
      "summary": "One demo sounding, as stored",
      "description": "Returned with the content type of its format (JSON, CSV or WMO TEMP text) "
                     "so that it can be posted to `/v1/diagnose` unchanged.",
-     "path_params": {"name": "File name from `GET /v1/demo`, e.g. `kestrel_vale_0600.json`."},
+     "path_params": {"name": "File name from `GET /v1/demo`, e.g. "
+                                    "`korrim-pass_20260127T1000.json`."},
      "ok": ("document", None), "errors": (404,)},
     {"path": "/healthz", "method": "get", "id": "health", "tag": "Service",
      "summary": "Liveness and version", "description": "Answers while the service is up.",
@@ -256,7 +257,7 @@ def openapi():
 
 
 def _curl(op: dict) -> str:
-    url = "http://127.0.0.1:8080" + op["path"].replace("{name}", "kestrel_vale_0600.json")
+    url = "http://127.0.0.1:8080" + op["path"].replace("{name}", "korrim-pass_20260127T1000.json")
     if op["method"] == "get":
         return f"curl -s {url}"
     if op["id"] == "diagram":
