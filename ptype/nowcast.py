@@ -426,9 +426,9 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
 
     known = np.isfinite(rate)
     precipitating = known & (rate >= PRECIP_THRESHOLD_MM_H)
-    ongoing = bool(precipitating[0]) and (obs is None or obs.precipitation_rate_mm_h is None
-                                          or obs.precipitation_rate_mm_h >= PRECIP_THRESHOLD_MM_H
-                                          or (when[0] - now) < step_td)
+    # A spell already under way at the first step is in the forecast (and the observation)
+    # already: only onsets inside the timeline are adjusted.
+    ongoing = bool(precipitating[0])
     since_h, onset_inside = _spells(precipitating, h_step, ongoing)
 
     # (b) onset cooling of the dry sub-cloud layer.

@@ -159,3 +159,28 @@ def test_apply_melting_cooling_needs_snow_from_above():
     t = np.array([[-1, 2, 3.0]])
     new, cooled = nowcast.apply_melting_cooling(p, z, t, np.array([10.0]), np.array([3.0]))
     assert np.array_equal(new, t) and cooled[0] == 0.0
+
+
+# --- command line ----------------------------------------------------------------------------
+
+def test_cli_timeline_table_and_json(tmp_path):
+    import json
+    import subprocess
+    import sys
+    paths = []
+    for i, doc in enumerate(storm_docs()):
+        path = tmp_path / f"p{i}.json"
+        path.write_text(json.dumps(doc))
+        paths.append(str(path))
+    run = [sys.executable, "-m", "ptype", "timeline", *paths, "--members", "5"]
+    r = subprocess.run(run, check=False, capture_output=True, text=True, timeout=120)
+    assert r.returncode == 0, r.stderr
+    assert "transitions:" in r.stdout and "Guidance only" in r.stdout
+    r = subprocess.run([*run, "--format", "json", "--step", "2h"], check=False,
+                       capture_output=True,
+                       text=True, timeout=120)
+    out = json.loads(r.stdout)
+    assert [s["valid_time"][11:16] for s in out["steps"]] == ["00:00", "02:00", "04:00", "06:00"]
+    bad = subprocess.run([*run, "--step", "soon"], check=False, capture_output=True, text=True,
+                         timeout=120)
+    assert bad.returncode == 2 and "step" in bad.stderr and "Traceback" not in bad.stderr
