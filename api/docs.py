@@ -241,6 +241,14 @@ def build_openapi(max_body_bytes: int | None = None) -> dict:
 
 def init_app(app) -> None:
     app.extensions["ptype_openapi"] = None
+    app.add_template_filter(_inline_code, "inline_code")
+
+
+def _inline_code(text: str):
+    """Escape text and turn `backticked` spans into <code> (the descriptions' only markup)."""
+    from markupsafe import Markup, escape
+    parts = str(escape(text or "")).split("`")
+    return Markup("".join(f"<code>{p}</code>" if i % 2 else p for i, p in enumerate(parts)))
 
 
 def _document() -> dict:
