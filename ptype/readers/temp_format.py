@@ -22,7 +22,7 @@ Several rules below could not be checked against the WMO text and are marked
 * a 1000 hPa height below mean sea level is coded 500 + |h|;
 * the surface always carries a wind group (even with ``Id`` = ``/``);
 * heights drop their leading digit(s); which ones are restored is a heuristic
-  (a window of plausible heights per standard surface, see ``_HEIGHT_WINDOWS``).
+  (a window of plausible heights per standard surface, see ``STANDARD_HEIGHT_WINDOWS``).
 
 Nothing about winds reaches the profile document: wind groups are checked for
 form and skipped.
@@ -124,7 +124,7 @@ def encode_depression(depression_c: float) -> str:
 #: heuristic of ours covering observed extremes: 925 hPa 200-1199 m, 850 hPa 800-1799 m,
 #: 700 hPa 2500-3499 m, 300 hPa 3000-12990 m (hhh < 300 -> +1000 dam), 250 hPa
 #: 5000-14990 m (so that a cold 980 dam stays 9800 m).
-_HEIGHT_WINDOWS = {"92": (1.0, 200.0), "85": (1.0, 800.0), "70": (1.0, 2500.0),
+STANDARD_HEIGHT_WINDOWS = {"92": (1.0, 200.0), "85": (1.0, 800.0), "70": (1.0, 2500.0),
                    "50": (10.0, 0.0), "40": (10.0, 0.0), "30": (10.0, 3000.0),
                    "25": (10.0, 5000.0), "20": (10.0, 10000.0), "15": (10.0, 10000.0),
                    "10": (10.0, 10000.0)}
@@ -137,7 +137,7 @@ def _decode_height_m(code: str, hhh: str) -> float | None:
     h = int(hhh)
     if code == "00":
         return -(h - 500.0) if h >= 500 else float(h)  # below MSL: 500 + |h| (from memory)
-    unit, low = _HEIGHT_WINDOWS[code]
+    unit, low = STANDARD_HEIGHT_WINDOWS[code]
     value = unit * h
     while value < low:
         value += 1000.0 * unit
@@ -153,7 +153,7 @@ def _encode_height(code: str, height_m: float) -> str:
         if -499 <= h < 0:
             return f"{500 + abs(h):03d}"
         return f"{h:03d}" if 0 <= h < 500 else "///"
-    unit, low = _HEIGHT_WINDOWS[code]
+    unit, low = STANDARD_HEIGHT_WINDOWS[code]
     n = round(height_m / unit)
     if not low <= n * unit < low + 1000.0 * unit:
         return "///"
