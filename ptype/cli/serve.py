@@ -85,6 +85,28 @@ def gunicorn_options(args) -> dict:
     return options
 
 
+#: A small invented sounding (warm nose over a cold surface layer) used to warm the engine.
+_WARM_UP_DOCUMENT = {"levels": [
+    {"pressure_hpa": p, "temperature_c": t, "dewpoint_c": t - 0.5}
+    for p, t in ((1000, -3.0), (950, -1.0), (900, 2.5), (850, 4.0), (800, 1.0), (700, -6.0),
+                 (600, -13.0), (500, -22.0), (400, -33.0))]}
+
+
+def warm_up() -> None:
+    """Run one small diagnosis in the master before the workers fork, so the first requests
+    do not pay for lazy imports and first-call set-up.  (The diagram is not warmed: its
+    first drawing costs seconds of plotting imports, too much to add to every start.)
+
+    Small on purpose: it stays on the numpy path (no compiled thread pool is started
+    before ``fork``).  A failure here is logged and ignored: the workers still start.
+    """
+    try:
+        import ptype
+        ptype.diagnose(_WARM_UP_DOCUMENT, members=10, seed=0)
+    except Exception as exc:  # noqa: BLE001 - never block the server start
+        print(f"ptype serve: warm-up skipped ({type(exc).__name__}: {exc})", file=sys.stderr)
+
+
 def run(args) -> int:
     if args.demo:
         os.environ["PTYPE_DEMO"] = "1"
@@ -105,7 +127,9 @@ def run(args) -> int:
 
         def load(self):
             from api import create_app
-            return create_app({"PTYPE_DEMO": bool(args.demo)})
+            app = create_app({"PTYPE_DEMO": bool(args.demo)})
+            warm_up()
+            return app
 
     def _announce(server):
         # Print the real address (port 0 resolves to the one the kernel chose).
