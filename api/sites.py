@@ -248,7 +248,8 @@ def _evaluate_alerts(site_id: int) -> list[dict]:
     """Evaluate the site's alerts: timeline outside the write lock, decisions inside it."""
     store = get_store()
     t = now()
-    members = int(current_app.config.get("PTYPE_ALERT_MEMBERS", service.ALERT_MEMBERS))
+    members = int(current_app.config.get("PTYPE_ALERT_MEMBERS")
+                  or os.environ.get("PTYPE_ALERT_MEMBERS") or service.ALERT_MEMBERS)
     with store.read() as s:
         site = _site_or_404(s, site_id)
         candidates = service.site_candidates(s, site, t, members=members)

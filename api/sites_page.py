@@ -38,14 +38,17 @@ def _strip(timeline: dict) -> str:
     for s in steps:
         bg, fg = COLOURS.get(s["ptype"], ("#ccc", "#000"))
         hz = s["hazards"]
-        marks = []
+        marks, short = [], []
         if hz["freezing_on_road"]:
             marks.append("ice on road")
+            short.append("ice")
         if hz["frost"]:
             marks.append("frost")
+            short.append("frost")
         title = (f"{s['valid_time'][11:16]} UTC: {LABELS[Code[s['ptype']]]}"
                  + (f" ({', '.join(marks)})" if marks else ""))
-        flag = "<span class='mark' aria-hidden='true'>!</span>" if marks else ""
+        flag = (f"<span class='h' aria-hidden='true'>{'/'.join(short)}</span>" if short
+                else "<span class='h none' aria-hidden='true'>&nbsp;</span>")
         cells.append(f"<li style='background:{bg};color:{fg}' title='{escape(title)}'>"
                      f"<span class='t'>{s['valid_time'][11:16]}</span>"
                      f"<span class='c'>{escape(s['ptype'])}</span>{flag}"
@@ -82,6 +85,8 @@ def _alert_list(alerts: list[dict]) -> str:
 def _legend() -> str:
     items = "".join(f"<li><span class='sw' style='background:{bg};color:{fg}'>{code}</span> "
                     f"{escape(LABELS[Code[code]])}</li>" for code, (bg, fg) in COLOURS.items())
+    items += ("<li><span class='sw key'>ice</span> freezing precipitation on the road</li>"
+              "<li><span class='sw key'>frost</span> hoar frost on the road</li>")
     return f"<ul class='legend' aria-label='legend'>{items}</ul>"
 
 

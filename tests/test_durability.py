@@ -38,8 +38,9 @@ def _start(data_dir: Path, port: int) -> subprocess.Popen:
     env = {**os.environ, "PTYPE_DATA_DIR": str(data_dir), "PTYPE_NOW": "2026-01-27T00:00:00Z"}
     env.pop("PTYPE_DEMO", None)
     env.pop("PTYPE_DATABASE_URL", None)
+    # --preload as "ptype serve" runs it: the app (and the store) is created before the fork.
     proc = subprocess.Popen([str(GUNICORN), "-w", "2", "-b", f"127.0.0.1:{port}",
-                             "--graceful-timeout", "1", "api:create_app()"], cwd=ROOT, env=env,
+                             "--graceful-timeout", "1", "--preload", "api:create_app()"], cwd=ROOT, env=env,
                             stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
                             start_new_session=True)
     deadline = time.monotonic() + 30

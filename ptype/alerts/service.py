@@ -27,7 +27,7 @@ RECENT = timedelta(hours=24)
 #: Timeline length evaluated for alerts, h (the rule windows are shorter; ice accretion is
 #: totalled over all of it).
 ALERT_HOURS = 24.0
-ALERT_STEP = "15min"
+ALERT_STEP = "30min"
 ALERT_MEMBERS = 20
 
 

@@ -16,6 +16,7 @@ of failing on a lock upgrade.  Schema versions are handled by
 from __future__ import annotations
 
 import os
+import weakref
 from collections.abc import Iterator, Mapping
 from contextlib import contextmanager
 from pathlib import Path
@@ -95,6 +96,11 @@ class Store:
                                    expire_on_commit=False)
         if migrate:
             migrations.migrate(self.engine)
+        # A server that loads the app before forking workers (gunicorn --preload) must not
+        # share the parent's open database connections with its children: after a fork, the
+        # child forgets the pooled connections without closing them (SQLAlchemy's recipe).
+        ref = weakref.ref(self)
+        os.register_at_fork(after_in_child=lambda: _forget_pool(ref))
 
     @property
     def dialect(self) -> str:
@@ -124,6 +130,12 @@ class Store:
 
     def dispose(self) -> None:
         self.engine.dispose()
+
+
+def _forget_pool(ref) -> None:
+    store = ref()
+    if store is not None:
+        store.engine.dispose(close=False)
 
 
 def open_store(config: Mapping[str, Any] | None = None) -> Store:
