@@ -87,7 +87,9 @@ OPERATIONS: list[dict[str, Any]] = [
      "summary": "Diagnose several profiles in one request",
      "description": "Each profile is diagnosed on its own; an invalid one gets an "
                     "`{\"error\": ...}` entry in its place and the others still succeed. "
-                    "Results keep the order of the request.",
+                    "Results keep the order of the request. The Monte-Carlo members of all "
+                    "profiles run in one vectorised pass; with `seed` the batch is "
+                    "reproducible as a whole.",
      "query": m.DiagnoseOptions,
      "body": {"application/json": {"model": m.BatchRequest,
                                    "example": {"profiles": [EXAMPLE_DOCUMENT]}}},

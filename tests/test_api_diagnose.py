@@ -272,10 +272,29 @@ def test_batch_results_in_order_with_item_errors(client):
 
 def test_batch_matches_single_requests(client):
     docs = [freezing_rain_document(30), snow_document(20)]
-    batch = client.post("/v1/diagnose/batch?seed=9", json={"profiles": docs}).get_json()
+    batch = client.post("/v1/diagnose/batch?members=0", json={"profiles": docs}).get_json()
     for doc, result in zip(docs, batch["results"]):
-        single = client.post("/v1/diagnose?seed=9", json=doc).get_json()
+        single = client.post("/v1/diagnose?members=0", json=doc).get_json()
         assert single == result
+
+
+def test_batch_probabilities_vectorised_and_reproducible(client):
+    docs = [freezing_rain_document(30), snow_document(20), freezing_rain_document(45)]
+    first = client.post("/v1/diagnose/batch?seed=9&members=40", json={"profiles": docs})
+    again = client.post("/v1/diagnose/batch?seed=9&members=40", json={"profiles": docs})
+    assert first.get_json() == again.get_json()
+    for doc, result in zip(docs, first.get_json()["results"]):
+        single = client.post("/v1/diagnose?seed=9&members=40", json=doc).get_json()
+        # The deterministic part is identical; the members are drawn for the whole batch.
+        for key in ("ptype", "methods", "layers", "wetbulb_layers", "cloud_layers", "profile"):
+            assert result[key] == single[key]
+        assert result["members"] == 40
+        assert abs(sum(result["probabilities"].values()) - 1.0) < 1e-6
+        assert all(abs(p * 40 - round(p * 40)) < 1e-6 for p in result["probabilities"].values())
+    # The two sharply defined cases are near-certain either way (FZRA and SN, see api_support).
+    results = first.get_json()["results"]
+    assert results[0]["probabilities"].get("FZRA", 0) >= 0.6
+    assert results[1]["probabilities"].get("SN", 0) >= 0.9
 
 
 @pytest.mark.parametrize("body,status,field", [
