@@ -49,6 +49,9 @@ from .errors import OptionError, ReaderError
 #: Columns per chunk when none are given (bounded memory: the engine keeps a few dozen
 #: (n, L) float64 temporaries alive, ~25 MB each at 40 levels; see docs/performance.md).
 DEFAULT_CHUNK_COLUMNS = 32768
+#: Member columns diagnosed at once (columns x members), for bounded memory: the engine
+#: holds about 20 kB per 40-level column while it works (measured, docs/performance.md).
+MEMBER_BATCH_COLUMNS = 32768
 #: A column needs at least this many levels above ground to be diagnosed (as a profile does).
 MIN_LEVELS = 3
 #: Tolerance for "2 m" in the height coordinate of screen-level fields, m.
@@ -422,7 +425,15 @@ def diagnose_block(columns, layout: KernelLayout, seed=None) -> np.ndarray:
     k = len(layout.methods)
     block[:, 1:1 + k] = np.where(block[:, 1:1 + k] == NO_RESULT, np.nan, block[:, 1:1 + k])
     if layout.members:
-        probs = member_probabilities(sub, layout.members, seed, layout.methods)
+        # Members multiply the columns: diagnose them in batches so memory stays bounded.
+        step = max(1, MEMBER_BATCH_COLUMNS // layout.members)
+        probs = np.empty((sub.n_columns, len(Code)))
+        for b, start in enumerate(range(0, sub.n_columns, step)):
+            part = sub.take(slice(start, start + step))
+            part_seed = (None if seed is None
+                         else np.random.SeedSequence([int(seed), b]).generate_state(1)[0])
+            probs[start:start + step] = member_probabilities(part, layout.members, part_seed,
+                                                             layout.methods)
         block = np.concatenate([block, probs], axis=1)
     out[ok] = block
     return out
