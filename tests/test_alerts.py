@@ -179,3 +179,21 @@ def test_alerts_expire_with_the_clock(tmp_path):
     later = client.get("/v1/alerts").json["alerts"]
     assert later and {a["status"] for a in later} == {"expired"}
     app.extensions["ptype_store"].dispose()
+
+
+def test_observed_present_weather_makes_certainty_observed():
+    from ptype.alerts.rules import observed_confirms
+    # METAR w'w' groups (WMO code table 4678): intensity ignored for freezing types.
+    assert observed_confirms("freezing_precipitation", "-FZRA BR")
+    assert observed_confirms("freezing_precipitation", "FZDZ")
+    assert not observed_confirms("freezing_precipitation", "RA")
+    assert observed_confirms("heavy_snow", "+SN") and not observed_confirms("heavy_snow", "-SN")
+    steps = [_step(0, ptype="FZRA", fz=0.6), _step(60, ptype="FZRA", fz=0.6)]
+    tl = {**_timeline(steps), "observation": {"present_weather": "-FZRA"}}
+    (c,) = [c for c in evaluate_rules(tl, NOW, "X") if c.event == "freezing_precipitation"]
+    assert c.certainty == "Observed"
+    # Not yet begun: an observation now cannot confirm a later onset.
+    later = [_step(0), _step(60, ptype="FZRA", fz=0.6)]
+    tl = {**_timeline(later), "observation": {"present_weather": "-FZRA"}}
+    (c,) = [c for c in evaluate_rules(tl, NOW, "X") if c.event == "freezing_precipitation"]
+    assert c.certainty == "Likely"

@@ -107,6 +107,33 @@ def urgency_word(onset: datetime, now: datetime) -> str:
     return "Future"
 
 
+#: Observed present weather (METAR w'w' groups, WMO code table 4678) that confirms an event.
+OBSERVED_CONFIRMS = {
+    "freezing_precipitation": ("FZRA", "FZDZ", "FZUP", "FZRAPL"),
+    "ice_accretion": ("FZRA", "FZDZ", "FZUP", "FZRAPL"),
+    "heavy_snow": ("+SN", "+SHSN"),
+}
+
+
+def observed_confirms(event: str, present_weather: str | None) -> bool:
+    """True when an observed present-weather report (e.g. ``-FZRA``, ``+SN BR``) shows the event.
+
+    Groups are matched as written in METAR/SPECI (WMO-No. 306 code table 4678): intensity
+    prefix kept for heavy snow (``+SN``), ignored for the freezing types.
+    """
+    if not present_weather:
+        return False
+    groups = present_weather.upper().split()
+    wanted = OBSERVED_CONFIRMS.get(event, ())
+    for g in groups:
+        bare = g.lstrip("+-").removeprefix("VC")
+        if g in wanted or (bare in wanted and not wanted[0].startswith("+")):
+            return True
+        if any(g.startswith(w) for w in wanted if w.startswith("+")):
+            return True
+    return False
+
+
 def _time(s: str) -> datetime:
     from ..store.clock import parse_time
     return parse_time(s)
@@ -147,7 +174,13 @@ def evaluate_rules(timeline: Mapping[str, Any], now: datetime, site_name: str,
                        f"{expires.strftime('%Y-%m-%d %H:%M')} UTC. {CAUTION}")
         params = {"ptype": code.name, "grib2_code": GRIB2_4201[code],
                   "max_probability": round(probability, 3), **params}
-        out.append(Candidate(event, onset, expires, severity, certainty_word(probability),
+        certainty = certainty_word(probability)
+        obs = timeline.get("observation") or {}
+        if onset <= now and observed_confirms(event, obs.get("present_weather")):
+            # CAP 1.2 "Observed": determined to have occurred or to be ongoing.
+            certainty = "Observed"
+            params["observed_present_weather"] = obs["present_weather"]
+        out.append(Candidate(event, onset, expires, severity, certainty,
                              urgency_word(onset, now), headline, description,
                              f"{instruction} {CAUTION}", params))
 
