@@ -125,3 +125,33 @@ def test_utcnow_fixed_by_config_and_env(monkeypatch):
 
 def test_parse_time_naive_is_utc():
     assert parse_time("2026-01-27T06:00:00") == datetime(2026, 1, 27, 6, tzinfo=UTC)
+
+
+def test_load_demo_is_idempotent(tmp_path, store):
+    # A tiny demo directory of our own (invented site and series), loaded twice.
+    import json
+
+    from series_helpers import storm_docs
+
+    from ptype.store import ProfileRecord, Site
+    from ptype.store.demo import demo_issued_time, load_demo
+    demo = tmp_path / "demo"
+    (demo / "series" / "hill").mkdir(parents=True)
+    (demo / "sites.json").write_text(json.dumps({"sites": [
+        {"id": "hill", "name": "Test Hill", "latitude": 47.0, "longitude": -33.0,
+         "elevation_m": 100.0}]}))
+    files = []
+    for i, doc in enumerate(storm_docs()):
+        (demo / "series" / "hill" / f"{i}.json").write_text(json.dumps(doc))
+        files.append(f"hill/{i}.json")
+    (demo / "series" / "manifest.json").write_text(json.dumps({
+        "issued_time": "2026-01-27T00:00:00Z", "source": "demo",
+        "sites": {"hill": {"files": files}}}))
+    assert demo_issued_time(demo) == NOW
+    first = load_demo(store, demo, now=NOW)
+    second = load_demo(store, demo, now=NOW)
+    assert first["profiles"] == 4 and len(first["sites"]) == 1
+    assert second == {"sites": [], "profiles": 0}
+    with store.read() as s:
+        assert s.scalar(sa.select(sa.func.count()).select_from(Site)) == 1
+        assert s.scalar(sa.select(sa.func.count()).select_from(ProfileRecord)) == 4
