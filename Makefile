@@ -11,7 +11,7 @@ HOST ?= 127.0.0.1
 PORT ?= 8080
 export PTYPE_DATA_DIR
 
-.PHONY: run test install system-deps bench bench-deps bench-load lint clean
+.PHONY: run test install system-deps bench bench-deps bench-load lint clean demo-grid
 
 $(STAMP): pyproject.toml
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
@@ -52,6 +52,13 @@ bench-deps:
 
 bench-load: $(STAMP) bench-deps
 	$(PY) bench/load_diagnose.py
+
+# Regenerate the invented model grid and turn it into a NetCDF result and a map.
+demo-grid: $(STAMP)
+	$(PY) soundings_demo/grid/make_grid.py
+	mkdir -p $(PTYPE_DATA_DIR)/grid
+	$(VENV)/bin/ptype grid soundings_demo/grid/demo_grid.nc -o $(PTYPE_DATA_DIR)/grid/demo_ptype.nc \
+	  --members 20 --seed 1 --per-method --plot $(PTYPE_DATA_DIR)/grid/demo_ptype.png
 
 lint: $(STAMP)
 	$(VENV)/bin/ruff check ptype api tests bench
