@@ -241,52 +241,82 @@ def _march(p, tw, rh_frac, top_hpa, initial_ice):
 
     Returns the final ice fraction, the "was liquid" flag and the stages (maximal runs of
     warm, Tw > 0, or not-warm pieces) with the ice fraction at their ends.
+
+    Everything that does not depend on the running ice fraction (the change across each
+    piece, its kind, its validity) is computed for all pieces at once; the sequential loop
+    only carries the clipped ice fraction down, skipping pieces no column uses.  The stages
+    for the explanation are then read off the recorded history without a loop.
     """
     n, L = p.shape
     pieces = _pieces(p, tw, rh_frac, top_hpa)
-    ice = np.where(np.isfinite(initial_ice), initial_ice, 0.0).astype(np.float64)
-    was_liquid = ice <= 0.0
-    S = max(L, 1)
-    stage = np.full(n, -1)
-    last_kind = np.zeros(n, dtype=np.int8)
-    st = {k: np.full((n, S), np.nan) for k in ("top_hpa", "bottom_hpa", "kind", "extreme_c",
-                                                "ice_start", "ice_end")}
-    for j in range(L - 2, -1, -1):          # intervals from the top down
-        for k in range(3):                  # pieces inside an interval, top -> bottom
-            valid = pieces["valid"][:, j, k]
-            if not valid.any():
-                continue
-            twm = pieces["tw_mean"][:, j, k]
-            d_ice = ice_fraction_change(pieces["bottom_hpa"][:, j, k], pieces["top_hpa"][:, j, k],
-                                        twm, pieces["rh_mean"][:, j, k])
-            warm = twm > 0.0
-            cold = twm < FREEZING_ONSET_TW_C
-            # An all-liquid drop needs Tw < -6.6 degC to begin freezing; ice needs Tw > 0 to
-            # begin melting (automatic: dI >= 0 there and I is capped at 1).
-            can_change = warm | cold | (ice > 0.0)
-            new = np.where(valid & can_change, np.clip(ice + d_ice, 0.0, 1.0), ice)
-            kind = np.where(warm, 1, -1).astype(np.int8)
-            starts = valid & (kind != last_kind)
-            stage = np.where(starts, stage + 1, stage)
-            r = np.nonzero(starts)[0]
-            st["top_hpa"][r, stage[r]] = pieces["top_hpa"][r, j, k]
-            st["kind"][r, stage[r]] = kind[r]
-            st["ice_start"][r, stage[r]] = ice[r]
-            st["extreme_c"][r, stage[r]] = pieces["tw_top"][r, j, k]
-            r = np.nonzero(valid)[0]
-            st["bottom_hpa"][r, stage[r]] = pieces["bottom_hpa"][r, j, k]
-            st["ice_end"][r, stage[r]] = new[r]
-            ext = st["extreme_c"][r, stage[r]]
-            twb = pieces["tw_bottom"][r, j, k]
-            st["extreme_c"][r, stage[r]] = np.where(kind[r] > 0, np.maximum(ext, twb),
-                                                    np.minimum(ext, twb))
-            last_kind = np.where(valid, kind, last_kind)
-            ice = new
-            was_liquid |= valid & (ice <= 0.0)
-    count = stage + 1
-    width = int(max(count.max(initial=0), 1))
-    stages = {k: v[:, :width] for k, v in st.items()}
+    # Flatten to one sequence per column, top -> bottom: intervals reversed, pieces in order.
+    seq = {k: v[:, ::-1, :].reshape(n, -1) for k, v in pieces.items()}
+    valid = seq["valid"]
+    P = valid.shape[1]
+    d_ice = np.where(valid, ice_fraction_change(seq["bottom_hpa"], seq["top_hpa"], seq["tw_mean"],
+                                                seq["rh_mean"]), 0.0)
+    warm = seq["tw_mean"] > 0.0
+    # An all-liquid drop needs Tw < -6.6 degC to begin freezing; ice needs Tw > 0 to begin
+    # melting (automatic: dI >= 0 there and I is capped at 1).
+    always = valid & (warm | (seq["tw_mean"] < FREEZING_ONSET_TW_C))
+    ice0 = np.where(np.isfinite(initial_ice), initial_ice, 0.0).astype(np.float64)
+    ice = ice0.copy()
+    hist = np.empty((n, P))
+    used = np.nonzero(valid.any(axis=0))[0]
+    last = 0
+    for q in used:
+        hist[:, last:q] = ice[:, None]
+        change = always[:, q] | (valid[:, q] & (ice > 0.0))
+        ice = np.where(change, np.clip(ice + d_ice[:, q], 0.0, 1.0), ice)
+        hist[:, q] = ice
+        last = q + 1
+    hist[:, last:] = ice[:, None]
+    was_liquid = (ice0 <= 0.0) | np.any(valid & (hist <= 0.0), axis=1)
+    stages, count = _stages(seq, valid, warm, hist, ice0)
     return ice, was_liquid, stages, count
+
+
+def _stages(seq, valid, warm, hist, ice0):
+    """Maximal runs of warm / not-warm valid pieces, with bounds, extremes and ice fractions."""
+    n, P = valid.shape
+    rows = np.arange(n)[:, None]
+    pos = np.broadcast_to(np.arange(P), (n, P))
+    kind = np.where(warm, 1, -1).astype(np.int8)
+    last_valid = np.maximum.accumulate(np.where(valid, pos, -1), axis=1)
+    prev = np.concatenate([np.full((n, 1), -1), last_valid[:, :-1]], axis=1)
+    prev_kind = np.where(prev >= 0, kind[rows, np.maximum(prev, 0)], 0)
+    starts = valid & (kind != prev_kind)
+    next_valid = np.minimum.accumulate(np.where(valid, pos, P)[:, ::-1], axis=1)[:, ::-1]
+    nxt = np.concatenate([next_valid[:, 1:], np.full((n, 1), P)], axis=1)
+    next_kind = np.where(nxt < P, kind[rows, np.minimum(nxt, P - 1)], 0)
+    ends = valid & (kind != next_kind)
+    stage_id = np.cumsum(starts, axis=1) - 1
+    count = starts.sum(axis=1)
+    S = int(max(count.max(initial=0), 1))
+    keys = ("top_hpa", "bottom_hpa", "kind", "extreme_c", "ice_start", "ice_end")
+    st = {k: np.full((n, S), np.nan) for k in keys}
+    si, sq = np.nonzero(starts)
+    st["top_hpa"][si, stage_id[si, sq]] = seq["top_hpa"][si, sq]
+    st["kind"][si, stage_id[si, sq]] = kind[si, sq]
+    before = prev[si, sq]
+    st["ice_start"][si, stage_id[si, sq]] = np.where(before >= 0, hist[si, np.maximum(before, 0)],
+                                                     ice0[si])
+    ei, eq = np.nonzero(ends)
+    st["bottom_hpa"][ei, stage_id[ei, eq]] = seq["bottom_hpa"][ei, eq]
+    st["ice_end"][ei, stage_id[ei, eq]] = hist[ei, eq]
+    # Extremes: warmest wet-bulb of a warm stage, coldest of a cold one.
+    vi, vq = np.nonzero(valid)
+    flat = vi * S + stage_id[vi, vq]
+    hi = np.maximum(seq["tw_top"][vi, vq], seq["tw_bottom"][vi, vq])
+    lo = np.minimum(seq["tw_top"][vi, vq], seq["tw_bottom"][vi, vq])
+    mx = np.full(n * S, -np.inf)
+    mn = np.full(n * S, np.inf)
+    np.maximum.at(mx, flat, hi)
+    np.minimum.at(mn, flat, lo)
+    present = np.arange(S)[None, :] < count[:, None]
+    st["extreme_c"] = np.where(present, np.where(st["kind"] > 0, mx.reshape(n, S), mn.reshape(n, S)),
+                               np.nan)
+    return st, count
 
 
 def run(ctx: Context, *, abstain_on_mix: bool | None = None) -> MethodResult:
