@@ -327,5 +327,9 @@ def docs_page():
         })
     schemas = [{"name": name, "description": s.get("description", ""), "rows": _schema_rows(s)}
                for name, s in doc["components"]["schemas"].items()]
-    return render_template("docs.html", info=doc["info"], operations=operations, schemas=schemas,
-                           caution=ptype.CAUTION)
+    from flask import make_response
+
+    from .page import secure_html
+    return secure_html(make_response(render_template(
+        "docs.html", info=doc["info"], operations=operations, schemas=schemas,
+        caution=ptype.CAUTION)))

@@ -51,6 +51,8 @@ def browser():
 
 def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
     page = browser.new_page(viewport={"width": 1280, "height": 1800})
+    console_errors = []
+    page.on("console", lambda msg: console_errors.append(msg.text) if msg.type == "error" else None)
     external = []
     page.on("request", lambda req: external.append(req.url)
             if not req.url.startswith((server, "blob:", "data:")) else None)
@@ -70,7 +72,7 @@ def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
     assert page.evaluate("document.activeElement.id") == "demo-load"
     page.keyboard.press("Enter")
 
-    page.wait_for_function("document.getElementById('verdict-code').textContent.length > 0",
+    page.wait_for_function("() => document.getElementById('verdict-code').textContent.length > 0",
                            timeout=30000)
     # Freezing rain: Bourgouin (2000) warm nose over a shallow refreezing layer, cold ground.
     assert page.inner_text("#verdict-code") == "FZRA"
@@ -80,14 +82,15 @@ def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
     assert page.locator("#methods-body tr").count() == 8
     assert "Guidance only" in page.inner_text("#caution")
 
-    page.wait_for_function("(() => { const i = document.getElementById('diagram');"
-                           " return !i.hidden && i.complete && i.naturalWidth > 300; })()",
+    page.wait_for_function("() => { const i = document.getElementById('diagram');"
+                           " return !i.hidden && i.complete && i.naturalWidth > 300; }",
                            timeout=30000)
     assert "freezing rain" in page.get_attribute("#diagram", "alt")
     # The focus moved to the result heading so keyboard and screen-reader users land on it.
     assert page.evaluate("document.activeElement.id") == "result-heading"
     page.screenshot(path=str(tmp_path / "page.png"), full_page=True)
     assert external == []  # no asset from anywhere but the service itself
+    assert console_errors == []  # nothing broke, and nothing was blocked by the page's CSP
 
 
 def test_page_shows_error_for_bad_paste(server, browser):
