@@ -127,3 +127,12 @@ def test_page_is_self_contained_and_labelled(app):
     with client.get("/static/page.js") as asset:
         js = asset.get_data(as_text=True)
     assert "http://" not in js and "https://" not in js
+
+
+def test_pages_carry_security_headers(app):
+    client = app.test_client()
+    for path in ("/", "/docs"):
+        response = client.get(path)
+        policy = response.headers["Content-Security-Policy"]
+        assert "default-src 'self'" in policy and "script-src 'self'" in policy
+        assert response.headers["X-Content-Type-Options"] == "nosniff"
