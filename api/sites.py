@@ -70,7 +70,7 @@ def _load_demo(app) -> None:
             with store.read() as s:
                 ids = list(s.scalars(sa.select(Site.id).order_by(Site.id)))
             for site_id in ids:
-                _evaluate_alerts(site_id)
+                _evaluate_after_ingest(site_id)
 
 
 def get_store() -> Store:
@@ -244,6 +244,19 @@ def _upsert(session, model, values: dict, keys: tuple[str, ...]) -> None:
     session.execute(stmt)
 
 
+def _evaluate_after_ingest(site_id: int) -> list[dict] | dict:
+    """Evaluate alerts after a committed ingest.  The data is stored whatever happens here,
+    so a failure is reported in the body (and logged) instead of failing the request."""
+    try:
+        return _evaluate_alerts(site_id)
+    except (ProfileError, OptionError) as exc:
+        log.warning("alert evaluation for site %s failed: %s", site_id, exc)
+        return {"error": f"alerts not evaluated: {exc}"}
+    except Exception:  # the write is committed; never turn it into a 500
+        log.exception("alert evaluation for site %s failed", site_id)
+        return {"error": "alerts not evaluated: internal error (logged)"}
+
+
 def _evaluate_alerts(site_id: int) -> list[dict]:
     """Evaluate the site's alerts: timeline outside the write lock, decisions inside it."""
     store = get_store()
@@ -333,7 +346,7 @@ def post_profiles(site_id: int):
                 "valid_time": _naive(pr.valid_time),
                 "issued_time": _naive(issued), "document": pr.to_document(),
                 "received_at": _naive(t_now)}, ("site_id", "source", "valid_time"))
-    actions = _evaluate_alerts(site_id)
+    actions = _evaluate_after_ingest(site_id)
     replaced = sum(1 for p in validated if p.valid_time in existing)
     return jsonify({"site_id": site_id, "stored": len(validated), "replaced": replaced,
                     "issued_time": iso(issued), "source": source, "alerts": actions}), 201
@@ -359,7 +372,7 @@ def post_observations(site_id: int):
             values["time"] = _naive(parse_time(values["time"]))
             values.update(site_id=site_id, received_at=_naive(t_now))
             _upsert(s, Observation, values, ("site_id", "time"))
-    actions = _evaluate_alerts(site_id)
+    actions = _evaluate_after_ingest(site_id)
     return jsonify({"site_id": site_id, "stored": len(items), "alerts": actions}), 201
 
 
