@@ -169,6 +169,21 @@ class Columns:
                                  sfc_td, self.road_surface_temperature_c,
                                  self.precipitation_rate_mm_h, self.wind_speed_m_s)
 
+    @staticmethod
+    def concat(parts: Sequence["Columns"]) -> "Columns":
+        """Stack several batches of columns (NaN-padding the level axis to the widest)."""
+        width = max(part.pressure_hpa.shape[1] for part in parts)
+        fields = {}
+        for f in dataclasses.fields(Columns):
+            arrays = []
+            for part in parts:
+                a = getattr(part, f.name)
+                if a.ndim == 2 and a.shape[1] < width:
+                    a = np.concatenate([a, np.full((a.shape[0], width - a.shape[1]), np.nan)], axis=1)
+                arrays.append(a)
+            fields[f.name] = np.concatenate(arrays, axis=0)
+        return Columns(**fields)
+
     def take(self, index) -> "Columns":
         """Subset of columns (rows) by integer index or boolean mask."""
         return Columns(**{f.name: getattr(self, f.name)[index] for f in dataclasses.fields(self)})

@@ -26,7 +26,8 @@ from .errors import OptionError
 from .layers import zero_height_m
 from .methods import METHOD_NAMES, get_method
 from .methods.base import Context, MethodResult
-from .probability import DEFAULT_MEMBERS, check_members, confidence_word, member_probabilities
+from .probability import (DEFAULT_MEMBERS, check_members, confidence_word, perturb,
+                          probabilities_from_codes)
 from .profile import Profile
 
 WETBULB_KINDS = ("isobaric", "adiabatic")
@@ -233,12 +234,16 @@ def diagnose(source, *, members: int = DEFAULT_MEMBERS, seed=None, methods=None,
     names = _method_names(methods)
     profile = _to_profile(source)
     columns = Columns.from_profiles([profile])
-    core = diagnose_columns(columns, names, return_context=True)
+    # The control (row 0) and the members (rows 1..) go through the pipeline in one pass;
+    # the explanation reads row 0 only.
+    batch = Columns.concat([columns, perturb(columns, members, seed)]) if members else columns
+    core = diagnose_columns(batch, names, return_context=True)
     if wetbulb == "adiabatic":
         from .layers import analyse_layers
         ctx = core["_context"]
         ctx.__dict__["wetbulb_layers"] = analyse_layers(columns.pressure_hpa, columns.height_m,
                                                         columns.wetbulb_adiabatic_c)
         core["wetbulb_zero_height_m"] = zero_height_m(ctx.wetbulb_layers)
-    probs = member_probabilities(columns, members, seed, names)[0] if members else np.full(len(Code), np.nan)
+    probs = (probabilities_from_codes(core["ptype"][1:], 1, members)[0] if members
+             else np.full(len(Code), np.nan))
     return Diagnosis(profile, columns, core, probs, members, seed, wetbulb)

@@ -104,7 +104,12 @@ def member_probabilities(columns: Columns, members: int = DEFAULT_MEMBERS, seed=
         return np.full((n, len(Code)), np.nan)
     from .diagnosis import diagnose_columns
     pert = perturb(columns, members, seed)
-    codes = diagnose_columns(pert, methods=methods)["ptype"].reshape(n, members)
+    return probabilities_from_codes(diagnose_columns(pert, methods=methods)["ptype"], n, members)
+
+
+def probabilities_from_codes(member_codes: np.ndarray, n: int, members: int) -> np.ndarray:
+    """``(n, len(Code))`` probabilities from the stacked member codes of :func:`perturb`."""
+    codes = np.asarray(member_codes).reshape(n, members)
     counts = np.zeros((n, len(Code)))
     rows = np.repeat(np.arange(n), members)
     np.add.at(counts, (rows, codes.ravel()), 1.0)

@@ -37,6 +37,20 @@ HUMIDITY_FIELDS = ("dewpoint_c", "relative_humidity_pct", "mixing_ratio_g_kg", "
 LEVEL_FIELDS = ("pressure_hpa", "height_m", "temperature_c") + HUMIDITY_FIELDS
 
 
+class _Where:
+    """``levels[i] (p hPa)`` for messages, formatted only when an error is raised."""
+
+    __slots__ = ("prefix", "i", "p")
+
+    def __init__(self, prefix: str, i: int, p: float):
+        self.prefix, self.i, self.p = prefix, i, p
+
+    def __format__(self, spec: str) -> str:
+        return f"{self.prefix}levels[{self.i}] ({_fmt(self.p)} hPa)"
+
+    __str__ = __repr__ = lambda self: format(self, "")
+
+
 def _fmt(value: float) -> str:
     return f"{value:g}" if isinstance(value, (int, float)) and math.isfinite(value) else repr(value)
 
@@ -171,7 +185,7 @@ class Profile:
         p = cols["pressure_hpa"]
         t = cols["temperature_c"]
         for i in range(n):
-            where_i = f"{prefix}levels[{i}]"
+            where_i = f"{prefix}levels[{i}]"  # cheap: no number formatting on the happy path
             if math.isnan(p[i]):
                 raise ProfileError(f"{where_i}.pressure_hpa: required field is missing",
                                    field=f"levels[{i}].pressure_hpa")
@@ -209,7 +223,7 @@ class Profile:
         # Humidity: convert each form to a dew point.
         td = np.full(n, np.nan)
         for i in range(n):
-            where_i = f"{prefix}levels[{i}] ({_fmt(p[i])} hPa)"
+            where_i = _Where(prefix, i, p[i])
             if not math.isnan(cols["dewpoint_c"][i]):
                 td[i] = cols["dewpoint_c"][i]
                 if td[i] < TEMPERATURE_RANGE_C[0] - 50:

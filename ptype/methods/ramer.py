@@ -267,7 +267,7 @@ def _march(p, tw, rh_frac, top_hpa, initial_ice):
     for q in used:
         hist[:, last:q] = ice[:, None]
         change = always[:, q] | (valid[:, q] & (ice > 0.0))
-        ice = np.where(change, np.clip(ice + d_ice[:, q], 0.0, 1.0), ice)
+        ice = np.where(change, np.minimum(np.maximum(ice + d_ice[:, q], 0.0), 1.0), ice)
         hist[:, q] = ice
         last = q + 1
     hist[:, last:] = ice[:, None]
