@@ -3,7 +3,7 @@
 The public namespace is flat::
 
     import ptype
-    profile = ptype.read_profile("soundings_demo/json/harrowgate_0600.json")
+    profile = ptype.read_profile("soundings_demo/json/mistleby-bridge_20260127T1600.json")
     tw = ptype.wet_bulb_temperature(profile.pressure_hpa, profile.temperature_c, profile.dewpoint_c)
     diagnosis = ptype.diagnose(profile)
 
