@@ -28,6 +28,10 @@ def _melting_verdict(area: float) -> str:
 def narrative(diagnosis) -> list[str]:
     """Short sentences explaining ``diagnosis`` (a :class:`ptype.diagnosis.Diagnosis`)."""
     out: list[str] = []
+    surface = diagnosis.profile.surface
+    if surface is not None and surface.precipitation_rate_mm_h == 0:
+        out.append("The surface readings report no precipitation (0 mm/h): what follows is the type "
+                   "precipitation would take if it fell now.")
     results = diagnosis.results
     ctx = diagnosis.context
     cols = diagnosis.columns
