@@ -169,6 +169,8 @@ def _figure(data: dict, width_in: float):
 
     bottom = float(np.nanmax(p)) + 8 if p.size else 1050.0
     top = max(float(np.nanmin(p)), TOP_HPA) if p.size else TOP_HPA
+    if top >= bottom - 50.0:  # a profile that starts high up: show all of it
+        top = max(float(np.nanmin(p)) - 10.0, 1.0) if p.size else bottom - 100.0
     view = (p >= top) if p.size else np.zeros(0, bool)
     ax.set_ylim(bottom, top)
     _fit_x(ax, p[view], np.concatenate([t[view], td[view]]), bottom)
