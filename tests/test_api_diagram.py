@@ -98,3 +98,13 @@ def test_diagram_errors_are_json(client, query, body, content_type, status):
     assert response.status_code == status
     assert response.mimetype == "application/json"
     assert set(response.get_json()["error"]) >= {"code", "message"}
+
+
+@pytest.mark.parametrize("pressures", [(350, 300, 250, 200), (1050, 1040, 1030), (900, 500, 20)])
+def test_draw_diagram_unusual_pressure_ranges(pressures):
+    # Profiles that start high up, span only a few hPa, or reach the stratosphere still draw.
+    levels = [{"pressure_hpa": p, "temperature_c": -5.0 - i, "dewpoint_c": -7.0 - i}
+              for i, p in enumerate(pressures)]
+    profile = ptype.Profile.from_document({"levels": levels})
+    assert draw_diagram(profile, "png", dpi=40).startswith(PNG_SIGNATURE)
+    assert draw_diagram(ptype.diagnose(profile, members=4, seed=0), "svg").startswith(b"<?xml")
