@@ -430,6 +430,10 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
     # already: only onsets inside the timeline are adjusted.
     ongoing = bool(precipitating[0])
     since_h, onset_inside = _spells(precipitating, h_step, ongoing)
+    # (b) and (c) correct what a forecast profile tends to miss near the start; at longer
+    # leads the forecast's own evolution (which carries some of this cooling) stands, so both
+    # fade with lead time like the observation increment (same e-folding, our choice).
+    lead_weight = observation_weight(0.0, (t_steps - now.timestamp()) / 3600.0)
 
     # (b) onset cooling of the dry sub-cloud layer.
     if "onset" in adjustments and onset_inside.any():
@@ -438,6 +442,7 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
         first_cloud = np.where(cloudy.any(axis=1), np.argmax(cloudy, axis=1), T.shape[1])
         sub_cloud = np.arange(T.shape[1])[None, :] < first_cloud[:, None]
         frac = np.where(onset_inside, 1.0 - np.exp(-(since_h + h_step) / ONSET_EFOLD_H), 0.0)
+        frac = frac * lead_weight
         tw = thermo.wet_bulb_temperature(P, T, Td)
         f = np.where(sub_cloud, frac[:, None], 0.0)
         T_new, Td_new = onset_cooling(T, Td, tw, f)
@@ -451,9 +456,10 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
 
     # (c) melting-layer cooling.
     if "melting" in adjustments and precipitating.any():
-        start_h = np.where(onset_inside, since_h + h_step,
-                           np.minimum(since_h + h_step, (t_steps - t_steps[0]) / 3600.0 + h_step))
-        dt_h = np.where(precipitating, np.minimum(start_h, MELTING_MAX_HOURS), 0.0)
+        # Time the column has been precipitating since the spell began or since now,
+        # whichever is later (since_h counts from the first precipitating step of the spell
+        # inside the timeline), capped, then faded with lead time.
+        dt_h = np.where(precipitating, np.minimum(since_h, MELTING_MAX_HOURS), 0.0) * lead_weight
         T_new, cooled = apply_melting_cooling(P, Z, T, np.where(precipitating, rate, 0.0), dt_h)
         T = T_new
         Td = np.minimum(Td, T)

@@ -184,3 +184,17 @@ def test_cli_timeline_table_and_json(tmp_path):
     bad = subprocess.run([*run, "--step", "soon"], check=False, capture_output=True, text=True,
                          timeout=120)
     assert bad.returncode == 2 and "step" in bad.stderr and "Traceback" not in bad.stderr
+
+
+def test_build_timeline_melting_cools_warm_nose_near_start_only():
+    docs = [profile_doc(T0 + timedelta(hours=h), nose_c=16.0, rate=2.0) for h in (0, 12)]
+    adj = nowcast.build_timeline(_profiles(docs), hours=12, step="1h", members=0,
+                                 adjustments=["melting"])
+    raw = nowcast.build_timeline(_profiles(docs), hours=12, step="1h", members=0, adjustments=())
+    warm_adj = [s["warm_area_j_kg"] for s in adj["steps"]]
+    warm_raw = [s["warm_area_j_kg"] for s in raw["steps"]]
+    assert warm_adj[0] == pytest.approx(warm_raw[0])      # no precipitation time yet
+    assert warm_adj[2] < warm_raw[2]                         # cooled near the start
+    assert "melting" in adj["steps"][2]["adjustments"]
+    # Fading with lead time: the reduction at 12 h is much smaller than at 2-3 h.
+    assert (warm_raw[12] - warm_adj[12]) < 0.5 * max(warm_raw[i] - warm_adj[i] for i in (2, 3))
