@@ -89,6 +89,9 @@ def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
     # The focus moved to the result heading so keyboard and screen-reader users land on it.
     assert page.evaluate("document.activeElement.id") == "result-heading"
     page.screenshot(path=str(tmp_path / "page.png"), full_page=True)
+    # On a phone-sized screen nothing spills sideways (WCAG 2.1 SC 1.4.10 Reflow).
+    page.set_viewport_size({"width": 400, "height": 900})
+    assert page.evaluate("() => document.documentElement.scrollWidth") <= 401
     assert external == []  # no asset from anywhere but the service itself
     assert console_errors == []  # nothing broke, and nothing was blocked by the page's CSP
 
