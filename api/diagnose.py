@@ -15,7 +15,7 @@ from flask import Blueprint, Response, current_app, request
 from pydantic import ValidationError
 
 import ptype
-from ptype.errors import ProfileError
+from ptype.errors import ProfileError, ReaderError
 from ptype.readers import read_document
 
 from .errors import ApiError, error_body
@@ -131,7 +131,12 @@ def profile_from_request(options: DiagnoseOptions) -> ptype.Profile:
         if "\n" not in text:
             text += "\n"
         fmt = TEXT_FORMATS[kind] or options.input_format
-        document, _ = read_document(text, format=fmt)
+        try:
+            document, _ = read_document(text, format=fmt)
+        except ReaderError as exc:
+            message = str(exc).replace("pass format= explicitly",
+                                       "name it with ?input=csv|temp|json")
+            raise ReaderError(message, field=exc.field) from None
     else:
         shown = kind or "none"
         raise ApiError(415, "unsupported_media_type",

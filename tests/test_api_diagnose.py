@@ -216,6 +216,11 @@ def test_diagnose_broken_csv_and_temp(client, body, content_type):
     assert "root:" not in error["message"]  # a path in the body is never read from disk
 
 
+def test_diagnose_undetectable_text_says_how_to_name_format(client):
+    response = client.post("/v1/diagnose", data="just some words", content_type="text/plain")
+    assert "?input=" in _assert_error(response, 422, "invalid_profile")["message"]
+
+
 def test_diagnose_text_body_not_utf8(client):
     response = client.post("/v1/diagnose", data=b"\xff\xfe\x00p", content_type="text/csv")
     _assert_error(response, 400)
