@@ -4,6 +4,8 @@ sites now, e.g. from cron so that alerts expire and move with the clock)."""
 
 from __future__ import annotations
 
+import os
+
 from flask import Blueprint, Response, current_app, jsonify, request
 
 from ptype import CAUTION
@@ -24,9 +26,10 @@ def sender() -> str:
     return str(current_app.config.get("PTYPE_CAP_SENDER") or DEFAULT_SENDER)
 
 
-def cap_status() -> str:
-    status = str(current_app.config.get("PTYPE_CAP_STATUS") or "Actual")
-    return status if status in STATUS else "Actual"
+def cap_status() -> str | None:
+    """The configured CAP status, or None to use the one recorded with each message."""
+    status = current_app.config.get("PTYPE_CAP_STATUS") or os.environ.get("PTYPE_CAP_STATUS")
+    return status if status in STATUS else None
 
 
 def _alerts(site_id=None, include_recent=True):

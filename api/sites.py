@@ -266,9 +266,10 @@ def _evaluate_alerts(site_id: int) -> list[dict]:
     with store.read() as s:
         site = _site_or_404(s, site_id)
         candidates = service.site_candidates(s, site, t, members=members)
+    cap_status = current_app.config.get("PTYPE_CAP_STATUS") or os.environ.get("PTYPE_CAP_STATUS")
     with store.write() as s:
         site = _site_or_404(s, site_id)
-        return service.apply_candidates(s, site, candidates, t)
+        return service.apply_candidates(s, site, candidates, t, cap_status=cap_status)
 
 
 # ----------------------------------------------------------------------------------------

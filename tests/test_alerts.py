@@ -197,3 +197,23 @@ def test_observed_present_weather_makes_certainty_observed():
     tl = {**_timeline(later), "observation": {"present_weather": "-FZRA"}}
     (c,) = [c for c in evaluate_rules(tl, NOW, "X") if c.event == "freezing_precipitation"]
     assert c.certainty == "Likely"
+
+
+def test_cap_status_recorded_with_each_message(tmp_path):
+    app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
+                      "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5,
+                      "PTYPE_CAP_STATUS": "Exercise"})
+    client = app.test_client()
+    with app.extensions["ptype_store"].write() as s:
+        key, _ = keys.create_key(s, "t", NOW)
+    h = {"Authorization": f"Bearer {key}"}
+    site = client.post("/v1/sites", json={"name": "T", "latitude": 1, "longitude": 1},
+                       headers=h).json["id"]
+    client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs()}, headers=h)
+    alert = client.get("/v1/alerts").json["alerts"][0]
+    from ptype.alerts import service
+    from ptype.store import Alert
+    with app.extensions["ptype_store"].read() as s:
+        xml = service.cap_for(s.get(Alert, alert["id"]), "x", None, 10.0).decode()
+    assert "<status>Exercise</status>" in xml  # without any configuration at render time
+    app.extensions["ptype_store"].dispose()

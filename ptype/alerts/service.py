@@ -94,7 +94,10 @@ def _snapshot(site: Site, cand) -> dict:
     return snap
 
 
-def _add_message(session: Session, alert: Alert, msg_type: str, now: datetime, snap: dict):
+def _add_message(session: Session, alert: Alert, msg_type: str, now: datetime, snap: dict,
+                 cap_status: str | None = None):
+    if cap_status:
+        snap = {**snap, "cap_status": cap_status}
     seq = 1 + max((m.seq for m in alert.messages), default=0)
     msg = AlertMessage(alert_id=alert.id, seq=seq, identifier=f"{alert.id}.{seq}",
                        msg_type=msg_type, sent=now, snapshot=snap)
@@ -110,14 +113,18 @@ def site_candidates(session: Session, site: Site, now: datetime, *,
 
 
 def evaluate_site(session: Session, site: Site, now: datetime, *,
-                  members: int = ALERT_MEMBERS) -> list[dict]:
+                  members: int = ALERT_MEMBERS, cap_status: str | None = None) -> list[dict]:
     """Evaluate the site's alerts now in one transaction; returns the actions taken."""
     return apply_candidates(session, site, site_candidates(session, site, now, members=members),
-                            now)
+                            now, cap_status=cap_status)
 
 
-def apply_candidates(session: Session, site: Site, candidates, now: datetime) -> list[dict]:
-    """Apply the lifecycle to fresh state (call inside a write transaction)."""
+def apply_candidates(session: Session, site: Site, candidates, now: datetime, *,
+                     cap_status: str | None = None) -> list[dict]:
+    """Apply the lifecycle to fresh state (call inside a write transaction).
+
+    ``cap_status`` (CAP ``status``: Actual, Exercise...) is recorded with each message so that
+    every later rendering of it says the same."""
     active = list(session.scalars(sa.select(Alert).where(Alert.site_id == site.id,
                                                          Alert.status == "active")))
     by_id = {a.id: a for a in active}
@@ -134,7 +141,7 @@ def apply_candidates(session: Session, site: Site, candidates, now: datetime) ->
                           created_at=now, updated_at=now)
             session.add(alert)
             session.flush()
-            _add_message(session, alert, "Alert", now, _snapshot(site, c))
+            _add_message(session, alert, "Alert", now, _snapshot(site, c), cap_status)
         else:
             alert = by_id[act.alert_id]
             if act.kind == "update":
@@ -143,11 +150,11 @@ def apply_candidates(session: Session, site: Site, candidates, now: datetime) ->
                 alert.onset, alert.expires, alert.details = c.onset, c.expires, c.to_dict()
                 alert.version += 1
                 alert.updated_at = now
-                _add_message(session, alert, "Update", now, _snapshot(site, c))
+                _add_message(session, alert, "Update", now, _snapshot(site, c), cap_status)
             elif act.kind == "cancel":
                 alert.status, alert.ended_at, alert.updated_at = "cancelled", now, now
                 snap = dict(alert.messages[-1].snapshot)
-                _add_message(session, alert, "Cancel", now, snap)
+                _add_message(session, alert, "Cancel", now, snap, cap_status)
             elif act.kind == "expire":
                 alert.status, alert.ended_at, alert.updated_at = "expired", alert.expires, now
         done.append({"action": act.kind, "event": act.event, "alert_id": alert.id})
@@ -195,19 +202,22 @@ def list_alerts(session: Session, now: datetime, sender: str, *, include_recent:
     return [alert_dict(a, sender) for a in rows]
 
 
-def cap_for(alert: Alert, sender: str, status: str, radius_km: float) -> bytes:
+def cap_for(alert: Alert, sender: str, status: str | None, radius_km: float) -> bytes:
+    """CAP XML of the alert's latest message; ``status`` None uses the one recorded with it."""
     from .cap import build_cap
     last = alert.messages[-1]
     msg = {"identifier": last.identifier, "msg_type": last.msg_type, "sent": last.sent,
            "snapshot": last.snapshot}
     earlier = [{"identifier": m.identifier, "sent": m.sent} for m in alert.messages[:-1]]
+    status = status or last.snapshot.get("cap_status") or "Actual"
     return build_cap(msg, earlier, sender=sender, status=status, radius_km=radius_km)
 
 
-def evaluate_all(session: Session, now: datetime, *, members: int = ALERT_MEMBERS) -> list[dict]:
+def evaluate_all(session: Session, now: datetime, *, members: int = ALERT_MEMBERS,
+                 cap_status: str | None = None) -> list[dict]:
     out = []
     for site in session.scalars(sa.select(Site).order_by(Site.id)):
-        out.extend(evaluate_site(session, site, now, members=members))
+        out.extend(evaluate_site(session, site, now, members=members, cap_status=cap_status))
     return out
 
 

@@ -29,12 +29,12 @@ def run(args) -> int:
     sender = os.environ.get("PTYPE_CAP_SENDER") or "ptype@localhost"
     with store.write() as s:
         if args.evaluate:
-            service.evaluate_all(s, now)
+            service.evaluate_all(s, now, cap_status=os.environ.get("PTYPE_CAP_STATUS"))
         service.expire_due(s, now)
     with store.read() as s:
         alerts = service.list_alerts(s, now, sender, include_recent=args.all)
         if args.format == "cap":
-            status = os.environ.get("PTYPE_CAP_STATUS") or "Actual"
+            status = os.environ.get("PTYPE_CAP_STATUS")  # else the status recorded
             for a in alerts:
                 print(service.cap_for(s.get(Alert, a["id"]), sender, status, 10.0).decode())
             return 0
