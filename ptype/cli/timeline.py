@@ -28,7 +28,12 @@ def run(args) -> int:
     from ..nowcast import ADJUSTMENTS, build_timeline
     from ..readers import read_profile
     from ..store.clock import parse_time
+    from ..errors import ProfileError
     profiles = [read_profile(f) for f in args.files]
+    for path, pr in zip(args.files, profiles, strict=True):
+        if pr.valid_time is None:
+            raise ProfileError(f"{path}: valid_time is missing; every profile of a timeline "
+                               "needs one", field="valid_time")
     times = sorted(p.valid_time for p in profiles if p.valid_time is not None)
     hours = args.hours
     if hours is None and times:
