@@ -25,10 +25,10 @@ def register(sub) -> None:
 
 def run(args) -> int:
     from .. import CAUTION
+    from ..errors import ProfileError
     from ..nowcast import ADJUSTMENTS, build_timeline
     from ..readers import read_profile
     from ..store.clock import parse_time
-    from ..errors import ProfileError
     profiles = [read_profile(f) for f in args.files]
     for path, pr in zip(args.files, profiles, strict=True):
         if pr.valid_time is None:
