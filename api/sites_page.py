@@ -17,16 +17,19 @@ from ptype.codes import LABELS, Code
 from ptype.store import Site
 from ptype.store.clock import iso
 
+from .page import secure_html
 from .sites import get_store, now
 
 bp = Blueprint("sites_page", __name__)
 
 #: Our own palette: cold blues for frozen, magenta-reds for freezing, greens for liquid.
+#: (Background, text) pairs; the stylesheet's ``.ty-<CODE>`` classes are these colours
+#: (the page's Content-Security-Policy allows no inline styles).
 COLOURS = {
     "NONE": ("#eef0f2", "#333"), "SN": ("#2f6fb5", "#fff"), "PL": ("#7a5cc2", "#fff"),
     "FZRA": ("#c2185b", "#fff"), "FZDZ": ("#e0609a", "#111"), "FZRAPL": ("#8e1f5c", "#fff"),
-    "RA": ("#2e8b57", "#fff"), "DZ": ("#8fcf9f", "#111"), "RASN": ("#5aa0a8", "#111"),
-    "RAPL": ("#6b8e23", "#fff"),
+    "RA": ("#237045", "#fff"), "DZ": ("#8fcf9f", "#111"), "RASN": ("#5aa0a8", "#111"),
+    "RAPL": ("#55701b", "#fff"),
 }
 
 
@@ -36,7 +39,6 @@ def _strip(timeline: dict) -> str:
         return f"<p class='empty'>{escape(timeline.get('message', 'No forecast.'))}</p>"
     cells = []
     for s in steps:
-        bg, fg = COLOURS.get(s["ptype"], ("#ccc", "#000"))
         hz = s["hazards"]
         marks, short = [], []
         if hz["freezing_on_road"]:
@@ -49,7 +51,7 @@ def _strip(timeline: dict) -> str:
                  + (f" ({', '.join(marks)})" if marks else ""))
         flag = (f"<span class='h' aria-hidden='true'>{'/'.join(short)}</span>" if short
                 else "<span class='h none' aria-hidden='true'>&nbsp;</span>")
-        cells.append(f"<li style='background:{bg};color:{fg}' title='{escape(title)}'>"
+        cells.append(f"<li class='ty-{escape(s['ptype'])}' title='{escape(title)}'>"
                      f"<span class='t'>{s['valid_time'][11:16]}</span>"
                      f"<span class='c'>{escape(s['ptype'])}</span>{flag}"
                      f"<span class='sr'>{escape(title)}</span></li>")
@@ -83,8 +85,8 @@ def _alert_list(alerts: list[dict]) -> str:
 
 
 def _legend() -> str:
-    items = "".join(f"<li><span class='sw' style='background:{bg};color:{fg}'>{code}</span> "
-                    f"{escape(LABELS[Code[code]])}</li>" for code, (bg, fg) in COLOURS.items())
+    items = "".join(f"<li><span class='sw ty-{code}'>{code}</span> "
+                    f"{escape(LABELS[Code[code]])}</li>" for code in COLOURS)
     items += ("<li><span class='sw key'>ice</span> freezing precipitation on the road</li>"
               "<li><span class='sw key'>frost</span> hoar frost on the road</li>")
     return f"<ul class='legend' aria-label='legend'>{items}</ul>"
@@ -127,4 +129,4 @@ def sites_page():
 <p class="caution" role="note">{escape(CAUTION)}</p></header>
 <main>{_legend()}{body}</main>
 <footer><p>{escape(CAUTION)}</p></footer></body></html>"""
-    return Response(html, mimetype="text/html")
+    return secure_html(Response(html, mimetype="text/html"))

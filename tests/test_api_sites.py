@@ -185,3 +185,36 @@ def test_sites_page_lists_sites_and_links_home(client, auth):
     assert r.status_code == 200
     html = r.get_data(as_text=True)
     assert "Test Hill" in html and 'href="/"' in html and "Guidance only" in html
+
+
+def _relative_luminance(hex_colour):
+    # WCAG 2.1, definition of relative luminance (sRGB).
+    h = hex_colour.lstrip("#")
+    if len(h) == 3:
+        h = "".join(c * 2 for c in h)
+    r, g, b = (int(h[i:i + 2], 16) / 255 for i in (0, 2, 4))
+
+    def lin(c):
+        return c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4
+    return 0.2126 * lin(r) + 0.7152 * lin(g) + 0.0722 * lin(b)
+
+
+def test_sites_page_colours_readable_and_in_stylesheet():
+    from pathlib import Path
+
+    from api.sites_page import COLOURS
+    css = (Path(__file__).parents[1] / "api" / "static" / "sites.css").read_text()
+    for code, (bg, fg) in COLOURS.items():
+        lo, hi = sorted([_relative_luminance(bg), _relative_luminance(fg)])
+        # WCAG 2.1 success criterion 1.4.3: contrast ratio at least 4.5:1 for text.
+        assert (hi + 0.05) / (lo + 0.05) >= 4.5, code
+        assert f".ty-{code} {{ background: {bg}; color: {fg}; }}" in css
+
+
+def test_sites_page_strict_csp_no_inline_styles(client, auth):
+    _site(client, auth)
+    r = client.get("/sites")
+    assert "default-src 'self'" in r.headers["Content-Security-Policy"]
+    assert r.headers["X-Content-Type-Options"] == "nosniff"
+    html = r.get_data(as_text=True)
+    assert "style=" not in html and "<script" not in html
