@@ -53,7 +53,8 @@ def _strip(timeline: dict) -> str:
                 else "<span class='h none' aria-hidden='true'>&nbsp;</span>")
         cells.append(f"<li class='ty-{escape(s['ptype'])}' title='{escape(title)}'>"
                      f"<span class='t'>{s['valid_time'][11:16]}</span>"
-                     f"<span class='c'>{escape(s['ptype'])}</span>{flag}"
+                     f"<span class='c'>{'dry' if s['ptype'] == 'NONE' else escape(s['ptype'])}</span>"
+                     f"{flag}"
                      f"<span class='sr'>{escape(title)}</span></li>")
     rows = "".join(f"<tr><td>{t['time'][11:16]} UTC</td><td>{escape(LABELS[Code[t['from']]])}"
                    f"</td><td>{escape(LABELS[Code[t['to']]])}</td></tr>"
