@@ -122,7 +122,8 @@ def sites_page():
     html = f"""<!doctype html>
 <html lang="en"><head><meta charset="utf-8">
 <meta name="viewport" content="width=device-width, initial-scale=1">
-<title>ptype · sites</title><link rel="stylesheet" href="/static/sites.css"></head>
+<title>ptype · sites</title><link rel="icon" href="/static/mark.svg" type="image/svg+xml">
+<link rel="stylesheet" href="/static/sites.css"></head>
 <body><header><h1>Sites: type timeline and road alerts</h1>
 <nav><a href="/">Forecaster view</a> · <a href="/v1/alerts.atom">Alert feed (Atom)</a> ·
 <a href="/v1/alerts">Alerts JSON</a></nav>

@@ -1,5 +1,7 @@
 """Tests of the sites, profiles, observations, timeline and alerts endpoints."""
 
+import os
+
 import pytest
 from series_helpers import storm_docs
 
@@ -218,3 +220,45 @@ def test_sites_page_strict_csp_no_inline_styles(client, auth):
     assert r.headers["X-Content-Type-Options"] == "nosniff"
     html = r.get_data(as_text=True)
     assert "style=" not in html and "<script" not in html
+
+
+CHROMIUM = "/usr/bin/chromium"
+
+
+@pytest.mark.browser
+@pytest.mark.skipif(not os.path.exists(CHROMIUM) and not os.environ.get("CI"),
+                    reason="Debian chromium is not installed (make system-deps)")
+def test_sites_page_in_browser_no_console_errors(app, client, auth):
+    # Debian's headless Chromium through Playwright, against the app on 127.0.0.1.
+    import threading
+
+    from playwright.sync_api import sync_playwright
+    from werkzeug.serving import make_server
+    site = _site(client, auth)
+    client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs(), "issued_time": NOW},
+                headers=auth)
+    server = make_server("127.0.0.1", 0, app, threaded=True)
+    url = f"http://127.0.0.1:{server.server_port}"
+    thread = threading.Thread(target=server.serve_forever, daemon=True)
+    thread.start()
+    try:
+        with sync_playwright() as pw:
+            browser = pw.chromium.launch(executable_path=CHROMIUM, headless=True, args=[
+                "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                "--disable-component-update", "--disable-sync", "--no-first-run"])
+            page = browser.new_page(viewport={"width": 1100, "height": 900})
+            errors = []
+            page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
+            page.goto(url + "/sites")
+            cells = page.locator("ol.strip li")
+            assert cells.count() == 7  # 6 h of profiles at 1-hour steps
+            # Colour comes from the stylesheet (allowed by the CSP), text label alongside.
+            bg = cells.nth(0).evaluate("e => getComputedStyle(e).backgroundColor")
+            assert bg == "rgb(47, 111, 181)"  # .ty-SN
+            assert cells.nth(0).inner_text().split()[1] == "SN"
+            assert page.locator("ul.alerts li").count() >= 1
+            assert page.locator("nav a[href='/']").count() == 1
+            assert not errors, errors
+            browser.close()
+    finally:
+        server.shutdown()
