@@ -217,3 +217,24 @@ def test_cap_status_recorded_with_each_message(tmp_path):
         xml = service.cap_for(s.get(Alert, alert["id"]), "x", None, 10.0).decode()
     assert "<status>Exercise</status>" in xml  # without any configuration at render time
     app.extensions["ptype_store"].dispose()
+
+
+def test_no_forecast_covering_now_does_not_cancel(tmp_path):
+    app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
+                      "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5})
+    client = app.test_client()
+    with app.extensions["ptype_store"].write() as s:
+        key, _ = keys.create_key(s, "t", NOW)
+    h = {"Authorization": f"Bearer {key}"}
+    site = client.post("/v1/sites", json={"name": "T", "latitude": 1, "longitude": 1},
+                       headers=h).json["id"]
+    client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs()}, headers=h)
+    before = {a["id"]: a["status"] for a in client.get("/v1/alerts").json["alerts"]}
+    # Five hours on, the 6-hour forecast still covers now; at 6 h 30 min it no longer does.
+    app.config["PTYPE_NOW"] = "2026-01-27T06:30:00Z"
+    client.post(f"/v1/sites/{site}/observations",
+                json={"time": "2026-01-27T06:20:00Z", "air_temperature_c": 0.5}, headers=h)
+    after = client.get("/v1/alerts").json["alerts"]
+    assert after and all(a["status"] != "cancelled" for a in after)
+    assert {a["id"] for a in after} == set(before)
+    app.extensions["ptype_store"].dispose()

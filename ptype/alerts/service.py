@@ -106,9 +106,15 @@ def _add_message(session: Session, alert: Alert, msg_type: str, now: datetime, s
 
 
 def site_candidates(session: Session, site: Site, now: datetime, *,
-                    members: int = ALERT_MEMBERS) -> list:
-    """Alert candidates from the site's current timeline (read-only; the slow part)."""
+                    members: int = ALERT_MEMBERS) -> list | None:
+    """Alert candidates from the site's current timeline (read-only; the slow part).
+
+    None when no forecast covers now: active alerts are then neither updated nor cancelled
+    (they still expire), because "the hazard left the forecast" cannot be told from "there is
+    no forecast"."""
     timeline = site_timeline(session, site, now, members=members)
+    if not timeline.get("steps"):
+        return None  # no forecast covers now: nothing can be said about the hazards
     return evaluate_rules(timeline, now, site.name, site.thresholds)
 
 
@@ -127,6 +133,11 @@ def apply_candidates(session: Session, site: Site, candidates, now: datetime, *,
     every later rendering of it says the same."""
     active = list(session.scalars(sa.select(Alert).where(Alert.site_id == site.id,
                                                          Alert.status == "active")))
+    if candidates is None:
+        expired = [a for a in active if a.expires <= now]
+        for a in expired:
+            a.status, a.ended_at, a.updated_at = "expired", a.expires, now
+        return [{"action": "expire", "event": a.event, "alert_id": a.id} for a in expired]
     by_id = {a.id: a for a in active}
     actions = decide([{"id": a.id, "event": a.event, "onset": a.onset, "expires": a.expires,
                        "severity": a.severity, "certainty": a.certainty} for a in active],
