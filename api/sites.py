@@ -43,10 +43,12 @@ EXTENSION = "ptype_store"
 # Set-up, store, clock, authentication
 # ----------------------------------------------------------------------------------------
 
+_open_lock = threading.Lock()
+
+
 def init_app(app) -> None:
-    """Open (and migrate) the store once per process; load the demo when asked."""
-    if EXTENSION not in app.extensions:
-        app.extensions[EXTENSION] = open_store(app.config)
+    """Register the store (opened and migrated on first use); load the demo when asked."""
+    app.extensions.setdefault(EXTENSION, None)
     if app.config.get("PTYPE_DEMO") or os.environ.get("PTYPE_DEMO") in ("1", "true", "yes"):
         _load_demo(app)
 
@@ -63,7 +65,7 @@ def _load_demo(app) -> None:
         app.config["PTYPE_NOW"] = iso(issued)
     # Invented data: its CAP messages say so.
     app.config.setdefault("PTYPE_CAP_STATUS", "Exercise")
-    store = app.extensions[EXTENSION]
+    store = store_for(app)
     added = load_demo(store, demo_dir, now=utcnow(app.config))
     if added["profiles"]:
         with app.app_context():
@@ -73,8 +75,20 @@ def _load_demo(app) -> None:
                 _evaluate_after_ingest(site_id)
 
 
+def store_for(app) -> Store:
+    """The store of ``app`` (opened and migrated on first use in this process)."""
+    store = app.extensions.get(EXTENSION)
+    if store is None:
+        with _open_lock:
+            store = app.extensions.get(EXTENSION)
+            if store is None:
+                store = app.extensions[EXTENSION] = open_store(app.config)
+    return store
+
+
 def get_store() -> Store:
-    return current_app.extensions[EXTENSION]
+    """The application's store, opened (and migrated) on first use in this process."""
+    return store_for(current_app._get_current_object())
 
 
 def now() -> datetime:

@@ -99,11 +99,12 @@ def main(argv=None) -> dict:
 
     # Ingest latency through the app (observation post + alert evaluation).
     from api import create_app
+    from api.sites import store_for
     from ptype.store import keys
     with tempfile.TemporaryDirectory() as d:
         app = create_app({"PTYPE_DATA_DIR": d, "PTYPE_NOW": now.isoformat()})
         c = app.test_client()
-        with app.extensions["ptype_store"].write() as s:
+        with store_for(app).write() as s:
             key, _ = keys.create_key(s, "bench", now)
         h = {"Authorization": f"Bearer {key}"}
         sid = c.post("/v1/sites", json={"name": "Bench", "latitude": 0, "longitude": 0},
@@ -118,7 +119,7 @@ def main(argv=None) -> dict:
                              "air_temperature_c": -2.0}, headers=h)
             times.append(time.perf_counter() - t0)
             assert r.status_code == 201
-        app.extensions["ptype_store"].dispose()
+        store_for(app).dispose()
 
     result = {"steps": n, "members": args.members, "levels": int(cols.pressure_hpa.shape[1]),
               "vectorised_s": round(vectorised, 4), "one_by_one_s": round(loop, 4),

@@ -6,6 +6,7 @@ import pytest
 from series_helpers import T0, profile_doc, storm_docs
 
 from api import create_app
+from api.sites import store_for
 from ptype.alerts.lifecycle import CHANGE_TOLERANCE, decide
 from ptype.alerts.rules import Candidate, certainty_word, evaluate_rules, urgency_word
 from ptype.store import keys
@@ -122,7 +123,7 @@ def test_alert_lifecycle_alert_update_cancel_with_references(tmp_path):
     app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
                       "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5})
     client = app.test_client()
-    with app.extensions["ptype_store"].write() as s:
+    with store_for(app).write() as s:
         key, _ = keys.create_key(s, "t", NOW)
     h = {"Authorization": f"Bearer {key}"}
     site = client.post("/v1/sites", json={"name": "Test Hill", "latitude": 47.1,
@@ -160,14 +161,14 @@ def test_alert_lifecycle_alert_update_cancel_with_references(tmp_path):
     assert "<msgType>Cancel</msgType>" in cap and "<references>" in cap
     active_only = client.get("/v1/alerts?active=1").json["alerts"]
     assert gone["id"] not in {a["id"] for a in active_only}
-    app.extensions["ptype_store"].dispose()
+    store_for(app).dispose()
 
 
 def test_alerts_expire_with_the_clock(tmp_path):
     app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
                       "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5})
     client = app.test_client()
-    with app.extensions["ptype_store"].write() as s:
+    with store_for(app).write() as s:
         key, _ = keys.create_key(s, "t", NOW)
     h = {"Authorization": f"Bearer {key}"}
     site = client.post("/v1/sites", json={"name": "T", "latitude": 1, "longitude": 1},
@@ -178,7 +179,7 @@ def test_alerts_expire_with_the_clock(tmp_path):
     app.config["PTYPE_NOW"] = "2026-01-28T00:00:00Z"  # a day later: all have expired
     later = client.get("/v1/alerts").json["alerts"]
     assert later and {a["status"] for a in later} == {"expired"}
-    app.extensions["ptype_store"].dispose()
+    store_for(app).dispose()
 
 
 def test_observed_present_weather_makes_certainty_observed():
@@ -204,7 +205,7 @@ def test_cap_status_recorded_with_each_message(tmp_path):
                       "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5,
                       "PTYPE_CAP_STATUS": "Exercise"})
     client = app.test_client()
-    with app.extensions["ptype_store"].write() as s:
+    with store_for(app).write() as s:
         key, _ = keys.create_key(s, "t", NOW)
     h = {"Authorization": f"Bearer {key}"}
     site = client.post("/v1/sites", json={"name": "T", "latitude": 1, "longitude": 1},
@@ -213,17 +214,17 @@ def test_cap_status_recorded_with_each_message(tmp_path):
     alert = client.get("/v1/alerts").json["alerts"][0]
     from ptype.alerts import service
     from ptype.store import Alert
-    with app.extensions["ptype_store"].read() as s:
+    with store_for(app).read() as s:
         xml = service.cap_for(s.get(Alert, alert["id"]), "x", None, 10.0).decode()
     assert "<status>Exercise</status>" in xml  # without any configuration at render time
-    app.extensions["ptype_store"].dispose()
+    store_for(app).dispose()
 
 
 def test_no_forecast_covering_now_does_not_cancel(tmp_path):
     app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
                       "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5})
     client = app.test_client()
-    with app.extensions["ptype_store"].write() as s:
+    with store_for(app).write() as s:
         key, _ = keys.create_key(s, "t", NOW)
     h = {"Authorization": f"Bearer {key}"}
     site = client.post("/v1/sites", json={"name": "T", "latitude": 1, "longitude": 1},
@@ -237,4 +238,4 @@ def test_no_forecast_covering_now_does_not_cancel(tmp_path):
     after = client.get("/v1/alerts").json["alerts"]
     assert after and all(a["status"] != "cancelled" for a in after)
     assert {a["id"] for a in after} == set(before)
-    app.extensions["ptype_store"].dispose()
+    store_for(app).dispose()

@@ -6,6 +6,7 @@ import pytest
 from series_helpers import storm_docs
 
 from api import create_app
+from api.sites import store_for
 from ptype.store import keys
 from ptype.store.clock import parse_time
 
@@ -17,7 +18,7 @@ def app(tmp_path):
     app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True, "PTYPE_NOW": NOW,
                       "PTYPE_ALERT_MEMBERS": 5})
     yield app
-    app.extensions["ptype_store"].dispose()
+    store_for(app).dispose()
 
 
 @pytest.fixture
@@ -26,7 +27,7 @@ def client(app):
 
 
 def _key(app, name="ops"):
-    with app.extensions["ptype_store"].write() as s:
+    with store_for(app).write() as s:
         return keys.create_key(s, name, parse_time(NOW))
 
 
@@ -58,7 +59,7 @@ def test_post_site_wrong_or_revoked_key(app, client):
                        headers={"Authorization": f"Token {key}"}).status_code == 401
     assert client.post("/v1/sites", json=SITE,
                        headers={"Authorization": f"Bearer {key}"}).status_code == 201
-    with app.extensions["ptype_store"].write() as s:
+    with store_for(app).write() as s:
         keys.revoke_key(s, info.key_id, parse_time(NOW))
     # Revocation applies at once, even to a key this process has already verified.
     assert client.post("/v1/sites", json=SITE,

@@ -22,6 +22,7 @@ pytest.importorskip("psycopg", reason="the psycopg driver is not installed")
 from series_helpers import storm_docs
 
 from api import create_app
+from api.sites import store_for
 from ptype.store import Store, keys, migrations
 
 NOW = datetime(2026, 1, 27, tzinfo=UTC)
@@ -106,7 +107,7 @@ def test_api_flow_on_postgresql(pg_url):
     app = create_app({"PTYPE_DATABASE_URL": pg_url, "TESTING": True,
                       "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5})
     client = app.test_client()
-    with app.extensions["ptype_store"].write() as s:
+    with store_for(app).write() as s:
         key, _ = keys.create_key(s, "pg-api", NOW)
     h = {"Authorization": f"Bearer {key}"}
     site = client.post("/v1/sites", json={"name": "PG Hill", "latitude": 47.0, "longitude": -33.0,
@@ -126,4 +127,4 @@ def test_api_flow_on_postgresql(pg_url):
     assert any(a["event"] == "freezing_precipitation" for a in alerts)
     cap = client.get(f"/v1/alerts/{alerts[0]['id']}.cap")
     assert cap.status_code == 200 and b"<msgType>Alert</msgType>" in cap.data
-    app.extensions["ptype_store"].dispose()
+    store_for(app).dispose()
