@@ -97,17 +97,19 @@ def explain(result: MethodResult, i: int) -> list[Step]:
     v = {k: float(a[i]) for k, a in result.values.items()}
     rule = RULES[int(result.rule[i])]
     word = "snow" if rule == "snow" else "rain"
-    steps = [Step(rule, f"Surface air {v['surface_temperature_c']:+.1f} °C at {v['surface_relative_humidity_pct']:.0f} % "
-                        f"relative humidity gives a snow probability of {v['snow_probability']:.2f} "
-                        f"(snow at {SNOW_PROBABILITY_THRESHOLD} or more): {word}. This looks at the surface only.",
-                  {"snow_probability": v["snow_probability"], "surface_temperature_c": v["surface_temperature_c"],
-                   "surface_relative_humidity_pct": v["surface_relative_humidity_pct"]},
-                  {"snow_probability_threshold": SNOW_PROBABILITY_THRESHOLD,
-                   "alpha": ALPHA, "beta": BETA, "gamma": GAMMA}, SOURCE)]
     ding = Code(int(v["ding_code"])).label
-    steps.append(Step("ding_check", f"Cross-check (Ding et al. 2014): surface wet-bulb {v['surface_wetbulb_c']:+.1f} °C "
-                                    f"against {v['ding_t_min_c']:+.1f}/{v['ding_t_max_c']:+.1f} °C at "
-                                    f"{v['elevation_m']:.0f} m gives {ding}.",
-                      {"surface_wetbulb_c": v["surface_wetbulb_c"], "elevation_m": v["elevation_m"]},
-                      {"t_min_c": v["ding_t_min_c"], "t_max_c": v["ding_t_max_c"]}, SOURCE_DING))
-    return steps
+    # The cross-check comes first so that the last step is always the rule that decided.
+    return [
+        Step("ding_check", f"Cross-check (Ding et al. 2014): surface wet-bulb {v['surface_wetbulb_c']:+.1f} °C "
+                           f"against {v['ding_t_min_c']:+.1f}/{v['ding_t_max_c']:+.1f} °C at "
+                           f"{v['elevation_m']:.0f} m gives {ding}.",
+             {"surface_wetbulb_c": v["surface_wetbulb_c"], "elevation_m": v["elevation_m"]},
+             {"t_min_c": v["ding_t_min_c"], "t_max_c": v["ding_t_max_c"]}, SOURCE_DING),
+        Step(rule, f"Surface air {v['surface_temperature_c']:+.1f} °C at {v['surface_relative_humidity_pct']:.0f} % "
+                   f"relative humidity gives a snow probability of {v['snow_probability']:.2f} "
+                   f"(snow at {SNOW_PROBABILITY_THRESHOLD} or more): {word}. This looks at the surface only.",
+             {"snow_probability": v["snow_probability"], "surface_temperature_c": v["surface_temperature_c"],
+              "surface_relative_humidity_pct": v["surface_relative_humidity_pct"]},
+             {"snow_probability_threshold": SNOW_PROBABILITY_THRESHOLD,
+              "alpha": ALPHA, "beta": BETA, "gamma": GAMMA}, SOURCE),
+    ]
