@@ -68,12 +68,13 @@ def free_port() -> int:
         return s.getsockname()[1]
 
 
-def start_server(workers: int, data_dir: str):
+def start_server(workers: int, data_dir: str, threads: int = 1):
     port = free_port()
     ptype_bin = Path(sys.executable).with_name("ptype")
     env = dict(os.environ, PTYPE_DATA_DIR=data_dir)
     proc = subprocess.Popen([str(ptype_bin), "serve", "--host", "127.0.0.1", "--port", str(port),
-                             "--workers", str(workers)], stdout=subprocess.PIPE,
+                             "--workers", str(workers), "--threads", str(threads)],
+                            stdout=subprocess.PIPE,
                             stderr=subprocess.STDOUT, text=True, env=env, start_new_session=True)
     url = f"http://127.0.0.1:{port}"
     deadline = time.monotonic() + 90
@@ -99,6 +100,26 @@ def stop_server(proc) -> None:
         except subprocess.TimeoutExpired:
             os.killpg(proc.pid, signal.SIGKILL)
             proc.wait()
+
+
+def server_cpu_seconds(master_pid: int) -> float:
+    """CPU seconds (user + system) used so far by the gunicorn master and its workers.
+
+    Read from /proc, so that the cost per request can be told apart from the share of the
+    cores the server got on a machine that other work also uses."""
+    tick = os.sysconf("SC_CLK_TCK")
+    total = 0.0
+    for entry in Path("/proc").iterdir():
+        if not entry.name.isdigit():
+            continue
+        try:
+            fields = (entry / "stat").read_text().rsplit(")", 1)[1].split()
+        except OSError:
+            continue
+        pid, ppid = int(entry.name), int(fields[1])
+        if pid == master_pid or ppid == master_pid:
+            total += (int(fields[11]) + int(fields[12])) / tick
+    return total
 
 
 # -- load generators -----------------------------------------------------------------------
@@ -282,6 +303,8 @@ def main(argv=None) -> int:
     parser.add_argument("--duration", type=float, default=15.0, help="seconds per load run")
     parser.add_argument("--connections", type=int, default=16, help="concurrent clients")
     parser.add_argument("--workers", type=int, default=2, help="gunicorn workers")
+    parser.add_argument("--threads", type=int, default=1,
+                        help="threads per worker (>1 selects gunicorn's gthread worker)")
     parser.add_argument("--levels", type=int, default=60, help="levels in the profile")
     parser.add_argument("--tool", choices=("auto", "wrk", "python"), default="auto")
     parser.add_argument("--out", default=str(RESULTS))
@@ -294,15 +317,23 @@ def main(argv=None) -> int:
     body = json.dumps(document).encode()
 
     with tempfile.TemporaryDirectory() as data_dir:
-        proc, url = start_server(args.workers, data_dir)
+        proc, url = start_server(args.workers, data_dir, args.threads)
         try:
             # Warm each worker (imports, caches) before measuring.
             run_threads(url, "/v1/diagnose", body, args.workers * 2, 2.0)
             health = load(url, "/healthz", None, args.connections, min(args.duration, 5.0))
+            cpu_before = server_cpu_seconds(proc.pid)
             diagnose = load(url, "/v1/diagnose", body, args.connections, args.duration)
+            cpu_used = server_cpu_seconds(proc.pid) - cpu_before
         finally:
             stop_server(proc)
 
+    cpu_ms = 1000.0 * cpu_used / max(diagnose["requests"], 1)
+    diagnose["server_cpu_ms_per_request"] = round(cpu_ms, 2)
+    # What the same server would sustain with the cores to itself (CPU-bound, one request
+    # per worker at a time).
+    diagnose["capacity_req_s_if_cores_free"] = round(
+        min(args.workers, os.cpu_count() or 1) * 1000.0 / cpu_ms, 1)
     stages = stage_timings(document)
     meets = (diagnose["requests_per_s"] >= TARGET["requests_per_s"]
              and (diagnose["p99_ms"] or 1e9) <= TARGET["p99_ms"]
@@ -312,7 +343,8 @@ def main(argv=None) -> int:
         "date_utc": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
         "machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
                     "load_average_1m_at_end": round(os.getloadavg()[0], 2)},
-        "server": {"wsgi": "gunicorn", "worker_class": "sync", "workers": args.workers},
+        "server": {"wsgi": "gunicorn", "worker_class": "gthread" if args.threads > 1 else "sync",
+                   "workers": args.workers, "threads": args.threads},
         "load": {"connections": args.connections, "duration_s": args.duration,
                  "profile_levels": args.levels, "members": "default (50)"},
         "diagnose": {k: v for k, v in diagnose.items() if k != "raw"},
@@ -331,6 +363,8 @@ def main(argv=None) -> int:
           f"{args.workers} gunicorn workers, {d['tool']}:")
     print(f"  {d['requests_per_s']:.1f} req/s   p50 {d['p50_ms']:.1f} ms   "
           f"p99 {d['p99_ms']:.1f} ms   errors {d['errors']}   ({d['requests']} requests)")
+    print(f"  server CPU {d['server_cpu_ms_per_request']:.1f} ms per request -> "
+          f"{d['capacity_req_s_if_cores_free']:.0f} req/s with the cores to itself")
     print(f"  GET /healthz reference: {health['requests_per_s']:.0f} req/s; "
           f"diagnose/healthz = {result['ratio_diagnose_to_healthz_rps']:.3f}")
     print(f"  target >= {TARGET['requests_per_s']:.0f} req/s, p99 <= {TARGET['p99_ms']:.0f} ms, "
