@@ -10,7 +10,7 @@ import os
 import shutil
 
 import pytest
-from api_support import freezing_rain_document
+from api_support import document_to_csv, freezing_rain_document, snow_document
 from test_server import start_server, stop_server
 
 CHROMIUM = "/usr/bin/chromium"
@@ -103,3 +103,18 @@ def test_page_shows_error_for_bad_paste(server, browser):
     page.click("#diagnose-button")
     page.wait_for_selector("#error:not([hidden])", timeout=15000)
     assert "temperature_c" in page.inner_text("#error")
+
+
+def test_page_upload_csv_file(server, browser, tmp_path):
+    path = tmp_path / "hobbs.csv"
+    path.write_text(document_to_csv(snow_document()))
+    page = browser.new_page()
+    page.goto(server + "/")
+    page.set_input_files("#profile-file", str(path))
+    page.wait_for_function("() => document.getElementById('profile-text').value.includes("
+                           "'pressure_hpa')")
+    page.click("#diagnose-button")
+    page.wait_for_function("() => document.getElementById('verdict-code').textContent.length > 0",
+                           timeout=30000)
+    # Snow: no layer above 0 degC anywhere (common practice; Bourgouin 2000).
+    assert page.inner_text("#verdict-code") == "SN"
