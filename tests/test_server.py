@@ -107,13 +107,17 @@ def test_serve_rejects_large_body_and_stays_up(server):
     assert requests.get(url + "/healthz", timeout=10).status_code == 200
 
 
-def test_serve_demo_flag_sets_environment(tmp_path):
-    # --demo reaches the application as PTYPE_DEMO=1; the server still starts and answers.
+def test_serve_demo_flag_sets_environment(server, tmp_path):
+    # --demo reaches the application as PTYPE_DEMO=1, which loads the demo sites into the
+    # empty store; without it the store stays empty.
+    _, plain_url = server
+    assert requests.get(plain_url + "/v1/sites", timeout=10).json()["sites"] == []
     proc, url = start_server(tmp_path, "--demo", "--workers", "1")
     try:
         assert requests.get(url + "/healthz", timeout=10).ok
         proc.log.seek(0)
         assert "demo data" in proc.log.read()
+        assert len(requests.get(url + "/v1/sites", timeout=10).json()["sites"]) > 0
     finally:
         stop_server(proc)
 
