@@ -28,6 +28,28 @@ TEXT_FORMATS = {"text/csv": "csv", "text/plain": None}
 JSON_TYPES = ("application/json",)
 
 
+#: Largest Monte-Carlo work per request, members x levels summed over its profiles.  It bounds
+#: the time and memory one request can take (about 3 s and 1 GB at this limit on a 2-core
+#: machine; 60 levels x 50 members is 3000).
+DEFAULT_MAX_MEMBER_LEVELS = 1_000_000
+
+
+def init_app(app) -> None:
+    app.config.setdefault("PTYPE_MAX_MEMBER_LEVELS", DEFAULT_MAX_MEMBER_LEVELS)
+
+
+def check_work(n_levels: int, kwargs: dict) -> None:
+    """Refuse a request whose members x levels exceed ``PTYPE_MAX_MEMBER_LEVELS``."""
+    from ptype.probability import DEFAULT_MEMBERS
+    members = kwargs.get("members", DEFAULT_MEMBERS)
+    limit = current_app.config.get("PTYPE_MAX_MEMBER_LEVELS", DEFAULT_MAX_MEMBER_LEVELS)
+    if members * n_levels > limit:
+        raise ApiError(413, "too_much_work",
+                       f"members = {members} x {n_levels} levels = {members * n_levels} "
+                       f"member-levels; this server accepts at most {limit} per request "
+                       "(ask for fewer members or send fewer levels)", "members")
+
+
 # -- request parsing (shared with api.diagram) ------------------------------------------
 def parse_options(model=DiagnoseOptions):
     """Validate the query string against ``model``; unknown or bad options are a 400."""
@@ -178,6 +200,7 @@ def diagnose():
     options = parse_options()
     kwargs = diagnose_kwargs(options)
     profile = profile_from_request(options)
+    check_work(profile.n_levels, kwargs)
     result = ptype.diagnose(profile, **kwargs)
     return json_response(result.to_dict())
 
@@ -216,6 +239,7 @@ def diagnose_batch():
             results[i] = item
         else:
             valid.append((i, item))
+    check_work(sum(p.n_levels for _, p in valid), kwargs)
     for i, diagnosis in zip((i for i, _ in valid),
                             diagnose_many([p for _, p in valid], **kwargs)):
         results[i] = diagnosis.to_dict()

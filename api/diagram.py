@@ -12,7 +12,7 @@ from flask import Blueprint, Response, request
 import ptype
 from ptype.diagram import FORMATS, draw_diagram
 
-from .diagnose import diagnose_kwargs, parse_options, profile_from_request
+from .diagnose import check_work, diagnose_kwargs, parse_options, profile_from_request
 from .models import DiagramOptions
 
 bp = Blueprint("diagram", __name__, url_prefix="/v1")
@@ -31,6 +31,7 @@ def diagram():
     kwargs = diagnose_kwargs(options)
     fmt = image_format(options)
     profile = profile_from_request(options)
+    check_work(profile.n_levels, kwargs)
     result = ptype.diagnose(profile, **kwargs)
     image = draw_diagram(result, fmt)
     response = Response(image, mimetype=FORMATS[fmt])

@@ -60,7 +60,7 @@ EXAMPLE_ERRORS = {
 ERROR_TEXT = {400: "Bad query option or unreadable JSON.", 404: "No such resource.",
               401: "Missing or unknown API key.", 403: "Not allowed for this API key.",
               409: "Conflicts with what is stored.",
-              413: "Body, levels or batch larger than the server accepts.",
+              413: "Body, levels, batch or members x levels larger than the server accepts.",
               415: "Content type not accepted.",
               422: "The body was read but is not a valid profile."}
 

@@ -197,6 +197,18 @@ def test_diagnose_too_many_levels_413():
     _assert_error(response, 413, "too_many_levels", "levels")
 
 
+def test_diagnose_too_much_work_413():
+    app = create_app({"TESTING": True, "PTYPE_MAX_MEMBER_LEVELS": 1000})
+    client = app.test_client()
+    doc = freezing_rain_document(n_levels=30)
+    _assert_error(client.post("/v1/diagnose?members=40", json=doc), 413, "too_much_work",
+                  "members")
+    assert client.post("/v1/diagnose?members=30", json=doc).status_code == 200
+    _assert_error(client.post("/v1/diagnose/batch?members=20", json={"profiles": [doc, doc]}),
+                  413, "too_much_work")
+    _assert_error(client.post("/v1/diagram?members=40", json=doc), 413, "too_much_work")
+
+
 @pytest.mark.parametrize("body,content_type", [
     ("pressure_hpa,temperature_c,dewpoint_c\n1000,warm,-1\n900,-2,-3\n800,-4,-5\n", "text/csv"),
     ("pressure_hpa;temperature_c\n1000;1\n", "text/csv"),
