@@ -1,9 +1,11 @@
 """The skew-T log-p diagram of a diagnosis: :func:`draw_diagram`.
 
 Drawn with matplotlib's object API (no pyplot state, safe in threads and
-server workers) on MetPy's :class:`~metpy.plots.SkewT` axes (May et al.,
-MetPy, 2022; the skew-T log-p chart itself follows the U.S. Air Force AWS/TR-79/006
-construction, common practice).  The figure shows
+server workers) on MetPy's :class:`~metpy.plots.SkewT` axes (May et al. 2022,
+Bull. Amer. Meteor. Soc., "MetPy: a meteorological Python library for data analysis
+and visualization" - from memory).  The skew-T log-p chart is the usual one of the
+trade (isotherms skewed to the right, pressure on a log scale; described in the
+U.S. Air Force Air Weather Service report AWS/TR-79/006 - from memory).  The figure shows
 
 * temperature, dew point and wet-bulb temperature against log pressure,
 * the 0 degC isotherm,
