@@ -594,7 +594,8 @@ def diagnose_dataset(ds, members: int = 0, seed=None, methods=None, per_method: 
         dask_gufunc_kwargs={"output_sizes": {"ptype_field": nf}},
         keep_attrs=False,
     )
-    packed = packed.transpose(*col_dims, "ptype_field")
+    # Keep only the dimension coordinates; the others are chosen below.
+    packed = packed.transpose(*col_dims, "ptype_field").reset_coords(drop=True)
     field_index = {name: i for i, name in enumerate(layout.names)}
 
     def field(name):
@@ -653,10 +654,13 @@ def diagnose_dataset(ds, members: int = 0, seed=None, methods=None, per_method: 
             out[f"probability_of_{_label_name(code)}"] = field(f"p_{code.name}").assign_attrs(attrs)
     # Coordinates: the column dimensions and auxiliary coordinates on them (latitude, ...).
     for name, c in ds.coords.items():
-        if name != lev and set(c.dims) <= set(col_dims) and lev not in c.dims:
-            out = out.assign_coords({name: c})
+        if name == lev or lev in c.dims or not set(c.dims) <= set(col_dims):
+            continue
+        if not c.dims and (_std(c) == "height" or name == "height"):
+            continue  # the screen level's 2 m: the output is at the surface
+        out = out.assign_coords({name: c.variable})
     if grid_mapping and grid_mapping in ds.variables:
-        out[grid_mapping] = ds[grid_mapping]
+        out[grid_mapping] = ds[grid_mapping].variable
     out.attrs.update({
         "Conventions": "CF-1.13",
         "title": "Precipitation type at the surface diagnosed from model pressure-level profiles",
@@ -718,9 +722,12 @@ def encoding_for(out, complevel: int = 4) -> dict:
 
 
 def history_line(argv: Iterable[str] | None = None) -> str:
+    """CF ``history`` entry: UTC time stamp and the command line (or the API call)."""
+    from . import __version__
     now = datetime.now(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
-    args = list(sys.argv if argv is None else argv)
-    return f"{now}: ptype grid {' '.join(args)}".rstrip()
+    if argv is None:
+        return f"{now}: ptype.grid.write_grid (ptype {__version__})"
+    return f"{now}: ptype grid {' '.join(argv)}".rstrip()
 
 
 def write_grid(out, path, *, progress: bool = False, client=None, argv=None) -> None:

@@ -341,3 +341,22 @@ def test_plot_types_uses_palette_and_legend(small_result, tmp_path):
         assert tuple(round(c * 255.0) for c in to_rgb(PALETTE[value])) in colours
     with pytest.raises(OptionError, match="time index"):
         plot_types(small_result, tmp_path / "x.png", time_index=5)
+
+
+def test_diagnose_dataset_without_time_on_cells_with_auxiliary_coordinates(small_grid,
+                                                                           small_result):
+    # One time step, horizontal dims stacked into one unstructured "cell" dimension, with
+    # latitude/longitude and a grid mapping: same types; coordinates carried, the screen
+    # level's 2 m height coordinate not.
+    ds = small_grid.isel(time=0)
+    ds = ds.assign_coords(lat=(("y", "x"), 50.0 + 0.01 * ds.y.values[:, None] + 0.0 * ds.x.values),
+                          lon=(("y", "x"), 0.0 * ds.y.values[:, None] + 0.01 * ds.x.values))
+    ds["crs"] = xr.DataArray(0, attrs={"grid_mapping_name": "latitude_longitude"})
+    ds["ta"].attrs["grid_mapping"] = "crs"
+    cells = ds.stack(cell=("y", "x")).reset_index("cell", drop=True)
+    out = grid.diagnose_dataset(cells).compute()
+    assert out.precipitation_type.dims == ("cell",)
+    np.testing.assert_array_equal(out.precipitation_type.values,
+                                  small_result.precipitation_type.values[0].ravel())
+    assert {"lat", "lon"} <= set(out.coords) and "height" not in out.coords
+    assert out.precipitation_type.attrs["grid_mapping"] == "crs" and "crs" in out
