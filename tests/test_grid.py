@@ -198,12 +198,25 @@ def test_diagnose_dataset_any_dimension_order_names_and_units(small_grid, small_
     ds = ds.drop_vars("hur")
     ds["ta"] = t_c.assign_attrs(standard_name="air_temperature", units="degC")
     ds = ds.transpose("west_east", "isobaric", "valid", "south_north")
+    ds = ds.isel(isobaric=slice(None, None, -1))  # levels top -> bottom
     out = grid.diagnose_dataset(ds.chunk({"west_east": 5, "south_north": 4})).compute()
     got = out.precipitation_type.transpose("valid", "south_north", "west_east").values
     agree = np.mean(got == small_result.precipitation_type.values)
     # q is stored as float64 from float32 inputs: the dew points differ by < 1e-4 K, so every
     # column agrees except (at most) one sitting exactly on a threshold.
     assert agree >= 0.995
+
+
+def test_diagnose_dataset_dew_point_input_in_kelvin(small_grid, small_result):
+    from ptype import thermo
+    ds = small_grid.copy()
+    td = thermo.dewpoint_from_relative_humidity_c(ds.ta.values - 273.15, ds.hur.values)
+    ds["td"] = (ds.ta.dims, td + 273.15, {"standard_name": "dew_point_temperature",
+                                          "units": "K"})
+    out = grid.diagnose_dataset(ds.drop_vars("hur")).compute()
+    assert grid.find_fields(ds.drop_vars("hur")).humidity_kind == "dew_point_temperature"
+    assert np.mean(out.precipitation_type.values == small_result.precipitation_type.values) \
+        >= 0.995
 
 
 def test_diagnose_dataset_is_lazy_and_independent_of_chunking(small_file, small_result):
@@ -288,6 +301,9 @@ def test_grid_cli_writes_cf_output(small_grid, small_result, tmp_path, capsys):
         np.testing.assert_array_equal(back.precipitation_type.values,
                                       small_result.precipitation_type.values)
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    # The progress bar goes to standard error when asked for.
+    rc = main(["grid", paths[0], "-o", str(tmp_path / "p.nc"), "--progress"])
+    assert rc == 0 and "100% Completed" in capsys.readouterr().err
 
 
 def test_grid_cli_bad_input_is_one_line_error(tmp_path, capsys):
