@@ -305,7 +305,7 @@ def _adiabatic_wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, tolerance_k=1
 
 WET_BULB_KINDS = ("isobaric", "adiabatic")
 #: Arrays of at least this many valid points use the compiled solver of ptype.fastthermo.
-_FAST_MIN_SIZE = 4096
+_FAST_MIN_SIZE = 256
 
 
 def _fast_available() -> bool:
