@@ -1,0 +1,233 @@
+"""Engine regression: the diagnosis of a fixed corpus must not change when the code is refactored.
+
+The expected file ``tests/data/engine_regression.json.gz`` was written once from the engine as it
+stood before the speed work (``.venv/bin/python tests/test_engine_regression.py --write``) and is
+compared exactly here: codes, rules and strings equal, floats within 1e-9 (values already rounded
+by ``to_dict`` compare as rounded).  The corpus is the invented demo data (``soundings_demo``):
+every demo sounding, a sample of the site series and of the verification profiles, their
+Monte-Carlo members (``perturb``), full ``Diagnosis.to_dict`` outputs (steps and explanation
+included), and the error messages of deliberately broken level lists.  This is a consistency
+check against the project's own earlier output, not a physical reference: the physics is tested
+against published sources in the per-module tests.
+"""
+
+from __future__ import annotations
+
+import gzip
+import json
+import math
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+import ptype
+from ptype.columns import Columns
+from ptype.diagnosis import diagnose_columns
+from ptype.errors import ProfileError
+from ptype.probability import perturb
+from ptype.profile import Profile
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "soundings_demo"
+EXPECTED = Path(__file__).parent / "data" / "engine_regression.json.gz"
+MEMBERS_PER_PROFILE = 20
+TOL = 1e-9
+
+
+def _sample(paths, count):
+    paths = sorted(paths)
+    if len(paths) <= count:
+        return paths
+    step = len(paths) / count
+    return [paths[int(i * step)] for i in range(count)]
+
+
+def corpus_paths() -> list[Path]:
+    paths = sorted((DEMO / "json").glob("*.json"))
+    paths += _sample((DEMO / "series").glob("*/*.json"), 40)
+    paths += _sample((DEMO / "verification" / "profiles").glob("*.json"), 60)
+    return paths
+
+
+def _load(path: Path) -> dict:
+    return json.loads(path.read_text())
+
+
+def _sixty_level_document() -> dict:
+    # The benchmark profile (bench/bench_diagnose.py): freezing-rain shape, 60 levels.
+    p = np.linspace(1000.0, 250.0, 60)
+    z = np.linspace(0.0, 10500.0, 60)
+    t = np.interp(p, [250, 500, 700, 760, 820, 880, 950, 1000],
+                  [-50, -22, -6, 0.5, 4.0, 0.5, -4.0, -2.0])
+    td = t - np.where(p > 450, 0.6, 8.0)
+    return {"levels": [{"pressure_hpa": float(a), "height_m": float(b), "temperature_c": float(c),
+                        "dewpoint_c": float(d)} for a, b, c, d in zip(p, z, t, td)]}
+
+
+def _broken_level_lists(doc: dict) -> list[list[dict]]:
+    """Level lists that fail validation in different places (messages must stay identical)."""
+    lv = [{k: v for k, v in lvl.items()} for lvl in doc["levels"]]
+    cases = []
+
+    def variant(i, **change):
+        out = [dict(x) for x in lv]
+        for key, value in change.items():
+            if value is ...:
+                out[i].pop(key, None)
+            else:
+                out[i][key] = value
+        cases.append(out)
+
+    n = len(lv)
+    variant(n // 2, pressure_hpa=...)
+    variant(n // 3, pressure_hpa=1200.0)
+    variant(n - 1, pressure_hpa=-5.0)
+    variant(2, temperature_c=...)
+    variant(n // 2, temperature_c=75.5)
+    variant(1, temperature_c=-130.25)
+    variant(3, relative_humidity_pct=80.0)
+    variant(n // 2, dewpoint_c=lv[n // 2]["temperature_c"] + 0.9)
+    variant(4, dewpoint_c=lv[4]["temperature_c"] + 0.3)  # clamped with a warning: not an error
+    variant(2, dewpoint_c=-170.0)
+    variant(n - 2, pressure_hpa=lv[n - 3]["pressure_hpa"])
+    variant(1, temperature_c="cold")
+    variant(3, temperature_c=float("nan"))
+    variant(2, windspeed=3.0)
+    variant(5, dewpoint_c=..., relative_humidity_pct=130.0)
+    variant(5, dewpoint_c=..., relative_humidity_pct=103.0)
+    variant(6, dewpoint_c=..., mixing_ratio_g_kg=150.0)
+    variant(6, dewpoint_c=..., mixing_ratio_g_kg=2.5)
+    variant(7, dewpoint_c=..., wetbulb_c=lv[7]["temperature_c"] + 2.0)
+    variant(7, dewpoint_c=..., wetbulb_c=lv[7]["temperature_c"] - 0.5)
+    variant(7, dewpoint_c=..., wetbulb_c=lv[7]["temperature_c"] - 40.0)
+    variant(1, dewpoint_c=...)
+    if "height_m" in lv[0]:
+        variant(n // 2, height_m=lv[0]["height_m"])
+    cases.append(list(reversed(lv)))
+    cases.append([{k: v for k, v in x.items() if k != "height_m"} for x in lv])
+    cases.append(lv[:2])
+    cases.append([{k: v for k, v in x.items() if k != "dewpoint_c"} for x in lv])
+    return cases
+
+
+def _validate(levels) -> dict:
+    try:
+        pr = Profile.from_levels(levels, where="case")
+    except ProfileError as exc:
+        return {"error": str(exc), "field": exc.field}
+    return {"warnings": list(pr.warnings), "pressure_hpa": pr.pressure_hpa.tolist(),
+            "height_m": pr.height_m.tolist(), "temperature_c": pr.temperature_c.tolist(),
+            "dewpoint_c": pr.dewpoint_c.tolist()}
+
+
+def compute_corpus() -> dict:
+    paths = corpus_paths()
+    docs = [_load(p) for p in paths]
+    names = [str(p.relative_to(DEMO)) for p in paths]
+    docs.append(_sixty_level_document())
+    names.append("bench:sixty_levels")
+    profiles = [Profile.from_document(d) for d in docs]
+
+    # Vectorised core: controls and members in one batch.
+    cols = Columns.from_profiles(profiles)
+    batch = Columns.concat([cols, perturb(cols, MEMBERS_PER_PROFILE, seed=7)])
+    core = diagnose_columns(batch, return_context=True)
+    columns_out = {k: np.asarray(v).tolist() for k, v in core.items() if not k.startswith("_")}
+    for name, res in core["_results"].items():
+        columns_out[f"rule:{name}"] = np.asarray(res.rule).tolist()
+    columns_out["rule:consensus"] = np.asarray(core["_consensus"].rule).tolist()
+
+    diagnoses = {}
+    for name, doc in zip(names, docs):
+        diagnoses[name] = ptype.diagnose(doc, seed=1).to_dict()
+    # A few other options: adiabatic wet-bulb, no members, a subset of methods.
+    for name, doc in list(zip(names, docs))[::15]:
+        diagnoses[name + "|adiabatic"] = ptype.diagnose(doc, seed=2, members=30,
+                                                        wetbulb="adiabatic").to_dict()
+        diagnoses[name + "|no-members"] = ptype.diagnose(doc, members=0).to_dict()
+        diagnoses[name + "|subset"] = ptype.diagnose(doc, seed=3, members=10,
+                                                     methods="ramer,baldwin,thickness").to_dict()
+
+    validation = {}
+    for name, doc in list(zip(names, docs))[::10]:
+        for j, levels in enumerate(_broken_level_lists(doc)):
+            validation[f"{name}#{j}"] = _validate(levels)
+    return {"names": names, "columns": columns_out, "diagnoses": diagnoses,
+            "validation": validation}
+
+
+def _diff(expected, actual, path="$", out=None):
+    """List of paths where ``actual`` differs from ``expected`` (floats within TOL)."""
+    out = [] if out is None else out
+    if len(out) > 20:
+        return out
+    if isinstance(expected, float) or isinstance(actual, float):
+        if not (isinstance(expected, (int, float)) and isinstance(actual, (int, float))
+                and not isinstance(expected, bool) and not isinstance(actual, bool)):
+            out.append(f"{path}: {expected!r} != {actual!r}")
+        elif math.isnan(expected) or math.isnan(actual):
+            if not (math.isnan(expected) and math.isnan(actual)):
+                out.append(f"{path}: {expected!r} != {actual!r}")
+        elif not math.isclose(expected, actual, rel_tol=TOL, abs_tol=TOL):
+            out.append(f"{path}: {expected!r} != {actual!r}")
+    elif isinstance(expected, dict) and isinstance(actual, dict):
+        if list(expected) != list(actual):
+            out.append(f"{path}: keys {list(expected)} != {list(actual)}")
+        for k in expected:
+            if k in actual:
+                _diff(expected[k], actual[k], f"{path}.{k}", out)
+    elif isinstance(expected, list) and isinstance(actual, list):
+        if len(expected) != len(actual):
+            out.append(f"{path}: length {len(expected)} != {len(actual)}")
+        for i, (a, b) in enumerate(zip(expected, actual)):
+            _diff(a, b, f"{path}[{i}]", out)
+    elif expected != actual or type(expected) is not type(actual):
+        out.append(f"{path}: {expected!r} != {actual!r}")
+    return out
+
+
+def _normalise(obj):
+    # JSON round trip, so both sides have the same container and number types.
+    return json.loads(json.dumps(obj, allow_nan=True))
+
+
+@pytest.fixture(scope="module")
+def expected():
+    with gzip.open(EXPECTED, "rt") as fh:
+        return json.load(fh)
+
+
+@pytest.fixture(scope="module")
+def actual():
+    return _normalise(compute_corpus())
+
+
+def test_corpus_covers_demo_data(expected):
+    assert len(expected["names"]) >= 100
+    assert len(expected["diagnoses"]) > len(expected["names"])
+    assert any("error" in v for v in expected["validation"].values())
+    assert any("warnings" in v for v in expected["validation"].values())
+
+
+def test_diagnose_columns_unchanged(expected, actual):
+    assert actual["names"] == expected["names"]
+    assert _diff(expected["columns"], actual["columns"]) == []
+
+
+def test_diagnose_to_dict_unchanged(expected, actual):
+    assert _diff(expected["diagnoses"], actual["diagnoses"]) == []
+
+
+def test_profile_validation_unchanged(expected, actual):
+    assert _diff(expected["validation"], actual["validation"]) == []
+
+
+if __name__ == "__main__":
+    if "--write" in sys.argv:
+        EXPECTED.parent.mkdir(exist_ok=True)
+        data = json.dumps(_normalise(compute_corpus()), separators=(",", ":"), allow_nan=True)
+        with gzip.open(EXPECTED, "wt", compresslevel=9) as fh:
+            fh.write(data)
+        print(f"wrote {EXPECTED} ({EXPECTED.stat().st_size} bytes)")
