@@ -11,8 +11,9 @@ from __future__ import annotations
 
 import importlib
 import os
+from collections.abc import Mapping
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Any
 
 from flask import Flask
 

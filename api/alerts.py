@@ -89,3 +89,69 @@ def evaluate():
     with get_store().write() as s:
         service.expire_due(s, now())
     return jsonify({"evaluated_sites": len(ids), "actions": actions})
+
+
+# -- OpenAPI description (api.docs collects OPENAPI_OPERATIONS) -------------------------
+from pydantic import BaseModel, ConfigDict, Field
+
+
+class _Out(BaseModel):
+    model_config = ConfigDict(extra="allow")
+
+
+class AlertOut(_Out):
+    """One alert and its latest message (CAP vocabulary for severity, certainty, urgency)."""
+
+    id: str
+    status: str = Field(..., description="`active`, `cancelled` or `expired`.")
+    event: str
+    onset: str | None = None
+    expires: str | None = None
+    sent: str
+    site: dict
+    severity: str
+    certainty: str
+    urgency: str
+    msg_type: str = Field(..., description="CAP msgType of the latest message: Alert, Update, Cancel.")
+    references: list
+
+
+class AlertList(_Out):
+    alerts: list[AlertOut]
+    now: str
+    caution: str
+
+
+class AlertListOptions(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+    site: int | None = Field(None, description="Only this site's alerts.")
+    active: str | None = Field(None, description="`1` for active alerts only (default: active "
+                                                 "and recently ended).")
+
+
+class EvaluateResult(_Out):
+    evaluated_sites: int
+    actions: list
+
+
+OPENAPI_OPERATIONS = [
+    {"path": "/v1/alerts", "method": "get", "id": "alerts_list", "tag": "Alerts",
+     "summary": "Active and recently ended alerts",
+     "description": "Road hazards found in the sites' timelines, with their lifecycle "
+                    "(new, updated, cancelled when the hazard leaves the forecast, expired).",
+     "query": AlertListOptions, "ok": ("application/json", AlertList), "errors": (400,)},
+    {"path": "/v1/alerts/{alert_id}.cap", "method": "get", "id": "alert_cap", "tag": "Alerts",
+     "summary": "One alert as OASIS CAP 1.2 XML",
+     "description": "The latest message of the alert (msgType Alert, Update or Cancel with "
+                    "`references` to the earlier messages). Description and instruction carry "
+                    "the caution.",
+     "path_params": {"alert_id": "Alert id from `GET /v1/alerts`."},
+     "ok": ("application/cap+xml", None), "errors": (404,)},
+    {"path": "/v1/alerts.atom", "method": "get", "id": "alerts_atom", "tag": "Alerts",
+     "summary": "Atom feed of the alerts (RFC 4287)", "description": "One entry per alert, "
+     "linking to its CAP document.", "ok": ("application/atom+xml", None), "errors": ()},
+    {"path": "/v1/alerts/evaluate", "method": "post", "id": "alerts_evaluate", "tag": "Alerts",
+     "auth": True, "summary": "Re-evaluate every site's alerts now",
+     "description": "For a scheduler: re-runs the rules of every site and expires due alerts.",
+     "ok": ("application/json", EvaluateResult), "errors": (401, 403)},
+]

@@ -193,8 +193,11 @@ def build_openapi(max_body_bytes: int | None = None) -> dict:
                                      "summary": op["summary"], "description": op["description"]}
         params = []
         for name, text in (op.get("path_params") or {}).items():
+            schema = {"type": "string", "pattern": r"^[A-Za-z0-9][A-Za-z0-9_.-]*$"}
+            if isinstance(text, dict):  # {"description": ..., "schema": ...}
+                text, schema = text["description"], text["schema"]
             params.append({"name": name, "in": "path", "required": True, "description": text,
-                           "schema": {"type": "string", "pattern": r"^[A-Za-z0-9][A-Za-z0-9_.-]*$"}})
+                           "schema": schema})
         if op.get("query"):
             params += _query_parameters(op["query"])
         if params:
@@ -220,7 +223,9 @@ def build_openapi(max_body_bytes: int | None = None) -> dict:
         else:
             ok = {"description": "Success.",
                   "content": {"application/json": {"schema": {"$ref": refs[model]}}}}
-        operation["responses"] = {"200": ok}
+        if op.get("auth"):
+            operation["security"] = [{"bearerKey": []}]
+        operation["responses"] = {str(op.get("status", 200)): ok}
         for status in op["errors"]:
             operation["responses"][str(status)] = _error_response(status, error_ref)
         paths.setdefault(op["path"], {})[op["method"]] = operation
@@ -237,7 +242,11 @@ def build_openapi(max_body_bytes: int | None = None) -> dict:
         "jsonSchemaDialect": "https://spec.openapis.org/oas/3.1/dialect/base",
         "tags": [{"name": tag} for tag in tags],
         "paths": paths,
-        "components": {"schemas": schemas},
+        "components": {"schemas": schemas,
+                       "securitySchemes": {"bearerKey": {
+                           "type": "http", "scheme": "bearer",
+                           "description": "An API key from `ptype keys create --name NAME`; "
+                                          "needed for writes only."}}},
     }
 
 

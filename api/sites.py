@@ -416,3 +416,120 @@ def get_timeline(site_id: int):
         out = service.site_timeline(s, site, t, hours=hours, step=args.get("step", "15min"),
                                     members=members, adjustments=adjustments)
     return jsonify(out)
+
+
+# -- OpenAPI description (api.docs collects OPENAPI_OPERATIONS) -------------------------
+class _Out(BaseModel):
+    model_config = ConfigDict(extra="allow")
+
+
+class SiteOut(_Out):
+    """A stored site."""
+
+    id: int
+    name: str
+    latitude: float
+    longitude: float
+    elevation_m: float | None = None
+    code: str | None = None
+    thresholds: dict[str, Any] | None = None
+
+
+class SiteList(_Out):
+    sites: list[SiteOut]
+
+
+class IngestResult(_Out):
+    """What a write stored and the alert actions it triggered."""
+
+    site_id: int
+    stored: int
+    alerts: list[dict[str, Any]] = Field(default_factory=list,
+                                         description="Alerts created, updated or cancelled.")
+
+
+class TimelineStep(_Out):
+    valid_time: str
+    ptype: str
+    probabilities: dict[str, float]
+    hazards: dict[str, Any]
+
+
+class Timeline(_Out):
+    """Steps, type transitions and hazard totals for one site; guidance only."""
+
+    steps: list[TimelineStep]
+    transitions: list[dict[str, Any]] = Field(..., description="`{time, from, to}` changes of type.")
+    totals: dict[str, Any]
+    caution: str
+
+
+class TimelineOptions(_Body):
+    hours: float | None = Field(12, gt=0, le=72, description="Length of the timeline, hours.")
+    step: str | None = Field("15min", description="Step between times, e.g. `15min`, `1h`.")
+    members: int | None = Field(None, ge=0, description="Monte-Carlo members per step.")
+    adjustments: str | None = Field(None, description=(
+        "Comma list of nowcast adjustments to apply (`observation,onset,melting`), or `none`; "
+        "default all (docs/nowcast.md)."))
+    now: str | None = Field(None, description="ISO 8601 time the timeline starts (default: now).")
+
+
+_SITE_EXAMPLE = {"name": "Quenmoor Overpass", "latitude": 47.31, "longitude": -33.52,
+                 "elevation_m": 120, "code": "QMO", "thresholds": {"freezing_probability": 0.25}}
+EXAMPLE_PROFILE = {  # invented
+    "levels": [
+        {"pressure_hpa": 995, "height_m": 120, "temperature_c": -1.8, "dewpoint_c": -2.3},
+        {"pressure_hpa": 950, "temperature_c": -3.0, "dewpoint_c": -3.4},
+        {"pressure_hpa": 900, "temperature_c": 1.2, "dewpoint_c": 0.8},
+        {"pressure_hpa": 850, "temperature_c": 3.9, "dewpoint_c": 3.5},
+        {"pressure_hpa": 800, "temperature_c": 0.8, "dewpoint_c": 0.4},
+        {"pressure_hpa": 700, "temperature_c": -6.8, "dewpoint_c": -7.5},
+        {"pressure_hpa": 500, "temperature_c": -24.0, "dewpoint_c": -27.0},
+    ],
+    "surface": {"temperature_2m_c": -1.6, "dewpoint_2m_c": -2.2, "road_surface_temperature_c": -2.4,
+                "precipitation_rate_mm_h": 1.2, "wind_speed_m_s": 4.0},
+}
+_SITE_ID = {"site_id": {"description": "Site id from `POST /v1/sites` or `GET /v1/sites`.",
+                        "schema": {"type": "integer", "minimum": 1}}}
+
+OPENAPI_OPERATIONS = [
+    {"path": "/v1/sites", "method": "post", "id": "site_create", "tag": "Sites", "auth": True,
+     "status": 201, "summary": "Register a road site",
+     "description": "Name, position, elevation and optional alert thresholds. Needs an API key.",
+     "body": {"application/json": {"model": SiteIn, "example": _SITE_EXAMPLE}},
+     "ok": ("application/json", SiteOut), "errors": (400, 401, 403, 409, 413, 415, 422)},
+    {"path": "/v1/sites", "method": "get", "id": "site_list", "tag": "Sites",
+     "summary": "List the sites", "description": "Every registered site.",
+     "ok": ("application/json", SiteList), "errors": ()},
+    {"path": "/v1/sites/{site_id}", "method": "get", "id": "site_get", "tag": "Sites",
+     "summary": "One site", "description": "The site and its thresholds.",
+     "path_params": _SITE_ID, "ok": ("application/json", SiteOut), "errors": (404,)},
+    {"path": "/v1/sites/{site_id}/profiles", "method": "post", "id": "site_profiles",
+     "tag": "Sites", "auth": True, "status": 201,
+     "summary": "Store forecast profiles for a site",
+     "description": "A series of profile documents, each with a `valid_time`, from one model "
+                    "run (`issued_time`, `source`). Re-posting the same site, source and valid "
+                    "time replaces the profile. All profiles are validated before anything is "
+                    "stored; the site's alerts are then re-evaluated.",
+     "path_params": _SITE_ID,
+     "body": {"application/json": {"model": ProfilesIn, "example": {
+         "issued_time": "2026-01-27T00:00Z", "source": "demo model run",
+         "profiles": [dict(EXAMPLE_PROFILE, valid_time="2026-01-27T06:00Z")]}}},
+     "ok": ("application/json", IngestResult), "errors": (400, 401, 403, 404, 413, 415, 422)},
+    {"path": "/v1/sites/{site_id}/observations", "method": "post", "id": "site_observations",
+     "tag": "Sites", "auth": True, "status": 201, "summary": "Store surface observations",
+     "description": "Air and road-surface temperature, dew point, precipitation rate, wind and "
+                    "observed present weather; the latest one is blended into the timeline.",
+     "path_params": _SITE_ID,
+     "body": {"application/json": {"model": ObservationsIn, "example": {"observations": [
+         {"time": "2026-01-27T05:50Z", "air_temperature_c": -1.2, "dewpoint_c": -2.0,
+          "road_surface_temperature_c": -2.5, "precipitation_rate_mm_h": 0.4,
+          "wind_speed_m_s": 3.0, "present_weather": "-FZRA"}]}}},
+     "ok": ("application/json", IngestResult), "errors": (400, 401, 403, 404, 413, 415, 422)},
+    {"path": "/v1/sites/{site_id}/timeline", "method": "get", "id": "site_timeline",
+     "tag": "Sites", "summary": "Type timeline, transitions and road hazards",
+     "description": "Built from the latest issue of profiles, interpolated in time, with the "
+                    "nowcast adjustments of docs/nowcast.md.",
+     "path_params": _SITE_ID, "query": TimelineOptions,
+     "ok": ("application/json", Timeline), "errors": (400, 404)},
+]
