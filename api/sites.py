@@ -220,8 +220,12 @@ def _aware(dt: datetime | None) -> datetime | None:
     return None if dt is None else parse_time(dt)
 
 
+#: Site ids are 64-bit integers in every database we support; larger numbers name no site.
+_MAX_ID = 2 ** 63 - 1
+
+
 def _site_or_404(session, site_id: int) -> Site:
-    site = session.get(Site, site_id)
+    site = session.get(Site, site_id) if 0 < site_id <= _MAX_ID else None
     if site is None:
         raise ApiError(404, "not_found", f"site {site_id} does not exist", "id")
     return site
