@@ -260,6 +260,26 @@ def _march(p, tw, rh_frac, top_hpa, initial_ice):
     # melting (automatic: dI >= 0 there and I is capped at 1).
     always = valid & (warm | (seq["tw_mean"] < FREEZING_ONSET_TW_C))
     ice0 = np.where(np.isfinite(initial_ice), initial_ice, 0.0).astype(np.float64)
+    if _COMPILED:
+        ice = np.empty(n)
+        hist = np.empty((n, P))
+        _carry_compiled(np.ascontiguousarray(d_ice), np.ascontiguousarray(always),
+                        np.ascontiguousarray(valid), ice0, ice, hist)
+    else:
+        ice, hist = _carry_numpy(d_ice, always, valid, ice0)
+    was_liquid = (ice0 <= 0.0) | np.any(valid & (hist <= 0.0), axis=1)
+    stages, count = _stages(seq, valid, warm, hist, ice0)
+    return ice, was_liquid, stages, count
+
+
+def _carry_numpy(d_ice, always, valid, ice0):
+    """The sequential part of the march: the clipped ice fraction after every piece.
+
+    A piece changes ``I`` when it always acts (warm, or colder than -6.6 degC) or when the
+    particle already holds ice; ``I`` is then clipped to [0, 1].  Returns the final ``I``
+    ``(n,)`` and its history ``(n, P)``; pieces no column uses are skipped.
+    """
+    n, P = valid.shape
     ice = ice0.copy()
     hist = np.empty((n, P))
     used = np.nonzero(valid.any(axis=0))[0]
@@ -271,9 +291,35 @@ def _march(p, tw, rh_frac, top_hpa, initial_ice):
         hist[:, q] = ice
         last = q + 1
     hist[:, last:] = ice[:, None]
-    was_liquid = (ice0 <= 0.0) | np.any(valid & (hist <= 0.0), axis=1)
-    stages, count = _stages(seq, valid, warm, hist, ice0)
-    return ice, was_liquid, stages, count
+    return ice, hist
+
+
+def _carry_loop(d_ice, always, valid, ice0, ice, hist):
+    """:func:`_carry_numpy` as a plain loop (compiled with numba): the same operations per
+    column and piece, without a numpy call per piece.  Fills ``ice`` and ``hist``."""
+    n, P = valid.shape
+    for i in range(n):
+        x = ice0[i]
+        for q in range(P):
+            if always[i, q] or (valid[i, q] and x > 0.0):
+                y = x + d_ice[i, q]
+                # np.maximum / np.minimum semantics: NaN propagates.
+                if y < 0.0:
+                    y = 0.0
+                if y > 1.0:
+                    y = 1.0
+                x = y
+            hist[i, q] = x
+        ice[i] = x
+
+
+try:  # numba is a declared dependency; the numpy path stays for installs without it
+    from numba import njit as _njit
+    _carry_compiled = _njit(cache=True, nogil=True)(_carry_loop)
+    _COMPILED = True
+except ImportError:  # pragma: no cover
+    _carry_compiled = None
+    _COMPILED = False
 
 
 def _stages(seq, valid, warm, hist, ice0):
