@@ -32,6 +32,9 @@ DEWPOINT_EXCESS_TOLERANCE_C = 0.5
 #: Relative humidity above 100 % up to this value is clamped with a warning (sensor noise).
 RELATIVE_HUMIDITY_CLAMP_PCT = 105.0
 MIN_LEVELS = 3
+#: A level's saturation vapour pressure must be below this fraction of its pressure (ours:
+#: observed soundings stay under about 0.1; beyond 0.5 the air is close to boiling).
+BOILING_FRACTION = 0.5
 
 HUMIDITY_FIELDS = ("dewpoint_c", "relative_humidity_pct", "mixing_ratio_g_kg", "wetbulb_c")
 LEVEL_FIELDS = ("pressure_hpa", "height_m", "temperature_c") + HUMIDITY_FIELDS
@@ -218,6 +221,17 @@ class Profile:
             raise ProfileError(
                 f"{prefix}levels: {n} distinct level(s); expected at least {MIN_LEVELS}",
                 field="levels")
+        # Air that would boil: the saturation vapour pressure must stay well below the pressure
+        # (below half of it; real soundings stay under a tenth), or no moist thermodynamics holds.
+        boiling = thermo.saturation_vapor_pressure_hpa(t) >= BOILING_FRACTION * p
+        if boiling.any():
+            i = int(np.argmax(boiling))
+            raise ProfileError(
+                f"{prefix}levels[{i}] ({_fmt(p[i])} hPa).temperature_c = {_fmt(t[i])}: too warm for "
+                f"this pressure (saturation vapour pressure "
+                f"{float(thermo.saturation_vapor_pressure_hpa(t[i])):.0f} hPa); expected a "
+                f"temperature whose saturation vapour pressure is below {BOILING_FRACTION:g} of the "
+                "pressure", field=f"levels[{i}].temperature_c")
         order = np.argsort(-p, kind="stable")
 
         # Humidity: convert each form to a dew point.

@@ -284,6 +284,11 @@ def _adiabatic_wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, tolerance_k=1
     p = pressure_hpa
     t = temperature_c
     td = np.minimum(dewpoint_c, t)
+    with np.errstate(all="ignore"):  # boiling-range inputs give NaN, not warnings
+        return _adiabatic_secant(p, t, td, tolerance_k, max_iter)
+
+
+def _adiabatic_secant(p, t, td, tolerance_k, max_iter):
     target = equivalent_potential_temperature_k(p, t, td)
     lo = td - 1.0
     hi = t.copy()

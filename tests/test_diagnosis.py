@@ -192,3 +192,27 @@ def test_warming_never_turns_rain_into_snow(sfc, nose, dep, warming):
     after = Code(int(diagnose_columns(warm)["ptype"][0]))
     if before is Code.RA:
         assert after is not Code.SN
+
+
+@settings(max_examples=60, deadline=None)
+@given(st.lists(st.tuples(st.floats(1.0, 1100.0), st.floats(-100.0, 60.0), st.floats(0.0, 80.0)),
+                min_size=3, max_size=12, unique_by=lambda x: round(x[0], 6)))
+def test_any_accepted_profile_diagnoses_without_warnings(levels):
+    # Every profile the validator accepts must diagnose (warnings are errors in this suite);
+    # air too warm for its pressure (near boiling) is refused with a ProfileError instead.
+    doc = document([lv[0] for lv in levels], [lv[1] for lv in levels],
+                   [lv[1] - lv[2] for lv in levels])
+    try:
+        out = ptype.diagnose(doc, members=4, seed=0).to_dict()
+    except ptype.ProfileError as err:
+        assert err.field is not None
+        return
+    assert out["ptype"] in {c.name for c in Code}
+    assert sum(out["probabilities"].values()) == pytest.approx(1.0)
+
+
+def test_boiling_level_refused_with_field():
+    with pytest.raises(ptype.ProfileError) as err:
+        ptype.diagnose(document([1000, 500, 150], [10.0, -20.0, 60.0], [5.0, -25.0, -10.0]))
+    assert err.value.field == "levels[2].temperature_c"
+    assert "too warm for this pressure" in str(err.value)
