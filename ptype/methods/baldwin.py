@@ -92,31 +92,43 @@ SOURCE = "Baldwin et al. (1994); thresholds as used operationally"
 SOURCE_REVISED = "Baldwin et al. (1994), 2005 revision; thresholds as used operationally"
 
 
-def area_k_m(height_m, value_c, bottom_m, top_m, part: str = "net"):
+def _integrand(height_m, value_c):
+    """The per-interval pieces of :func:`area_k_m` that depend only on the profile (shared by
+    the several areas integrated over one profile)."""
+    z = np.asarray(height_m, dtype=np.float64)
+    v = np.asarray(value_c, dtype=np.float64)
+    za, zb = z[:, :-1], z[:, 1:]
+    va, vb = v[:, :-1], v[:, 1:]
+    ok = np.isfinite(za) & np.isfinite(zb) & np.isfinite(va) & np.isfinite(vb) & (zb > za)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        slope = np.where(ok, (vb - va) / (zb - za), 0.0)
+    return za, zb, va, ok, slope
+
+
+def area_k_m(height_m, value_c, bottom_m, top_m, part: str = "net", *, integrand=None):
     """Integral of ``value_c`` over height between ``bottom_m`` and ``top_m``, K m.
 
     ``value_c`` (n, L) is taken linear in height between levels (NaN-padded trailing levels
     are skipped); ``bottom_m``/``top_m`` are (n,).  ``part`` selects the whole integral
     (``"net"``), only where the value is positive (``"positive"``) or only where it is
     negative (``"negative"``, a negative number).  Crossings inside an interval are exact
-    for the linear profile.
+    for the linear profile.  ``integrand`` may pass ``_integrand(height_m, value_c)`` computed
+    once for several areas of the same profile.
     """
-    z = np.asarray(height_m, dtype=np.float64)
-    v = np.asarray(value_c, dtype=np.float64)
+    if part not in ("net", "positive", "negative"):
+        raise ValueError(f"part must be 'net', 'positive' or 'negative', got {part!r}")
+    za, zb, va, ok, slope = _integrand(height_m, value_c) if integrand is None else integrand
     lo = np.asarray(bottom_m, dtype=np.float64)[:, None]
     hi = np.asarray(top_m, dtype=np.float64)[:, None]
-    za, zb = z[:, :-1], z[:, 1:]
-    va, vb = v[:, :-1], v[:, 1:]
-    ok = np.isfinite(za) & np.isfinite(zb) & np.isfinite(va) & np.isfinite(vb) & (zb > za)
-    z0 = np.clip(za, lo, hi)
-    z1 = np.clip(zb, lo, hi)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        slope = np.where(ok, (vb - va) / (zb - za), 0.0)
+    # np.clip(x, lo, hi) is minimum(maximum(x, lo), hi); the ufuncs directly skip its overhead.
+    z0 = np.minimum(np.maximum(za, lo), hi)
+    z1 = np.minimum(np.maximum(zb, lo), hi)
     a = va + slope * (z0 - za)
     b = va + slope * (z1 - za)
     d = np.where(ok & (z1 > z0), z1 - z0, 0.0)
-    a = np.where(d > 0, a, 0.0)
-    b = np.where(d > 0, b, 0.0)
+    inside = d > 0
+    a = np.where(inside, a, 0.0)
+    b = np.where(inside, b, 0.0)
     net = 0.5 * (a + b) * d
     if part == "net":
         out = net
@@ -125,12 +137,7 @@ def area_k_m(height_m, value_c, bottom_m, top_m, part: str = "net"):
         with np.errstate(invalid="ignore", divide="ignore"):
             pos = np.where(np.abs(a - b) > 1e-12, d * (ap * ap - bp * bp) / (2.0 * (a - b)),
                            d * ap)
-        if part == "positive":
-            out = pos
-        elif part == "negative":
-            out = net - pos
-        else:
-            raise ValueError(f"part must be 'net', 'positive' or 'negative', got {part!r}")
+        out = pos if part == "positive" else net - pos
     total = out.sum(axis=1)
     return np.where(np.isfinite(lo[:, 0]) & np.isfinite(hi[:, 0]), total, np.nan)
 
@@ -158,8 +165,12 @@ def saturated_levels(columns):
     return mask, used
 
 
-def run_tree(ctx: Context, *, revised: bool) -> MethodResult:
-    """Both variants of the tree; ``revised`` selects the 2005 snow test (AREAP0)."""
+def _shared(ctx: Context) -> dict:
+    """Everything of the tree except the snow test, computed once per context (the original
+    and the revised tree share it)."""
+    cached = ctx.__dict__.get("_baldwin_shared")
+    if cached is not None:
+        return cached
     c = ctx.columns
     n, L = c.pressure_hpa.shape
     rows = np.arange(n)
@@ -183,55 +194,70 @@ def run_tree(ctx: Context, *, revised: bool) -> MethodResult:
     z_warm = np.where(found, z[rows, k_warm], np.nan)
     p_warm = np.where(found, p[rows, k_warm], np.nan)
 
-    if revised:
-        snow_area = area_k_m(z, tw, sfc_z, z_high, "positive")
-        snow_limit = AREAP0_SNOW_K_M
-    else:
-        snow_area = area_k_m(z, tw - NO_ICE_CLOUD_C, sfc_z, z_high, "positive")
-        snow_limit = AREAP4_SNOW_K_M
-
+    integrand = _integrand(z, tw)
     p8 = c.surface_pressure_hpa - AREAS8_DEPTH_HPA
     z8 = interpolate_at_pressure(p, z, p8)
     # A sounding shallower than 150 hPa: integrate over what there is.
     z_top_valid = z[rows, np.maximum(c.n_levels - 1, 0)]
     z8 = np.where(np.isfinite(z8), z8, z_top_valid)
-    areas8 = area_k_m(z, tw, sfc_z, z8, "net")
+    areas8 = area_k_m(z, tw, sfc_z, z8, "net", integrand=integrand)
     # Top of the surface warm layer of T: the first 0 degC crossing (or the surface itself).
     air = ctx.air_layers
     z_first_cold = np.where(air.kind[:, 0] > 0, air.top_m[:, 0], sfc_z)
-    surfw = area_k_m(z, tw, sfc_z, z_first_cold, "positive")
-    surfc = area_k_m(z, tw, sfc_z, z_warm, "negative")
+    surfw = area_k_m(z, tw, sfc_z, z_first_cold, "positive", integrand=integrand)
+    surfc = area_k_m(z, tw, sfc_z, z_warm, "negative", integrand=integrand)
 
-    conditions = [
-        ~enough,
-        ~found,
-        (t_cold > NO_ICE_CLOUD_C) & (sfc_t <= 0.0),
-        t_cold > NO_ICE_CLOUD_C,
-        snow_area < snow_limit,
-        surfc < SURFC_PELLETS_K_M,
-        (areas8 < AREAS8_PELLETS_K_M) & (surfw < SURFW_PELLETS_K_M),
-        sfc_t < 0.0,
-    ]
-    choices = [_RULE[r] for r in ("insufficient_levels", "no_saturated_layer", "no_ice_freezing",
-                                  "no_ice_rain", "snow_area", "pellets_surface_cold",
-                                  "pellets_low_cold", "freezing_rain")]
-    rule = np.select(conditions, choices, default=_RULE["rain"])
-    values = {
-        "saturation_depression_k": depression,
-        "cloud_coldest_c": t_cold,
-        "cloud_warmest_c": t_warm,
-        "cloud_warmest_hpa": p_warm,
-        "cloud_warmest_m": z_warm,
-        "highest_saturated_hpa": p_high,
-        "highest_saturated_m": z_high,
-        "surface_temperature_c": sfc_t,
-        ("areap0_k_m" if revised else "areap4_k_m"): snow_area,
-        "areas8_k_m": areas8,
-        "surfw_k_m": surfw,
-        "surfc_k_m": surfc,
-        "surface_warm_top_m": z_first_cold,
-        "low_layer_top_m": z8,
+    # The rule up to the snow test, and from the pellet tests on (np.select: first true wins).
+    rule_before = np.select(
+        [~enough, ~found, (t_cold > NO_ICE_CLOUD_C) & (sfc_t <= 0.0), t_cold > NO_ICE_CLOUD_C],
+        [_RULE["insufficient_levels"], _RULE["no_saturated_layer"], _RULE["no_ice_freezing"],
+         _RULE["no_ice_rain"]], default=-1)
+    rule_after = np.select(
+        [surfc < SURFC_PELLETS_K_M, (areas8 < AREAS8_PELLETS_K_M) & (surfw < SURFW_PELLETS_K_M),
+         sfc_t < 0.0],
+        [_RULE["pellets_surface_cold"], _RULE["pellets_low_cold"], _RULE["freezing_rain"]],
+        default=_RULE["rain"])
+    shared = {
+        "tw": tw, "sfc_z": sfc_z, "z_high": z_high, "integrand": integrand,
+        "rule_before": rule_before, "rule_after": rule_after,
+        "values": {
+            "saturation_depression_k": depression,
+            "cloud_coldest_c": t_cold,
+            "cloud_warmest_c": t_warm,
+            "cloud_warmest_hpa": p_warm,
+            "cloud_warmest_m": z_warm,
+            "highest_saturated_hpa": p_high,
+            "highest_saturated_m": z_high,
+            "surface_temperature_c": sfc_t,
+        },
+        "values_after": {
+            "areas8_k_m": areas8,
+            "surfw_k_m": surfw,
+            "surfc_k_m": surfc,
+            "surface_warm_top_m": z_first_cold,
+            "low_layer_top_m": z8,
+        },
     }
+    ctx.__dict__["_baldwin_shared"] = shared
+    return shared
+
+
+def run_tree(ctx: Context, *, revised: bool) -> MethodResult:
+    """Both variants of the tree; ``revised`` selects the 2005 snow test (AREAP0)."""
+    s = _shared(ctx)
+    z, tw, sfc_z, z_high = ctx.columns.height_m, s["tw"], s["sfc_z"], s["z_high"]
+    if revised:
+        snow_area = area_k_m(z, tw, sfc_z, z_high, "positive", integrand=s["integrand"])
+        snow_limit = AREAP0_SNOW_K_M
+    else:
+        snow_area = area_k_m(z, tw - NO_ICE_CLOUD_C, sfc_z, z_high, "positive")
+        snow_limit = AREAP4_SNOW_K_M
+    rule_before = s["rule_before"]
+    rule = np.where(rule_before >= 0, rule_before,
+                    np.where(snow_area < snow_limit, _RULE["snow_area"], s["rule_after"]))
+    values = dict(s["values"])
+    values["areap0_k_m" if revised else "areap4_k_m"] = snow_area
+    values.update(s["values_after"])
     return MethodResult(name="baldwin_revised" if revised else NAME, code=_CODE_OF_RULE[rule],
                         rule=rule, values=values,
                         explainer=explain_revised if revised else explain)
