@@ -21,14 +21,19 @@ $(STAMP): pyproject.toml
 
 install: $(STAMP)
 
-# Debian's chromium drives the browser tests (never a browser download).
+# Debian packages the tests drive: chromium for the browser tests (never a browser
+# download) and the PostgreSQL server for the multi-instance store tests.  Installed only
+# when missing, and only as root; otherwise the tests that need them say why they skip.
 system-deps:
-	@if ! command -v chromium >/dev/null 2>&1; then \
+	@missing=""; \
+	command -v chromium >/dev/null 2>&1 || missing="$$missing chromium"; \
+	ls /usr/lib/postgresql/*/bin/initdb >/dev/null 2>&1 || missing="$$missing postgresql"; \
+	if [ -n "$$missing" ]; then \
 	  if [ "$$(id -u)" = "0" ]; then \
-	    echo "installing Debian chromium for the browser tests"; \
-	    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq chromium >/dev/null; \
+	    echo "installing Debian packages for the tests:$$missing"; \
+	    apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq $$missing >/dev/null; \
 	  else \
-	    echo "chromium is missing: run 'sudo apt-get install chromium' for the browser tests"; \
+	    echo "missing Debian packages:$$missing (sudo apt-get install$$missing); their tests will skip"; \
 	  fi; \
 	fi
 
