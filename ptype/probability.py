@@ -59,11 +59,42 @@ def correlated_noise(height_m: np.ndarray, rng: np.random.Generator,
     dz = np.diff(height_m, axis=1)
     r = np.exp(-np.abs(np.nan_to_num(dz, nan=np.inf)) / length_m)
     s = np.sqrt(1.0 - r * r)
+    if _COMPILED and L > 1:
+        out = np.empty_like(white)
+        _ar1_compiled(np.ascontiguousarray(r), np.ascontiguousarray(s), white, out)
+        return out
+    return _ar1_numpy(r, s, white)
+
+
+def _ar1_numpy(r, s, white):
+    """The AR(1) recursion, one numpy step per level."""
+    n, L = white.shape
     out = np.empty_like(white)
     out[:, 0] = white[:, 0]
     for k in range(1, L):
         out[:, k] = r[:, k - 1] * out[:, k - 1] + s[:, k - 1] * white[:, k]
     return out
+
+
+def _ar1_loop(r, s, white, out):
+    """:func:`_ar1_numpy` as a plain loop (compiled with numba), same operations in the same
+    order; fills ``out``."""
+    n, L = white.shape
+    for i in range(n):
+        e = white[i, 0]
+        out[i, 0] = e
+        for k in range(1, L):
+            e = r[i, k - 1] * e + s[i, k - 1] * white[i, k]
+            out[i, k] = e
+
+
+try:  # numba is a declared dependency; the numpy path stays for installs without it
+    from numba import njit as _njit
+    _ar1_compiled = _njit(cache=True, nogil=True)(_ar1_loop)
+    _COMPILED = True
+except ImportError:  # pragma: no cover
+    _ar1_compiled = None
+    _COMPILED = False
 
 
 def perturb(columns: Columns, members: int, seed=None, *,
