@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import os
 from datetime import datetime
+from math import isfinite
 from typing import Any, Iterable, Mapping
 
 import numpy as np
@@ -139,7 +140,9 @@ class Diagnosis:
         k = pr.n_levels
 
         def clean(a):
-            return [None if not np.isfinite(x) else round(float(x), 2) for x in a[:k]]
+            # tolist() gives Python floats: math.isfinite and round on them skip a numpy
+            # scalar call per level.
+            return [round(x, 2) if isfinite(x) else None for x in a[:k].tolist()]
 
         methods = {}
         for name, res in self.results.items():

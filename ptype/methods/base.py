@@ -17,6 +17,7 @@ from __future__ import annotations
 
 import dataclasses
 import functools
+import math
 from typing import Callable
 
 import numpy as np
@@ -49,7 +50,8 @@ class Step:
 
 def _round(v):
     if isinstance(v, (float, np.floating)):
-        return None if not np.isfinite(v) else round(float(v), 3)
+        v = float(v)
+        return round(v, 3) if math.isfinite(v) else None
     if isinstance(v, (np.integer,)):
         return int(v)
     return v
