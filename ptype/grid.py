@@ -742,8 +742,11 @@ def write_grid(out, path, *, progress: bool = False, client=None, argv=None) -> 
         if client is not None:
             future = client.compute(delayed)
             if progress:
+                import contextlib
+
                 from distributed import progress as dist_progress
-                dist_progress(future)
+                with contextlib.redirect_stdout(sys.stderr):  # the bar, like dask's, on stderr
+                    dist_progress(future)
                 print(file=sys.stderr)
             future.result()
         elif progress:
