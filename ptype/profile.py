@@ -58,6 +58,98 @@ def _fmt(value: float) -> str:
     return f"{value:g}" if isinstance(value, (int, float)) and math.isfinite(value) else repr(value)
 
 
+_LEVEL_FIELD_SET = frozenset(LEVEL_FIELDS)
+_PLAIN_NUMBER_TYPES = frozenset((float, int, np.float64, type(None)))
+
+
+def _fast_columns(levels: list) -> dict[str, np.ndarray] | None:
+    """The level fields as float arrays (NaN where absent) when every level is clean: only
+    known fields, plain ``int``/``float``/``None`` values, all finite.  ``None`` otherwise, and
+    :func:`_checked_columns` then finds and names the first problem."""
+    if not all(_LEVEL_FIELD_SET.issuperset(lvl) for lvl in levels):
+        return None
+    cols = {}
+    for name in LEVEL_FIELDS:
+        values = [lvl.get(name) for lvl in levels]
+        if not _PLAIN_NUMBER_TYPES.issuperset(map(type, values)):
+            return None
+        try:
+            a = np.array([np.nan if v is None else v for v in values], dtype=np.float64)
+        except (OverflowError, TypeError, ValueError):
+            return None
+        present = np.array([v is not None for v in values], dtype=bool)
+        if not np.isfinite(a[present]).all():
+            return None
+        cols[name] = a
+    return cols
+
+
+def _checked_columns(levels: list, prefix: str) -> dict[str, np.ndarray]:
+    """Level fields as float arrays, checked level by level; raises on the first bad value."""
+    n = len(levels)
+    cols = {name: np.full(n, np.nan) for name in LEVEL_FIELDS}
+    for i, lvl in enumerate(levels):
+        unknown = sorted(set(lvl) - set(LEVEL_FIELDS))
+        if unknown:
+            raise ProfileError(
+                f"{prefix}levels[{i}]: unknown field(s) {', '.join(unknown)}; "
+                f"accepted: {', '.join(LEVEL_FIELDS)}", field=f"levels[{i}].{unknown[0]}")
+        for name in LEVEL_FIELDS:
+            value = lvl.get(name)
+            if value is None:
+                continue
+            if isinstance(value, bool) or not isinstance(value, (int, float, np.floating, np.integer)):
+                raise ProfileError(
+                    f"{prefix}levels[{i}].{name} = {value!r}: expected a number",
+                    field=f"levels[{i}].{name}")
+            if not math.isfinite(float(value)):
+                raise ProfileError(
+                    f"{prefix}levels[{i}].{name} = {value}: expected a finite number",
+                    field=f"levels[{i}].{name}")
+            cols[name][i] = float(value)
+    return cols
+
+
+def _levels_plausible(cols: dict[str, np.ndarray]) -> bool:
+    """True when every level has a pressure and a temperature in range and at most one form
+    of humidity (the checks of :func:`_check_levels`, for all levels at once)."""
+    p = cols["pressure_hpa"]
+    t = cols["temperature_c"]
+    forms = sum((~np.isnan(cols[h])).astype(np.int8) for h in HUMIDITY_FIELDS)
+    # NaN compares False, so a missing pressure or temperature fails the range tests too.
+    return bool(np.all((PRESSURE_RANGE_HPA[0] < p) & (p <= PRESSURE_RANGE_HPA[1])
+                       & (TEMPERATURE_RANGE_C[0] <= t) & (t <= TEMPERATURE_RANGE_C[1])
+                       & (forms <= 1)))
+
+
+def _check_levels(cols: dict[str, np.ndarray], prefix: str) -> None:
+    """Raise for the first level with a missing or out-of-range pressure or temperature, or
+    with two forms of humidity."""
+    p = cols["pressure_hpa"]
+    t = cols["temperature_c"]
+    for i in range(p.size):
+        where_i = f"{prefix}levels[{i}]"  # cheap: no number formatting on the happy path
+        if math.isnan(p[i]):
+            raise ProfileError(f"{where_i}.pressure_hpa: required field is missing",
+                               field=f"levels[{i}].pressure_hpa")
+        if not (PRESSURE_RANGE_HPA[0] < p[i] <= PRESSURE_RANGE_HPA[1]):
+            raise ProfileError(
+                f"{where_i}.pressure_hpa = {_fmt(p[i])}: expected 0 < pressure <= 1100 hPa",
+                field=f"levels[{i}].pressure_hpa")
+        if math.isnan(t[i]):
+            raise ProfileError(f"{where_i} ({_fmt(p[i])} hPa).temperature_c: required field is missing",
+                               field=f"levels[{i}].temperature_c")
+        if not (TEMPERATURE_RANGE_C[0] <= t[i] <= TEMPERATURE_RANGE_C[1]):
+            raise ProfileError(
+                f"{where_i} ({_fmt(p[i])} hPa).temperature_c = {_fmt(t[i])}: "
+                f"expected -100 to +60 degC", field=f"levels[{i}].temperature_c")
+        given = [h for h in HUMIDITY_FIELDS if not math.isnan(cols[h][i])]
+        if len(given) > 1:
+            raise ProfileError(
+                f"{where_i} ({_fmt(p[i])} hPa): humidity given as both {given[0]} and {given[1]}; "
+                "expected exactly one form", field=f"levels[{i}].{given[1]}")
+
+
 @dataclasses.dataclass(frozen=True, eq=False)
 class Profile:
     """A validated sounding, levels ordered surface -> top.
@@ -164,50 +256,15 @@ class Profile:
             raise ProfileError(f"{prefix}levels: no levels given; expected at least {MIN_LEVELS}",
                                field="levels")
         n = len(levels)
-        cols = {name: np.full(n, np.nan) for name in LEVEL_FIELDS}
-        for i, lvl in enumerate(levels):
-            unknown = sorted(set(lvl) - set(LEVEL_FIELDS))
-            if unknown:
-                raise ProfileError(
-                    f"{prefix}levels[{i}]: unknown field(s) {', '.join(unknown)}; "
-                    f"accepted: {', '.join(LEVEL_FIELDS)}", field=f"levels[{i}].{unknown[0]}")
-            for name in LEVEL_FIELDS:
-                value = lvl.get(name)
-                if value is None:
-                    continue
-                if isinstance(value, bool) or not isinstance(value, (int, float, np.floating, np.integer)):
-                    raise ProfileError(
-                        f"{prefix}levels[{i}].{name} = {value!r}: expected a number",
-                        field=f"levels[{i}].{name}")
-                if not math.isfinite(float(value)):
-                    raise ProfileError(
-                        f"{prefix}levels[{i}].{name} = {value}: expected a finite number",
-                        field=f"levels[{i}].{name}")
-                cols[name][i] = float(value)
+        cols = _fast_columns(levels)
+        if cols is None:
+            # Something is off: the per-level loop finds the first bad value and names it.
+            cols = _checked_columns(levels, prefix)
 
         p = cols["pressure_hpa"]
         t = cols["temperature_c"]
-        for i in range(n):
-            where_i = f"{prefix}levels[{i}]"  # cheap: no number formatting on the happy path
-            if math.isnan(p[i]):
-                raise ProfileError(f"{where_i}.pressure_hpa: required field is missing",
-                                   field=f"levels[{i}].pressure_hpa")
-            if not (PRESSURE_RANGE_HPA[0] < p[i] <= PRESSURE_RANGE_HPA[1]):
-                raise ProfileError(
-                    f"{where_i}.pressure_hpa = {_fmt(p[i])}: expected 0 < pressure <= 1100 hPa",
-                    field=f"levels[{i}].pressure_hpa")
-            if math.isnan(t[i]):
-                raise ProfileError(f"{where_i} ({_fmt(p[i])} hPa).temperature_c: required field is missing",
-                                   field=f"levels[{i}].temperature_c")
-            if not (TEMPERATURE_RANGE_C[0] <= t[i] <= TEMPERATURE_RANGE_C[1]):
-                raise ProfileError(
-                    f"{where_i} ({_fmt(p[i])} hPa).temperature_c = {_fmt(t[i])}: "
-                    f"expected -100 to +60 degC", field=f"levels[{i}].temperature_c")
-            given = [h for h in HUMIDITY_FIELDS if not math.isnan(cols[h][i])]
-            if len(given) > 1:
-                raise ProfileError(
-                    f"{where_i} ({_fmt(p[i])} hPa): humidity given as both {given[0]} and {given[1]}; "
-                    "expected exactly one form", field=f"levels[{i}].{given[1]}")
+        if not _levels_plausible(cols):
+            _check_levels(cols, prefix)
 
         # Duplicates and ordering.
         unique, counts = np.unique(p, return_counts=True)
@@ -234,9 +291,14 @@ class Profile:
                 "pressure", field=f"levels[{i}].temperature_c")
         order = np.argsort(-p, kind="stable")
 
-        # Humidity: convert each form to a dew point.
-        td = np.full(n, np.nan)
-        for i in range(n):
+        # Humidity: convert each form to a dew point.  Fast path: a dew point on every level,
+        # none implausibly low and none above the temperature (nothing to convert, clamp or
+        # report); otherwise the level loop below handles and words each case.
+        dewpoint = cols["dewpoint_c"]
+        plain = bool(not np.isnan(dewpoint).any()
+                     and (dewpoint >= TEMPERATURE_RANGE_C[0] - 50).all() and (dewpoint <= t).all())
+        td = dewpoint.copy() if plain else np.full(n, np.nan)
+        for i in range(0 if plain else n):
             where_i = _Where(prefix, i, p[i])
             if not math.isnan(cols["dewpoint_c"][i]):
                 td[i] = cols["dewpoint_c"][i]
