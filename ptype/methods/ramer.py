@@ -236,6 +236,75 @@ def _pieces(p, tw, rh_frac, top_hpa):
     }
 
 
+def _sequence(p, tw, rh_frac, top_hpa):
+    """:func:`_pieces` flattened to one sequence per column, top -> bottom (intervals reversed,
+    pieces in order), ``(n, 3 (L-1))`` arrays."""
+    if not _COMPILED or p.shape[1] < 2:
+        n = p.shape[0]
+        pieces = _pieces(p, tw, rh_frac, top_hpa)
+        return {k: v[:, ::-1, :].reshape(n, -1) for k, v in pieces.items()}
+    n, L = p.shape
+    P = 3 * (L - 1)
+    x = np.ascontiguousarray(np.log(p))
+    xg = np.ascontiguousarray(np.log(top_hpa), dtype=np.float64)
+    xa, xb, tw_a, tw_z, tw_mean, rh_mean = (np.empty((n, P)) for _ in range(6))
+    valid = np.empty((n, P), dtype=np.bool_)
+    _pieces_compiled(x, np.ascontiguousarray(tw, dtype=np.float64),
+                     np.ascontiguousarray(rh_frac, dtype=np.float64), xg,
+                     xa, xb, tw_a, tw_z, tw_mean, rh_mean, valid)
+    return {"top_hpa": np.exp(xa), "bottom_hpa": np.exp(xb), "tw_top": tw_a, "tw_bottom": tw_z,
+            "tw_mean": tw_mean, "rh_mean": rh_mean, "valid": valid}
+
+
+def _pieces_loop(x, tw, rh_frac, xg, xa, xb, tw_a, tw_z, tw_mean, rh_mean, valid):
+    """:func:`_pieces` (on ``x = ln p`` and ``xg = ln top``) as a plain loop, compiled with
+    numba: the same arithmetic in the same order, element by element, written straight into
+    the top -> bottom sequence layout (``ln`` of the piece bounds; the caller takes ``exp``)."""
+    n, L = x.shape
+    for i in range(n):
+        g = xg[i]
+        for j in range(L - 1):
+            x_b, x_t = x[i, j], x[i, j + 1]
+            tb, tt = tw[i, j], tw[i, j + 1]
+            rb, rt = rh_frac[i, j], rh_frac[i, j + 1]
+            ok = (np.isfinite(x_b) and np.isfinite(x_t) and np.isfinite(tb) and np.isfinite(tt)
+                  and np.isfinite(g))
+            # np.maximum: NaN propagates.
+            if np.isnan(x_t) or np.isnan(g):
+                x_top = np.nan
+            else:
+                x_top = x_t if x_t >= g else g
+            w = (x_top - x_b) / (x_t - x_b) if x_t != x_b else 0.0
+            tw_top = tb + w * (tt - tb)
+            rh_top = rb + w * (rt - rb)
+            ok = ok and x_b > x_top
+            f = (tw_top - 0.0) / (tw_top - tb)
+            c0 = f if (f > 0.0 and f < 1.0) else 1.0
+            f = (tw_top - FREEZING_ONSET_TW_C) / (tw_top - tb)
+            c1 = f if (f > 0.0 and f < 1.0) else 1.0
+            lo = c0 if c0 <= c1 else c1
+            hi = c0 if c0 >= c1 else c1
+            dx = x_b - x_top
+            dtw = tb - tw_top
+            drh = rb - rh_top
+            base = 3 * (L - 2 - j)
+            for k in range(3):
+                f0 = 0.0 if k == 0 else (lo if k == 1 else hi)
+                f1 = lo if k == 0 else (hi if k == 1 else 1.0)
+                q = base + k
+                xa[i, q] = x_top + f0 * dx
+                xb[i, q] = x_top + f1 * dx
+                a = tw_top + f0 * dtw
+                z = tw_top + f1 * dtw
+                tw_a[i, q] = a
+                tw_z[i, q] = z
+                tw_mean[i, q] = 0.5 * (a + z)
+                ra = rh_top + f0 * drh
+                rz = rh_top + f1 * drh
+                rh_mean[i, q] = 0.5 * (ra + rz)
+                valid[i, q] = ok and (f1 - f0 > 1e-12)
+
+
 def _march(p, tw, rh_frac, top_hpa, initial_ice):
     """Follow the ice fraction down from the generation top, vectorised over columns.
 
@@ -247,10 +316,8 @@ def _march(p, tw, rh_frac, top_hpa, initial_ice):
     only carries the clipped ice fraction down, skipping pieces no column uses.  The stages
     for the explanation are then read off the recorded history without a loop.
     """
-    n, L = p.shape
-    pieces = _pieces(p, tw, rh_frac, top_hpa)
-    # Flatten to one sequence per column, top -> bottom: intervals reversed, pieces in order.
-    seq = {k: v[:, ::-1, :].reshape(n, -1) for k, v in pieces.items()}
+    n = p.shape[0]
+    seq = _sequence(p, tw, rh_frac, top_hpa)
     valid = seq["valid"]
     P = valid.shape[1]
     d_ice = np.where(valid, ice_fraction_change(seq["bottom_hpa"], seq["top_hpa"], seq["tw_mean"],
@@ -316,9 +383,11 @@ def _carry_loop(d_ice, always, valid, ice0, ice, hist):
 try:  # numba is a declared dependency; the numpy path stays for installs without it
     from numba import njit as _njit
     _carry_compiled = _njit(cache=True, nogil=True)(_carry_loop)
+    # error_model="numpy": x / 0 gives inf or NaN as in numpy instead of raising.
+    _pieces_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_pieces_loop)
     _COMPILED = True
 except ImportError:  # pragma: no cover
-    _carry_compiled = None
+    _carry_compiled = _pieces_compiled = None
     _COMPILED = False
 
 
