@@ -224,6 +224,63 @@ def test_profile_validation_unchanged(expected, actual):
     assert _diff(expected["validation"], actual["validation"]) == []
 
 
+
+# -- compiled kernels against their numpy paths ----------------------------------------------------
+
+@pytest.fixture(scope="module")
+def member_columns():
+    profiles = [Profile.from_document(_load(p)) for p in corpus_paths()[::4]]
+    cols = Columns.from_profiles(profiles)
+    return Columns.concat([cols, perturb(cols, 10, seed=11)])
+
+
+def test_ramer_sequence_compiled_matches_numpy(member_columns):
+    from ptype.methods import ramer
+    if not ramer._COMPILED:
+        pytest.skip("numba not installed")
+    c = member_columns
+    rh = c.relative_humidity_pct / 100.0
+    top = ramer.generation_layer(c.pressure_hpa, c.relative_humidity_pct)[0]
+    fast = ramer._sequence(c.pressure_hpa, c.wetbulb_c, rh, top)
+    n = c.n_columns
+    slow = {k: v[:, ::-1, :].reshape(n, -1)
+            for k, v in ramer._pieces(c.pressure_hpa, c.wetbulb_c, rh, top).items()}
+    assert set(fast) == set(slow)
+    for key in slow:
+        np.testing.assert_array_equal(fast[key], slow[key], err_msg=key)
+
+
+def test_ramer_carry_compiled_matches_numpy():
+    from ptype.methods import ramer
+    if not ramer._COMPILED:
+        pytest.skip("numba not installed")
+    rng = np.random.default_rng(5)
+    n, P = 40, 90
+    d_ice = rng.normal(0.0, 0.6, (n, P))
+    valid = rng.random((n, P)) < 0.7
+    always = valid & (rng.random((n, P)) < 0.5)
+    ice0 = rng.choice([0.0, 1.0], n)
+    ice_np, hist_np = ramer._carry_numpy(d_ice, always, valid, ice0)
+    ice, hist = np.empty(n), np.empty((n, P))
+    ramer._carry_compiled(d_ice, always, valid, ice0, ice, hist)
+    np.testing.assert_array_equal(ice, ice_np)
+    np.testing.assert_array_equal(hist, hist_np)
+    assert ((ice > 0) & (ice < 1)).any()  # the test reaches partial fractions, not only 0 and 1
+
+
+def test_correlated_noise_compiled_matches_numpy(member_columns):
+    from ptype import probability
+    if not probability._COMPILED:
+        pytest.skip("numba not installed")
+    z = member_columns.height_m
+    fast = probability.correlated_noise(z, np.random.default_rng(3))
+    rng = np.random.default_rng(3)
+    white = rng.standard_normal(z.shape)
+    r = np.exp(-np.abs(np.nan_to_num(np.diff(z, axis=1), nan=np.inf)) / probability.CORRELATION_LENGTH_M)
+    slow = probability._ar1_numpy(r, np.sqrt(1.0 - r * r), white)
+    np.testing.assert_array_equal(fast, slow)
+
+
 if __name__ == "__main__":
     if "--write" in sys.argv:
         EXPECTED.parent.mkdir(exist_ok=True)
