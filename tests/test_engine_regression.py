@@ -246,8 +246,8 @@ def test_ramer_sequence_compiled_matches_numpy(member_columns):
     slow = {k: v[:, ::-1, :].reshape(n, -1)
             for k, v in ramer._pieces(c.pressure_hpa, c.wetbulb_c, rh, top).items()}
     assert set(fast) == set(slow)
-    for key in slow:
-        np.testing.assert_array_equal(fast[key], slow[key], err_msg=key)
+    for key, value in slow.items():
+        np.testing.assert_array_equal(fast[key], value, err_msg=key)
 
 
 def test_ramer_carry_compiled_matches_numpy():
@@ -267,6 +267,28 @@ def test_ramer_carry_compiled_matches_numpy():
     np.testing.assert_array_equal(hist, hist_np)
     assert ((ice > 0) & (ice < 1)).any()  # the test reaches partial fractions, not only 0 and 1
 
+
+def test_ramer_stages_compiled_matches_numpy(member_columns):
+    from ptype.methods import ramer
+    if not ramer._COMPILED:
+        pytest.skip("numba not installed")
+    c = member_columns
+    rh = c.relative_humidity_pct / 100.0
+    top, _, top_tw = ramer.generation_layer(c.pressure_hpa, c.relative_humidity_pct, c.wetbulb_c)
+    ice0 = np.where(np.isfinite(top) & (top_tw <= ramer.FREEZING_ONSET_TW_C), 1.0, 0.0)
+    seq = ramer._sequence(c.pressure_hpa, c.wetbulb_c, rh, top)
+    valid, warm = seq["valid"], seq["tw_mean"] > 0.0
+    d_ice = np.where(valid, ramer.ice_fraction_change(seq["bottom_hpa"], seq["top_hpa"],
+                                                      seq["tw_mean"], seq["rh_mean"]), 0.0)
+    always = valid & (warm | (seq["tw_mean"] < ramer.FREEZING_ONSET_TW_C))
+    _, hist = ramer._carry_numpy(d_ice, always, valid, ice0)
+    fast, count_fast = ramer._stages_fast(seq, valid, warm, hist, ice0)
+    slow, count_slow = ramer._stages_numpy(seq, valid, warm, hist, ice0)
+    np.testing.assert_array_equal(count_fast, count_slow)
+    assert count_slow.max() >= 3  # columns with several warm and cold stages are covered
+    assert list(fast) == list(slow)
+    for key, value in slow.items():
+        np.testing.assert_array_equal(fast[key], value, err_msg=key)
 
 def test_correlated_noise_compiled_matches_numpy(member_columns):
     from ptype import probability

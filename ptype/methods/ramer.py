@@ -380,19 +380,65 @@ def _carry_loop(d_ice, always, valid, ice0, ice, hist):
         ice[i] = x
 
 
-try:  # numba is a declared dependency; the numpy path stays for installs without it
-    from numba import njit as _njit
-    _carry_compiled = _njit(cache=True, nogil=True)(_carry_loop)
-    # error_model="numpy": x / 0 gives inf or NaN as in numpy instead of raising.
-    _pieces_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_pieces_loop)
-    _COMPILED = True
-except ImportError:  # pragma: no cover
-    _carry_compiled = _pieces_compiled = None
-    _COMPILED = False
-
-
 def _stages(seq, valid, warm, hist, ice0):
     """Maximal runs of warm / not-warm valid pieces, with bounds, extremes and ice fractions."""
+    if _COMPILED:
+        return _stages_fast(seq, valid, warm, hist, ice0)
+    return _stages_numpy(seq, valid, warm, hist, ice0)
+
+
+def _stages_fast(seq, valid, warm, hist, ice0):
+    """:func:`_stages_numpy` through the compiled :func:`_stages_loop`."""
+    n, P = valid.shape
+    table = np.full((6, n, max(P, 1)), np.nan)
+    count = np.zeros(n, dtype=np.int64)
+    _stages_compiled(np.ascontiguousarray(valid), np.ascontiguousarray(warm),
+                     np.ascontiguousarray(seq["top_hpa"]), np.ascontiguousarray(seq["bottom_hpa"]),
+                     np.ascontiguousarray(seq["tw_top"]), np.ascontiguousarray(seq["tw_bottom"]),
+                     np.ascontiguousarray(hist), np.ascontiguousarray(ice0, dtype=np.float64),
+                     table, count)
+    S = int(max(count.max(initial=0), 1))
+    keys = ("top_hpa", "bottom_hpa", "kind", "extreme_c", "ice_start", "ice_end")
+    return {k: table[j, :, :S] for j, k in enumerate(keys)}, count
+
+
+def _stages_loop(valid, warm, top_hpa, bottom_hpa, tw_top, tw_bottom, hist, ice0, table, count):
+    """Stages of :func:`_stages_numpy` by one pass over each column's valid pieces (compiled
+    with numba).  ``table[0..5]`` receive top, bottom, kind, extreme, ice at start and end."""
+    n, P = valid.shape
+    for i in range(n):
+        s = -1
+        kind = 0
+        last = -1  # previous valid piece
+        for q in range(P):
+            if not valid[i, q]:
+                continue
+            k = 1 if warm[i, q] else -1
+            if k != kind:
+                s += 1
+                kind = k
+                table[0, i, s] = top_hpa[i, q]
+                table[2, i, s] = k
+                table[4, i, s] = hist[i, last] if last >= 0 else ice0[i]
+                table[3, i, s] = -np.inf if k > 0 else np.inf
+            a, b = tw_top[i, q], tw_bottom[i, q]
+            if k > 0:
+                hi = a if a >= b else b
+                if hi > table[3, i, s]:
+                    table[3, i, s] = hi
+            else:
+                lo = a if a <= b else b
+                if lo < table[3, i, s]:
+                    table[3, i, s] = lo
+            # Every piece may end its stage; the last one of the stage wins.
+            table[1, i, s] = bottom_hpa[i, q]
+            table[5, i, s] = hist[i, q]
+            last = q
+        count[i] = s + 1
+
+
+def _stages_numpy(seq, valid, warm, hist, ice0):
+    """Maximal runs of warm / not-warm valid pieces, numpy path of :func:`_stages`."""
     n, P = valid.shape
     rows = np.arange(n)[:, None]
     pos = np.broadcast_to(np.arange(P), (n, P))
@@ -432,6 +478,18 @@ def _stages(seq, valid, warm, hist, ice0):
     st["extreme_c"] = np.where(present, np.where(st["kind"] > 0, mx.reshape(n, S), mn.reshape(n, S)),
                                np.nan)
     return st, count
+
+
+try:  # numba is a declared dependency; the numpy path stays for installs without it
+    from numba import njit as _njit
+    _carry_compiled = _njit(cache=True, nogil=True)(_carry_loop)
+    # error_model="numpy": x / 0 gives inf or NaN as in numpy instead of raising.
+    _pieces_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_pieces_loop)
+    _stages_compiled = _njit(cache=True, nogil=True)(_stages_loop)
+    _COMPILED = True
+except ImportError:  # pragma: no cover
+    _carry_compiled = _pieces_compiled = _stages_compiled = None
+    _COMPILED = False
 
 
 def run(ctx: Context, *, abstain_on_mix: bool | None = None) -> MethodResult:
