@@ -198,26 +198,31 @@ def tau(depth_m, mean_excess_c, *, radius_m=PARTICLE_RADIUS_M, pressure_hpa=850.
 
 # -- column analysis -----------------------------------------------------------------------------
 
-def _lnp_integral_to(p, v, target_hpa):
+def _lnp_integral_to(p, v, target_hpa, *more_targets_hpa):
     """``integral of v d(-ln p)`` from the lowest level up to ``target_hpa`` (n,), v linear in
-    ln p; NaN where the target is outside the column."""
+    ln p; NaN where the target is outside the column.  With more targets, one array per target
+    (the level integrals are shared)."""
     n, L = p.shape
     x = np.log(p)
-    xt = np.log(np.asarray(target_hpa, dtype=np.float64))
     seg = np.where(np.isfinite(x[:, 1:]) & np.isfinite(x[:, :-1]),
                    0.5 * (v[:, 1:] + v[:, :-1]) * (x[:, :-1] - x[:, 1:]), 0.0)
     cum = np.concatenate([np.zeros((n, 1)), np.cumsum(seg, axis=1)], axis=1)
     rows = np.arange(n)
-    k = np.sum(np.isfinite(p) & (p >= np.asarray(target_hpa)[:, None]), axis=1) - 1
-    inside = k >= 0
-    k = np.clip(k, 0, L - 1)
-    k1 = np.minimum(k + 1, L - 1)
-    dx = x[rows, k] - x[rows, k1]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        w = np.where(np.isfinite(dx) & (dx > 0), (x[rows, k] - xt) / dx, 0.0)
-    vt = v[rows, k] + np.where(w != 0.0, w * (v[rows, k1] - v[rows, k]), 0.0)
-    part = np.where(w != 0.0, 0.5 * (v[rows, k] + vt) * (x[rows, k] - xt), 0.0)
-    return np.where(inside, cum[rows, k] + part, np.nan)
+    finite_p = np.isfinite(p)
+    out = []
+    for target in (target_hpa, *more_targets_hpa):
+        xt = np.log(np.asarray(target, dtype=np.float64))
+        k = np.sum(finite_p & (p >= np.asarray(target)[:, None]), axis=1) - 1
+        inside = k >= 0
+        k = np.clip(k, 0, L - 1)
+        k1 = np.minimum(k + 1, L - 1)
+        dx = x[rows, k] - x[rows, k1]
+        with np.errstate(invalid="ignore", divide="ignore"):
+            w = np.where(np.isfinite(dx) & (dx > 0), (x[rows, k] - xt) / dx, 0.0)
+        vt = v[rows, k] + np.where(w != 0.0, w * (v[rows, k1] - v[rows, k]), 0.0)
+        part = np.where(w != 0.0, 0.5 * (v[rows, k] + vt) * (x[rows, k] - xt), 0.0)
+        out.append(np.where(inside, cum[rows, k] + part, np.nan))
+    return out[0] if not more_targets_hpa else out
 
 
 def run(ctx: Context, *, radius_m: float | None = None,
@@ -255,8 +260,8 @@ def run(ctx: Context, *, radius_m: float | None = None,
     safe_bottom = np.where(has_warm, bottom_hpa, p[:, 0])
     safe_top = np.where(has_warm, top_hpa, p[:, 0])
     with np.errstate(invalid="ignore", divide="ignore"):
-        e_mean = ((_lnp_integral_to(p, e, safe_top) - _lnp_integral_to(p, e, safe_bottom))
-                  / ln_ratio)
+        to_top, to_bottom = _lnp_integral_to(p, e, safe_top, safe_bottom)
+        e_mean = (to_top - to_bottom) / ln_ratio
     d_rho_v = np.where(has_warm, vapour_density_excess_kg_m3(e_mean, excess), nan)
     if not use_vapour:
         d_rho_v = np.where(has_warm, 0.0, nan)
