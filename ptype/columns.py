@@ -221,3 +221,30 @@ def interpolate_at_pressure(columns_p: np.ndarray, values: np.ndarray, target_hp
     inside = (k >= 1) & (k < np.sum(np.isfinite(p), axis=1) + (exact.astype(int))) & np.isfinite(out)
     inside |= exact
     return np.where(inside, out, np.nan)
+
+
+def interpolate_at_pressures(columns_p: np.ndarray, values: np.ndarray, targets_hpa) -> np.ndarray:
+    """:func:`interpolate_at_pressure` at several fixed pressures at once, ``(n, m)`` for ``m``
+    targets (the same arithmetic per target; ln p and the level counts are shared)."""
+    p = columns_p
+    n, L = p.shape
+    target = np.asarray(targets_hpa, dtype=np.float64)[None, :]          # (1, m)
+    ln_p = np.log(p)
+    ln_t = np.log(target)
+    finite = np.isfinite(p)
+    below = finite[:, None, :] & (p[:, None, :] >= target[:, :, None])  # (n, m, L)
+    k = below.sum(axis=2)
+    rows = np.arange(n)[:, None]
+    k_lo = np.minimum(np.maximum(k - 1, 0), L - 1)
+    k_hi = np.minimum(k, L - 1)
+    x0, x1 = ln_p[rows, k_lo], ln_p[rows, k_hi]
+    y0, y1 = values[rows, k_lo], values[rows, k_hi]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.where(x1 != x0, (ln_t - x0) / (x1 - x0), 0.0)
+    out = y0 + w * (y1 - y0)
+    p_lo = p[rows, k_lo]
+    exact = np.isfinite(p_lo) & (p_lo == target)
+    out = np.where(exact, y0, out)
+    inside = (k >= 1) & (k < finite.sum(axis=1)[:, None] + exact.astype(int)) & np.isfinite(out)
+    inside = inside | exact
+    return np.where(inside, out, np.nan)

@@ -303,6 +303,17 @@ def test_correlated_noise_compiled_matches_numpy(member_columns):
     np.testing.assert_array_equal(fast, slow)
 
 
+def test_interpolate_at_pressures_matches_one_at_a_time(member_columns):
+    from ptype.columns import interpolate_at_pressure, interpolate_at_pressures
+    c = member_columns
+    levels = np.unique(c.pressure_hpa[np.isfinite(c.pressure_hpa)])[::9]
+    levels = np.concatenate([[1100.0, 1000.0, 850.0, 700.0, 500.0, 250.0, 10.0], levels])
+    together = interpolate_at_pressures(c.pressure_hpa, c.height_m, levels)
+    for j, target in enumerate(levels):
+        np.testing.assert_array_equal(together[:, j],
+                                      interpolate_at_pressure(c.pressure_hpa, c.height_m, target))
+    assert np.isnan(together).any() and np.isfinite(together).any()
+
 if __name__ == "__main__":
     if "--write" in sys.argv:
         EXPECTED.parent.mkdir(exist_ok=True)

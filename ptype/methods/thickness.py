@@ -20,7 +20,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..codes import NO_RESULT, Code
-from ..columns import interpolate_at_pressure
+from ..columns import interpolate_at_pressures
 from .base import Context, MethodResult, Step
 
 NAME = "thickness"
@@ -40,7 +40,9 @@ _LUT = np.array([NO_RESULT, Code.SN, Code.RA, Code.FZRA, Code.PL, NO_RESULT], dt
 
 def run(ctx: Context) -> MethodResult:
     c = ctx.columns
-    z = {p: interpolate_at_pressure(c.pressure_hpa, c.height_m, p) for p in (1000.0, 850.0, 700.0, 500.0)}
+    levels = (1000.0, 850.0, 700.0, 500.0)
+    at = interpolate_at_pressures(c.pressure_hpa, c.height_m, levels)
+    z = {p: at[:, j] for j, p in enumerate(levels)}
     low = z[850.0] - z[1000.0]
     mid = z[700.0] - z[850.0]
     complete = np.isfinite(z[1000.0]) & np.isfinite(z[850.0]) & np.isfinite(z[700.0]) & np.isfinite(z[500.0])
