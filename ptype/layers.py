@@ -270,12 +270,17 @@ def level_runs(mask: np.ndarray, pressure_hpa: np.ndarray, height_m: np.ndarray,
     s = np.maximum(start, 0)
     e = np.maximum(end, 0)
     present = start >= 0
-    # Minimum temperature within each run.
-    t = np.where(mask, temperature_c, np.inf)
+    # Minimum temperature within each run: one reduceat over the flattened rows, with the
+    # segments [start, end] of every run (an inf sentinel closes a run ending the last row).
     L = mask.shape[1]
-    idx = np.arange(L)[None, None, :]
-    inside = (idx >= s[:, :, None]) & (idx <= e[:, :, None]) & present[:, :, None]
-    tmin = np.where(inside, t[:, None, :], np.inf).min(axis=2)
+    t = np.append(np.where(mask, temperature_c, np.inf).ravel(), np.inf)
+    ri, rk = np.nonzero(present)
+    tmin = np.full((n, R), np.inf)
+    if ri.size:
+        bounds = np.empty(2 * ri.size, dtype=np.intp)
+        bounds[0::2] = ri * L + s[ri, rk]
+        bounds[1::2] = ri * L + e[ri, rk] + 1
+        tmin[ri, rk] = np.minimum.reduceat(t, bounds)[0::2]
 
     def pick(a, k):
         return np.where(present, a[rows, k], np.nan)
