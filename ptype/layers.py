@@ -99,6 +99,13 @@ def analyse_layers(pressure_hpa: np.ndarray, height_m: np.ndarray, value_c: np.n
     p = np.asarray(pressure_hpa, dtype=np.float64)
     z = np.asarray(height_m, dtype=np.float64)
     v = np.asarray(value_c, dtype=np.float64)
+    if _COMPILED and p.ndim == 2:
+        return _analyse_layers_compiled(p, z, v, top_limit_hpa)
+    return _analyse_layers_numpy(p, z, v, top_limit_hpa)
+
+
+def _analyse_layers_numpy(p, z, v, top_limit_hpa) -> LayerSet:
+    """numpy path of :func:`analyse_layers`."""
     n, L = p.shape
     valid = np.isfinite(p) & np.isfinite(v) & (p >= top_limit_hpa)
     # Keep only the contiguous valid run from the surface (trailing padding).
@@ -176,6 +183,115 @@ def analyse_layers(pressure_hpa: np.ndarray, height_m: np.ndarray, value_c: np.n
     top_z[rr, top_layer] = np.where(count > 0, z[rr, last], np.nan)
     return LayerSet(kind=kind, bottom_hpa=bottom_p, top_hpa=top_p, bottom_m=bottom_z, top_m=top_z,
                     area_j_kg=area, extreme_c=extreme, count=count)
+
+
+def _analyse_layers_compiled(p, z, v, top_limit_hpa) -> LayerSet:
+    """:func:`analyse_layers` through the compiled :func:`_layers_loop` (same arithmetic in the
+    same order as the numpy path; ``ln p`` and ``exp`` stay in numpy)."""
+    n, L = p.shape
+    p = np.ascontiguousarray(p)
+    z = np.ascontiguousarray(z)
+    v = np.ascontiguousarray(v)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ln_p = np.log(p)
+    width = max(L, 1)
+    kind = np.zeros((n, width), dtype=np.int8)
+    floats = np.full((8, n, width), np.nan)  # bottom p, top p, bottom z, top z, area, extreme,
+    count = np.zeros(n, dtype=np.int64)      # ln p of crossings at bottoms / tops
+    _layers_compiled(p, z, v, ln_p, float(top_limit_hpa), kind, floats, count)
+    K = int(max(count.max(initial=1), 1))
+    bottom_p, top_p, bottom_z, top_z, area, extreme, x_bottom, x_top = (a[:, :K] for a in floats)
+    # Crossing pressures: exp of the interpolated ln p, in numpy as on the numpy path.
+    bottom_p = np.where(np.isnan(x_bottom), bottom_p, np.exp(x_bottom))
+    top_p = np.where(np.isnan(x_top), top_p, np.exp(x_top))
+    return LayerSet(kind=kind[:, :K].copy(), bottom_hpa=bottom_p, top_hpa=top_p,
+                    bottom_m=bottom_z.copy(), top_m=top_z.copy(), area_j_kg=area.copy(),
+                    extreme_c=extreme.copy(), count=count)
+
+
+def _layers_loop(p, z, v, ln_p, top_limit, kind, out, count):
+    """One column at a time, the steps of :func:`_analyse_layers_numpy` (compiled with numba).
+
+    ``out[0..7]`` receive bottom and top pressure, bottom and top height, area, extreme, and
+    the ln p of each crossing at a layer bottom and top (the caller takes ``exp``).  Areas are
+    accumulated in level order, as ``np.bincount`` does: first the lower parts of every
+    interval, then the upper parts, then the two sums are added.
+    """
+    n, L = p.shape
+    area1 = np.zeros(L)
+    area2 = np.zeros(L)
+    mag = np.empty(L)
+    for i in range(n):
+        nvalid = 0
+        while (nvalid < L and np.isfinite(p[i, nvalid]) and np.isfinite(v[i, nvalid])
+               and p[i, nvalid] >= top_limit):
+            nvalid += 1
+        if nvalid == 0:
+            count[i] = 0
+            continue
+        area1[:] = 0.0
+        area2[:] = 0.0
+        mag[:] = -1.0
+        lid = 0
+        first_warm = v[i, 0] > 0.0
+        out[0, i, 0] = p[i, 0]
+        out[2, i, 0] = z[i, 0]
+        a0 = abs(v[i, 0])
+        if a0 > mag[0]:  # noqa: PLR1730 - plain branches compile simply in numba
+            mag[0] = a0
+        for j in range(nvalid - 1):
+            v1, v2 = v[i, j], v[i, j + 1]
+            dx = ln_p[i, j] - ln_p[i, j + 1]
+            crossing = (v2 > 0.0) != (v1 > 0.0)
+            new_lid = lid + 1 if crossing else lid
+            if crossing:
+                frac = v1 / (v1 - v2)
+                # np.nan_to_num then np.clip: NaN -> 1, +inf -> 1, -inf -> 0.
+                if np.isnan(frac) or frac == np.inf:
+                    frac = 1.0
+                elif frac == -np.inf:
+                    frac = 0.0
+                if frac < 0.0:  # noqa: PLR1730
+                    frac = 0.0
+                if frac > 1.0:  # noqa: PLR1730
+                    frac = 1.0
+                part1 = 0.5 * v1 * frac * dx
+                part2 = 0.5 * v2 * (1.0 - frac) * dx
+                xc = ln_p[i, j] - frac * dx
+                zc = z[i, j] + frac * (z[i, j + 1] - z[i, j])
+                out[6, i, new_lid] = xc
+                out[2, i, new_lid] = zc
+                out[7, i, lid] = xc
+                out[3, i, lid] = zc
+            else:
+                part1 = 0.5 * (v1 + v2) * dx
+                part2 = 0.0
+            area1[lid] += part1
+            area2[new_lid] += part2
+            lid = new_lid
+            a = abs(v2)
+            if a > mag[lid]:  # noqa: PLR1730
+                mag[lid] = a
+        c = lid + 1
+        count[i] = c
+        for k in range(c):
+            kk = 1 if ((k % 2 == 0) == first_warm) else -1
+            kind[i, k] = kk
+            out[4, i, k] = abs(Rd * (area1[k] + area2[k]))
+            out[5, i, k] = mag[k] if kk > 0 else -mag[k]
+        # The top of the top layer is the last valid level (not a crossing).
+        out[1, i, c - 1] = p[i, nvalid - 1]
+        out[3, i, c - 1] = z[i, nvalid - 1]
+        out[7, i, c - 1] = np.nan
+
+
+try:  # numba is a declared dependency; the numpy path stays for installs without it
+    from numba import njit as _njit
+    _layers_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_layers_loop)
+    _COMPILED = True
+except ImportError:  # pragma: no cover
+    _layers_compiled = None
+    _COMPILED = False
 
 
 def freezing_levels_m(layers: LayerSet) -> np.ndarray:

@@ -68,7 +68,7 @@ def correlated_noise(height_m: np.ndarray, rng: np.random.Generator,
 
 def _ar1_numpy(r, s, white):
     """The AR(1) recursion, one numpy step per level."""
-    n, L = white.shape
+    L = white.shape[1]
     out = np.empty_like(white)
     out[:, 0] = white[:, 0]
     for k in range(1, L):

@@ -314,6 +314,25 @@ def test_interpolate_at_pressures_matches_one_at_a_time(member_columns):
                                       interpolate_at_pressure(c.pressure_hpa, c.height_m, target))
     assert np.isnan(together).any() and np.isfinite(together).any()
 
+@pytest.mark.parametrize("field", ["temperature_c", "wetbulb_c", "rounded", "noise"])
+def test_analyse_layers_compiled_matches_numpy(member_columns, field):
+    from ptype import layers
+    if not layers._COMPILED:
+        pytest.skip("numba not installed")
+    c = member_columns
+    values = {"temperature_c": c.temperature_c, "wetbulb_c": c.wetbulb_c,
+              # levels exactly at 0 degC, and many sign changes per column
+              "rounded": np.round(c.temperature_c),
+              "noise": np.random.default_rng(1).normal(0.0, 3.0, c.temperature_c.shape)}[field]
+    fast = layers._analyse_layers_compiled(c.pressure_hpa, c.height_m, values, layers.TOP_LIMIT_HPA)
+    slow = layers._analyse_layers_numpy(c.pressure_hpa, c.height_m, values, layers.TOP_LIMIT_HPA)
+    assert slow.count.max() >= 3
+    for name in ("kind", "bottom_hpa", "top_hpa", "bottom_m", "top_m", "area_j_kg", "extreme_c",
+                 "count"):
+        a, b = getattr(fast, name), getattr(slow, name)
+        assert a.dtype == b.dtype, name
+        np.testing.assert_array_equal(a, b, err_msg=name)
+
 if __name__ == "__main__":
     if "--write" in sys.argv:
         EXPECTED.parent.mkdir(exist_ok=True)

@@ -84,25 +84,16 @@ class Context:
         self.columns = columns
 
     @functools.cached_property
-    def _layer_pair(self) -> tuple[LayerSet, LayerSet]:
-        # Air and wet-bulb layers in one pass over the rows stacked twice: every method run
-        # needs both, and the analysis is per row, so each half is what its own call gives.
-        c = self.columns
-        n = c.n_columns
-        both = analyse_layers(np.concatenate([c.pressure_hpa, c.pressure_hpa]),
-                              np.concatenate([c.height_m, c.height_m]),
-                              np.concatenate([c.temperature_c, c.wetbulb_c]))
-        return _layer_rows(both, slice(0, n)), _layer_rows(both, slice(n, 2 * n))
-
-    @functools.cached_property
     def air_layers(self) -> LayerSet:
         """Layers of the air temperature (the Bourgouin areas)."""
-        return self._layer_pair[0]
+        c = self.columns
+        return analyse_layers(c.pressure_hpa, c.height_m, c.temperature_c)
 
     @functools.cached_property
     def wetbulb_layers(self) -> LayerSet:
         """Layers of the isobaric wet-bulb temperature."""
-        return self._layer_pair[1]
+        c = self.columns
+        return analyse_layers(c.pressure_hpa, c.height_m, c.wetbulb_c)
 
     @functools.cached_property
     def cloud_mask(self) -> np.ndarray:
@@ -118,13 +109,3 @@ class Context:
         c = self.columns
         return level_runs(dry_mask(c.temperature_c, c.dewpoint_c), c.pressure_hpa, c.height_m,
                           c.temperature_c)
-
-
-def _layer_rows(layers: LayerSet, rows: slice) -> LayerSet:
-    """The rows ``rows`` of a layer set, trimmed to their own widest column (as
-    :func:`ptype.layers.analyse_layers` on those rows alone would size it)."""
-    count = layers.count[rows]
-    K = int(max(count.max(initial=1), 1))
-    return LayerSet(**{f.name: (getattr(layers, f.name)[rows] if f.name == "count"
-                                else getattr(layers, f.name)[rows, :K])
-                       for f in dataclasses.fields(LayerSet)})

@@ -273,7 +273,7 @@ def _pieces_loop(x, tw, rh_frac, xg, xa, xb, tw_a, tw_z, tw_mean, rh_mean, valid
             if np.isnan(x_t) or np.isnan(g):
                 x_top = np.nan
             else:
-                x_top = x_t if x_t >= g else g
+                x_top = x_t if x_t >= g else g  # noqa: FURB136 - same as np.maximum
             w = (x_top - x_b) / (x_t - x_b) if x_t != x_b else 0.0
             tw_top = tb + w * (tt - tb)
             rh_top = rb + w * (rt - rb)
@@ -282,8 +282,8 @@ def _pieces_loop(x, tw, rh_frac, xg, xa, xb, tw_a, tw_z, tw_mean, rh_mean, valid
             c0 = f if (f > 0.0 and f < 1.0) else 1.0
             f = (tw_top - FREEZING_ONSET_TW_C) / (tw_top - tb)
             c1 = f if (f > 0.0 and f < 1.0) else 1.0
-            lo = c0 if c0 <= c1 else c1
-            hi = c0 if c0 >= c1 else c1
+            lo = c0 if c0 <= c1 else c1  # noqa: FURB136 - spelled out for numba
+            hi = c0 if c0 >= c1 else c1  # noqa: FURB136
             dx = x_b - x_top
             dtw = tb - tw_top
             drh = rb - rh_top
@@ -371,9 +371,9 @@ def _carry_loop(d_ice, always, valid, ice0, ice, hist):
             if always[i, q] or (valid[i, q] and x > 0.0):
                 y = x + d_ice[i, q]
                 # np.maximum / np.minimum semantics: NaN propagates.
-                if y < 0.0:
+                if y < 0.0:  # noqa: PLR1730 - NaN must pass through, as in numpy
                     y = 0.0
-                if y > 1.0:
+                if y > 1.0:  # noqa: PLR1730
                     y = 1.0
                 x = y
             hist[i, q] = x
@@ -423,12 +423,12 @@ def _stages_loop(valid, warm, top_hpa, bottom_hpa, tw_top, tw_bottom, hist, ice0
                 table[3, i, s] = -np.inf if k > 0 else np.inf
             a, b = tw_top[i, q], tw_bottom[i, q]
             if k > 0:
-                hi = a if a >= b else b
-                if hi > table[3, i, s]:
+                hi = a if a >= b else b  # noqa: FURB136 - spelled out for numba
+                if hi > table[3, i, s]:  # noqa: PLR1730
                     table[3, i, s] = hi
             else:
-                lo = a if a <= b else b
-                if lo < table[3, i, s]:
+                lo = a if a <= b else b  # noqa: FURB136
+                if lo < table[3, i, s]:  # noqa: PLR1730
                     table[3, i, s] = lo
             # Every piece may end its stage; the last one of the stage wins.
             table[1, i, s] = bottom_hpa[i, q]
