@@ -161,6 +161,21 @@ def profile_kernel(path: Path, columns: int = 32768) -> dict:
             "cumulative_s": stages}
 
 
+def code_version() -> dict:
+    """Commit measured, and whether ptype/ had uncommitted changes (shared working tree)."""
+    root = Path(__file__).resolve().parents[1]
+    try:
+        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
+                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
+        dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
+                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
+    except (OSError, subprocess.SubprocessError):
+        return {"commit": None, "uncommitted_ptype_files": None}
+    return {"commit": head or None,
+            "uncommitted_ptype_files": sorted(line[3:] for line in dirty
+                                              if line.strip() and not line.startswith("??"))}
+
+
 def main(argv=None) -> dict:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true",
@@ -191,6 +206,7 @@ def main(argv=None) -> dict:
     n_big, n_mid = big_nx * big_ny, mid_nx * mid_ny
     out = {
         "benchmark": "grid",
+        "code": code_version(),
         "machine": {"cores": os.cpu_count(), "python": platform.python_version(),
                     "load_average_1min_at_start": load0,
                     "load_average_1min_at_end": os.getloadavg()[0]},

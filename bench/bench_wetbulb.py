@@ -20,6 +20,7 @@ import functools
 import json
 import os
 import platform
+import subprocess
 import time
 import warnings
 from pathlib import Path
@@ -55,6 +56,21 @@ def cpu_seconds(fn) -> float:
     c0 = time.process_time()
     fn()
     return time.process_time() - c0
+
+
+def code_version() -> dict:
+    """Commit measured, and whether ptype/ had uncommitted changes (shared working tree)."""
+    root = Path(__file__).resolve().parents[1]
+    try:
+        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
+                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
+        dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
+                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
+    except (OSError, subprocess.SubprocessError):
+        return {"commit": None, "uncommitted_ptype_files": None}
+    return {"commit": head or None,
+            "uncommitted_ptype_files": sorted(line[3:] for line in dirty
+                                              if line.strip() and not line.startswith("??"))}
 
 
 def main(argv=None) -> dict:
@@ -107,6 +123,7 @@ def main(argv=None) -> dict:
     rate = results["isobaric"]["compiled_parallel_points_per_s"]
     out = {
         "benchmark": "wetbulb",
+        "code": code_version(),
         "machine": {"cores": os.cpu_count(), "python": platform.python_version(),
                     "load_average_1min_at_start": os.getloadavg()[0]},
         "population": "T -40..35 degC, p 300..1050 hPa, RH 10..100 % (uniform)",
