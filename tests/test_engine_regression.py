@@ -333,6 +333,29 @@ def test_analyse_layers_compiled_matches_numpy(member_columns, field):
         assert a.dtype == b.dtype, name
         np.testing.assert_array_equal(a, b, err_msg=name)
 
+@pytest.mark.parametrize("part", ["net", "positive", "negative"])
+def test_baldwin_area_compiled_matches_numpy(member_columns, part, monkeypatch):
+    from ptype.methods import baldwin
+    if not baldwin._COMPILED:
+        pytest.skip("numba not installed")
+    c = member_columns
+    rng = np.random.default_rng(2)
+    n = c.n_columns
+    z = c.height_m
+    bottoms = [c.surface_height_m, c.surface_height_m + rng.uniform(-500.0, 3000.0, n),
+               np.where(rng.random(n) < 0.2, np.nan, c.surface_height_m)]
+    tops = [c.surface_height_m + 3000.0, rng.uniform(0.0, 12000.0, n),
+            np.where(rng.random(n) < 0.2, np.nan, 5000.0), c.surface_height_m - 100.0]
+    for values in (c.wetbulb_adiabatic_c, c.wetbulb_adiabatic_c + 4.0,
+                   rng.normal(0.0, 5.0, z.shape)):
+        for lo in bottoms:
+            for hi in tops:
+                fast = baldwin.area_k_m(z, values, lo, hi, part)
+                with monkeypatch.context() as m:
+                    m.setattr(baldwin, "_COMPILED", False)
+                    slow = baldwin.area_k_m(z, values, lo, hi, part)
+                np.testing.assert_array_equal(fast, slow)
+
 if __name__ == "__main__":
     if "--write" in sys.argv:
         EXPECTED.parent.mkdir(exist_ok=True)
