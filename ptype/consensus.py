@@ -27,7 +27,7 @@ from __future__ import annotations
 import numpy as np
 
 from .codes import HAZARD_RANK, Code
-from .methods.base import Context, MethodResult, Step
+from .methods.base import Context, MethodResult, Step, select_first
 from .methods import cloud_top, jennings
 
 #: Methods that vote.
@@ -73,10 +73,10 @@ def consensus(ctx: Context, results: dict[str, MethodResult]) -> MethodResult:
     humidity_check = rainy & (c.surface_wetbulb_c < 0.0) & (total > 0)
     snow_by_humidity = humidity_check & (p_snow >= jennings.SNOW_PROBABILITY_THRESHOLD)
 
-    rule = np.select(
+    rule = select_first(
         [no_ice, total == 0, snow_by_humidity, humidity_check, tie],
         [0, 5, 3, 4, 2], default=1)
-    code = np.select(
+    code = select_first(
         [rule == 0, rule == 5, rule == 3, rule == 4],
         [drizzle, surface_code, int(Code.SN), int(Code.RASN)], default=winner).astype(np.int64)
     values = {"counts": counts, "n_voters": total, "winner": winner, "tie": tie,

@@ -46,7 +46,7 @@ import numpy as np
 
 from ..codes import NO_RESULT, Code
 from ..columns import interpolate_at_pressure
-from .base import Context, MethodResult, Step
+from .base import Context, MethodResult, Step, select_first
 
 NAME = "baldwin"
 TITLE = "Baldwin et al. (1994) decision tree"
@@ -273,12 +273,12 @@ def _shared(ctx: Context) -> dict:
     surfw = area_k_m(z, tw, sfc_z, z_first_cold, "positive", integrand=integrand)
     surfc = area_k_m(z, tw, sfc_z, z_warm, "negative", integrand=integrand)
 
-    # The rule up to the snow test, and from the pellet tests on (np.select: first true wins).
-    rule_before = np.select(
+    # The rule up to the snow test, and from the pellet tests on (first true wins).
+    rule_before = select_first(
         [~enough, ~found, (t_cold > NO_ICE_CLOUD_C) & (sfc_t <= 0.0), t_cold > NO_ICE_CLOUD_C],
         [_RULE["insufficient_levels"], _RULE["no_saturated_layer"], _RULE["no_ice_freezing"],
          _RULE["no_ice_rain"]], default=-1)
-    rule_after = np.select(
+    rule_after = select_first(
         [surfc < SURFC_PELLETS_K_M, (areas8 < AREAS8_PELLETS_K_M) & (surfw < SURFW_PELLETS_K_M),
          sfc_t < 0.0],
         [_RULE["pellets_surface_cold"], _RULE["pellets_low_cold"], _RULE["freezing_rain"]],

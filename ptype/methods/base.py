@@ -57,6 +57,16 @@ def _round(v):
     return v
 
 
+def select_first(conditions, choices, default):
+    """``np.select(conditions, choices, default)`` (the first true condition wins) as a chain of
+    ``np.where`` from the last condition back: same values and dtype for the rule tables of the
+    methods, without np.select's per-call set-up (it runs several times per diagnosis)."""
+    out = np.where(conditions[-1], choices[-1], default)
+    for cond, choice in zip(conditions[-2::-1], choices[-2::-1]):
+        out = np.where(cond, choice, out)
+    return out
+
+
 @dataclasses.dataclass(eq=False)
 class MethodResult:
     """Vectorised outcome of one method over ``n`` columns."""

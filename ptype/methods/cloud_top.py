@@ -33,7 +33,7 @@ import numpy as np
 
 from ..codes import NO_RESULT, Code
 from ..layers import cumulative_dry_depth_m, dry_mask
-from .base import Context, MethodResult, Step
+from .base import Context, MethodResult, Step, select_first
 
 NAME = "cloud_top"
 TITLE = "Cloud-top ice nucleation (top-down) reasoning"
@@ -126,7 +126,7 @@ def run(ctx: Context) -> MethodResult:
 
     melted = aloft_max > COMPLETE_MELT_TW_C
     partly = (aloft_max >= PARTIAL_MELT_TW_C) & ~melted
-    rule_ice = np.select(
+    rule_ice = select_first(
         [melted & ~freezing_sfc, melted & (cold_min <= REFREEZE_COLD_LAYER_C), melted,
          partly & freezing_sfc, partly,
          surface_max > COMPLETE_MELT_TW_C, surface_max >= PARTIAL_MELT_TW_C],

@@ -61,7 +61,7 @@ from ..constants import T0, Lf, Rd, Rv, rho_i
 from ..errors import OptionError
 from ..layers import TOP_LIMIT_HPA
 from ..thermo import saturation_vapor_pressure_hpa
-from .base import Context, MethodResult, Step
+from .base import Context, MethodResult, Step, select_first
 
 NAME = "czys"
 TITLE = "Czys et al. (1996) melting parameter"
@@ -293,7 +293,7 @@ def run(ctx: Context, *, radius_m: float | None = None,
     choices = [_RULE[r] for r in ("insufficient_levels", "surface_not_freezing",
                                   "no_elevated_warm_layer", "not_three_layers",
                                   "no_ice_cloud_aloft", "complete_melting")]
-    rule = np.select(conditions, choices, default=_RULE["partial_melting"])
+    rule = select_first(conditions, choices, default=_RULE["partial_melting"])
     values = {
         "layer_count": count.astype(np.float64),
         "surface_temperature_c": sfc_t,

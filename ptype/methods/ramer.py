@@ -50,7 +50,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..codes import NO_RESULT, Code
-from .base import Context, MethodResult, Step
+from .base import Context, MethodResult, Step, select_first
 
 NAME = "ramer"
 TITLE = "Ramer (1993) ice fraction"
@@ -531,7 +531,7 @@ def run(ctx: Context, *, abstain_on_mix: bool | None = None) -> MethodResult:
                                   "no_generation_layer", "solid_never_liquid", "solid_refrozen",
                                   "liquid_freezing", "liquid_rain", "mix_abstain", "mix_freezing",
                                   "mix_refrozen_rain")]
-    rule = np.select(conditions, choices, default=_RULE["mix_partly_melted_snow"])
+    rule = select_first(conditions, choices, default=_RULE["mix_partly_melted_snow"])
     code_of_rule = np.array([NO_RESULT, Code.RA, Code.SN, NO_RESULT, Code.SN, Code.PL, Code.FZRA,
                              Code.RA, Code.FZRAPL, Code.RAPL, Code.RASN, NO_RESULT], dtype=np.int64)
     code = code_of_rule[rule]

@@ -21,7 +21,7 @@ import numpy as np
 
 from ..codes import NO_RESULT, Code
 from ..columns import interpolate_at_pressures
-from .base import Context, MethodResult, Step
+from .base import Context, MethodResult, Step, select_first
 
 NAME = "thickness"
 TITLE = "Partial-thickness rules (1000-850, 850-700 hPa)"
@@ -48,7 +48,7 @@ def run(ctx: Context) -> MethodResult:
     complete = np.isfinite(z[1000.0]) & np.isfinite(z[850.0]) & np.isfinite(z[700.0]) & np.isfinite(z[500.0])
     warm_sfc = c.surface_wetbulb_c > 0.0
     liquid = (low > RAIN_1000_850_MIN_M) | (mid > PELLETS_850_700_MAX_M)
-    rule = np.select([~complete, mid <= SNOW_850_700_MAX_M, liquid & warm_sfc, liquid,
+    rule = select_first([~complete, mid <= SNOW_850_700_MAX_M, liquid & warm_sfc, liquid,
                       (mid > SNOW_850_700_MAX_M) & (mid <= PELLETS_850_700_MAX_M)],
                      [0, 1, 2, 3, 4], default=5)
     values = {"thickness_1000_850_m": low, "thickness_850_700_m": mid,
