@@ -360,9 +360,14 @@ class CloudLayers:
         return out
 
 
-def cloud_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray) -> np.ndarray:
-    """``(n, L)`` True where a level counts as cloud (see :data:`CLOUD_RH_WATER_PCT`)."""
-    rh_w = relative_humidity_pct(temperature_c, dewpoint_c)
+def cloud_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray,
+               relative_humidity_pct_: np.ndarray | None = None) -> np.ndarray:
+    """``(n, L)`` True where a level counts as cloud (see :data:`CLOUD_RH_WATER_PCT`).
+
+    ``relative_humidity_pct_`` may pass the RH over water already computed from the same
+    temperature and dew point (``Columns.relative_humidity_pct``)."""
+    rh_w = (relative_humidity_pct(temperature_c, dewpoint_c) if relative_humidity_pct_ is None
+            else relative_humidity_pct_)
     with np.errstate(invalid="ignore"):
         rh_i = 100.0 * saturation_vapor_pressure_hpa(dewpoint_c, "water") / \
             saturation_vapor_pressure_hpa(temperature_c, "ice")
@@ -370,9 +375,12 @@ def cloud_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray) -> np.ndarray:
                                     | ((temperature_c < 0.0) & (rh_i >= CLOUD_RH_ICE_PCT)))
 
 
-def dry_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray) -> np.ndarray:
-    """``(n, L)`` True where a level is dry (RH over water below :data:`DRY_RH_WATER_PCT`)."""
-    rh_w = relative_humidity_pct(temperature_c, dewpoint_c)
+def dry_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray,
+             relative_humidity_pct_: np.ndarray | None = None) -> np.ndarray:
+    """``(n, L)`` True where a level is dry (RH over water below :data:`DRY_RH_WATER_PCT`);
+    ``relative_humidity_pct_`` as in :func:`cloud_mask`."""
+    rh_w = (relative_humidity_pct(temperature_c, dewpoint_c) if relative_humidity_pct_ is None
+            else relative_humidity_pct_)
     with np.errstate(invalid="ignore"):
         return np.isfinite(rh_w) & (rh_w < DRY_RH_WATER_PCT)
 

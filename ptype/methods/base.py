@@ -107,7 +107,8 @@ class Context:
 
     @functools.cached_property
     def cloud_mask(self) -> np.ndarray:
-        return cloud_mask(self.columns.temperature_c, self.columns.dewpoint_c)
+        c = self.columns
+        return cloud_mask(c.temperature_c, c.dewpoint_c, c.relative_humidity_pct)
 
     @functools.cached_property
     def cloud_layers(self) -> CloudLayers:
@@ -117,5 +118,9 @@ class Context:
     @functools.cached_property
     def dry_layers(self) -> CloudLayers:
         c = self.columns
-        return level_runs(dry_mask(c.temperature_c, c.dewpoint_c), c.pressure_hpa, c.height_m,
-                          c.temperature_c)
+        return level_runs(self.dry_mask, c.pressure_hpa, c.height_m, c.temperature_c)
+
+    @functools.cached_property
+    def dry_mask(self) -> np.ndarray:
+        c = self.columns
+        return dry_mask(c.temperature_c, c.dewpoint_c, c.relative_humidity_pct)

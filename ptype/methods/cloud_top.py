@@ -32,7 +32,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..codes import NO_RESULT, Code
-from ..layers import cumulative_dry_depth_m, dry_mask
+from ..layers import cumulative_dry_depth_m
 from .base import Context, MethodResult, Step, select_first
 
 NAME = "cloud_top"
@@ -75,8 +75,7 @@ def ice_analysis(ctx: Context) -> dict[str, np.ndarray]:
     n, R = cl.bottom_m.shape
     count = cl.count
     rows = np.arange(n)
-    cum_dry = cumulative_dry_depth_m(ctx.columns.height_m,
-                                     dry_mask(ctx.columns.temperature_c, ctx.columns.dewpoint_c))
+    cum_dry = cumulative_dry_depth_m(ctx.columns.height_m, ctx.dry_mask)
     ice = np.zeros(n, dtype=bool)
     seeded = np.zeros(n, dtype=bool)
     upper_base_dry = np.full(n, np.nan)
