@@ -68,20 +68,18 @@ def _fast_columns(levels: list) -> dict[str, np.ndarray] | None:
     :func:`_checked_columns` then finds and names the first problem."""
     if not all(_LEVEL_FIELD_SET.issuperset(lvl) for lvl in levels):
         return None
-    cols = {}
-    for name in LEVEL_FIELDS:
-        values = [lvl.get(name) for lvl in levels]
-        if not _PLAIN_NUMBER_TYPES.issuperset(map(type, values)):
-            return None
-        try:
-            a = np.array([np.nan if v is None else v for v in values], dtype=np.float64)
-        except (OverflowError, TypeError, ValueError):
-            return None
-        present = np.array([v is not None for v in values], dtype=bool)
-        if not np.isfinite(a[present]).all():
-            return None
-        cols[name] = a
-    return cols
+    flat = [v for lvl in levels for v in map(lvl.get, LEVEL_FIELDS)]
+    if not _PLAIN_NUMBER_TYPES.issuperset(map(type, flat)):
+        return None
+    try:
+        a = np.array([np.nan if v is None else v for v in flat], dtype=np.float64)
+    except (OverflowError, TypeError, ValueError):
+        return None
+    # Every NaN must be an absent value (None), and nothing may be infinite.
+    if np.isinf(a).any() or int(np.isnan(a).sum()) != flat.count(None):
+        return None
+    a = a.reshape(len(levels), len(LEVEL_FIELDS))
+    return {name: a[:, j].copy() for j, name in enumerate(LEVEL_FIELDS)}
 
 
 def _checked_columns(levels: list, prefix: str) -> dict[str, np.ndarray]:
