@@ -228,7 +228,9 @@ class Profile:
     def from_document(cls, document: Mapping[str, Any] | ProfileDocument) -> "Profile":
         """Build and validate a profile from a profile document (dict or model)."""
         doc = document if isinstance(document, ProfileDocument) else parse_document(document)
-        levels = [lvl.model_dump() for lvl in doc.levels]
+        # A Level's __dict__ is its model_dump() (plain float fields, extra fields forbidden),
+        # read here without a serializer call per level.
+        levels = [lvl.__dict__ for lvl in doc.levels]
         valid_time = doc.valid_time
         if valid_time is not None and valid_time.tzinfo is None:
             valid_time = valid_time.replace(tzinfo=timezone.utc)
