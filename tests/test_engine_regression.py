@@ -250,6 +250,23 @@ def test_ramer_sequence_compiled_matches_numpy(member_columns):
         np.testing.assert_array_equal(fast[key], value, err_msg=key)
 
 
+def test_ramer_generation_layer_compiled_matches_numpy(member_columns):
+    from ptype.methods import ramer
+    if not ramer._COMPILED:
+        pytest.skip("numba not installed")
+    c = member_columns
+    rng = np.random.default_rng(3)
+    shape = c.pressure_hpa.shape
+    for rh in (c.relative_humidity_pct,
+               np.clip(c.relative_humidity_pct + rng.normal(0.0, 15.0, shape), 1.0, 100.0),
+               np.where(rng.random(shape) < 0.5, 100.0, 50.0), np.full(shape, 80.0)):
+        fast = ramer._generation_layer_fast(c.pressure_hpa, rh, c.wetbulb_c)
+        slow = ramer._generation_layer_numpy(c.pressure_hpa, rh, c.wetbulb_c)
+        for a, b in zip(fast, slow):
+            np.testing.assert_array_equal(a, b)
+        assert np.isfinite(slow[0]).any()
+    assert len(ramer._generation_layer_fast(c.pressure_hpa, c.relative_humidity_pct)) == 2
+
 def test_ramer_carry_compiled_matches_numpy():
     from ptype.methods import ramer
     if not ramer._COMPILED:

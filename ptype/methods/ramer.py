@@ -126,6 +126,13 @@ def generation_layer(pressure_hpa, relative_humidity_pct, wetbulb_c=None):
     """
     p = np.asarray(pressure_hpa, dtype=np.float64)
     rh = np.asarray(relative_humidity_pct, dtype=np.float64)
+    if _COMPILED and p.ndim == 2 and p.shape[1] > 0:
+        return _generation_layer_fast(p, rh, wetbulb_c)
+    return _generation_layer_numpy(p, rh, wetbulb_c)
+
+
+def _generation_layer_numpy(p, rh, wetbulb_c=None):
+    """numpy path of :func:`generation_layer`."""
     n, L = p.shape
     valid = np.isfinite(p) & np.isfinite(rh)
     x = np.log(np.where(valid, p, 1.0))
@@ -169,6 +176,78 @@ def generation_layer(pressure_hpa, relative_humidity_pct, wetbulb_c=None):
     step = np.where(w != 0.0, w * (tw[r, ke1] - tw[r, ke]), 0.0)
     top_tw = np.where(found, tw[r, ke] + step, np.nan)
     return top, bottom, top_tw
+
+
+def _generation_layer_fast(p, rh, wetbulb_c=None):
+    """:func:`generation_layer` through the compiled :func:`_generation_loop`; ``ln`` and
+    ``exp`` stay in numpy, as on the numpy path."""
+    n, L = p.shape
+    valid = np.isfinite(p) & np.isfinite(rh)
+    x = np.ascontiguousarray(np.log(np.where(valid, p, 1.0)))
+    tw = (np.zeros((n, L)) if wetbulb_c is None
+          else np.ascontiguousarray(wetbulb_c, dtype=np.float64))
+    x_top, x_bot, top_tw = np.empty(n), np.empty(n), np.empty(n)
+    _generation_compiled(np.ascontiguousarray(p), np.ascontiguousarray(rh), x, tw,
+                         float(np.log(GENERATION_TOP_LIMIT_HPA)),
+                         float(np.log(GENERATION_DEPTH_RATIO)), x_top, x_bot, top_tw)
+    found = ~np.isnan(x_top)
+    top = np.where(found, np.exp(x_top), np.nan)
+    bottom = np.where(found, np.exp(x_bot), np.nan)
+    if wetbulb_c is None:
+        return top, bottom
+    return top, bottom, top_tw
+
+
+def _generation_loop(p, rh, x, tw, ln_top_limit, ln_depth_ratio, x_top_out, x_bot_out, tw_out):
+    """Per column, the runs of moist levels from the top down; the first (highest) qualifying
+    run gives ln p of its top and bottom edges and the wet-bulb at its top (NaN where none).
+    The same arithmetic as :func:`_generation_layer_numpy` (compiled with numba)."""
+    n, L = p.shape
+    for i in range(n):
+        x_top_out[i] = np.nan
+        x_bot_out[i] = np.nan
+        tw_out[i] = np.nan
+        j = L - 1
+        while j >= 0:
+            if not _moist(p[i, j], rh[i, j]):
+                j -= 1
+                continue
+            e = j
+            while j >= 0 and _moist(p[i, j], rh[i, j]):
+                j -= 1
+            s = j + 1
+            # Top edge: the 80 % crossing between level e and e + 1.
+            e1 = min(e + 1, L - 1)
+            has_above = e + 1 < L and np.isfinite(p[i, e1]) and np.isfinite(rh[i, e1])
+            f_top = (rh[i, e] - GENERATION_RH_PCT) / (rh[i, e] - rh[i, e1])
+            if has_above and np.isfinite(f_top):
+                f_top = min(max(f_top, 0.0), 1.0)
+            else:
+                f_top = 0.0
+            x_top = x[i, e] + f_top * (x[i, e1] - x[i, e])
+            if x_top < ln_top_limit:
+                x_top = ln_top_limit
+            # Bottom edge: the crossing between level s - 1 and s.
+            s0 = max(s - 1, 0)
+            f_bot = (GENERATION_RH_PCT - rh[i, s0]) / (rh[i, s] - rh[i, s0])
+            if s >= 1 and np.isfinite(f_bot):
+                f_bot = min(max(f_bot, 0.0), 1.0)
+            else:
+                f_bot = 1.0
+            x_bot = x[i, s0] + f_bot * (x[i, s] - x[i, s0])
+            if x_bot - x_top >= ln_depth_ratio - 1e-12:
+                x_top_out[i] = x_top
+                x_bot_out[i] = x_bot
+                dx = x[i, e1] - x[i, e]
+                w = (x_top - x[i, e]) / dx if (has_above and dx != 0.0) else 0.0
+                step = w * (tw[i, e1] - tw[i, e]) if w != 0.0 else 0.0
+                tw_out[i] = tw[i, e] + step
+                break
+
+
+def _moist(p, rh):
+    return (np.isfinite(p) and np.isfinite(rh) and p >= GENERATION_TOP_LIMIT_HPA
+            and rh >= GENERATION_RH_PCT)
 
 
 def _runs(mask):
@@ -486,9 +565,11 @@ try:  # numba is a declared dependency; the numpy path stays for installs withou
     # error_model="numpy": x / 0 gives inf or NaN as in numpy instead of raising.
     _pieces_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_pieces_loop)
     _stages_compiled = _njit(cache=True, nogil=True)(_stages_loop)
+    _moist = _njit(cache=True, nogil=True, inline="always")(_moist)
+    _generation_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_generation_loop)
     _COMPILED = True
 except ImportError:  # pragma: no cover
-    _carry_compiled = _pieces_compiled = _stages_compiled = None
+    _carry_compiled = _pieces_compiled = _stages_compiled = _generation_compiled = None
     _COMPILED = False
 
 
