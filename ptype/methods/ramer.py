@@ -225,8 +225,7 @@ def _generation_loop(p, rh, x, tw, ln_top_limit, ln_depth_ratio, x_top_out, x_bo
             else:
                 f_top = 0.0
             x_top = x[i, e] + f_top * (x[i, e1] - x[i, e])
-            if x_top < ln_top_limit:
-                x_top = ln_top_limit
+            x_top = max(x_top, ln_top_limit)  # finite here: no NaN to carry
             # Bottom edge: the crossing between level s - 1 and s.
             s0 = max(s - 1, 0)
             f_bot = (GENERATION_RH_PCT - rh[i, s0]) / (rh[i, s] - rh[i, s0])
