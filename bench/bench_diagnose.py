@@ -1,9 +1,13 @@
 """Benchmark: one full diagnosis (default members) of a 60-level profile.
 
-Reports the median time per ``ptype.diagnose(...).to_dict()`` and, as the
-in-process reference, the time of MetPy's ``wet_bulb_temperature`` on the same
-60 levels (a single MetPy call that any pure-Python approach would need at
-least once per member).  Target: <= 20 ms per diagnosis with default members.
+Reports the median (and the fastest) time per ``ptype.diagnose(doc, seed=0).to_dict()``
+and, as the in-process reference, the time of MetPy's ``wet_bulb_temperature`` on the same
+60 levels (a single MetPy call that any pure-Python approach would need at least once per
+member).  Target: <= 5 ms per diagnosis with default members, which leaves the HTTP service
+(~1.5 ms of framework per request) room for 300 req/s on 2 cores (docs/api.md).
+:data:`BEFORE_MS` is the median of this script before the engine's overhead was cut
+(recorded on a quiet machine); the load average is written next to the numbers, since
+other work on the machine inflates them.
 
     .venv/bin/python bench/bench_diagnose.py
 """
@@ -11,7 +15,9 @@ least once per member).  Target: <= 20 ms per diagnosis with default members.
 from __future__ import annotations
 
 import json
+import os
 import statistics
+import subprocess
 import time
 import warnings
 from pathlib import Path
@@ -20,6 +26,11 @@ import numpy as np
 
 import ptype
 from ptype.probability import DEFAULT_MEMBERS
+
+TARGET_MS = 5.0
+#: Median of this benchmark before the engine's call overhead was cut (same profile, quiet
+#: machine): 8.35 ms with members, 4.82 ms without.
+BEFORE_MS = {"diagnose_ms": 8.35, "diagnose_no_members_ms": 4.82}
 
 
 def sixty_level_document() -> dict:
@@ -33,20 +44,36 @@ def sixty_level_document() -> dict:
                         "dewpoint_c": float(d)} for a, b, c, d in zip(p, z, t, td)]}
 
 
-def timeit(fn, repeat):
+def timeit(fn, repeat, *, fastest=False):
     times = []
     for _ in range(repeat):
         t0 = time.perf_counter()
         fn()
         times.append(time.perf_counter() - t0)
-    return statistics.median(times)
+    return min(times) if fastest else statistics.median(times)
+
+
+def code_version() -> dict:
+    """Commit measured, and whether ptype/ had uncommitted changes (shared working tree)."""
+    root = Path(__file__).resolve().parents[1]
+    try:
+        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
+                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
+        dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
+                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
+    except (OSError, subprocess.SubprocessError):
+        return {"commit": None, "uncommitted_ptype_files": None}
+    return {"commit": head or None,
+            "uncommitted_ptype_files": sorted(line[3:] for line in dirty
+                                              if line.strip() and not line.startswith("??"))}
 
 
 def main() -> dict:
     doc = sixty_level_document()
     ptype.diagnose(doc, seed=0).to_dict()  # warm up imports and caches
-    t_diag = timeit(lambda: ptype.diagnose(doc, seed=0).to_dict(), 40)
-    t_nomc = timeit(lambda: ptype.diagnose(doc, members=0).to_dict(), 40)
+    t_diag = timeit(lambda: ptype.diagnose(doc, seed=0).to_dict(), 200)
+    t_fast = timeit(lambda: ptype.diagnose(doc, seed=0).to_dict(), 200, fastest=True)
+    t_nomc = timeit(lambda: ptype.diagnose(doc, members=0).to_dict(), 200)
     import metpy.calc as mpcalc
     from metpy.units import units
     prof = ptype.Profile.from_document(doc)
@@ -56,10 +83,13 @@ def main() -> dict:
                                                              prof.temperature_c * units.degC,
                                                              prof.dewpoint_c * units.degC), 3)
     result = {"levels": 60, "members": DEFAULT_MEMBERS,
-              "diagnose_ms": round(t_diag * 1e3, 2), "diagnose_no_members_ms": round(t_nomc * 1e3, 2),
+              "diagnose_ms": round(t_diag * 1e3, 2), "diagnose_fastest_ms": round(t_fast * 1e3, 2),
+              "diagnose_no_members_ms": round(t_nomc * 1e3, 2),
+              "before": BEFORE_MS,
               "metpy_wet_bulb_60_levels_ms": round(t_metpy * 1e3, 2),
               "ratio_metpy_wetbulb_over_full_diagnosis": round(t_metpy / t_diag, 1),
-              "target_ms": 20.0, "meets_target": t_diag <= 0.020}
+              "target_ms": TARGET_MS, "meets_target": t_diag * 1e3 <= TARGET_MS,
+              "load_average_1m": round(os.getloadavg()[0], 2), **code_version()}
     out = Path(__file__).parent / "results"
     out.mkdir(exist_ok=True)
     (out / "diagnose.json").write_text(json.dumps(result, indent=2) + "\n")
