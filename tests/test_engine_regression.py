@@ -373,6 +373,30 @@ def test_baldwin_area_compiled_matches_numpy(member_columns, part, monkeypatch):
                     slow = baldwin.area_k_m(z, values, lo, hi, part)
                 np.testing.assert_array_equal(fast, slow)
 
+def test_cloud_top_seeding_compiled_matches_numpy(member_columns):
+    from ptype.layers import cumulative_dry_depth_m
+    from ptype.methods import cloud_top
+    from ptype.methods.base import Context
+    if not cloud_top._COMPILED:
+        pytest.skip("numba not installed")
+    c = member_columns
+    ctx = Context(c)
+    cl = ctx.cloud_layers
+    cum_dry = cumulative_dry_depth_m(c.height_m, ctx.dry_mask)
+    rng = np.random.default_rng(0)
+    colder = cl.min_temperature_c - rng.uniform(0.0, 15.0, cl.min_temperature_c.shape)
+    for min_t in (cl.min_temperature_c, colder):
+        for dry in (cum_dry, 2.5 * cum_dry):
+            ice = np.empty(c.n_columns, dtype=bool)
+            seeded = np.empty(c.n_columns, dtype=bool)
+            cloud_top._seeding_compiled(cl.count, min_t, cl.top_index, cl.bottom_index, dry,
+                                        ice, seeded)
+            ice_np, seeded_np = cloud_top._seeding_numpy(cl.count, min_t, cl.top_index,
+                                                         cl.bottom_index, dry)
+            np.testing.assert_array_equal(ice, ice_np)
+            np.testing.assert_array_equal(seeded, seeded_np)
+            assert seeded_np.any() and ice_np.any() and not ice_np.all()
+
 if __name__ == "__main__":
     if "--write" in sys.argv:
         EXPECTED.parent.mkdir(exist_ok=True)

@@ -72,23 +72,19 @@ def ice_analysis(ctx: Context) -> dict[str, np.ndarray]:
     ``lowest_cloud_top_hpa``, ``lowest_cloud_min_c``.
     """
     cl = ctx.cloud_layers
-    n, R = cl.bottom_m.shape
+    n = cl.bottom_m.shape[0]
     count = cl.count
     rows = np.arange(n)
     cum_dry = cumulative_dry_depth_m(ctx.columns.height_m, ctx.dry_mask)
-    ice = np.zeros(n, dtype=bool)
-    seeded = np.zeros(n, dtype=bool)
-    upper_base_dry = np.full(n, np.nan)
-    for r in range(R - 1, -1, -1):
-        present = r < count
-        own = cl.min_temperature_c[:, r] <= ICE_NUCLEATION_C
-        top_dry = cum_dry[rows, np.maximum(cl.top_index[:, r], 0)]
-        gap_dry = upper_base_dry - top_dry
-        from_above = ice & np.isfinite(gap_dry) & (gap_dry <= SEEDING_GAP_M)
-        seeded = np.where(present, from_above & ~own, seeded)
-        ice = np.where(present, own | from_above, ice)
-        upper_base_dry = np.where(present, cum_dry[rows, np.maximum(cl.bottom_index[:, r], 0)],
-                                  upper_base_dry)
+    if _COMPILED:
+        ice = np.empty(n, dtype=np.bool_)
+        seeded = np.empty(n, dtype=np.bool_)
+        _seeding_compiled(np.ascontiguousarray(count), np.ascontiguousarray(cl.min_temperature_c),
+                          np.ascontiguousarray(cl.top_index), np.ascontiguousarray(cl.bottom_index),
+                          np.ascontiguousarray(cum_dry), ice, seeded)
+    else:
+        ice, seeded = _seeding_numpy(count, cl.min_temperature_c, cl.top_index,
+                                     cl.bottom_index, cum_dry)
     top = np.maximum(count - 1, 0)
     has = count > 0
     return {
@@ -102,6 +98,56 @@ def ice_analysis(ctx: Context) -> dict[str, np.ndarray]:
         "lowest_cloud_base_hpa": np.where(has, cl.bottom_hpa[:, 0], np.nan),
         "lowest_cloud_min_c": np.where(has, cl.min_temperature_c[:, 0], np.nan),
     }
+
+
+def _seeding_numpy(count, min_temperature_c, top_index, bottom_index, cum_dry):
+    """From the highest cloud layer down: does each layer hold ice, its own (coldest
+    temperature at or below :data:`ICE_NUCLEATION_C`) or seeded from the layer above across
+    at most :data:`SEEDING_GAP_M` of dry air?  Returns ``(ice, seeded)`` of the lowest layer."""
+    n, R = min_temperature_c.shape
+    rows = np.arange(n)
+    ice = np.zeros(n, dtype=bool)
+    seeded = np.zeros(n, dtype=bool)
+    upper_base_dry = np.full(n, np.nan)
+    for r in range(R - 1, -1, -1):
+        present = r < count
+        own = min_temperature_c[:, r] <= ICE_NUCLEATION_C
+        top_dry = cum_dry[rows, np.maximum(top_index[:, r], 0)]
+        gap_dry = upper_base_dry - top_dry
+        from_above = ice & np.isfinite(gap_dry) & (gap_dry <= SEEDING_GAP_M)
+        seeded = np.where(present, from_above & ~own, seeded)
+        ice = np.where(present, own | from_above, ice)
+        upper_base_dry = np.where(present, cum_dry[rows, np.maximum(bottom_index[:, r], 0)],
+                                  upper_base_dry)
+    return ice, seeded
+
+
+def _seeding_loop(count, min_temperature_c, top_index, bottom_index, cum_dry, ice, seeded):
+    """:func:`_seeding_numpy` one column at a time (compiled with numba); fills ``ice`` and
+    ``seeded``."""
+    n, R = min_temperature_c.shape
+    for i in range(n):
+        has_ice = False
+        was_seeded = False
+        upper_base_dry = np.nan
+        for r in range(min(count[i], R) - 1, -1, -1):
+            own = min_temperature_c[i, r] <= ICE_NUCLEATION_C
+            gap_dry = upper_base_dry - cum_dry[i, max(top_index[i, r], 0)]
+            from_above = has_ice and np.isfinite(gap_dry) and gap_dry <= SEEDING_GAP_M
+            was_seeded = from_above and not own
+            has_ice = own or from_above
+            upper_base_dry = cum_dry[i, max(bottom_index[i, r], 0)]
+        ice[i] = has_ice
+        seeded[i] = was_seeded
+
+
+try:  # numba is a declared dependency; the numpy path stays for installs without it
+    from numba import njit as _njit
+    _seeding_compiled = _njit(cache=True, nogil=True)(_seeding_loop)
+    _COMPILED = True
+except ImportError:  # pragma: no cover
+    _seeding_compiled = None
+    _COMPILED = False
 
 
 def run(ctx: Context) -> MethodResult:
