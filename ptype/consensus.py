@@ -51,7 +51,9 @@ def consensus(ctx: Context, results: dict[str, MethodResult]) -> MethodResult:
     for name in voters:
         code = results[name].code
         ok = code >= 0
-        np.add.at(counts, (rows[ok], code[ok]), 1)
+        # One vote per row from each voter: the index pairs are distinct, so a plain
+        # fancy-index increment counts them (np.add.at is only needed for repeats).
+        counts[rows[ok], code[ok]] += 1
     total = counts.sum(axis=1)
     # Most votes first, then most hazardous (lowest rank).
     score = np.where(counts > 0, counts * 100.0 - _RANK[None, :], -np.inf)
