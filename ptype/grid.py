@@ -46,12 +46,15 @@ import numpy as np
 from .codes import GRIB2_4201_MEANINGS, LABELS, NO_RESULT, Code, to_grib2
 from .errors import OptionError, ReaderError
 
-#: Columns per chunk when none are given (bounded memory: the engine keeps a few dozen
-#: (n, L) float64 temporaries alive, ~25 MB each at 40 levels; see docs/performance.md).
-DEFAULT_CHUNK_COLUMNS = 32768
-#: Member columns diagnosed at once (columns x members), for bounded memory: the engine
-#: holds about 20 kB per 40-level column while it works (measured, docs/performance.md).
-MEMBER_BATCH_COLUMNS = 32768
+#: Columns per chunk when none are given.  Small enough that the engine's (n, L) float64
+#: temporaries (1.3 MB each at 40 levels) are recycled by the allocator instead of being
+#: mapped and unmapped from the kernel for every array: with 32,768-column chunks the system
+#: time of a run exceeded its user time and two threads ran slower than one (measured,
+#: docs/performance.md); 4,096 keeps the per-chunk Python overhead negligible.
+DEFAULT_CHUNK_COLUMNS = 4096
+#: Member columns diagnosed at once (columns x members), for the same reason and for
+#: bounded memory (the engine holds about 20 kB per 40-level column while it works).
+MEMBER_BATCH_COLUMNS = 4096
 #: A column needs at least this many levels above ground to be diagnosed (as a profile does).
 MIN_LEVELS = 3
 #: Tolerance for "2 m" in the height coordinate of screen-level fields, m.

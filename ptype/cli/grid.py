@@ -31,7 +31,7 @@ def register(sub) -> None:
                    help="seed for the members (reproducible for the same seed and chunks)")
     p.add_argument("--chunks", default=None, metavar="DIM=SIZE,...",
                    help="chunk sizes by dimension name, e.g. y=256,x=256 (default: about "
-                        "32768 columns per chunk, one time step)")
+                        "4096 columns per chunk, one time step)")
     p.add_argument("--scheduler", default=None, metavar="ADDRESS",
                    help="run on a dask.distributed scheduler at ADDRESS (e.g. tcp://host:8786)")
     p.add_argument("--methods", default=None, metavar="NAME,...",
