@@ -66,15 +66,41 @@ def warm_cold_energies(ctx: Context) -> tuple[np.ndarray, np.ndarray]:
     return np.where(warm, area, 0.0).sum(axis=1), cold
 
 
-def diagnose_columns(columns: Columns, methods=None, *, return_context: bool = False) -> dict[str, Any]:
+def consensus_methods(methods=None) -> tuple[str, ...]:
+    """The methods the consensus of ``methods`` (default all) actually reads: its voters
+    (:data:`ptype.consensus.VOTERS`).  ``thickness`` and ``jennings`` never vote; the surface
+    humidity check and the no-vote fallback compute Jennings et al. (2018) inside the
+    consensus itself.  When none of ``methods`` votes the consensus is that fallback, and the
+    methods are returned unchanged (the list of methods may not be empty)."""
+    from .consensus import VOTERS
+    names = _method_names(methods)
+    voting = tuple(m for m in names if m in VOTERS)
+    return voting or names
+
+
+def diagnose_columns(columns: Columns, methods=None, *, return_context: bool = False,
+                     consensus_only: bool = False) -> dict[str, Any]:
     """Vectorised diagnosis of many columns.
 
     Returns a dict of ``(n,)`` arrays: ``ptype`` (consensus :class:`Code` values), one code array
     per method name (:data:`ptype.codes.NO_RESULT` where it abstains), ``warm_area_j_kg``,
     ``cold_area_j_kg``, ``wetbulb_zero_height_m``, ``freezing_level_m``.  With
     ``return_context=True`` also ``_context``, ``_results`` and ``_consensus``.
+
+    ``consensus_only=True`` runs only the methods the consensus reads
+    (:func:`consensus_methods` of ``methods``) and returns ``ptype`` alone (with the
+    ``_context``/``_results``/``_consensus`` entries when asked): the consensus codes are
+    the same as a full run's (``tests/test_engine_regression.py`` checks it), at a lower
+    cost.  The Monte-Carlo members (:func:`ptype.probability.member_probabilities`) use it.
     """
     ctx = Context(columns)
+    if consensus_only:
+        results = run_methods(ctx, consensus_methods(methods))
+        cons = consensus(ctx, results)
+        out: dict[str, Any] = {"ptype": cons.code}
+        if return_context:
+            out.update(_context=ctx, _results=results, _consensus=cons)
+        return out
     results = run_methods(ctx, methods)
     cons = consensus(ctx, results)
     warm, cold = warm_cold_energies(ctx)

@@ -126,8 +126,10 @@ def member_probabilities(columns: Columns, members: int = DEFAULT_MEMBERS, seed=
                          methods=None) -> np.ndarray:
     """Probability of every code per column, ``(n, len(Code))``, rows summing to 1.
 
-    All ``n * members`` perturbed columns are diagnosed in one vectorised pass.
-    With ``members == 0`` the result is all NaN.
+    All ``n * members`` perturbed columns are diagnosed in one vectorised pass, running only
+    the methods the consensus reads (``diagnose_columns(..., consensus_only=True)``: the
+    voters of ``methods``; the same codes as a full run).  With ``members == 0`` the result
+    is all NaN.
     """
     check_members(members)
     n = columns.n_columns
@@ -135,7 +137,8 @@ def member_probabilities(columns: Columns, members: int = DEFAULT_MEMBERS, seed=
         return np.full((n, len(Code)), np.nan)
     from .diagnosis import diagnose_columns
     pert = perturb(columns, members, seed)
-    return probabilities_from_codes(diagnose_columns(pert, methods=methods)["ptype"], n, members)
+    codes = diagnose_columns(pert, methods=methods, consensus_only=True)["ptype"]
+    return probabilities_from_codes(codes, n, members)
 
 
 def probabilities_from_codes(member_codes: np.ndarray, n: int, members: int) -> np.ndarray:

@@ -216,3 +216,32 @@ def test_boiling_level_refused_with_field():
         ptype.diagnose(document([1000, 500, 150], [10.0, -20.0, 60.0], [5.0, -25.0, -10.0]))
     assert err.value.field == "levels[2].temperature_c"
     assert "too warm for this pressure" in str(err.value)
+
+
+@pytest.mark.parametrize("methods", [None, "ramer,baldwin,thickness", "jennings,thickness",
+                                     "bourgouin,czys,jennings"])
+def test_diagnose_columns_consensus_only_same_codes(methods):
+    # Consistency check against the full pipeline: the consensus reads only its voters
+    # (ptype.consensus.VOTERS) and computes Jennings et al. (2018) itself, so skipping the
+    # non-voting methods must leave every code unchanged, controls and perturbed members alike
+    # (the regression corpus of tests/test_engine_regression.py).
+    import gzip
+    import json
+
+    from test_engine_regression import EXPECTED, _load, corpus_paths
+
+    from ptype.probability import perturb
+    from ptype.profile import Profile
+
+    cols = Columns.from_profiles([Profile.from_document(_load(p)) for p in corpus_paths()])
+    batch = Columns.concat([cols, perturb(cols, 20, seed=7)])
+    full = diagnose_columns(batch, methods=methods)
+    fast = diagnose_columns(batch, methods=methods, consensus_only=True)
+    assert set(fast) == {"ptype"}
+    np.testing.assert_array_equal(fast["ptype"], full["ptype"])
+    if methods is None:  # and the stored corpus agrees (its last row block is one extra profile)
+        with gzip.open(EXPECTED, "rt") as fh:
+            stored = json.load(fh)["columns"]["ptype"]
+        n = cols.n_columns
+        assert fast["ptype"][:n].tolist() == stored[:n]
+        assert len(np.unique(full["ptype"])) >= 4  # the corpus exercises several types
