@@ -10,6 +10,7 @@ are ``(n_columns,)`` arrays, NaN where unknown.
 from __future__ import annotations
 
 import dataclasses
+import math
 from typing import Sequence
 
 import numpy as np
@@ -80,17 +81,10 @@ class Columns:
         z = (np.full(p.shape, np.nan) if height_m is None
              else np.broadcast_to(np.atleast_2d(np.asarray(height_m, dtype=np.float64)), p.shape))
         n = p.shape[0]
-        ok = np.isfinite(p) & np.isfinite(t) & np.isfinite(td) & (p > 0)
-        if sort:
-            key = np.where(ok, -p, np.inf)
-            order = np.argsort(key, axis=1, kind="stable")
-            p, t, td, z, ok = (np.take_along_axis(a, order, axis=1) for a in (p, t, td, z, ok))
+        if sort and _COMPILED:
+            p, t, td, z, ok = _order_levels(p, t, td, z)
         else:
-            p, t, td, z = p.copy(), t.copy(), td.copy(), z.copy()
-        p = np.where(ok, p, np.nan)
-        t = np.where(ok, t, np.nan)
-        td = np.where(ok, np.minimum(td, t), np.nan)
-        z = np.where(ok, z, np.nan)
+            p, t, td, z, ok = _order_levels_numpy(p, t, td, z, sort)
         base = _per_column(surface_height_m, n, 0.0)
         base = np.where(np.isfinite(base), base, 0.0)
         missing_z = ok & ~np.isfinite(z)
@@ -187,6 +181,86 @@ class Columns:
     def take(self, index) -> "Columns":
         """Subset of columns (rows) by integer index or boolean mask."""
         return Columns(**{f.name: getattr(self, f.name)[index] for f in dataclasses.fields(self)})
+
+
+def _order_levels_numpy(p, t, td, z, sort: bool):
+    """Valid levels (finite p, T, Td; p > 0) first, by decreasing pressure (a stable sort, so
+    equal pressures keep their order), NaN after; Td capped at T.  Returns p, t, td, z, ok."""
+    ok = np.isfinite(p) & np.isfinite(t) & np.isfinite(td) & (p > 0)
+    if sort:
+        key = np.where(ok, -p, np.inf)
+        order = np.argsort(key, axis=1, kind="stable")
+        p, t, td, z, ok = (np.take_along_axis(a, order, axis=1) for a in (p, t, td, z, ok))
+    else:
+        p, t, td, z = p.copy(), t.copy(), td.copy(), z.copy()
+    p = np.where(ok, p, np.nan)
+    t = np.where(ok, t, np.nan)
+    td = np.where(ok, np.minimum(td, t), np.nan)
+    z = np.where(ok, z, np.nan)
+    return p, t, td, z, ok
+
+
+def _order_loop(p, t, td, z, out_p, out_t, out_td, out_z, count):
+    """:func:`_order_levels_numpy` with ``sort=True`` in one pass per row (compiled with numba).
+
+    Model and sounding levels nearly always come ordered already (surface -> top, or the
+    reverse), so each row is first compacted in its own order and only sorted -- a stable
+    insertion sort on decreasing pressure, the same order as the stable argsort -- when its
+    valid pressures are not already non-increasing.
+    """
+    n, L = p.shape
+    idx = np.empty(L, dtype=np.int64)
+    for i in range(n):
+        k = 0
+        ordered = True
+        for j in range(L):
+            pj = p[i, j]
+            if (math.isfinite(pj) and math.isfinite(t[i, j]) and math.isfinite(td[i, j])
+                    and pj > 0.0):
+                if k > 0 and pj > p[i, idx[k - 1]]:
+                    ordered = False
+                idx[k] = j
+                k += 1
+        if not ordered:
+            for a in range(1, k):
+                cur = idx[a]
+                pc = p[i, cur]
+                b = a - 1
+                while b >= 0 and p[i, idx[b]] < pc:
+                    idx[b + 1] = idx[b]
+                    b -= 1
+                idx[b + 1] = cur
+        for m in range(k):
+            j = idx[m]
+            tj = t[i, j]
+            dj = td[i, j]
+            out_p[i, m] = p[i, j]
+            out_t[i, m] = tj
+            out_td[i, m] = dj if dj <= tj else tj
+            out_z[i, m] = z[i, j]
+        for m in range(k, L):
+            out_p[i, m] = np.nan
+            out_t[i, m] = np.nan
+            out_td[i, m] = np.nan
+            out_z[i, m] = np.nan
+        count[i] = k
+
+
+def _order_levels(p, t, td, z):
+    n, L = p.shape
+    out = [np.empty((n, L)) for _ in range(4)]
+    count = np.empty(n, dtype=np.int64)
+    _order_compiled(p, t, td, z, *out, count)
+    return (*out, np.arange(L)[None, :] < count[:, None])
+
+
+try:  # numba is a declared dependency; the numpy path stays for installs without it
+    from numba import njit as _njit
+    _order_compiled = _njit(cache=True, nogil=True)(_order_loop)
+    _COMPILED = True
+except ImportError:  # pragma: no cover
+    _order_compiled = None
+    _COMPILED = False
 
 
 def _per_column(value, n: int, default: float = np.nan) -> np.ndarray:
