@@ -248,6 +248,8 @@ def _order_loop(p, t, td, z, out_p, out_t, out_td, out_z, count):
 
 def _order_levels(p, t, td, z):
     n, L = p.shape
+    # Broadcast views (read-only, zero strides) are materialised for the compiled loop.
+    p, t, td, z = (np.ascontiguousarray(a) for a in (p, t, td, z))
     out = [np.empty((n, L)) for _ in range(4)]
     count = np.empty(n, dtype=np.int64)
     _order_compiled(p, t, td, z, *out, count)

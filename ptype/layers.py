@@ -314,7 +314,7 @@ def zero_height_m(layers: LayerSet) -> np.ndarray:
     return height
 
 
-def _runs(mask: np.ndarray):
+def level_index_runs(mask: np.ndarray):
     """Contiguous True runs per row: returns (start, end, count) with (n, R) int arrays of
     inclusive level indices, padded with -1."""
     n, L = mask.shape
@@ -388,7 +388,7 @@ def dry_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray,
 def level_runs(mask: np.ndarray, pressure_hpa: np.ndarray, height_m: np.ndarray,
                temperature_c: np.ndarray) -> CloudLayers:
     """Describe the True runs of ``mask`` (cloud or dry layers) by their bounds and temperatures."""
-    start, end, count = _runs(mask)
+    start, end, count = level_index_runs(mask)
     n, R = start.shape
     rows = np.arange(n)[:, None]
     s = np.maximum(start, 0)

@@ -50,6 +50,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..codes import NO_RESULT, Code
+from ..layers import level_index_runs
 from .base import Context, MethodResult, Step, select_first
 
 NAME = "ramer"
@@ -137,7 +138,7 @@ def _generation_layer_numpy(p, rh, wetbulb_c=None):
     valid = np.isfinite(p) & np.isfinite(rh)
     x = np.log(np.where(valid, p, 1.0))
     moist = valid & (p >= GENERATION_TOP_LIMIT_HPA) & (rh >= GENERATION_RH_PCT)
-    start, end = _runs(moist)
+    start, end, _ = level_index_runs(moist)
     R = start.shape[1]
     rows = np.arange(n)[:, None]
     present = start >= 0
@@ -247,26 +248,6 @@ def _generation_loop(p, rh, x, tw, ln_top_limit, ln_depth_ratio, x_top_out, x_bo
 def _moist(p, rh):
     return (np.isfinite(p) and np.isfinite(rh) and p >= GENERATION_TOP_LIMIT_HPA
             and rh >= GENERATION_RH_PCT)
-
-
-def _runs(mask):
-    """Contiguous True runs of each row, ``(start, end)`` inclusive level indices, ``(n, R)``
-    padded with -1, listed from the lowest level up."""
-    n, L = mask.shape
-    padded = np.zeros((n, L + 2), dtype=np.int8)
-    padded[:, 1:-1] = mask
-    d = np.diff(padded, axis=1)
-    si, sj = np.nonzero(d == 1)
-    ei, ej = np.nonzero(d == -1)
-    count = np.bincount(si, minlength=n)
-    R = int(max(count.max(initial=0), 1))
-    start = np.full((n, R), -1)
-    end = np.full((n, R), -1)
-    offsets = np.concatenate([[0], np.cumsum(count)[:-1]])
-    rank = np.arange(si.size) - offsets[si]
-    start[si, rank] = sj
-    end[ei, rank] = ej - 1
-    return start, end
 
 
 def _pieces(p, tw, rh_frac, top_hpa):
