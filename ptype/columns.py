@@ -128,8 +128,7 @@ class Columns:
     def _complete(cls, p, z, t, td, count, sfc_t, sfc_td, road, rate, wind) -> "Columns":
         n = p.shape[0]
         rh = thermo.relative_humidity_pct(t, td)
-        tw = thermo.wet_bulb_temperature(p, t, td, kind="isobaric")
-        twa = thermo.wet_bulb_temperature(p, t, td, kind="adiabatic")
+        tw, twa = thermo.wet_bulb_temperatures(p, t, td)
         sfc_t = _per_column(sfc_t, n)
         sfc_td = _per_column(sfc_td, n)
         st = np.where(np.isfinite(sfc_t), sfc_t, t[:, 0])

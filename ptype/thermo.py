@@ -348,15 +348,16 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     p, t, td = np.broadcast_arrays(_as_float(pressure_hpa), _as_float(temperature_c),
                                    _as_float(dewpoint_c))
     valid = np.isfinite(p) & np.isfinite(t) & np.isfinite(td) & (p > 0)
+    n_valid = np.count_nonzero(valid)
+    if kind in WET_BULB_KINDS and n_valid >= _FAST_MIN_SIZE and _fast_available():
+        # Large arrays: the compiled per-point solver (same equations; ptype.fastthermo),
+        # which itself gives NaN where an input is missing, so no gather and scatter.
+        from . import fastthermo
+        return fastthermo.wet_bulb_c(p, t, td, kind=kind)
     out = np.full(p.shape, np.nan)
-    if not valid.any():
+    if not n_valid:
         return out if out.ndim else out[()]
     pv, tv, tdv = p[valid], t[valid], td[valid]
-    if kind in WET_BULB_KINDS and pv.size >= _FAST_MIN_SIZE and _fast_available():
-        # Large arrays: the compiled per-point solver (same equations; ptype.fastthermo).
-        from . import fastthermo
-        out[valid] = fastthermo.wet_bulb_c(pv, tv, tdv, kind=kind)
-        return out if out.ndim else out[()]
     if kind == "isobaric":
         out[valid] = _isobaric_wet_bulb_c(pv, tv, tdv)
     elif kind == "adiabatic":
@@ -364,6 +365,20 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     else:
         raise ValueError(f"kind must be one of {WET_BULB_KINDS}, got {kind!r}")
     return out if out.ndim else out[()]
+
+
+def wet_bulb_temperatures(pressure_hpa, temperature_c, dewpoint_c) -> tuple[np.ndarray, np.ndarray]:
+    """Isobaric and pseudo-adiabatic wet-bulb together, degC: the same values as
+    ``wet_bulb_temperature(..., kind="isobaric")`` and ``kind="adiabatic"``, in one compiled
+    pass on large arrays (:func:`ptype.fastthermo.wet_bulbs_c`)."""
+    p, t, td = np.broadcast_arrays(_as_float(pressure_hpa), _as_float(temperature_c),
+                                   _as_float(dewpoint_c))
+    valid = np.isfinite(p) & np.isfinite(t) & np.isfinite(td) & (p > 0)
+    if np.count_nonzero(valid) >= _FAST_MIN_SIZE and _fast_available():
+        from . import fastthermo
+        return fastthermo.wet_bulbs_c(p, t, td)
+    return (wet_bulb_temperature(p, t, td, kind="isobaric"),
+            wet_bulb_temperature(p, t, td, kind="adiabatic"))
 
 
 # --- Psychrometer readings ------------------------------------------------------------------

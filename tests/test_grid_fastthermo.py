@@ -124,3 +124,23 @@ def test_wet_bulb_temperature_dispatches_large_arrays_to_compiled_path():
     np.testing.assert_array_equal(out[ok], fastthermo.wet_bulb_c(p[ok], t[ok], td[ok]))
     assert np.isnan(out[~ok]).all()
     assert np.max(np.abs(out[ok] - thermo._isobaric_wet_bulb_c(p[ok], t[ok], td[ok]))) < 1e-6
+
+
+def test_wet_bulbs_c_equals_each_kind_and_both_paths():
+    # Consistency: the fused pass (shared es(Td), isobaric value as the adiabatic start) gives
+    # bit for bit what the one-kind kernels give, through thermo.wet_bulb_temperatures too, and
+    # NaN where an input is missing or p <= 0; the numpy solvers agree as in the tests above.
+    p, t, td = _sample(30_000, seed=8, t_range=(-50.0, 40.0), p_range=(300.0, 1080.0))
+    td[::11] = np.nan
+    p[::13] = -1.0
+    iso, adi = fastthermo.wet_bulbs_c(p, t, td, parallel=False)
+    np.testing.assert_array_equal(iso, fastthermo.wet_bulb_c(p, t, td, "isobaric", parallel=True))
+    np.testing.assert_array_equal(adi, fastthermo.wet_bulb_c(p, t, td, "adiabatic", parallel=True))
+    for a, b in zip(thermo.wet_bulb_temperatures(p, t, td), (iso, adi)):
+        np.testing.assert_array_equal(a, b)
+    ok = np.isfinite(td) & (p > 0)
+    assert np.isnan(iso[~ok]).all() and np.isnan(adi[~ok]).all()
+    assert np.max(np.abs(adi[ok] - thermo._adiabatic_wet_bulb_c(p[ok], t[ok], td[ok]))) < 1e-5
+    small = thermo.wet_bulb_temperatures(p[:20], t[:20], td[:20])  # numpy path below the threshold
+    np.testing.assert_array_equal(small[1], thermo.wet_bulb_temperature(p[:20], t[:20], td[:20],
+                                                                         kind="adiabatic"))
