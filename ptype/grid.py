@@ -380,11 +380,18 @@ class KernelLayout:
 
     methods: tuple[str, ...]
     members: int
+    #: Pack one type per method too (``per_method``); without them only the methods the
+    #: consensus reads are run (:func:`ptype.diagnosis.consensus_methods`, same consensus).
+    per_method: bool = True
+
+    @property
+    def method_fields(self) -> tuple[str, ...]:
+        return self.methods if self.per_method else ()
 
     @property
     def names(self) -> tuple[str, ...]:
         probs = tuple(f"p_{c.name}" for c in Code) if self.members else ()
-        return (("ptype",) + tuple(f"m_{m}" for m in self.methods)
+        return (("ptype",) + tuple(f"m_{m}" for m in self.method_fields)
                 + ("warm_area_j_kg", "cold_area_j_kg", "wetbulb_zero_height_m",
                    "freezing_level_m") + probs)
 
@@ -440,7 +447,7 @@ def build_columns(pressure_hpa, temperature_c, dewpoint_c, height_m=None, surfac
 
 def diagnose_block(columns, layout: KernelLayout, seed=None) -> np.ndarray:
     """Run the engine on columns; returns ``(n, len(layout.names))`` float32 (NaN = missing)."""
-    from .diagnosis import diagnose_columns
+    from .diagnosis import consensus_methods, diagnose_columns
     from .probability import member_probabilities
     n = columns.n_columns
     out = np.full((n, len(layout.names)), np.nan, dtype=np.float32)
@@ -448,13 +455,15 @@ def diagnose_block(columns, layout: KernelLayout, seed=None) -> np.ndarray:
     if not ok.any():
         return out
     sub = columns if ok.all() else columns.take(ok)
-    res = diagnose_columns(sub, methods=layout.methods)
-    cols = [res["ptype"]] + [res[m] for m in layout.methods] + [
+    # The energies and heights come from the layer analysis, whichever methods run.
+    run = layout.methods if layout.per_method else consensus_methods(layout.methods)
+    res = diagnose_columns(sub, methods=run)
+    cols = [res["ptype"]] + [res[m] for m in layout.method_fields] + [
         res["warm_area_j_kg"], res["cold_area_j_kg"], res["wetbulb_zero_height_m"],
         res["freezing_level_m"]]
     block = np.column_stack([np.asarray(c, dtype=np.float64) for c in cols])
     # Method abstentions are missing values, not a code.
-    k = len(layout.methods)
+    k = len(layout.method_fields)
     block[:, 1:1 + k] = np.where(block[:, 1:1 + k] == NO_RESULT, np.nan, block[:, 1:1 + k])
     if layout.members:
         # Members multiply the columns: diagnose them in batches so memory stays bounded.
@@ -563,7 +572,7 @@ def diagnose_dataset(ds, members: int = 0, seed=None, methods=None, per_method: 
         raise OptionError(f"seed = {seed!r}: expected a non-negative whole number", field="seed")
     names_m = _method_names(methods)
     fields = fields or find_fields(ds)
-    layout = KernelLayout(methods=names_m, members=members)
+    layout = KernelLayout(methods=names_m, members=members, per_method=bool(per_method))
     lev = fields.level_dim
     hdims = fields.horizontal_dims
     col_dims = ((fields.time_dim,) if fields.time_dim else ()) + hdims

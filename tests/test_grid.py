@@ -230,6 +230,16 @@ def test_diagnose_dataset_is_lazy_and_independent_of_chunking(small_file, small_
         np.testing.assert_array_equal(computed[name].values, small_result[name].values)
 
 
+def test_diagnose_dataset_without_per_method_same_consensus(small_file, small_result):
+    # Consistency: without per-method outputs only the voting methods run (ptype.consensus
+    # VOTERS); the consensus, energies and heights must equal those of the full run.
+    out = grid.diagnose_dataset(grid.open_grid(small_file)).compute()
+    assert not any(n.startswith("precipitation_type_") for n in out.data_vars)
+    for name in out.data_vars:
+        np.testing.assert_array_equal(out[name].values, small_result[name].values)
+    assert out.attrs["ptype_methods"] == small_result.attrs["ptype_methods"]
+
+
 def test_diagnose_dataset_members_probabilities(small_file):
     ds = grid.open_grid(small_file)
     a = grid.diagnose_dataset(ds, members=8, seed=3).compute()
