@@ -72,8 +72,31 @@ def make_bench_grid(path: Path, nx: int, ny: int, levels: int = 40, repeat: int 
     return path
 
 
+def _cpu_ticks() -> list[int] | None:
+    """Machine-wide CPU ticks (user, nice, system, idle, iowait, irq, softirq, steal) from
+    /proc/stat, or None where there is no such file."""
+    try:
+        with open("/proc/stat") as fh:
+            return [int(x) for x in fh.readline().split()[1:9]]
+    except (OSError, ValueError):
+        return None
+
+
+def _machine_share(before, after) -> dict:
+    """Share of the machine's CPU time that was idle, and stolen by the hypervisor (a
+    virtual machine's cores lent to other guests), between two :func:`_cpu_ticks`."""
+    if before is None or after is None:
+        return {}
+    d = [b - a for a, b in zip(before, after)]
+    total = sum(d) or 1
+    return {"machine_idle_share": round(d[3] / total, 3),
+            "machine_steal_share": round(d[7] / total, 3)}
+
+
 def run_command(args: list[str]) -> dict:
-    """Run ``python -m ptype grid ARGS``; wall seconds and the child's peak RSS (GB)."""
+    """Run ``python -m ptype grid ARGS``; wall seconds, the child's CPU time and peak RSS
+    (GB), and how much of the machine was idle or stolen meanwhile."""
+    ticks = _cpu_ticks()
     t0 = time.perf_counter()
     proc = subprocess.Popen([sys.executable, "-m", "ptype", "grid", *args],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, cwd=ROOT)
@@ -85,7 +108,9 @@ def run_command(args: list[str]) -> dict:
     if proc.returncode != 0:
         raise RuntimeError(f"ptype grid failed ({proc.returncode}): {err.strip()}")
     return {"wall_s": wall, "peak_rss_gb": usage.ru_maxrss * 1024 / 1e9,
-            "cpu_s": usage.ru_utime + usage.ru_stime, "output": out.strip().splitlines()}
+            "cpu_s": usage.ru_utime + usage.ru_stime, "user_s": usage.ru_utime,
+            "system_s": usage.ru_stime, **_machine_share(ticks, _cpu_ticks()),
+            "output": out.strip().splitlines()}
 
 
 def reference_single_profile(path: Path, n: int = 200) -> dict:
@@ -230,9 +255,11 @@ def main(argv=None) -> dict:
     name = "grid_quick.json" if args.quick else "grid.json"
     (RESULTS / name).write_text(json.dumps(out, indent=2) + "\n")
     print(f"deterministic {n_big:,} columns x 40 levels: {det['wall_s']:.1f} s wall, "
-          f"{det['cpu_s']:.1f} s CPU, peak RSS {det['peak_rss_gb']:.2f} GB")
+          f"{det['cpu_s']:.1f} s CPU, peak RSS {det['peak_rss_gb']:.2f} GB, "
+          f"machine steal {det.get('machine_steal_share', float('nan')):.0%}")
     print(f"20 members on {n_mid:,} columns: {mem['wall_s']:.1f} s wall, {mem['cpu_s']:.1f} s CPU, "
-          f"peak RSS {mem['peak_rss_gb']:.2f} GB")
+          f"peak RSS {mem['peak_rss_gb']:.2f} GB, "
+          f"machine steal {mem.get('machine_steal_share', float('nan')):.0%}")
     print(f"single-profile path {ref['single_profile_columns_per_s']:.0f} columns/s; grid "
           f"{n_big / det['wall_s']:,.0f} columns/s -> {out['grid_vs_single_profile_ratio']:.0f} x")
     print(f"kernel profile: {prof['columns_per_s_one_thread']:,.0f} columns/s in one thread; "
