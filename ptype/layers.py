@@ -194,7 +194,12 @@ def _analyse_layers_compiled(p, z, v, top_limit_hpa) -> LayerSet:
     v = np.ascontiguousarray(v)
     with np.errstate(invalid="ignore", divide="ignore"):
         ln_p = np.log(p)
-    width = max(L, 1)
+    # A column has at most one layer more than it has sign changes, counted over all its
+    # levels (the loop stops at the first invalid one, so it can only find fewer): sizing the
+    # work tables by that bound instead of the level count keeps them small.
+    above = v > 0.0
+    changes = np.count_nonzero(above[:, 1:] != above[:, :-1], axis=1) if L > 1 else np.zeros(n)
+    width = max(min(L, 1 + int(changes.max(initial=0))), 1)
     kind = np.zeros((n, width), dtype=np.int8)
     floats = np.full((8, n, width), np.nan)  # bottom p, top p, bottom z, top z, area, extreme,
     count = np.zeros(n, dtype=np.int64)      # ln p of crossings at bottoms / tops

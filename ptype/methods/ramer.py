@@ -449,7 +449,11 @@ def _stages(seq, valid, warm, hist, ice0):
 def _stages_fast(seq, valid, warm, hist, ice0):
     """:func:`_stages_numpy` through the compiled :func:`_stages_loop`."""
     n, P = valid.shape
-    table = np.full((6, n, max(P, 1)), np.nan)
+    # Stages start where the kind of consecutive valid pieces differs, so a column has at most
+    # one stage more than the kind changes of its whole piece sequence: size the table by that.
+    changes = np.count_nonzero(warm[:, 1:] != warm[:, :-1], axis=1) if P > 1 else np.zeros(n)
+    width = max(min(P, 1 + int(changes.max(initial=0))), 1)
+    table = np.full((6, n, width), np.nan)
     count = np.zeros(n, dtype=np.int64)
     _stages_compiled(np.ascontiguousarray(valid), np.ascontiguousarray(warm),
                      np.ascontiguousarray(seq["top_hpa"]), np.ascontiguousarray(seq["bottom_hpa"]),
