@@ -17,7 +17,6 @@ from __future__ import annotations
 import json
 import os
 import statistics
-import subprocess
 import time
 import warnings
 from pathlib import Path
@@ -26,6 +25,7 @@ import numpy as np
 
 import ptype
 from ptype.probability import DEFAULT_MEMBERS
+from _common import code_version  # sibling module of the scripts
 
 TARGET_MS = 5.0
 #: Median of this benchmark before the engine's call overhead was cut (same profile, quiet
@@ -51,21 +51,6 @@ def timeit(fn, repeat, *, fastest=False):
         fn()
         times.append(time.perf_counter() - t0)
     return min(times) if fastest else statistics.median(times)
-
-
-def code_version() -> dict:
-    """Commit measured, and whether ptype/ had uncommitted changes (shared working tree)."""
-    root = Path(__file__).resolve().parents[1]
-    try:
-        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
-                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
-        dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
-                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
-    except (OSError, subprocess.SubprocessError):
-        return {"commit": None, "uncommitted_ptype_files": None}
-    return {"commit": head or None,
-            "uncommitted_ptype_files": sorted(line[3:] for line in dirty
-                                              if line.strip() and not line.startswith("??"))}
 
 
 def main() -> dict:

@@ -44,6 +44,8 @@ RESULTS = Path(__file__).with_name("results")
 TARGETS = {"deterministic_1p9M_s": 30.0, "deterministic_peak_rss_gb": 4.0,
            "members20_200k_s": 60.0}
 
+from _common import code_version  # noqa: E402 - sibling module of the scripts
+
 
 def _generator():
     spec = importlib.util.spec_from_file_location(
@@ -184,21 +186,6 @@ def profile_kernel(path: Path, columns: int = 32768) -> dict:
     return {"columns": n, "levels": sub.sizes["plev"], "total_s": total,
             "columns_per_s_one_thread": n / total, "top_self_time": top,
             "cumulative_s": stages}
-
-
-def code_version() -> dict:
-    """Commit measured, and whether ptype/ had uncommitted changes (shared working tree)."""
-    root = Path(__file__).resolve().parents[1]
-    try:
-        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
-                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
-        dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
-                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
-    except (OSError, subprocess.SubprocessError):
-        return {"commit": None, "uncommitted_ptype_files": None}
-    return {"commit": head or None,
-            "uncommitted_ptype_files": sorted(line[3:] for line in dirty
-                                              if line.strip() and not line.startswith("??"))}
 
 
 def main(argv=None) -> dict:

@@ -20,7 +20,6 @@ import functools
 import json
 import os
 import platform
-import subprocess
 import time
 import warnings
 from pathlib import Path
@@ -31,6 +30,8 @@ from ptype import fastthermo, thermo
 
 TARGET_POINTS_PER_S = 20e6
 TARGET_RATIO_METPY = 40_000
+
+from _common import code_version  # noqa: E402 - sibling module of the scripts
 
 
 def population(n: int, seed: int = 0):
@@ -56,21 +57,6 @@ def cpu_seconds(fn) -> float:
     c0 = time.process_time()
     fn()
     return time.process_time() - c0
-
-
-def code_version() -> dict:
-    """Commit measured, and whether ptype/ had uncommitted changes (shared working tree)."""
-    root = Path(__file__).resolve().parents[1]
-    try:
-        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
-                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
-        dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
-                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
-    except (OSError, subprocess.SubprocessError):
-        return {"commit": None, "uncommitted_ptype_files": None}
-    return {"commit": head or None,
-            "uncommitted_ptype_files": sorted(line[3:] for line in dirty
-                                              if line.strip() and not line.startswith("??"))}
 
 
 def main(argv=None) -> dict:

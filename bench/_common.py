@@ -1,0 +1,21 @@
+"""Helpers shared by the benchmark scripts (run as `python bench/<name>.py`)."""
+
+from __future__ import annotations
+
+import subprocess
+from pathlib import Path
+
+
+def code_version() -> dict:
+    """Commit measured, and whether ptype/ had uncommitted changes (shared working tree)."""
+    root = Path(__file__).resolve().parents[1]
+    try:
+        head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
+                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
+        dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
+                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
+    except (OSError, subprocess.SubprocessError):
+        return {"commit": None, "uncommitted_ptype_files": None}
+    return {"commit": head or None,
+            "uncommitted_ptype_files": sorted(line[3:] for line in dirty
+                                              if line.strip() and not line.startswith("??"))}
