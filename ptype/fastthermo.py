@@ -13,6 +13,9 @@ level-points costs a few seconds.  Same equations, same bracket as :mod:`ptype.t
 
 Each point stops on its own step (:data:`ISOBARIC_STEP_K`, :data:`ADIABATIC_STEP_K`);
 the compiled and numpy paths agree to 1e-6 K or better (``tests/test_grid_fastthermo.py``).
+The isobaric solver runs on blocks of points with a fixed two Halley steps so that LLVM
+vectorises it (about 3.5 x the per-point loop); points it cannot finish that way go to the
+per-point solver (see "Vectorised isobaric solver" below).
 
 Two builds of each kernel exist: a ``parallel=True`` one (numba's own threads)
 for calls from the main thread, and a serial ``nogil`` one for calls from worker
@@ -33,6 +36,7 @@ import numpy as np
 from .constants import epsilon
 
 try:  # numba is a declared dependency, but the numpy path must keep working without it
+    import numba
     from numba import njit, prange
     AVAILABLE = True
 except ImportError:  # pragma: no cover - exercised only on installs without numba
@@ -54,13 +58,21 @@ _T0 = 273.15
 
 
 if AVAILABLE:
-    _jit = njit(cache=True, fastmath=False, nogil=True)
+    # error_model="numpy": a division by zero gives inf/NaN instead of a Python exception, which
+    # removes a branch per division and lets LLVM vectorise the blocked isobaric loop (the
+    # solvers never divide by zero on finite input; non-finite points are NaN either way).
+    _jit = njit(cache=True, fastmath=False, nogil=True, error_model="numpy")
 else:  # pragma: no cover
     def _jit(func):
         return func
 
     def prange(*args):
         return range(*args)
+
+if AVAILABLE:
+    _pjit = njit(cache=True, fastmath=False, nogil=True, parallel=True, error_model="numpy")
+else:  # pragma: no cover
+    _pjit = _jit
 
 
 @_jit
@@ -186,69 +198,160 @@ def _adiabatic_solve(p, t, td, es_d, x):
 
 
 @_jit
-def _both_point(p, t, td_in):
-    """Isobaric and pseudo-adiabatic wet-bulb of one point, sharing es(Td) and using the
-    first as the starting point of the second."""
-    if not (math.isfinite(p) and math.isfinite(t) and math.isfinite(td_in) and p > 0.0):
-        return math.nan, math.nan
+def _adiabatic_from_isobaric(p, t, td_in, iso):
+    """Pseudo-adiabatic wet-bulb of one point starting from its isobaric wet-bulb ``iso``."""
+    if not (math.isfinite(p) and math.isfinite(t) and math.isfinite(td_in) and p > 0.0
+            and math.isfinite(iso)):
+        return math.nan
     td = min(td_in, t)
-    inv_cd = 1.0 / (td + _C)
-    es_d = _A * math.exp(_B * td * inv_cd)
-    iso = _isobaric_solve(p, t, td, es_d, inv_cd)
-    return iso, _adiabatic_solve(p, t, td, es_d, iso)
+    es_d = _A * math.exp(_B * td / (td + _C))
+    return _adiabatic_solve(p, t, td, es_d, iso)
 
 
-@_jit
-def _adiabatic_point(p, t, td_in):
-    """Pseudo-adiabatic wet-bulb of one point (the second value of :func:`_both_point`, so
-    that both entry points give the same numbers)."""
-    return _both_point(p, t, td_in)[1]
+# --- Vectorised isobaric solver ------------------------------------------------------------
+#
+# The scalar solver above stops each point on its own, which keeps LLVM from using the CPU's
+# vector units.  Every point of the population below converges in two Halley steps from the
+# psychrometric first guess (the second step is already below ISOBARIC_STEP_K; measured on 2
+# million points, -40..35 degC, 300..1050 hPa, RH 10..100 %), so the blocked solver takes
+# exactly two steps on a block of points with the same arithmetic and the same stopping rule,
+# flags any point whose second step was not below the limit (or that lies outside the range
+# where its exponential is accurate), and those points are solved again by the scalar solver.
 
-
-@_jit
-def _isobaric_serial(p, t, td, out):
-    for i in range(p.size):
-        out[i] = _isobaric_point(p[i], t[i], td[i])
-
-
-@_jit
-def _adiabatic_serial(p, t, td, out):
-    for i in range(p.size):
-        out[i] = _adiabatic_point(p[i], t[i], td[i])
-
+#: Points per block of the vectorised solver (its work arrays stay in the L1 cache).
+_BLOCK = 256
+#: Range where the blocked solver runs: the polynomial exponential below keeps a relative
+#: error under 1e-14 for B T / (T + C) in [-12.4, 3.5], i.e. Td >= -100 degC and T <= 60 degC.
+_BLOCK_MIN_DEWPOINT_C = -100.0
+_BLOCK_MAX_TEMPERATURE_C = 60.0
+_BLOCK_MAX_PRESSURE_HPA = 1100.0
 
 if AVAILABLE:
-    _pjit = njit(cache=True, fastmath=False, nogil=True, parallel=True)
+    _inline = njit(inline="always", error_model="numpy")
 else:  # pragma: no cover
-    _pjit = _jit
+    _inline = _jit
 
 
-@_pjit
-def _isobaric_parallel(p, t, td, out):
-    for i in prange(p.size):
-        out[i] = _isobaric_point(p[i], t[i], td[i])
-
-
-@_pjit
-def _adiabatic_parallel(p, t, td, out):
-    for i in prange(p.size):
-        out[i] = _adiabatic_point(p[i], t[i], td[i])
+@_inline
+def _exp_block(a):
+    """``exp(a)`` for ``-12.4 <= a <= 3.5`` without a library call, so that the loop calling it
+    vectorises: the Taylor polynomial of degree 13 of ``exp(a / 32)`` (truncation below 2e-17
+    for ``|a / 32| <= 0.39``), squared five times (relative error under 1e-14 overall; checked
+    against ``numpy.exp`` in tests/test_grid_fastthermo.py)."""
+    y = a * (1.0 / 32.0)
+    s = 1.0 + y * (1.0 + y * (1.0 / 2.0 + y * (1.0 / 6.0 + y * (1.0 / 24.0 + y * (
+        1.0 / 120.0 + y * (1.0 / 720.0 + y * (1.0 / 5040.0 + y * (1.0 / 40320.0 + y * (
+            1.0 / 362880.0 + y * (1.0 / 3628800.0 + y * (1.0 / 39916800.0 + y * (
+                1.0 / 479001600.0 + y * (1.0 / 6227020800.0)))))))))))))
+    s = s * s
+    s = s * s
+    s = s * s
+    s = s * s
+    return s * s
 
 
 @_jit
-def _both_serial(p, t, td, out_iso, out_adi):
-    for i in range(p.size):
-        out_iso[i], out_adi[i] = _both_point(p[i], t[i], td[i])
+def _isobaric_blocks(p, t, td_in, out, pending, start, stop):
+    """Isobaric wet-bulb of points ``start:stop`` by blocks of :data:`_BLOCK`: the first guess
+    and two Halley steps of :func:`_isobaric_solve` (same formulas, same bracket, same stopping
+    rule; ``exp`` by :func:`_exp_block`).  Writes ``out``; sets ``pending`` to 1 where the point
+    must be solved by the scalar solver instead (not converged, out of range or missing)."""
+    x = np.empty(_BLOCK)
+    lo = np.empty(_BLOCK)
+    hi = np.empty(_BLOCK)
+    w = np.empty(_BLOCK)
+    state = np.empty(_BLOCK)  # 0 = iterating, 1 = converged, 2 = left to the scalar solver
+    for b0 in range(start, stop, _BLOCK):
+        m = min(_BLOCK, stop - b0)
+        for k in range(m):
+            pk = p[b0 + k]
+            tk = t[b0 + k]
+            tdr = td_in[b0 + k]
+            td = tdr if tdr < tk else tk
+            # Written with & so the comparisons stay branch-free; NaN fails every one of them.
+            ok = ((pk > 0.0) & (pk <= _BLOCK_MAX_PRESSURE_HPA) & (tdr >= _BLOCK_MIN_DEWPOINT_C)
+                  & (td >= _BLOCK_MIN_DEWPOINT_C) & (tk <= _BLOCK_MAX_TEMPERATURE_C))
+            inv_cd = 1.0 / (td + _C)
+            es_d = _A * _exp_block(_B * td * inv_cd)
+            slope_d = es_d * _BC * inv_cd * inv_cd
+            gamma = 1.006 * pk / (epsilon * 2501.0)
+            x[k] = (slope_d * td + gamma * tk) / (slope_d + gamma)
+            w[k] = epsilon * es_d / (pk - es_d)
+            lo[k] = td
+            hi[k] = tk
+            state[k] = 0.0 if ok else 2.0
+        for _ in range(2):
+            for k in range(m):
+                xk = x[k]
+                pk = p[b0 + k]
+                tk = t[b0 + k]
+                wk = w[k]
+                inv_c = 1.0 / (xk + _C)
+                es = _A * _exp_block(_B * xk * inv_c)
+                inv_d = 1.0 / (pk - es)
+                kk = _BC * inv_c * inv_c
+                des = es * kk
+                d2es = des * (kk - 2.0 * inv_c)
+                ws = epsilon * es * inv_d
+                dws = epsilon * pk * des * inv_d * inv_d
+                d2ws = epsilon * pk * inv_d * inv_d * (d2es + 2.0 * des * des * inv_d)
+                lat = 2501.0 - 2.326 * xk
+                g = lat * ws - 1.006 * (tk - xk) - wk * ((2501.0 + 1.86 * tk) - 4.186 * xk)
+                dg = -2.326 * ws + lat * dws + 1.006 + 4.186 * wk
+                d2g = -4.652 * dws + lat * d2ws
+                above = g > 0.0
+                lok = lo[k]
+                hik = hi[k]
+                new_hi = xk if above else hik
+                new_lo = lok if above else xk
+                new = xk - 2.0 * g * dg / (2.0 * dg * dg - g * d2g)
+                inside = (new >= new_lo) & (new <= new_hi)
+                new = new if inside else 0.5 * (new_lo + new_hi)
+                step = abs(new - xk)
+                active = state[k] == 0.0
+                x[k] = new if active else xk
+                lo[k] = new_lo if active else lok
+                hi[k] = new_hi if active else hik
+                state[k] = (1.0 if step < ISOBARIC_STEP_K else 0.0) if active else state[k]
+        for k in range(m):
+            tk = t[b0 + k]
+            tdr = td_in[b0 + k]
+            td = tdr if tdr < tk else tk
+            out[b0 + k] = min(max(x[k], td), tk)
+            pending[b0 + k] = 0 if state[k] == 1.0 else 1
+
+
+@_jit
+def _isobaric_blocks_serial(p, t, td, out, pending):
+    _isobaric_blocks(p, t, td, out, pending, 0, p.size)
 
 
 @_pjit
-def _both_parallel(p, t, td, out_iso, out_adi):
+def _isobaric_blocks_parallel(p, t, td, out, pending, parts):
+    per = ((p.size + parts - 1) // parts + _BLOCK - 1) // _BLOCK * _BLOCK
+    for j in prange(parts):
+        _isobaric_blocks(p, t, td, out, pending, min(j * per, p.size), min((j + 1) * per, p.size))
+
+
+@_jit
+def _isobaric_pending(p, t, td, out, pending):
+    """The scalar solver on the points the blocked one left."""
+    for i in range(p.size):
+        if pending[i]:
+            out[i] = _isobaric_point(p[i], t[i], td[i])
+
+
+@_jit
+def _adiabatic_serial(p, t, td, iso, out):
+    for i in range(p.size):
+        out[i] = _adiabatic_from_isobaric(p[i], t[i], td[i], iso[i])
+
+
+@_pjit
+def _adiabatic_parallel(p, t, td, iso, out):
     for i in prange(p.size):
-        out_iso[i], out_adi[i] = _both_point(p[i], t[i], td[i])
+        out[i] = _adiabatic_from_isobaric(p[i], t[i], td[i], iso[i])
 
-
-_KERNELS = {("isobaric", False): _isobaric_serial, ("isobaric", True): _isobaric_parallel,
-            ("adiabatic", False): _adiabatic_serial, ("adiabatic", True): _adiabatic_parallel}
 
 #: Below this many points a call from the main thread stays serial (thread start-up dominates).
 PARALLEL_MIN_SIZE = 65536
@@ -266,16 +369,31 @@ def _flat_inputs(pressure_hpa, temperature_c, dewpoint_c, parallel):
     return p, t, td, shape, bool(parallel)
 
 
+def _isobaric(p, t, td, parallel: bool) -> np.ndarray:
+    out = np.empty(p.size, dtype=np.float64)
+    pending = np.empty(p.size, dtype=np.uint8)
+    if parallel:
+        _isobaric_blocks_parallel(p, t, td, out, pending, 4 * numba.get_num_threads())
+    else:
+        _isobaric_blocks_serial(p, t, td, out, pending)
+    _isobaric_pending(p, t, td, out, pending)
+    return out
+
+
+def _adiabatic(p, t, td, iso, parallel: bool) -> np.ndarray:
+    out = np.empty(p.size, dtype=np.float64)
+    (_adiabatic_parallel if parallel else _adiabatic_serial)(p, t, td, iso, out)
+    return out
+
+
 def wet_bulbs_c(pressure_hpa, temperature_c, dewpoint_c,
                 parallel: bool | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """Isobaric and pseudo-adiabatic wet-bulb, degC, in one pass (the exponential at the dew
-    point is shared and the isobaric value starts the adiabatic iteration); each equal to
-    :func:`wet_bulb_c` of its kind.  NaN where an input is missing or ``p <= 0``."""
+    """Isobaric and pseudo-adiabatic wet-bulb, degC, in one pass (the isobaric value starts the
+    adiabatic iteration); each equal to :func:`wet_bulb_c` of its kind.  NaN where an input is
+    missing or ``p <= 0``."""
     p, t, td, shape, parallel = _flat_inputs(pressure_hpa, temperature_c, dewpoint_c, parallel)
-    iso = np.empty(p.size, dtype=np.float64)
-    adi = np.empty(p.size, dtype=np.float64)
-    (_both_parallel if parallel else _both_serial)(p, t, td, iso, adi)
-    return iso.reshape(shape), adi.reshape(shape)
+    iso = _isobaric(p, t, td, parallel)
+    return iso.reshape(shape), _adiabatic(p, t, td, iso, parallel).reshape(shape)
 
 
 def wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, kind: str = "isobaric",
@@ -288,7 +406,8 @@ def wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, kind: str = "isobaric",
     if kind not in ("isobaric", "adiabatic"):
         raise ValueError(f"kind must be one of ('isobaric', 'adiabatic'), got {kind!r}")
     p, t, td, shape, parallel = _flat_inputs(pressure_hpa, temperature_c, dewpoint_c, parallel)
-    out = np.empty(p.size, dtype=np.float64)
-    _KERNELS[(kind, parallel)](p, t, td, out)
+    out = _isobaric(p, t, td, parallel)
+    if kind == "adiabatic":
+        out = _adiabatic(p, t, td, out, parallel)
     out = out.reshape(shape)
     return out if out.ndim else out[()]
