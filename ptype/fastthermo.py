@@ -321,6 +321,160 @@ def _isobaric_blocks(p, t, td_in, out, pending, start, stop):
             pending[b0 + k] = 0 if state[k] == 1.0 else 1
 
 
+_LN2 = math.log(2.0)
+
+
+@_inline
+def _log_block(y):
+    """``log(y)`` for ``1/64 <= y <= 64`` without a library call (vectorisable): exact scalings
+    by powers of two bring ``y`` into [0.707, 1.414], then ``log y = 2 atanh(s)`` with
+    ``s = (y - 1) / (y + 1)``, ``|s| <= 0.172``, summed to ``s**23`` (truncation below 1e-17;
+    checked against ``numpy.log`` in tests/test_grid_fastthermo.py)."""
+    k = 0.0
+    big = y >= 8.0
+    y = y * 0.125 if big else y
+    k = k + 3.0 if big else k
+    big = y >= 2.8284271247461903
+    y = y * 0.25 if big else y
+    k = k + 2.0 if big else k
+    big = y >= 1.4142135623730951
+    y = y * 0.5 if big else y
+    k = k + 1.0 if big else k
+    small = y < 0.125
+    y = y * 8.0 if small else y
+    k = k - 3.0 if small else k
+    small = y < 0.35355339059327373
+    y = y * 4.0 if small else y
+    k = k - 2.0 if small else k
+    small = y < 0.7071067811865476
+    y = y * 2.0 if small else y
+    k = k - 1.0 if small else k
+    s = (y - 1.0) / (y + 1.0)
+    q = s * s
+    series = 1.0 + q * (1.0 / 3.0 + q * (1.0 / 5.0 + q * (1.0 / 7.0 + q * (1.0 / 9.0 + q * (
+        1.0 / 11.0 + q * (1.0 / 13.0 + q * (1.0 / 15.0 + q * (1.0 / 17.0 + q * (
+            1.0 / 19.0 + q * (1.0 / 21.0 + q * (1.0 / 23.0)))))))))))
+    return k * _LN2 + 2.0 * s * series
+
+
+@_inline
+def _log_kelvin_block(t_k):
+    """``log(t_k)`` for 64 K <= t_k <= 16384 K through :func:`_log_block` (t_k / 256 exact)."""
+    return _log_block(t_k * (1.0 / 256.0)) + 8.0 * _LN2
+
+
+#: Newton steps of the blocked adiabatic solver, from the isobaric wet-bulb (which the
+#: adiabatic one lies just below): the second step is below ADIABATIC_STEP_K for nearly all
+#: points; the rest go to the per-point solver.
+_ADIABATIC_BLOCK_STEPS = 2
+#: Lowest pressure of the blocked adiabatic solver: (p - e) / 1000 stays >= 1/64.
+_BLOCK_MIN_PRESSURE_HPA = 20.0
+_BLOCK_MAX_VAPOUR_FRACTION = 0.05
+
+
+@_jit
+def _adiabatic_blocks(p, t, td_in, iso, out, pending, start, stop):
+    """Pseudo-adiabatic wet-bulb of points ``start:stop`` from their isobaric wet-bulb ``iso``,
+    by blocks: :func:`_ln_theta_e_k` and a fixed :data:`_ADIABATIC_BLOCK_STEPS` Newton steps of
+    :func:`_adiabatic_solve` (same formulas, with the three 1/T terms of the slope from one
+    division; same bracket and stopping rule; ``exp`` and ``log`` by :func:`_exp_block` and
+    :func:`_log_block`).  Sets ``pending`` to 1 where the per-point
+    solver must take over."""
+    x = np.empty(_BLOCK)
+    lo = np.empty(_BLOCK)
+    hi = np.empty(_BLOCK)
+    target = np.empty(_BLOCK)
+    state = np.empty(_BLOCK)  # 0 = iterating, 1 = converged, 2 = left to the per-point solver
+    for b0 in range(start, stop, _BLOCK):
+        m = min(_BLOCK, stop - b0)
+        for k in range(m):
+            pk = p[b0 + k]
+            tk = t[b0 + k]
+            tdr = td_in[b0 + k]
+            xk = iso[b0 + k]
+            td = tdr if tdr < tk else tk
+            ok = ((pk >= _BLOCK_MIN_PRESSURE_HPA) & (pk <= _BLOCK_MAX_PRESSURE_HPA)
+                  & (tdr >= _BLOCK_MIN_DEWPOINT_C) & (td >= _BLOCK_MIN_DEWPOINT_C)
+                  & (tk <= _BLOCK_MAX_TEMPERATURE_C) & (xk >= td) & (xk <= tk))
+            e = _A * _exp_block(_B * td / (td + _C))
+            # Vapour pressure above 5 % of the pressure (e.g. 30 degC air at 100 hPa, which the
+            # atmosphere does not hold) makes the slope ill-conditioned: left to the per-point
+            # solver, so that the two agree to 1e-9 K everywhere else.
+            ok = ok & (e <= _BLOCK_MAX_VAPOUR_FRACTION * pk)
+            # _ln_theta_e_k, spelled out with the block logarithms.
+            t_k = tk + _T0
+            td_k = td + _T0
+            td_k = td_k if td_k < t_k else t_k
+            t_l = 1.0 / (1.0 / (td_k - 56.0) + _log_block(t_k / td_k) / 800.0) + 56.0
+            w = 1000.0 * epsilon * e / (pk - e)
+            target[k] = (_log_kelvin_block(t_k) + 0.2854 * _log_block(1000.0 / (pk - e))
+                         + 0.28e-3 * w * _log_block(t_k / t_l)
+                         + (3.036 / t_l - 0.00178) * w * (1.0 + 0.448e-3 * w))
+            x[k] = xk
+            lo[k] = td - 1.0
+            hi[k] = tk
+            state[k] = 0.0 if ok else 2.0
+        for _ in range(_ADIABATIC_BLOCK_STEPS):
+            for k in range(m):
+                xk = x[k]
+                pk = p[b0 + k]
+                inv_c = 1.0 / (xk + _C)
+                e = _A * _exp_block(_B * xk * inv_c)
+                dlne = _BC * inv_c * inv_c          # (d e / dT) / e, without dividing by e
+                inv_d = 1.0 / (pk - e)
+                w = 1000.0 * epsilon * e * inv_d
+                dw = w * pk * inv_d * dlne
+                t_k = xk + _T0
+                inv_tk = 1.0 / t_k                  # one division for the three 1/T terms
+                a = 3.036 * inv_tk - 0.00178
+                f = (_log_kelvin_block(t_k) - 0.2854 * _log_block((pk - e) * 0.001)
+                     + a * w * (1.0 + 0.448e-3 * w)) - target[k]
+                df = (inv_tk + 0.2854 * e * dlne * inv_d
+                      - 3.036 * inv_tk * inv_tk * w * (1.0 + 0.448e-3 * w)
+                      + a * (1.0 + 0.896e-3 * w) * dw)
+                above = f > 0.0
+                lok = lo[k]
+                hik = hi[k]
+                new_hi = xk if above else hik
+                new_lo = lok if above else xk
+                new = xk - f / df
+                inside = (new >= new_lo) & (new <= new_hi)
+                new = new if inside else 0.5 * (new_lo + new_hi)
+                step = abs(new - xk)
+                active = state[k] == 0.0
+                x[k] = new if active else xk
+                lo[k] = new_lo if active else lok
+                hi[k] = new_hi if active else hik
+                state[k] = (1.0 if step < ADIABATIC_STEP_K else 0.0) if active else state[k]
+        for k in range(m):
+            tk = t[b0 + k]
+            tdr = td_in[b0 + k]
+            td = tdr if tdr < tk else tk
+            out[b0 + k] = min(max(x[k], td), tk)
+            pending[b0 + k] = 0 if state[k] == 1.0 else 1
+
+
+@_jit
+def _adiabatic_blocks_serial(p, t, td, iso, out, pending):
+    _adiabatic_blocks(p, t, td, iso, out, pending, 0, p.size)
+
+
+@_pjit
+def _adiabatic_blocks_parallel(p, t, td, iso, out, pending, parts):
+    per = ((p.size + parts - 1) // parts + _BLOCK - 1) // _BLOCK * _BLOCK
+    for j in prange(parts):
+        _adiabatic_blocks(p, t, td, iso, out, pending, min(j * per, p.size),
+                          min((j + 1) * per, p.size))
+
+
+@_jit
+def _adiabatic_pending(p, t, td, iso, out, pending):
+    """The per-point solver on the points the blocked one left."""
+    for i in range(p.size):
+        if pending[i]:
+            out[i] = _adiabatic_from_isobaric(p[i], t[i], td[i], iso[i])
+
+
 @_jit
 def _isobaric_blocks_serial(p, t, td, out, pending):
     _isobaric_blocks(p, t, td, out, pending, 0, p.size)
@@ -339,18 +493,6 @@ def _isobaric_pending(p, t, td, out, pending):
     for i in range(p.size):
         if pending[i]:
             out[i] = _isobaric_point(p[i], t[i], td[i])
-
-
-@_jit
-def _adiabatic_serial(p, t, td, iso, out):
-    for i in range(p.size):
-        out[i] = _adiabatic_from_isobaric(p[i], t[i], td[i], iso[i])
-
-
-@_pjit
-def _adiabatic_parallel(p, t, td, iso, out):
-    for i in prange(p.size):
-        out[i] = _adiabatic_from_isobaric(p[i], t[i], td[i], iso[i])
 
 
 #: Below this many points a call from the main thread stays serial (thread start-up dominates).
@@ -382,7 +524,12 @@ def _isobaric(p, t, td, parallel: bool) -> np.ndarray:
 
 def _adiabatic(p, t, td, iso, parallel: bool) -> np.ndarray:
     out = np.empty(p.size, dtype=np.float64)
-    (_adiabatic_parallel if parallel else _adiabatic_serial)(p, t, td, iso, out)
+    pending = np.empty(p.size, dtype=np.uint8)
+    if parallel:
+        _adiabatic_blocks_parallel(p, t, td, iso, out, pending, 4 * numba.get_num_threads())
+    else:
+        _adiabatic_blocks_serial(p, t, td, iso, out, pending)
+    _adiabatic_pending(p, t, td, iso, out, pending)
     return out
 
 

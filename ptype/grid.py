@@ -805,7 +805,8 @@ def write_grid(out, path, *, progress: bool = False, client=None, argv=None) -> 
 def summary(path) -> dict:
     """Counts of each type in a written file (for the command's closing lines)."""
     import xarray as xr
-    with xr.open_dataset(path) as ds:
+    # engine named: letting xarray guess imports every installed backend (1.5 s measured).
+    with xr.open_dataset(path, engine="netcdf4") as ds:
         v = ds["precipitation_type"].values
         meanings = ds["precipitation_type"].attrs["flag_meanings"].split()
         values = list(np.atleast_1d(ds["precipitation_type"].attrs["flag_values"]))

@@ -80,7 +80,7 @@ def run(args) -> int:
         import xarray as xr
 
         from ..gridplot import plot_types
-        with xr.open_dataset(args.output, mask_and_scale=False) as written:
+        with xr.open_dataset(args.output, engine="netcdf4", mask_and_scale=False) as written:
             plot_types(written, args.plot, time_index=args.plot_time)
         print(f"map: {args.plot}")
     print(CAUTION)
