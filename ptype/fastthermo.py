@@ -250,6 +250,45 @@ def _exp_block(a):
     return s * s
 
 
+@_inline
+def _bracketed_step(x, lo, hi, state, k, above, new, step_k):
+    """One step of point ``k`` of a block, as in the per-point solvers: shrink the bracket on
+    the residual's sign (``above``: the root lies below ``x``), take ``new`` if it falls inside
+    and bisect otherwise, and mark the point converged when the step is below ``step_k``.
+    Points no longer iterating (``state != 0``) keep their values; branch-free selects."""
+    xk = x[k]
+    lok = lo[k]
+    hik = hi[k]
+    new_hi = xk if above else hik
+    new_lo = lok if above else xk
+    inside = (new >= new_lo) & (new <= new_hi)
+    new = new if inside else 0.5 * (new_lo + new_hi)
+    step = abs(new - xk)
+    active = state[k] == 0.0
+    x[k] = new if active else xk
+    lo[k] = new_lo if active else lok
+    hi[k] = new_hi if active else hik
+    state[k] = (1.0 if step < step_k else 0.0) if active else state[k]
+
+
+@_inline
+def _finish_block(x, state, t, td_in, out, pending, b0, m):
+    """Write a block's results clipped to [Td, T] and flag the points it did not finish."""
+    for k in range(m):
+        tk = t[b0 + k]
+        tdr = td_in[b0 + k]
+        td = tdr if tdr < tk else tk
+        out[b0 + k] = min(max(x[k], td), tk)
+        pending[b0 + k] = 0 if state[k] == 1.0 else 1
+
+
+@_inline
+def _part_bounds(size, parts, j):
+    """Start and stop of part ``j`` of ``parts`` block-aligned parts of ``size`` points."""
+    per = ((size + parts - 1) // parts + _BLOCK - 1) // _BLOCK * _BLOCK
+    return min(j * per, size), min((j + 1) * per, size)
+
+
 @_jit
 def _isobaric_blocks(p, t, td_in, out, pending, start, stop):
     """Isobaric wet-bulb of points ``start:stop`` by blocks of :data:`_BLOCK`: the first guess
@@ -299,26 +338,9 @@ def _isobaric_blocks(p, t, td_in, out, pending, start, stop):
                 g = lat * ws - 1.006 * (tk - xk) - wk * ((2501.0 + 1.86 * tk) - 4.186 * xk)
                 dg = -2.326 * ws + lat * dws + 1.006 + 4.186 * wk
                 d2g = -4.652 * dws + lat * d2ws
-                above = g > 0.0
-                lok = lo[k]
-                hik = hi[k]
-                new_hi = xk if above else hik
-                new_lo = lok if above else xk
-                new = xk - 2.0 * g * dg / (2.0 * dg * dg - g * d2g)
-                inside = (new >= new_lo) & (new <= new_hi)
-                new = new if inside else 0.5 * (new_lo + new_hi)
-                step = abs(new - xk)
-                active = state[k] == 0.0
-                x[k] = new if active else xk
-                lo[k] = new_lo if active else lok
-                hi[k] = new_hi if active else hik
-                state[k] = (1.0 if step < ISOBARIC_STEP_K else 0.0) if active else state[k]
-        for k in range(m):
-            tk = t[b0 + k]
-            tdr = td_in[b0 + k]
-            td = tdr if tdr < tk else tk
-            out[b0 + k] = min(max(x[k], td), tk)
-            pending[b0 + k] = 0 if state[k] == 1.0 else 1
+                _bracketed_step(x, lo, hi, state, k, g > 0.0,
+                                xk - 2.0 * g * dg / (2.0 * dg * dg - g * d2g), ISOBARIC_STEP_K)
+        _finish_block(x, state, t, td_in, out, pending, b0, m)
 
 
 _LN2 = math.log(2.0)
@@ -432,26 +454,8 @@ def _adiabatic_blocks(p, t, td_in, iso, out, pending, start, stop):
                 df = (inv_tk + 0.2854 * e * dlne * inv_d
                       - 3.036 * inv_tk * inv_tk * w * (1.0 + 0.448e-3 * w)
                       + a * (1.0 + 0.896e-3 * w) * dw)
-                above = f > 0.0
-                lok = lo[k]
-                hik = hi[k]
-                new_hi = xk if above else hik
-                new_lo = lok if above else xk
-                new = xk - f / df
-                inside = (new >= new_lo) & (new <= new_hi)
-                new = new if inside else 0.5 * (new_lo + new_hi)
-                step = abs(new - xk)
-                active = state[k] == 0.0
-                x[k] = new if active else xk
-                lo[k] = new_lo if active else lok
-                hi[k] = new_hi if active else hik
-                state[k] = (1.0 if step < ADIABATIC_STEP_K else 0.0) if active else state[k]
-        for k in range(m):
-            tk = t[b0 + k]
-            tdr = td_in[b0 + k]
-            td = tdr if tdr < tk else tk
-            out[b0 + k] = min(max(x[k], td), tk)
-            pending[b0 + k] = 0 if state[k] == 1.0 else 1
+                _bracketed_step(x, lo, hi, state, k, f > 0.0, xk - f / df, ADIABATIC_STEP_K)
+        _finish_block(x, state, t, td_in, out, pending, b0, m)
 
 
 @_jit
@@ -461,10 +465,9 @@ def _adiabatic_blocks_serial(p, t, td, iso, out, pending):
 
 @_pjit
 def _adiabatic_blocks_parallel(p, t, td, iso, out, pending, parts):
-    per = ((p.size + parts - 1) // parts + _BLOCK - 1) // _BLOCK * _BLOCK
     for j in prange(parts):
-        _adiabatic_blocks(p, t, td, iso, out, pending, min(j * per, p.size),
-                          min((j + 1) * per, p.size))
+        start, stop = _part_bounds(p.size, parts, j)
+        _adiabatic_blocks(p, t, td, iso, out, pending, start, stop)
 
 
 @_jit
@@ -482,9 +485,9 @@ def _isobaric_blocks_serial(p, t, td, out, pending):
 
 @_pjit
 def _isobaric_blocks_parallel(p, t, td, out, pending, parts):
-    per = ((p.size + parts - 1) // parts + _BLOCK - 1) // _BLOCK * _BLOCK
     for j in prange(parts):
-        _isobaric_blocks(p, t, td, out, pending, min(j * per, p.size), min((j + 1) * per, p.size))
+        start, stop = _part_bounds(p.size, parts, j)
+        _isobaric_blocks(p, t, td, out, pending, start, stop)
 
 
 @_jit
