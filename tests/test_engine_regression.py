@@ -234,22 +234,6 @@ def member_columns():
     return Columns.concat([cols, perturb(cols, 10, seed=11)])
 
 
-def test_ramer_sequence_compiled_matches_numpy(member_columns):
-    from ptype.methods import ramer
-    if not ramer._COMPILED:
-        pytest.skip("numba not installed")
-    c = member_columns
-    rh = c.relative_humidity_pct / 100.0
-    top = ramer.generation_layer(c.pressure_hpa, c.relative_humidity_pct)[0]
-    fast = ramer._sequence(c.pressure_hpa, c.wetbulb_c, rh, top)
-    n = c.n_columns
-    slow = {k: v[:, ::-1, :].reshape(n, -1)
-            for k, v in ramer._pieces(c.pressure_hpa, c.wetbulb_c, rh, top).items()}
-    assert set(fast) == set(slow)
-    for key, value in slow.items():
-        np.testing.assert_array_equal(fast[key], value, err_msg=key)
-
-
 def test_ramer_generation_layer_compiled_matches_numpy(member_columns):
     from ptype.methods import ramer
     if not ramer._COMPILED:
@@ -267,45 +251,53 @@ def test_ramer_generation_layer_compiled_matches_numpy(member_columns):
         assert np.isfinite(slow[0]).any()
     assert len(ramer._generation_layer_fast(c.pressure_hpa, c.relative_humidity_pct)) == 2
 
-def test_ramer_carry_compiled_matches_numpy():
+def _ramer_march_inputs(c):
     from ptype.methods import ramer
-    if not ramer._COMPILED:
-        pytest.skip("numba not installed")
-    rng = np.random.default_rng(5)
-    n, P = 40, 90
-    d_ice = rng.normal(0.0, 0.6, (n, P))
-    valid = rng.random((n, P)) < 0.7
-    always = valid & (rng.random((n, P)) < 0.5)
-    ice0 = rng.choice([0.0, 1.0], n)
-    ice_np, hist_np = ramer._carry_numpy(d_ice, always, valid, ice0)
-    ice, hist = np.empty(n), np.empty((n, P))
-    ramer._carry_compiled(d_ice, always, valid, ice0, ice, hist)
-    np.testing.assert_array_equal(ice, ice_np)
-    np.testing.assert_array_equal(hist, hist_np)
-    assert ((ice > 0) & (ice < 1)).any()  # the test reaches partial fractions, not only 0 and 1
-
-
-def test_ramer_stages_compiled_matches_numpy(member_columns):
-    from ptype.methods import ramer
-    if not ramer._COMPILED:
-        pytest.skip("numba not installed")
-    c = member_columns
-    rh = c.relative_humidity_pct / 100.0
     top, _, top_tw = ramer.generation_layer(c.pressure_hpa, c.relative_humidity_pct, c.wetbulb_c)
     ice0 = np.where(np.isfinite(top) & (top_tw <= ramer.FREEZING_ONSET_TW_C), 1.0, 0.0)
-    seq = ramer._sequence(c.pressure_hpa, c.wetbulb_c, rh, top)
-    valid, warm = seq["valid"], seq["tw_mean"] > 0.0
-    d_ice = np.where(valid, ramer.ice_fraction_change(seq["bottom_hpa"], seq["top_hpa"],
-                                                      seq["tw_mean"], seq["rh_mean"]), 0.0)
-    always = valid & (warm | (seq["tw_mean"] < ramer.FREEZING_ONSET_TW_C))
-    _, hist = ramer._carry_numpy(d_ice, always, valid, ice0)
-    fast, count_fast = ramer._stages_fast(seq, valid, warm, hist, ice0)
-    slow, count_slow = ramer._stages_numpy(seq, valid, warm, hist, ice0)
-    np.testing.assert_array_equal(count_fast, count_slow)
-    assert count_slow.max() >= 3  # columns with several warm and cold stages are covered
-    assert list(fast) == list(slow)
-    for key, value in slow.items():
-        np.testing.assert_array_equal(fast[key], value, err_msg=key)
+    return c.pressure_hpa, c.wetbulb_c, c.relative_humidity_pct / 100.0, top, ice0
+
+
+@pytest.mark.parametrize("room", [None, 1])
+def test_ramer_march_compiled_matches_numpy(member_columns, monkeypatch, room):
+    # room=1 makes the compiled march run out of stage room and march again.
+    from ptype.methods import ramer
+    if not ramer._COMPILED:
+        pytest.skip("numba not installed")
+    if room is not None:
+        monkeypatch.setattr(ramer, "_STAGE_ROOM", room)
+    args = _ramer_march_inputs(member_columns)
+    ice, was_liquid, stages, count = ramer._march_fast(*args)
+    ice_np, was_liquid_np, stages_np, count_np = ramer._march_numpy(*args)
+    np.testing.assert_array_equal(ice, ice_np)
+    np.testing.assert_array_equal(was_liquid, was_liquid_np)
+    np.testing.assert_array_equal(count, count_np)
+    assert count_np.max() >= 3  # columns with several warm and cold stages are covered
+    assert ((ice_np > 0) & (ice_np < 1)).any()  # partial fractions, not only 0 and 1
+    assert list(stages) == list(stages_np)
+    for key, value in stages_np.items():
+        np.testing.assert_array_equal(stages[key], value, err_msg=key)
+
+
+def test_ramer_march_compiled_matches_numpy_on_rough_profiles(member_columns):
+    # Noisy wet-bulbs and RH (many crossings of 0 and -6.6 degC) and missing values.
+    from ptype.methods import ramer
+    if not ramer._COMPILED:
+        pytest.skip("numba not installed")
+    rng = np.random.default_rng(17)
+    p, tw, rh, top, ice0 = _ramer_march_inputs(member_columns)
+    tw = tw + rng.normal(0.0, 3.0, tw.shape)
+    rh = np.clip(rh + rng.normal(0.0, 0.2, rh.shape), 0.0, 1.0)
+    tw = np.where(rng.random(tw.shape) < 0.02, np.nan, tw)
+    rh = np.where(rng.random(rh.shape) < 0.02, np.nan, rh)
+    fast = ramer._march_fast(p, tw, rh, top, ice0)
+    slow = ramer._march_numpy(p, tw, rh, top, ice0)
+    for a, b in zip(fast[:2] + fast[3:], slow[:2] + slow[3:]):
+        np.testing.assert_array_equal(a, b)
+    assert slow[3].max() >= 5
+    for key, value in slow[2].items():
+        np.testing.assert_array_equal(fast[2][key], value, err_msg=key)
+
 
 def test_correlated_noise_compiled_matches_numpy(member_columns):
     from ptype import probability

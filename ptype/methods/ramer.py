@@ -109,9 +109,17 @@ def ice_fraction_change(pressure_bottom_hpa, pressure_top_hpa, mean_wetbulb_c,
     ``dI = ln(p_b / p_t) * (T0 - Tw) / (E * RH^efac)`` with the layer-mean wet-bulb and RH;
     ``T0 - Tw`` in kelvin equals ``-Tw`` in degC.  Negative (melting) in a warm layer.
     """
+    return ice_fraction_change_ln(
+        np.log(np.asarray(pressure_bottom_hpa) / np.asarray(pressure_top_hpa)),
+        mean_wetbulb_c, mean_relative_humidity_fraction)
+
+
+def ice_fraction_change_ln(log_pressure_ratio, mean_wetbulb_c, mean_relative_humidity_fraction):
+    """:func:`ice_fraction_change` from ``ln(p_b / p_t)`` directly (the march works in ln p, so
+    its pieces give the difference of their ln p bounds without an ``exp`` and a ``log``)."""
     rh = np.maximum(np.asarray(mean_relative_humidity_fraction, dtype=np.float64),
                     MIN_RH_FRACTION)
-    return (np.log(np.asarray(pressure_bottom_hpa) / np.asarray(pressure_top_hpa))
+    return (np.asarray(log_pressure_ratio, dtype=np.float64)
             * (-np.asarray(mean_wetbulb_c, dtype=np.float64))
             / (MELT_COEFFICIENT * rh ** RH_EXPONENT))
 
@@ -253,8 +261,9 @@ def _moist(p, rh):
 def _pieces(p, tw, rh_frac, top_hpa):
     """Split every interval below the generation top where Tw crosses 0 and -6.6 degC.
 
-    Returns dicts of ``(n, L-1, 3)`` arrays: top and bottom pressure, mean Tw, mean RH and a
-    validity mask; pieces run top -> bottom inside each interval (Tw and RH linear in ln p).
+    Returns a dict of ``(n, L-1, 3)`` arrays: ln p (hPa) of the top and bottom, Tw at both
+    ends, mean Tw, mean RH and a validity mask; pieces run top -> bottom inside each interval
+    (Tw and RH linear in ln p).
     """
     x = np.log(p)
     xg = np.log(top_hpa)[:, None]
@@ -288,7 +297,7 @@ def _pieces(p, tw, rh_frac, top_hpa):
     rh_z = rh_top[..., None] + f1 * (rh_b - rh_top)[..., None]
     valid = ok[..., None] & (f1 - f0 > 1e-12)
     return {
-        "top_hpa": np.exp(xa), "bottom_hpa": np.exp(xb),
+        "ln_top_hpa": xa, "ln_bottom_hpa": xb,
         "tw_top": tw_a, "tw_bottom": tw_z,
         "tw_mean": 0.5 * (tw_a + tw_z), "rh_mean": 0.5 * (rh_a + rh_z),
         "valid": valid,
@@ -298,103 +307,48 @@ def _pieces(p, tw, rh_frac, top_hpa):
 def _sequence(p, tw, rh_frac, top_hpa):
     """:func:`_pieces` flattened to one sequence per column, top -> bottom (intervals reversed,
     pieces in order), ``(n, 3 (L-1))`` arrays."""
-    if not _COMPILED or p.shape[1] < 2:
-        n = p.shape[0]
-        pieces = _pieces(p, tw, rh_frac, top_hpa)
-        return {k: v[:, ::-1, :].reshape(n, -1) for k, v in pieces.items()}
-    n, L = p.shape
-    P = 3 * (L - 1)
-    x = np.ascontiguousarray(np.log(p))
-    xg = np.ascontiguousarray(np.log(top_hpa), dtype=np.float64)
-    xa, xb, tw_a, tw_z, tw_mean, rh_mean = (np.empty((n, P)) for _ in range(6))
-    valid = np.empty((n, P), dtype=np.bool_)
-    _pieces_compiled(x, np.ascontiguousarray(tw, dtype=np.float64),
-                     np.ascontiguousarray(rh_frac, dtype=np.float64), xg,
-                     xa, xb, tw_a, tw_z, tw_mean, rh_mean, valid)
-    return {"top_hpa": np.exp(xa), "bottom_hpa": np.exp(xb), "tw_top": tw_a, "tw_bottom": tw_z,
-            "tw_mean": tw_mean, "rh_mean": rh_mean, "valid": valid}
+    n = p.shape[0]
+    return {k: v[:, ::-1, :].reshape(n, -1) for k, v in _pieces(p, tw, rh_frac, top_hpa).items()}
 
 
-def _pieces_loop(x, tw, rh_frac, xg, xa, xb, tw_a, tw_z, tw_mean, rh_mean, valid):
-    """:func:`_pieces` (on ``x = ln p`` and ``xg = ln top``) as a plain loop, compiled with
-    numba: the same arithmetic in the same order, element by element, written straight into
-    the top -> bottom sequence layout (``ln`` of the piece bounds; the caller takes ``exp``)."""
-    n, L = x.shape
-    for i in range(n):
-        g = xg[i]
-        for j in range(L - 1):
-            x_b, x_t = x[i, j], x[i, j + 1]
-            tb, tt = tw[i, j], tw[i, j + 1]
-            rb, rt = rh_frac[i, j], rh_frac[i, j + 1]
-            ok = (np.isfinite(x_b) and np.isfinite(x_t) and np.isfinite(tb) and np.isfinite(tt)
-                  and np.isfinite(g))
-            # np.maximum: NaN propagates.
-            if np.isnan(x_t) or np.isnan(g):
-                x_top = np.nan
-            else:
-                x_top = x_t if x_t >= g else g  # noqa: FURB136 - same as np.maximum
-            w = (x_top - x_b) / (x_t - x_b) if x_t != x_b else 0.0
-            tw_top = tb + w * (tt - tb)
-            rh_top = rb + w * (rt - rb)
-            ok = ok and x_b > x_top
-            f = (tw_top - 0.0) / (tw_top - tb)
-            c0 = f if (f > 0.0 and f < 1.0) else 1.0
-            f = (tw_top - FREEZING_ONSET_TW_C) / (tw_top - tb)
-            c1 = f if (f > 0.0 and f < 1.0) else 1.0
-            lo = c0 if c0 <= c1 else c1  # noqa: FURB136 - spelled out for numba
-            hi = c0 if c0 >= c1 else c1  # noqa: FURB136
-            dx = x_b - x_top
-            dtw = tb - tw_top
-            drh = rb - rh_top
-            base = 3 * (L - 2 - j)
-            for k in range(3):
-                f0 = 0.0 if k == 0 else (lo if k == 1 else hi)
-                f1 = lo if k == 0 else (hi if k == 1 else 1.0)
-                q = base + k
-                xa[i, q] = x_top + f0 * dx
-                xb[i, q] = x_top + f1 * dx
-                a = tw_top + f0 * dtw
-                z = tw_top + f1 * dtw
-                tw_a[i, q] = a
-                tw_z[i, q] = z
-                tw_mean[i, q] = 0.5 * (a + z)
-                ra = rh_top + f0 * drh
-                rz = rh_top + f1 * drh
-                rh_mean[i, q] = 0.5 * (ra + rz)
-                valid[i, q] = ok and (f1 - f0 > 1e-12)
+#: Rows of the stage table: ln p of the top and bottom (pressure once read out), kind (+1
+#: warm, -1 not warm), extreme wet-bulb, ice fraction at the start and at the end.
+_STAGE_KEYS = ("top_hpa", "bottom_hpa", "kind", "extreme_c", "ice_start", "ice_end")
+#: Stages per column the compiled march makes room for at first; a chunk with more is
+#: marched again with the room it needs (the count is exact either way).
+_STAGE_ROOM = 6
 
 
 def _march(p, tw, rh_frac, top_hpa, initial_ice):
     """Follow the ice fraction down from the generation top, vectorised over columns.
 
     Returns the final ice fraction, the "was liquid" flag and the stages (maximal runs of
-    warm, Tw > 0, or not-warm pieces) with the ice fraction at their ends.
-
-    Everything that does not depend on the running ice fraction (the change across each
-    piece, its kind, its validity) is computed for all pieces at once; the sequential loop
-    only carries the clipped ice fraction down, skipping pieces no column uses.  The stages
-    for the explanation are then read off the recorded history without a loop.
+    warm, Tw > 0, or not-warm pieces) with the ice fraction at their ends, as a dict of
+    ``(n, S)`` arrays keyed by :data:`_STAGE_KEYS`, and the number of stages per column.
     """
-    n = p.shape[0]
+    ice0 = np.where(np.isfinite(initial_ice), initial_ice, 0.0).astype(np.float64)
+    if _COMPILED:
+        return _march_fast(p, tw, rh_frac, top_hpa, ice0)
+    return _march_numpy(p, tw, rh_frac, top_hpa, ice0)
+
+
+def _march_numpy(p, tw, rh_frac, top_hpa, ice0):
+    """:func:`_march` with numpy: everything that does not depend on the running ice fraction
+    (the change across each piece, its kind, its validity) for all pieces at once, then a
+    loop over pieces carries the clipped ice fraction down, then the stages are read off the
+    recorded history."""
     seq = _sequence(p, tw, rh_frac, top_hpa)
     valid = seq["valid"]
-    P = valid.shape[1]
-    d_ice = np.where(valid, ice_fraction_change(seq["bottom_hpa"], seq["top_hpa"], seq["tw_mean"],
-                                                seq["rh_mean"]), 0.0)
+    # ln(p_b / p_t) is the difference of the pieces' ln p bounds.
+    d_ice = np.where(valid, ice_fraction_change_ln(seq["ln_bottom_hpa"] - seq["ln_top_hpa"],
+                                                   seq["tw_mean"], seq["rh_mean"]), 0.0)
     warm = seq["tw_mean"] > 0.0
     # An all-liquid drop needs Tw < -6.6 degC to begin freezing; ice needs Tw > 0 to begin
     # melting (automatic: dI >= 0 there and I is capped at 1).
     always = valid & (warm | (seq["tw_mean"] < FREEZING_ONSET_TW_C))
-    ice0 = np.where(np.isfinite(initial_ice), initial_ice, 0.0).astype(np.float64)
-    if _COMPILED:
-        ice = np.empty(n)
-        hist = np.empty((n, P))
-        _carry_compiled(np.ascontiguousarray(d_ice), np.ascontiguousarray(always),
-                        np.ascontiguousarray(valid), ice0, ice, hist)
-    else:
-        ice, hist = _carry_numpy(d_ice, always, valid, ice0)
+    ice, hist = _carry_numpy(d_ice, always, valid, ice0)
     was_liquid = (ice0 <= 0.0) | np.any(valid & (hist <= 0.0), axis=1)
-    stages, count = _stages(seq, valid, warm, hist, ice0)
+    stages, count = _stages_numpy(seq, valid, warm, hist, ice0)
     return ice, was_liquid, stages, count
 
 
@@ -420,88 +374,8 @@ def _carry_numpy(d_ice, always, valid, ice0):
     return ice, hist
 
 
-def _carry_loop(d_ice, always, valid, ice0, ice, hist):
-    """:func:`_carry_numpy` as a plain loop (compiled with numba): the same operations per
-    column and piece, without a numpy call per piece.  Fills ``ice`` and ``hist``."""
-    n, P = valid.shape
-    for i in range(n):
-        x = ice0[i]
-        for q in range(P):
-            if always[i, q] or (valid[i, q] and x > 0.0):
-                y = x + d_ice[i, q]
-                # np.maximum / np.minimum semantics: NaN propagates.
-                if y < 0.0:  # noqa: PLR1730 - NaN must pass through, as in numpy
-                    y = 0.0
-                if y > 1.0:  # noqa: PLR1730
-                    y = 1.0
-                x = y
-            hist[i, q] = x
-        ice[i] = x
-
-
-def _stages(seq, valid, warm, hist, ice0):
-    """Maximal runs of warm / not-warm valid pieces, with bounds, extremes and ice fractions."""
-    if _COMPILED:
-        return _stages_fast(seq, valid, warm, hist, ice0)
-    return _stages_numpy(seq, valid, warm, hist, ice0)
-
-
-def _stages_fast(seq, valid, warm, hist, ice0):
-    """:func:`_stages_numpy` through the compiled :func:`_stages_loop`."""
-    n, P = valid.shape
-    # Stages start where the kind of consecutive valid pieces differs, so a column has at most
-    # one stage more than the kind changes of its whole piece sequence: size the table by that.
-    changes = np.count_nonzero(warm[:, 1:] != warm[:, :-1], axis=1) if P > 1 else np.zeros(n)
-    width = max(min(P, 1 + int(changes.max(initial=0))), 1)
-    table = np.full((6, n, width), np.nan)
-    count = np.zeros(n, dtype=np.int64)
-    _stages_compiled(np.ascontiguousarray(valid), np.ascontiguousarray(warm),
-                     np.ascontiguousarray(seq["top_hpa"]), np.ascontiguousarray(seq["bottom_hpa"]),
-                     np.ascontiguousarray(seq["tw_top"]), np.ascontiguousarray(seq["tw_bottom"]),
-                     np.ascontiguousarray(hist), np.ascontiguousarray(ice0, dtype=np.float64),
-                     table, count)
-    S = int(max(count.max(initial=0), 1))
-    keys = ("top_hpa", "bottom_hpa", "kind", "extreme_c", "ice_start", "ice_end")
-    return {k: table[j, :, :S] for j, k in enumerate(keys)}, count
-
-
-def _stages_loop(valid, warm, top_hpa, bottom_hpa, tw_top, tw_bottom, hist, ice0, table, count):
-    """Stages of :func:`_stages_numpy` by one pass over each column's valid pieces (compiled
-    with numba).  ``table[0..5]`` receive top, bottom, kind, extreme, ice at start and end."""
-    n, P = valid.shape
-    for i in range(n):
-        s = -1
-        kind = 0
-        last = -1  # previous valid piece
-        for q in range(P):
-            if not valid[i, q]:
-                continue
-            k = 1 if warm[i, q] else -1
-            if k != kind:
-                s += 1
-                kind = k
-                table[0, i, s] = top_hpa[i, q]
-                table[2, i, s] = k
-                table[4, i, s] = hist[i, last] if last >= 0 else ice0[i]
-                table[3, i, s] = -np.inf if k > 0 else np.inf
-            a, b = tw_top[i, q], tw_bottom[i, q]
-            if k > 0:
-                hi = a if a >= b else b  # noqa: FURB136 - spelled out for numba
-                if hi > table[3, i, s]:  # noqa: PLR1730
-                    table[3, i, s] = hi
-            else:
-                lo = a if a <= b else b  # noqa: FURB136
-                if lo < table[3, i, s]:  # noqa: PLR1730
-                    table[3, i, s] = lo
-            # Every piece may end its stage; the last one of the stage wins.
-            table[1, i, s] = bottom_hpa[i, q]
-            table[5, i, s] = hist[i, q]
-            last = q
-        count[i] = s + 1
-
-
 def _stages_numpy(seq, valid, warm, hist, ice0):
-    """Maximal runs of warm / not-warm valid pieces, numpy path of :func:`_stages`."""
+    """Maximal runs of warm / not-warm valid pieces, with bounds, extremes and ice fractions."""
     n, P = valid.shape
     rows = np.arange(n)[:, None]
     pos = np.broadcast_to(np.arange(P), (n, P))
@@ -517,16 +391,15 @@ def _stages_numpy(seq, valid, warm, hist, ice0):
     stage_id = np.cumsum(starts, axis=1) - 1
     count = starts.sum(axis=1)
     S = int(max(count.max(initial=0), 1))
-    keys = ("top_hpa", "bottom_hpa", "kind", "extreme_c", "ice_start", "ice_end")
-    st = {k: np.full((n, S), np.nan) for k in keys}
+    st = {k: np.full((n, S), np.nan) for k in _STAGE_KEYS}
     si, sq = np.nonzero(starts)
-    st["top_hpa"][si, stage_id[si, sq]] = seq["top_hpa"][si, sq]
+    st["top_hpa"][si, stage_id[si, sq]] = seq["ln_top_hpa"][si, sq]
     st["kind"][si, stage_id[si, sq]] = kind[si, sq]
     before = prev[si, sq]
     st["ice_start"][si, stage_id[si, sq]] = np.where(before >= 0, hist[si, np.maximum(before, 0)],
                                                      ice0[si])
     ei, eq = np.nonzero(ends)
-    st["bottom_hpa"][ei, stage_id[ei, eq]] = seq["bottom_hpa"][ei, eq]
+    st["bottom_hpa"][ei, stage_id[ei, eq]] = seq["ln_bottom_hpa"][ei, eq]
     st["ice_end"][ei, stage_id[ei, eq]] = hist[ei, eq]
     # Extremes: warmest wet-bulb of a warm stage, coldest of a cold one.
     vi, vq = np.nonzero(valid)
@@ -540,20 +413,131 @@ def _stages_numpy(seq, valid, warm, hist, ice0):
     present = np.arange(S)[None, :] < count[:, None]
     st["extreme_c"] = np.where(present, np.where(st["kind"] > 0, mx.reshape(n, S), mn.reshape(n, S)),
                                np.nan)
+    for key in ("top_hpa", "bottom_hpa"):  # ln p -> hPa, only for the stage bounds
+        st[key] = np.exp(st[key])
     return st, count
+
+
+def _march_fast(p, tw, rh_frac, top_hpa, ice0):
+    """:func:`_march_numpy` through the compiled :func:`_march_loop`: one pass per column, no
+    per-piece arrays; the same arithmetic in the same order, so the same numbers."""
+    n = p.shape[0]
+    x = np.ascontiguousarray(np.log(p))
+    xg = np.ascontiguousarray(np.log(top_hpa), dtype=np.float64)
+    tw = np.ascontiguousarray(tw, dtype=np.float64)
+    rh_frac = np.ascontiguousarray(rh_frac, dtype=np.float64)
+    ice = np.empty(n)
+    was_liquid = np.empty(n, dtype=np.bool_)
+    count = np.empty(n, dtype=np.int64)
+    room = _STAGE_ROOM
+    while True:
+        table = np.full((len(_STAGE_KEYS), n, room), np.nan)
+        _march_compiled(x, tw, rh_frac, xg, ice0, ice, was_liquid, table, count)
+        S = int(max(count.max(initial=0), 1))
+        if S <= room:
+            break
+        room = S  # rare: a column with more stages than room; march again with enough
+    stages = {k: np.ascontiguousarray(table[j, :, :S]) for j, k in enumerate(_STAGE_KEYS)}
+    for key in ("top_hpa", "bottom_hpa"):  # ln p -> hPa, only for the stage bounds
+        stages[key] = np.exp(stages[key])
+    return ice, was_liquid, stages, count
+
+
+def _march_loop(x, tw, rh_frac, xg, ice0, ice_out, was_liquid_out, table, count):
+    """:func:`_march_numpy` for each column in one pass (compiled with numba): the pieces of
+    :func:`_pieces` from the top down, the change of :func:`ice_fraction_change_ln` and the
+    clipped carry of :func:`_carry_numpy` on every valid piece, and the stages of
+    :func:`_stages_numpy` (ln p bounds) written into ``table`` while there is room for them.
+    ``count`` receives every column's number of stages, room or not."""
+    n, L = x.shape
+    room = table.shape[2]
+    for i in range(n):
+        g = xg[i]
+        ice = ice0[i]
+        liquid = ice <= 0.0
+        s = -1
+        kind = 0
+        for j in range(L - 2, -1, -1):
+            x_b, x_t = x[i, j], x[i, j + 1]
+            tb, tt = tw[i, j], tw[i, j + 1]
+            rb, rt = rh_frac[i, j], rh_frac[i, j + 1]
+            if not (np.isfinite(x_b) and np.isfinite(x_t) and np.isfinite(tb)
+                    and np.isfinite(tt) and np.isfinite(g)):
+                continue
+            x_top = x_t if x_t >= g else g  # noqa: FURB136 - np.maximum of finite values
+            if not x_b > x_top:
+                continue
+            w = (x_top - x_b) / (x_t - x_b) if x_t != x_b else 0.0
+            tw_top = tb + w * (tt - tb)
+            rh_top = rb + w * (rt - rb)
+            f = (tw_top - 0.0) / (tw_top - tb)
+            c0 = f if (f > 0.0 and f < 1.0) else 1.0
+            f = (tw_top - FREEZING_ONSET_TW_C) / (tw_top - tb)
+            c1 = f if (f > 0.0 and f < 1.0) else 1.0
+            lo = c0 if c0 <= c1 else c1  # noqa: FURB136 - spelled out for numba
+            hi = c0 if c0 >= c1 else c1  # noqa: FURB136
+            dx = x_b - x_top
+            dtw = tb - tw_top
+            drh = rb - rh_top
+            for k in range(3):
+                f0 = 0.0 if k == 0 else (lo if k == 1 else hi)
+                f1 = lo if k == 0 else (hi if k == 1 else 1.0)
+                if not f1 - f0 > 1e-12:
+                    continue
+                xa = x_top + f0 * dx
+                xb = x_top + f1 * dx
+                a = tw_top + f0 * dtw
+                z = tw_top + f1 * dtw
+                tw_mean = 0.5 * (a + z)
+                rh_mean = 0.5 * ((rh_top + f0 * drh) + (rh_top + f1 * drh))
+                warm = tw_mean > 0.0
+                before = ice
+                if warm or tw_mean < FREEZING_ONSET_TW_C or ice > 0.0:
+                    # np.maximum / np.minimum semantics: NaN propagates.
+                    rh = MIN_RH_FRACTION if rh_mean < MIN_RH_FRACTION else rh_mean  # noqa: FURB136
+                    y = ice + (xb - xa) * (-tw_mean) / (MELT_COEFFICIENT * rh ** RH_EXPONENT)
+                    if y < 0.0:  # noqa: PLR1730 - NaN must pass through, as in numpy
+                        y = 0.0
+                    if y > 1.0:  # noqa: PLR1730
+                        y = 1.0
+                    ice = y
+                if ice <= 0.0:
+                    liquid = True
+                kk = 1 if warm else -1
+                if kk != kind:
+                    s += 1
+                    kind = kk
+                    if s < room:
+                        table[0, i, s] = xa
+                        table[2, i, s] = kk
+                        table[3, i, s] = -np.inf if kk > 0 else np.inf
+                        table[4, i, s] = before
+                if s < room:
+                    if kk > 0:
+                        top = a if a >= z else z  # noqa: FURB136 - spelled out for numba
+                        if top > table[3, i, s]:  # noqa: PLR1730
+                            table[3, i, s] = top
+                    else:
+                        bottom = a if a <= z else z  # noqa: FURB136
+                        if bottom < table[3, i, s]:  # noqa: PLR1730
+                            table[3, i, s] = bottom
+                    # Every piece may end its stage; the last one of the stage wins.
+                    table[1, i, s] = xb
+                    table[5, i, s] = ice
+        ice_out[i] = ice
+        was_liquid_out[i] = liquid
+        count[i] = s + 1
 
 
 try:  # numba is a declared dependency; the numpy path stays for installs without it
     from numba import njit as _njit
-    _carry_compiled = _njit(cache=True, nogil=True)(_carry_loop)
     # error_model="numpy": x / 0 gives inf or NaN as in numpy instead of raising.
-    _pieces_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_pieces_loop)
-    _stages_compiled = _njit(cache=True, nogil=True)(_stages_loop)
+    _march_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_march_loop)
     _moist = _njit(cache=True, nogil=True, inline="always")(_moist)
     _generation_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_generation_loop)
     _COMPILED = True
 except ImportError:  # pragma: no cover
-    _carry_compiled = _pieces_compiled = _stages_compiled = _generation_compiled = None
+    _march_compiled = _generation_compiled = None
     _COMPILED = False
 
 
