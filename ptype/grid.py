@@ -46,12 +46,18 @@ import numpy as np
 from .codes import GRIB2_4201_MEANINGS, LABELS, NO_RESULT, Code, to_grib2
 from .errors import OptionError, ReaderError
 
-#: Columns per chunk when none are given.  Small enough that the engine's (n, L) float64
+#: Column diagnoses per dask chunk when no chunks are given (a chunk of ``c`` columns with
+#: ``m`` members makes ``c (1 + m)``).  Large, so that the whole grid is a few dozen tasks:
+#: every task is a round trip through the scheduler's thread, and with 4,096-column chunks
+#: the 1.9 M-column run had 14,000 tasks and its two worker threads waited for work 15 % of
+#: the time (measured, docs/performance.md).
+DEFAULT_CHUNK_WORK = 32768
+#: Columns the engine diagnoses at once inside a chunk.  Small enough that its (n, L) float64
 #: temporaries (1.3 MB each at 40 levels) are recycled by the allocator instead of being
-#: mapped and unmapped from the kernel for every array: with 32,768-column chunks the system
+#: mapped and unmapped from the kernel for every array: with 32,768 columns at once the system
 #: time of a run exceeded its user time and two threads ran slower than one (measured,
-#: docs/performance.md); 4,096 keeps the per-chunk Python overhead negligible.
-DEFAULT_CHUNK_COLUMNS = 4096
+#: docs/performance.md); 4,096 keeps the per-batch Python overhead negligible.
+ENGINE_BATCH_COLUMNS = 4096
 #: Member columns diagnosed at once (columns x members), for the same reason and for
 #: bounded memory (the engine holds about 20 kB per 40-level column while it works).
 MEMBER_BATCH_COLUMNS = 4096
@@ -248,28 +254,40 @@ def parse_chunks(text: str | None) -> dict[str, int]:
     return out
 
 
-def default_chunks(ds, fields: GridFields, target_columns: int = DEFAULT_CHUNK_COLUMNS) -> dict:
-    """Chunks of about ``target_columns`` columns, split evenly over the horizontal dimensions."""
+def default_chunks(ds, fields: GridFields, members: int = 0) -> dict:
+    """Chunks of about ``DEFAULT_CHUNK_WORK / (1 + members)`` columns that follow how the
+    temperature is stored: whole multiples of its file chunks when it is chunked, and when it
+    is contiguous, whole rows of the inner horizontal dimensions (bands along the outermost),
+    so that every chunk is read as a few long runs of the file.  One time step per chunk; the
+    level dimension whole."""
     chunks: dict[str, int] = {fields.level_dim: -1}
     if fields.time_dim:
         chunks[fields.time_dim] = 1
-    sizes = [ds.sizes[d] for d in fields.horizontal_dims]
-    remaining = float(target_columns)
-    for i, (dim, size) in enumerate(zip(fields.horizontal_dims, sizes)):
-        left = len(sizes) - i
-        share = max(1, round(remaining ** (1.0 / left)))
-        c = min(size, share)
-        chunks[dim] = c
-        remaining = max(1.0, remaining / c)
+    var = ds[fields.temperature]
+    stored = var.encoding.get("chunksizes") or (1,) * var.ndim
+    unit = {d: max(1, int(c)) for d, c in zip(var.dims, stored)}
+    remaining = float(max(1, DEFAULT_CHUNK_WORK // (1 + int(members))))
+    # Innermost (fastest varying in the file) first: it is taken whole when it fits.
+    for dim in reversed([d for d in var.dims if d in fields.horizontal_dims]):
+        size, u = ds.sizes[dim], unit.get(dim, 1)
+        units = max(1, min(-(-size // u), round(remaining / u)))
+        chunks[dim] = min(size, units * u)
+        remaining = max(1.0, remaining / chunks[dim])
     return chunks
 
 
-def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | None = None):
+def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | None = None,
+              members: int = 0):
     """Open one or more NetCDF files as one dask-backed dataset, combined along time.
 
-    ``chunks`` maps dimension names to chunk sizes (the level dimension is always whole).
+    ``chunks`` maps dimension names to chunk sizes (the level dimension is always whole); the
+    dimensions not given follow :func:`default_chunks`, sized for ``members`` Monte-Carlo
+    members per column (the work of a chunk grows with them).
     """
     import xarray as xr
+
+    from .probability import check_members
+    members = check_members(members)
     if isinstance(paths, (str, os.PathLike)):
         paths = [paths]
     paths = [os.fspath(p) for p in paths]
@@ -304,7 +322,7 @@ def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | N
     if unknown:
         raise OptionError(f"chunks: unknown dimension(s) {', '.join(unknown)}; the input has "
                           f"{', '.join(map(str, ds.dims))}", field="chunks")
-    full = default_chunks(ds, fields)
+    full = default_chunks(ds, fields, members)
     full.update(want)
     full[fields.level_dim] = -1
     full = {d: c for d, c in full.items() if d in ds.dims}
@@ -480,46 +498,67 @@ def diagnose_block(columns, layout: KernelLayout, seed=None) -> np.ndarray:
     return out
 
 
+#: Inputs of :func:`column_kernel` on the levels (the others are per column).
+_LEVEL_INPUTS = ("pressure", "temperature", "humidity", "height")
+
+
 def column_kernel(*arrays, names: tuple[str, ...], consts: Mapping[str, float],
                   fields: GridFields, layout: KernelLayout, seed=None):
     """The function mapped over chunks: arrays ``(..., level)`` (level inputs) and ``(...)``
     (surface inputs and the column index), named by ``names``; ``consts`` holds the unit
-    conversions; returns ``(..., n_fields)`` float32."""
+    conversions; returns ``(..., n_fields)`` float32.  The columns go through the engine in
+    batches of :data:`ENGINE_BATCH_COLUMNS`."""
     a = dict(zip(names, arrays))
-    a.update(consts)
-    t_raw = a["temperature"]
-    shape = t_raw.shape[:-1]
-    L = t_raw.shape[-1]
+    shape = a["temperature"].shape[:-1]
+    L = a["temperature"].shape[-1]
     n = int(np.prod(shape, dtype=np.int64))
-
-    def lev(x):
-        return np.broadcast_to(x, shape + (L,)).reshape(n, L)
-
-    def sfc(x):
-        return np.broadcast_to(x, shape).reshape(n)
-
-    p = lev(a["pressure"]).astype(np.float64) * fields.level_to_hpa
-    t = lev(t_raw) - a["_t_offset"]
-    hum = lev(a["humidity"])
-    if fields.humidity_kind == "dew_point_temperature":
-        hum = hum - a["_h_scale"]
-    else:
-        hum = hum * a["_h_scale"]
-    td = dewpoint_from_humidity_c(fields.humidity_kind, hum, p, t)
-    z = lev(a["height"]) * a["_z_scale"] if "height" in a else None
-    psfc = sfc(a["surface_pressure"]) * a["_ps_scale"] if "surface_pressure" in a else None
-    zsfc = sfc(a["surface_altitude"]) * a["_zs_scale"] if "surface_altitude" in a else None
-    t2 = sfc(a["temperature_2m"]) - a["_t2_offset"] if "temperature_2m" in a else None
-    td2 = sfc(a["dewpoint_2m"]) - a["_td2_offset"] if "dewpoint_2m" in a else None
-    columns = build_columns(p, t, td, z, psfc, zsfc, t2, td2)
-    block_seed = None
-    if seed is not None and layout.members:
-        # One stream per chunk, derived from the user's seed and the chunk's first column,
-        # so that a run is reproducible for the same seed and chunking.
-        first = int(sfc(a["column_index"])[0]) if n else 0
-        block_seed = np.random.SeedSequence([int(seed), first]).generate_state(1)[0]
-    out = diagnose_block(columns, layout, block_seed)
+    flat = {}
+    for key, x in a.items():
+        if key == "pressure":
+            flat[key] = np.asarray(x).reshape(1, L)  # the level coordinate, shared
+        elif key in _LEVEL_INPUTS:
+            flat[key] = np.broadcast_to(x, shape + (L,)).reshape(n, L)
+        else:
+            flat[key] = np.broadcast_to(x, shape).reshape(n)
+    out = np.empty((n, len(layout.names)), dtype=np.float32)
+    for start in range(0, n, ENGINE_BATCH_COLUMNS):
+        part = {k: (v if k == "pressure" else v[start:start + ENGINE_BATCH_COLUMNS])
+                for k, v in flat.items()}
+        out[start:start + ENGINE_BATCH_COLUMNS] = _kernel_batch(part, consts, fields, layout,
+                                                                seed)
     return out.reshape(shape + (len(layout.names),))
+
+
+def _kernel_batch(a, consts, fields: GridFields, layout: KernelLayout, seed=None):
+    """:func:`column_kernel` on one batch: ``(n, L)`` level inputs, ``(n,)`` surface inputs."""
+    n = a["temperature"].shape[0]
+    p = np.broadcast_to(np.asarray(a["pressure"], dtype=np.float64) * fields.level_to_hpa,
+                        a["temperature"].shape)
+    t = a["temperature"] - consts["_t_offset"]
+    hum = a["humidity"]
+    if fields.humidity_kind == "dew_point_temperature":
+        hum = hum - consts["_h_scale"]
+    else:
+        hum = hum * consts["_h_scale"]
+    td = dewpoint_from_humidity_c(fields.humidity_kind, hum, p, t)
+
+    def scaled(key, const, offset=False):
+        if key not in a:
+            return None
+        return a[key] - consts[const] if offset else a[key] * consts[const]
+
+    columns = build_columns(p, t, td, scaled("height", "_z_scale"),
+                            scaled("surface_pressure", "_ps_scale"),
+                            scaled("surface_altitude", "_zs_scale"),
+                            scaled("temperature_2m", "_t2_offset", offset=True),
+                            scaled("dewpoint_2m", "_td2_offset", offset=True))
+    batch_seed = None
+    if seed is not None and layout.members:
+        # One stream per batch, derived from the user's seed and the batch's first column,
+        # so that a run is reproducible for the same seed and chunking.
+        first = int(a["column_index"][0]) if n else 0
+        batch_seed = np.random.SeedSequence([int(seed), first]).generate_state(1)[0]
+    return diagnose_block(columns, layout, batch_seed)
 
 
 # --------------------------------------------------------------------------------------------

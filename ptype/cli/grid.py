@@ -63,7 +63,7 @@ def run(args) -> int:
         client = _connect(args.scheduler)
     try:
         start = time.perf_counter()
-        ds = grid.open_grid(args.inputs, chunks)
+        ds = grid.open_grid(args.inputs, chunks, members=args.members)
         out = grid.diagnose_dataset(ds, members=args.members, seed=args.seed,
                                     methods=args.methods, per_method=args.per_method)
         grid.write_grid(out, args.output, progress=progress, client=client, argv=_argv(args))
