@@ -238,6 +238,15 @@ def test_column_kernel_batches_give_the_same_answers(small_file, small_result, m
         np.testing.assert_array_equal(out[name].values, small_result[name].values)
 
 
+def test_retain_freed_memory_applies_on_glibc():
+    import platform
+    applied = grid.retain_freed_memory()
+    if platform.libc_ver()[0] == "glibc":
+        assert applied is True
+    else:
+        assert applied is False
+
+
 def test_default_chunks_follow_storage_and_members(small_grid, tmp_path, monkeypatch):
     # Contiguous storage: whole rows of the innermost dimension, bands along the outer one.
     monkeypatch.setattr(grid, "DEFAULT_CHUNK_WORK", 64)

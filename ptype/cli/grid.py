@@ -61,6 +61,8 @@ def run(args) -> int:
     client = None
     if args.scheduler:
         client = _connect(args.scheduler)
+    else:
+        grid.retain_freed_memory()  # this process computes: reuse freed memory (see there)
     try:
         start = time.perf_counter()
         ds = grid.open_grid(args.inputs, chunks, members=args.members)
