@@ -24,10 +24,10 @@ from __future__ import annotations
 
 import numpy as np
 
+from . import thermo
 from .codes import Code
 from .columns import Columns
 from .errors import OptionError
-from . import thermo
 
 DEFAULT_MEMBERS = 50
 TEMPERATURE_SIGMA_K = 0.7
@@ -54,12 +54,20 @@ def correlated_noise(height_m: np.ndarray, rng: np.random.Generator,
     AR(1) along each column: ``e_k = r_k e_{k-1} + sqrt(1 - r_k^2) w_k`` with
     ``r_k = exp(-(z_k - z_{k-1}) / L)``; NaN heights (padding) give r = 0.
     """
-    n, L = height_m.shape
-    white = rng.standard_normal((n, L))
+    r, s = ar1_coefficients(height_m, length_m)
+    return _ar1(r, s, rng.standard_normal(np.shape(height_m)))
+
+
+def ar1_coefficients(height_m: np.ndarray, length_m: float = CORRELATION_LENGTH_M):
+    """The ``r_k`` and ``sqrt(1 - r_k^2)`` of :func:`correlated_noise`, ``(n, L-1)`` each."""
     dz = np.diff(height_m, axis=1)
     r = np.exp(-np.abs(np.nan_to_num(dz, nan=np.inf)) / length_m)
-    s = np.sqrt(1.0 - r * r)
-    if _COMPILED and L > 1:
+    return r, np.sqrt(1.0 - r * r)
+
+
+def _ar1(r, s, white):
+    """The AR(1) recursion of :func:`correlated_noise` on white noise ``(n, L)``."""
+    if _COMPILED and white.shape[1] > 1:
         out = np.empty_like(white)
         _ar1_compiled(np.ascontiguousarray(r), np.ascontiguousarray(s), white, out)
         return out
@@ -106,8 +114,12 @@ def perturb(columns: Columns, members: int, seed=None, *,
     rng = np.random.default_rng(seed)
     rep = np.repeat(np.arange(columns.n_columns), members)
     base = columns.take(rep)
-    e_t = correlated_noise(base.height_m, rng, correlation_length_m)
-    e_rh = correlated_noise(base.height_m, rng, correlation_length_m)
+    # The members of a column share its heights, hence the AR(1) coefficients: computed once
+    # per column (the same numbers as from the repeated heights), drawn twice per member.
+    r, s = (np.repeat(a, members, axis=0)
+            for a in ar1_coefficients(columns.height_m, correlation_length_m))
+    e_t = _ar1(r, s, rng.standard_normal(base.height_m.shape))
+    e_rh = _ar1(r, s, rng.standard_normal(base.height_m.shape))
     t = base.temperature_c + temperature_sigma_k * e_t
     rh = np.clip(base.relative_humidity_pct + relative_humidity_sigma_pct * e_rh, 1.0, 100.0)
     td = thermo.dewpoint_from_relative_humidity_c(t, rh)
