@@ -97,8 +97,9 @@ def _integrand(height_m, value_c):
     the several areas integrated over one profile)."""
     z = np.asarray(height_m, dtype=np.float64)
     v = np.asarray(value_c, dtype=np.float64)
-    za, zb = z[:, :-1], z[:, 1:]
-    va, vb = v[:, :-1], v[:, 1:]
+    # Contiguous once here rather than at every compiled call of area_k_m.
+    za, zb = np.ascontiguousarray(z[:, :-1]), np.ascontiguousarray(z[:, 1:])
+    va, vb = np.ascontiguousarray(v[:, :-1]), v[:, 1:]
     ok = np.isfinite(za) & np.isfinite(zb) & np.isfinite(va) & np.isfinite(vb) & (zb > za)
     with np.errstate(invalid="ignore", divide="ignore"):
         slope = np.where(ok, (vb - va) / (zb - za), 0.0)
