@@ -22,10 +22,10 @@ import warnings
 from pathlib import Path
 
 import numpy as np
+from _common import code_version  # sibling module of the scripts
 
 import ptype
 from ptype.probability import DEFAULT_MEMBERS
-from _common import code_version  # sibling module of the scripts
 
 TARGET_MS = 5.0
 #: Median of this benchmark before the engine's call overhead was cut (same profile, quiet

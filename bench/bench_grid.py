@@ -44,7 +44,7 @@ RESULTS = Path(__file__).with_name("results")
 TARGETS = {"deterministic_1p9M_s": 30.0, "deterministic_peak_rss_gb": 4.0,
            "members20_200k_s": 60.0}
 
-from _common import code_version  # noqa: E402 - sibling module of the scripts
+from _common import code_version  # sibling module of the scripts
 
 
 def _generator():

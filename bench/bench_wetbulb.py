@@ -31,7 +31,7 @@ from ptype import fastthermo, thermo
 TARGET_POINTS_PER_S = 20e6
 TARGET_RATIO_METPY = 40_000
 
-from _common import code_version  # noqa: E402 - sibling module of the scripts
+from _common import code_version  # sibling module of the scripts
 
 
 def population(n: int, seed: int = 0):

@@ -12,7 +12,8 @@ Results are guidance: they defer to official warnings, local codes and licensed 
 
 from __future__ import annotations
 
-from importlib.metadata import PackageNotFoundError, version as _version
+from importlib.metadata import PackageNotFoundError
+from importlib.metadata import version as _version
 
 from .errors import OptionError, ProfileError, ReaderError
 from .profile import Profile
@@ -28,8 +29,16 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
 CAUTION = ("Guidance only: an automated diagnosis that can be wrong. Official warnings, "
            "local codes and licensed practice take precedence.")
 
-__all__ = ["Profile", "ProfileError", "ReaderError", "OptionError", "read_profile",
-           "wet_bulb_temperature", "CAUTION", "__version__"]
+__all__ = [
+    "CAUTION",
+    "OptionError",
+    "Profile",
+    "ProfileError",
+    "ReaderError",
+    "__version__",
+    "read_profile",
+    "wet_bulb_temperature",
+]
 
 
 def __getattr__(name):

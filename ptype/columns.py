@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from typing import Sequence
+from collections.abc import Sequence
 
 import numpy as np
 
@@ -67,7 +67,7 @@ class Columns:
     def from_arrays(cls, pressure_hpa, temperature_c, dewpoint_c, height_m=None, *,
                     surface_height_m=None, surface_temperature_c=None, surface_dewpoint_c=None,
                     road_surface_temperature_c=None, precipitation_rate_mm_h=None,
-                    wind_speed_m_s=None, sort: bool = True) -> "Columns":
+                    wind_speed_m_s=None, sort: bool = True) -> Columns:
         """Build from ``(n, L)`` arrays in any level order; NaN marks a missing level.
 
         A level is dropped (moved to the padding) when its pressure, temperature or
@@ -100,7 +100,7 @@ class Columns:
                              road_surface_temperature_c, precipitation_rate_mm_h, wind_speed_m_s)
 
     @classmethod
-    def from_profiles(cls, profiles: Sequence) -> "Columns":
+    def from_profiles(cls, profiles: Sequence) -> Columns:
         """Stack validated :class:`~ptype.profile.Profile` objects into padded columns."""
         n = len(profiles)
         width = max(pr.n_levels for pr in profiles)
@@ -125,7 +125,7 @@ class Columns:
                              sfc["t"], sfc["td"], sfc["road"], sfc["rate"], sfc["wind"])
 
     @classmethod
-    def _complete(cls, p, z, t, td, count, sfc_t, sfc_td, road, rate, wind) -> "Columns":
+    def _complete(cls, p, z, t, td, count, sfc_t, sfc_td, road, rate, wind) -> Columns:
         n = p.shape[0]
         rh = thermo.relative_humidity_pct(t, td)
         tw, twa = thermo.wet_bulb_temperatures(p, t, td)
@@ -149,7 +149,7 @@ class Columns:
             wind_speed_m_s=_per_column(wind, n),
         )
 
-    def with_profile(self, temperature_c, dewpoint_c) -> "Columns":
+    def with_profile(self, temperature_c, dewpoint_c) -> Columns:
         """New columns with the same pressures, heights and surface extras but new T and Td
         (used by the Monte-Carlo members).  Surface T/Td shift with the lowest level."""
         t = np.where(self.valid, temperature_c, np.nan)
@@ -163,7 +163,7 @@ class Columns:
                                  self.precipitation_rate_mm_h, self.wind_speed_m_s)
 
     @staticmethod
-    def concat(parts: Sequence["Columns"]) -> "Columns":
+    def concat(parts: Sequence[Columns]) -> Columns:
         """Stack several batches of columns (NaN-padding the level axis to the widest)."""
         width = max(part.pressure_hpa.shape[1] for part in parts)
         fields = {}
@@ -177,7 +177,7 @@ class Columns:
             fields[f.name] = np.concatenate(arrays, axis=0)
         return Columns(**fields)
 
-    def take(self, index) -> "Columns":
+    def take(self, index) -> Columns:
         """Subset of columns (rows) by integer index or boolean mask."""
         return Columns(**{f.name: getattr(self, f.name)[index] for f in dataclasses.fields(self)})
 
@@ -235,7 +235,7 @@ def _order_loop(p, t, td, z, out_p, out_t, out_td, out_z, count):
             dj = td[i, j]
             out_p[i, m] = p[i, j]
             out_t[i, m] = tj
-            out_td[i, m] = dj if dj <= tj else tj
+            out_td[i, m] = dj if dj <= tj else tj  # noqa: FURB136 - np.minimum order, for numba
             out_z[i, m] = z[i, j]
         for m in range(k, L):
             out_p[i, m] = np.nan

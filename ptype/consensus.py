@@ -27,8 +27,8 @@ from __future__ import annotations
 import numpy as np
 
 from .codes import HAZARD_RANK, Code
-from .methods.base import Context, MethodResult, Step, select_first
 from .methods import cloud_top, jennings
+from .methods.base import Context, MethodResult, Step, select_first
 
 #: Methods that vote.
 VOTERS = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top")

@@ -13,9 +13,10 @@ profile and returns a :class:`Diagnosis` with the full trace.
 from __future__ import annotations
 
 import os
+from collections.abc import Iterable, Mapping
 from datetime import datetime
 from math import isfinite
-from typing import Any, Iterable, Mapping
+from typing import Any
 
 import numpy as np
 
@@ -27,8 +28,13 @@ from .errors import OptionError
 from .layers import zero_height_m
 from .methods import METHOD_NAMES, get_method
 from .methods.base import Context, MethodResult
-from .probability import (DEFAULT_MEMBERS, check_members, confidence_word, perturb,
-                          probabilities_from_codes)
+from .probability import (
+    DEFAULT_MEMBERS,
+    check_members,
+    confidence_word,
+    perturb,
+    probabilities_from_codes,
+)
 from .profile import Profile
 
 WETBULB_KINDS = ("isobaric", "adiabatic")
@@ -56,7 +62,7 @@ def warm_cold_energies(ctx: Context) -> tuple[np.ndarray, np.ndarray]:
     """Total melting energy (every warm layer below 250 hPa) and refreezing energy (cold area
     below the highest warm layer aloft), J/kg, from the air-temperature layers."""
     lay = ctx.air_layers
-    n, K = lay.kind.shape
+    _, K = lay.kind.shape
     area = np.where(lay.kind != 0, lay.area_j_kg, 0.0)
     warm = lay.kind > 0
     k_idx = np.arange(K)[None, :]

@@ -20,7 +20,7 @@ from .errors import ProfileError
 
 # Strict numbers: a JSON string such as "12.5" is refused rather than coerced,
 # and booleans are never numbers.
-_NUM = dict(strict=True, allow_inf_nan=True)
+_NUM = {"strict": True, "allow_inf_nan": True}
 
 
 class _Strict(BaseModel):

@@ -277,7 +277,7 @@ def _finish_block(x, state, t, td_in, out, pending, b0, m):
     for k in range(m):
         tk = t[b0 + k]
         tdr = td_in[b0 + k]
-        td = tdr if tdr < tk else tk
+        td = tdr if tdr < tk else tk  # noqa: FURB136 - branch-free select, vectorises
         out[b0 + k] = min(max(x[k], td), tk)
         pending[b0 + k] = 0 if state[k] == 1.0 else 1
 
@@ -306,7 +306,7 @@ def _isobaric_blocks(p, t, td_in, out, pending, start, stop):
             pk = p[b0 + k]
             tk = t[b0 + k]
             tdr = td_in[b0 + k]
-            td = tdr if tdr < tk else tk
+            td = tdr if tdr < tk else tk  # noqa: FURB136 - branch-free select, vectorises
             # Written with & so the comparisons stay branch-free; NaN fails every one of them.
             ok = ((pk > 0.0) & (pk <= _BLOCK_MAX_PRESSURE_HPA) & (tdr >= _BLOCK_MIN_DEWPOINT_C)
                   & (td >= _BLOCK_MIN_DEWPOINT_C) & (tk <= _BLOCK_MAX_TEMPERATURE_C))
@@ -414,7 +414,7 @@ def _adiabatic_blocks(p, t, td_in, iso, out, pending, start, stop):
             tk = t[b0 + k]
             tdr = td_in[b0 + k]
             xk = iso[b0 + k]
-            td = tdr if tdr < tk else tk
+            td = tdr if tdr < tk else tk  # noqa: FURB136 - branch-free select, vectorises
             ok = ((pk >= _BLOCK_MIN_PRESSURE_HPA) & (pk <= _BLOCK_MAX_PRESSURE_HPA)
                   & (tdr >= _BLOCK_MIN_DEWPOINT_C) & (td >= _BLOCK_MIN_DEWPOINT_C)
                   & (tk <= _BLOCK_MAX_TEMPERATURE_C) & (xk >= td) & (xk <= tk))
@@ -426,7 +426,7 @@ def _adiabatic_blocks(p, t, td_in, iso, out, pending, start, stop):
             # _ln_theta_e_k, spelled out with the block logarithms.
             t_k = tk + _T0
             td_k = td + _T0
-            td_k = td_k if td_k < t_k else t_k
+            td_k = td_k if td_k < t_k else t_k  # noqa: FURB136 - branch-free select
             t_l = 1.0 / (1.0 / (td_k - 56.0) + _log_block(t_k / td_k) / 800.0) + 56.0
             w = 1000.0 * epsilon * e / (pk - e)
             target[k] = (_log_kelvin_block(t_k) + 0.2854 * _log_block(1000.0 / (pk - e))

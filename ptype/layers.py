@@ -308,7 +308,7 @@ def zero_height_m(layers: LayerSet) -> np.ndarray:
     """Height of the highest 0 degC crossing below the analysis top (the freezing level, or the
     wet-bulb-zero height when given wet-bulb layers); the surface height when the whole column
     is below 0; NaN when the whole analysed column is above 0."""
-    n, K = layers.kind.shape
+    n, _ = layers.kind.shape
     rows = np.arange(n)
     top = np.maximum(layers.count - 1, 0)
     top_kind = layers.kind[rows, top]

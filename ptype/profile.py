@@ -15,8 +15,9 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from datetime import datetime, timezone
-from typing import Any, Iterable, Mapping
+from collections.abc import Iterable, Mapping
+from datetime import UTC, datetime
+from typing import Any
 
 import numpy as np
 
@@ -43,7 +44,7 @@ LEVEL_FIELDS = ("pressure_hpa", "height_m", "temperature_c") + HUMIDITY_FIELDS
 class _Where:
     """``levels[i] (p hPa)`` for messages, formatted only when an error is raised."""
 
-    __slots__ = ("prefix", "i", "p")
+    __slots__ = ("i", "p", "prefix")
 
     def __init__(self, prefix: str, i: int, p: float):
         self.prefix, self.i, self.p = prefix, i, p
@@ -225,7 +226,7 @@ class Profile:
 
     # -- construction ------------------------------------------------------------------
     @classmethod
-    def from_document(cls, document: Mapping[str, Any] | ProfileDocument) -> "Profile":
+    def from_document(cls, document: Mapping[str, Any] | ProfileDocument) -> Profile:
         """Build and validate a profile from a profile document (dict or model)."""
         doc = document if isinstance(document, ProfileDocument) else parse_document(document)
         # A Level's __dict__ is its model_dump() (plain float fields, extra fields forbidden),
@@ -233,14 +234,14 @@ class Profile:
         levels = [lvl.__dict__ for lvl in doc.levels]
         valid_time = doc.valid_time
         if valid_time is not None and valid_time.tzinfo is None:
-            valid_time = valid_time.replace(tzinfo=timezone.utc)
+            valid_time = valid_time.replace(tzinfo=UTC)
         return cls.from_levels(levels, surface=doc.surface, site=doc.site,
                                valid_time=valid_time, source=doc.source)
 
     @classmethod
     def from_levels(cls, levels: Iterable[Mapping[str, Any]], *, surface: Surface | Mapping | None = None,
                     site: Site | Mapping | None = None, valid_time: datetime | None = None,
-                    source: str | None = None, where: str = "") -> "Profile":
+                    source: str | None = None, where: str = "") -> Profile:
         """Validate a list of level mappings (fields as in :data:`LEVEL_FIELDS`).
 
         ``where`` prefixes messages (e.g. a file name) so readers can say which input failed.

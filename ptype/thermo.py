@@ -24,27 +24,27 @@ from __future__ import annotations
 
 import numpy as np
 
-from .constants import Cp_d, Rd, T0, epsilon, g
+from .constants import T0, Cp_d, Rd, epsilon, g
 
 __all__ = [
-    "saturation_vapor_pressure_hpa",
-    "saturation_vapor_pressure_murphy_koop_hpa",
-    "vapor_pressure_from_dewpoint_hpa",
-    "dewpoint_from_vapor_pressure_c",
-    "mixing_ratio_g_kg",
-    "vapor_pressure_from_mixing_ratio_hpa",
-    "relative_humidity_pct",
-    "dewpoint_from_relative_humidity_c",
     "dewpoint_from_mixing_ratio_c",
-    "virtual_temperature_c",
-    "thickness_m",
+    "dewpoint_from_relative_humidity_c",
+    "dewpoint_from_vapor_pressure_c",
+    "equivalent_potential_temperature_k",
     "hypsometric_heights_m",
-    "wet_bulb_temperature",
+    "lcl_temperature_c",
+    "mixing_ratio_g_kg",
+    "potential_temperature_k",
     "psychrometer_dewpoint_c",
     "psychrometer_relative_humidity_pct",
-    "lcl_temperature_c",
-    "equivalent_potential_temperature_k",
-    "potential_temperature_k",
+    "relative_humidity_pct",
+    "saturation_vapor_pressure_hpa",
+    "saturation_vapor_pressure_murphy_koop_hpa",
+    "thickness_m",
+    "vapor_pressure_from_dewpoint_hpa",
+    "vapor_pressure_from_mixing_ratio_hpa",
+    "virtual_temperature_c",
+    "wet_bulb_temperature",
 ]
 
 # Alduchov & Eskridge (1996) Magnus constants (their AERK / AERKi), e in hPa, T in degC.

@@ -54,7 +54,7 @@ def test_contract_keys_and_caution():
 
 def test_explanation_sentences_carry_numbers():
     out = ptype.diagnose(document(FZRA_P, FZRA_T, FZRA_TD), seed=1, members=10).to_dict()
-    warm = [x for x in out["layers"] if x["kind"] == "warm"][0]
+    warm = next(x for x in out["layers"] if x["kind"] == "warm")
     text = " ".join(out["explanation"])
     assert f"{warm['area_j_kg']:.0f} J/kg" in text
     assert f"{warm['extreme_c']:+.1f} °C" in text

@@ -11,7 +11,6 @@ from hypothesis import strategies as st
 
 from ptype import thermo
 
-
 # --- saturation vapour pressure -----------------------------------------------------------
 
 def test_saturation_vapor_pressure_triple_point():
@@ -247,5 +246,5 @@ def test_lcl_temperature_against_metpy():
     # MetPy lcl (iterative) vs Bolton (1980) eq. 15: within 0.1 K.
     import metpy.calc as mpcalc
     from metpy.units import units
-    p_lcl, t_lcl = mpcalc.lcl(1000.0 * units.hPa, 20.0 * units.degC, 10.0 * units.degC)
+    _, t_lcl = mpcalc.lcl(1000.0 * units.hPa, 20.0 * units.degC, 10.0 * units.degC)
     assert thermo.lcl_temperature_c(20.0, 10.0) == pytest.approx(t_lcl.to("degC").m, abs=0.1)

@@ -63,7 +63,7 @@ def main(argv: list[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return 0
-    except Exception as exc:  # noqa: BLE001 - last resort: one line, no traceback
+    except Exception as exc:  # last resort: one line, no traceback
         if os.environ.get("PTYPE_DEBUG"):
             raise
         print(f"ptype {args.command}: internal error: {type(exc).__name__}: {exc} "

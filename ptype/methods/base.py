@@ -18,12 +18,12 @@ from __future__ import annotations
 import dataclasses
 import functools
 import math
-from typing import Callable
+from collections.abc import Callable
 
 import numpy as np
 
 from ..columns import Columns
-from ..layers import (CloudLayers, LayerSet, analyse_layers, cloud_mask, dry_mask, level_runs)
+from ..layers import CloudLayers, LayerSet, analyse_layers, cloud_mask, dry_mask, level_runs
 
 
 @dataclasses.dataclass(frozen=True)
@@ -75,7 +75,7 @@ class MethodResult:
     code: np.ndarray                      # (n,) int, Code or NO_RESULT
     rule: np.ndarray                      # (n,) int index into the method's RULES tuple
     values: dict[str, np.ndarray]         # per-column numbers, each (n,) (or (n, k))
-    explainer: Callable[["MethodResult", int], list[Step]] | None = None
+    explainer: Callable[[MethodResult, int], list[Step]] | None = None
 
     def steps(self, i: int) -> list[Step]:
         return self.explainer(self, i) if self.explainer else []

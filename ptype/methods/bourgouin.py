@@ -73,7 +73,7 @@ RULES = (
 def run(ctx: Context) -> MethodResult:
     lay = ctx.air_layers
     c = ctx.columns
-    n, K = lay.kind.shape
+    _, K = lay.kind.shape
     k_idx = np.arange(K)[None, :]
     present = lay.kind != 0
     area = np.where(present, lay.area_j_kg, 0.0)

@@ -154,7 +154,7 @@ def run(ctx: Context) -> MethodResult:
     c = ctx.columns
     ia = ice_analysis(ctx)
     wb = ctx.wetbulb_layers
-    n, K = wb.kind.shape
+    _, K = wb.kind.shape
     k_idx = np.arange(K)[None, :]
     warm_wb = wb.kind > 0
     aloft_max = np.where(warm_wb & (k_idx > 0), wb.extreme_c, 0.0).max(axis=1)
