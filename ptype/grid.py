@@ -270,6 +270,11 @@ def default_chunks(ds, fields: GridFields, members: int = 0) -> dict:
     # Innermost (fastest varying in the file) first: it is taken whole when it fits.
     for dim in reversed([d for d in var.dims if d in fields.horizontal_dims]):
         size, u = ds.sizes[dim], unit.get(dim, 1)
+        if u > 2.0 * remaining:
+            # A file chunk much larger than the work wanted (a whole variable stored as one
+            # chunk, say) is split rather than making one task of it; HDF5's chunk cache
+            # keeps the repeated reads of one file chunk cheap.
+            u = 1
         units = max(1, min(-(-size // u), round(remaining / u)))
         chunks[dim] = min(size, units * u)
         remaining = max(1.0, remaining / chunks[dim])

@@ -265,6 +265,14 @@ def test_default_chunks_follow_storage_and_members(small_grid, tmp_path, monkeyp
     with xr.open_dataset(path) as ds:
         chunks = grid.default_chunks(ds, grid.find_fields(ds))
     assert (chunks["x"], chunks["y"]) == (9, 2)
+    # One file chunk for the whole variable: split like contiguous storage, not one task.
+    monkeypatch.setattr(grid, "DEFAULT_CHUNK_WORK", 64)
+    path = tmp_path / "one_chunk.nc"
+    small_grid.to_netcdf(path, encoding={v: {"chunksizes": small_grid[v].shape}
+                                         for v in small_grid.data_vars})
+    with xr.open_dataset(path) as ds:
+        chunks = grid.default_chunks(ds, grid.find_fields(ds))
+    assert (chunks["x"], chunks["y"]) == (16, 4)
 
 
 def test_diagnose_dataset_without_per_method_same_consensus(small_file, small_result):
