@@ -241,48 +241,9 @@ def diagnose_batch():
             valid.append((i, item))
     check_work(sum(p.n_levels for _, p in valid), kwargs)
     for i, diagnosis in zip((i for i, _ in valid),
-                            diagnose_many([p for _, p in valid], **kwargs)):
+                            ptype.diagnose_many([p for _, p in valid], **kwargs)):
         results[i] = diagnosis.to_dict()
     return json_response({"results": results})
-
-
-#: Profiles whose Monte-Carlo members are diagnosed in one vectorised pass (bounds memory:
-#: chunk x members x levels values per array).
-BATCH_CHUNK = 64
-
-
-def diagnose_many(profiles: list, *, members: int | None = None, seed=None, methods=None,
-                  wetbulb: str = "isobaric") -> list:
-    """Diagnose several validated profiles.
-
-    The deterministic part runs per profile (:func:`ptype.diagnose` with ``members=0``);
-    the Monte-Carlo members of all profiles go through
-    :func:`ptype.probability.member_probabilities` together, which halves their cost per
-    profile on a batch (measured by bench/load_diagnose.py's stage timings).  With a seed
-    the batch is reproducible as a whole; its probabilities are not those of the same
-    profiles sent one by one (the random draws are shared out differently).
-    """
-    from ptype.columns import Columns
-    from ptype.diagnosis import Diagnosis
-    from ptype.probability import DEFAULT_MEMBERS, member_probabilities
-
-    if members is None:
-        members = DEFAULT_MEMBERS
-    if len(profiles) < 2 or members == 0:
-        return [ptype.diagnose(p, members=members, seed=seed, methods=methods, wetbulb=wetbulb)
-                for p in profiles]
-    base = [ptype.diagnose(p, members=0, seed=seed, methods=methods, wetbulb=wetbulb)
-            for p in profiles]
-    names = list(base[0].results)
-    out = []
-    for start in range(0, len(profiles), BATCH_CHUNK):
-        chunk = base[start:start + BATCH_CHUNK]
-        chunk_seed = None if seed is None else seed + start
-        probs = member_probabilities(Columns.from_profiles([d.profile for d in chunk]),
-                                     members, chunk_seed, names)
-        for d, vector in zip(chunk, probs):
-            out.append(Diagnosis(d.profile, d.columns, d.core, vector, members, seed, wetbulb))
-    return out
 
 
 def _read_item(document: Any, i: int):

@@ -43,7 +43,7 @@ __all__ = [
 
 def __getattr__(name):
     # The diagnosis engine is imported lazily so that `import ptype` stays light.
-    if name in ("diagnose", "Diagnosis"):
+    if name in ("diagnose", "diagnose_many", "Diagnosis"):
         from . import diagnosis
         return getattr(diagnosis, name)
     raise AttributeError(f"module 'ptype' has no attribute {name!r}")

@@ -282,3 +282,40 @@ def diagnose(source, *, members: int = DEFAULT_MEMBERS, seed=None, methods=None,
     probs = (probabilities_from_codes(core["ptype"][1:], 1, members)[0] if members
              else np.full(len(Code), np.nan))
     return Diagnosis(profile, columns, core, probs, members, seed, wetbulb)
+
+
+#: Profiles whose Monte-Carlo members :func:`diagnose_many` diagnoses in one vectorised pass
+#: (bounds memory: profiles x members x levels values per array).
+MANY_MEMBER_BATCH = 64
+
+
+def diagnose_many(sources: Iterable, *, members: int = DEFAULT_MEMBERS, seed=None,
+                  methods=None, wetbulb: str = "isobaric") -> list[Diagnosis]:
+    """Diagnose several profiles; each result as :func:`diagnose` gives it.
+
+    ``sources`` are what :func:`diagnose` accepts (profiles, documents, paths).  The
+    deterministic part runs per profile; the Monte-Carlo members of up to
+    :data:`MANY_MEMBER_BATCH` profiles go through
+    :func:`ptype.probability.member_probabilities` together, about half the cost per profile
+    of one call each (measured by ``bench/load_diagnose.py``'s stage timings).  With a seed the
+    batch is reproducible as a whole; its probabilities are not those of the same profiles
+    diagnosed one by one (the random draws are shared out differently).
+    """
+    from .probability import member_probabilities
+    sources = list(sources)
+    members = check_members(members)
+    if len(sources) < 2 or members == 0:
+        return [diagnose(s, members=members, seed=seed, methods=methods, wetbulb=wetbulb)
+                for s in sources]
+    base = [diagnose(s, members=0, seed=seed, methods=methods, wetbulb=wetbulb)
+            for s in sources]
+    names = list(base[0].results)
+    out = []
+    for start in range(0, len(base), MANY_MEMBER_BATCH):
+        part = base[start:start + MANY_MEMBER_BATCH]
+        part_seed = None if seed is None else seed + start
+        probs = member_probabilities(Columns.from_profiles([d.profile for d in part]),
+                                     members, part_seed, names)
+        out.extend(Diagnosis(d.profile, d.columns, d.core, vector, members, seed, wetbulb)
+                   for d, vector in zip(part, probs))
+    return out

@@ -149,6 +149,32 @@ def test_probabilities_seeded_and_members_zero():
     assert none["probabilities"] == {} and none["confidence"] == "not assessed"
 
 
+def test_diagnose_many_matches_diagnose_per_profile(monkeypatch):
+    # Consistency: the deterministic result of each profile is that of ptype.diagnose; the
+    # members of several profiles (here in batches of 2) give probabilities that sum to 1,
+    # put most weight on the control's type for these clear-cut profiles, and are
+    # reproducible with a seed.
+    from ptype import diagnosis
+    monkeypatch.setattr(diagnosis, "MANY_MEMBER_BATCH", 2)
+    warm = [t + 8.0 for t in FZRA_T]
+    docs = [document(FZRA_P, FZRA_T, FZRA_TD), document(FZRA_P, warm, FZRA_TD),
+            document(FZRA_P, [t - 8.0 for t in FZRA_T], [t - 8.5 for t in FZRA_T])]
+    many = ptype.diagnose_many(docs, members=30, seed=4)
+    again = ptype.diagnose_many(docs, members=30, seed=4)
+    assert [d.ptype for d in many] == [ptype.diagnose(x, members=0).ptype for x in docs]
+    assert [d.ptype for d in many] == ["FZRA", "RA", "SN"]
+    for d, e in zip(many, again):
+        out = d.to_dict()
+        assert sum(out["probabilities"].values()) == pytest.approx(1.0, abs=1e-3)
+        assert out["probabilities"][out["ptype"]] >= 0.5
+        assert out == e.to_dict()
+    plain = ptype.diagnose_many(docs[:2], members=0)
+    assert [d.to_dict() for d in plain] == [ptype.diagnose(x, members=0).to_dict()
+                                            for x in docs[:2]]
+    with pytest.raises(ptype.OptionError, match="members"):
+        ptype.diagnose_many(docs, members=-3)
+
+
 def test_member_probabilities_rows_sum_to_one():
     prof = ptype.Profile.from_document(document(FZRA_P, FZRA_T, FZRA_TD))
     cols = Columns.from_profiles([prof, prof])
