@@ -299,6 +299,26 @@ def test_ramer_march_compiled_matches_numpy_on_rough_profiles(member_columns):
         np.testing.assert_array_equal(fast[2][key], value, err_msg=key)
 
 
+def test_czys_lnp_integral_compiled_matches_numpy(member_columns):
+    from ptype.methods import czys
+    if not czys._COMPILED:
+        pytest.skip("numba not installed")
+    c = member_columns
+    rng = np.random.default_rng(23)
+    n = c.n_columns
+    p = c.pressure_hpa
+    e = czys.saturation_vapor_pressure_hpa(c.dewpoint_c)
+    # Targets between levels, exactly on levels, outside the column and missing.
+    levels = p[np.arange(n), rng.integers(0, 8, n)]
+    targets = (rng.uniform(300.0, 1050.0, n), np.where(rng.random(n) < 0.3, levels, 700.0),
+               np.where(rng.random(n) < 0.1, np.nan, p[:, 0]))
+    fast = czys._lnp_integral_fast(p, e, targets)
+    slow = czys._lnp_integral_numpy(p, e, targets)
+    for a, b in zip(fast, slow):
+        np.testing.assert_array_equal(a, b)
+    assert np.isfinite(slow[0]).any() and np.isnan(slow[0]).any()
+
+
 def test_correlated_noise_compiled_matches_numpy(member_columns):
     from ptype import probability
     if not probability._COMPILED:

@@ -202,6 +202,16 @@ def _lnp_integral_to(p, v, target_hpa, *more_targets_hpa):
     """``integral of v d(-ln p)`` from the lowest level up to ``target_hpa`` (n,), v linear in
     ln p; NaN where the target is outside the column.  With more targets, one array per target
     (the level integrals are shared)."""
+    targets = (target_hpa, *more_targets_hpa)
+    if _COMPILED and p.ndim == 2 and p.shape[1] > 0:
+        out = _lnp_integral_fast(p, v, targets)
+    else:
+        out = _lnp_integral_numpy(p, v, targets)
+    return out[0] if not more_targets_hpa else out
+
+
+def _lnp_integral_numpy(p, v, targets):
+    """:func:`_lnp_integral_to` with numpy: the integral to every level, then each target."""
     n, L = p.shape
     x = np.log(p)
     seg = np.where(np.isfinite(x[:, 1:]) & np.isfinite(x[:, :-1]),
@@ -210,7 +220,7 @@ def _lnp_integral_to(p, v, target_hpa, *more_targets_hpa):
     rows = np.arange(n)
     finite_p = np.isfinite(p)
     out = []
-    for target in (target_hpa, *more_targets_hpa):
+    for target in targets:
         xt = np.log(np.asarray(target, dtype=np.float64))
         k = np.sum(finite_p & (p >= np.asarray(target)[:, None]), axis=1) - 1
         inside = k >= 0
@@ -222,7 +232,60 @@ def _lnp_integral_to(p, v, target_hpa, *more_targets_hpa):
         vt = v[rows, k] + np.where(w != 0.0, w * (v[rows, k1] - v[rows, k]), 0.0)
         part = np.where(w != 0.0, 0.5 * (v[rows, k] + vt) * (x[rows, k] - xt), 0.0)
         out.append(np.where(inside, cum[rows, k] + part, np.nan))
-    return out[0] if not more_targets_hpa else out
+    return out
+
+
+def _lnp_integral_fast(p, v, targets):
+    """:func:`_lnp_integral_numpy` through the compiled :func:`_lnp_integral_loop`: per column
+    only the levels up to each target are summed (same order, same numbers)."""
+    p = np.ascontiguousarray(p, dtype=np.float64)
+    target = np.ascontiguousarray(np.broadcast_to(np.asarray(targets, dtype=np.float64),
+                                                  (len(targets), p.shape[0])))
+    out = np.empty(target.shape)
+    _lnp_integral_compiled(p, np.log(p), np.ascontiguousarray(v, dtype=np.float64), target,
+                           np.log(target), out)
+    return list(out)
+
+
+def _lnp_integral_loop(p, x, v, target, x_target, out):
+    """For each target and column: the sum of the level segments below the target's level in
+    the order of ``np.cumsum``, plus the part segment up to the target, as
+    :func:`_lnp_integral_numpy` (compiled with numba)."""
+    n, L = p.shape
+    for t in range(target.shape[0]):
+        for i in range(n):
+            pt = target[t, i]
+            k = -1
+            for j in range(L):
+                if np.isfinite(p[i, j]) and p[i, j] >= pt:
+                    k += 1
+            if k < 0:
+                out[t, i] = np.nan
+                continue
+            cum = 0.0
+            for j in range(k):
+                if np.isfinite(x[i, j + 1]) and np.isfinite(x[i, j]):
+                    cum += 0.5 * (v[i, j + 1] + v[i, j]) * (x[i, j] - x[i, j + 1])
+            k1 = min(k + 1, L - 1)
+            dx = x[i, k] - x[i, k1]
+            xt = x_target[t, i]
+            w = (x[i, k] - xt) / dx if (np.isfinite(dx) and dx > 0) else 0.0
+            part = 0.0
+            if w != 0.0:
+                vt = v[i, k] + w * (v[i, k1] - v[i, k])
+                part = 0.5 * (v[i, k] + vt) * (x[i, k] - xt)
+            out[t, i] = cum + part
+
+
+try:  # numba is a declared dependency; the numpy path stays for installs without it
+    from numba import njit as _njit
+    # error_model="numpy": x / 0 gives inf or NaN as in numpy instead of raising.
+    _lnp_integral_compiled = _njit(cache=True, nogil=True, error_model="numpy")(
+        _lnp_integral_loop)
+    _COMPILED = True
+except ImportError:  # pragma: no cover
+    _lnp_integral_compiled = None
+    _COMPILED = False
 
 
 def run(ctx: Context, *, radius_m: float | None = None,
