@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import subprocess
+import time
 from pathlib import Path
 
 
@@ -19,3 +20,13 @@ def code_version() -> dict:
     return {"commit": head or None,
             "uncommitted_ptype_files": sorted(line[3:] for line in dirty
                                               if line.strip() and not line.startswith("??"))}
+
+
+def best_of(fn, repeat: int = 3) -> float:
+    """Best wall time of ``repeat`` runs (the machine may be shared: best is least disturbed)."""
+    best = float("inf")
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        best = min(best, time.perf_counter() - t0)
+    return best

@@ -26,6 +26,7 @@ from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
 import numpy as np
+from _common import best_of  # sibling module of the scripts
 
 from ptype import Profile
 from ptype.diagnosis import diagnose_columns
@@ -53,15 +54,6 @@ def series() -> list[Profile]:
                         "dewpoint_c": float(b - 0.5)} for a, b in zip(p, t)],
             "surface": {"precipitation_rate_mm_h": 1.5, "road_surface_temperature_c": -1.0}}))
     return out
-
-
-def best_of(fn, repeat=3) -> float:
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def main(argv=None) -> dict:

@@ -31,7 +31,7 @@ from ptype import fastthermo, thermo
 TARGET_POINTS_PER_S = 20e6
 TARGET_RATIO_METPY = 40_000
 
-from _common import code_version  # sibling module of the scripts
+from _common import best_of, code_version  # sibling module of the scripts
 
 
 def population(n: int, seed: int = 0):
@@ -40,16 +40,6 @@ def population(n: int, seed: int = 0):
     t = rng.uniform(-40.0, 35.0, n)
     rh = rng.uniform(10.0, 100.0, n)
     return p, t, thermo.dewpoint_from_relative_humidity_c(t, rh)
-
-
-def best_of(fn, repeat: int) -> float:
-    """Best wall time of ``repeat`` runs (the machine may be shared: best is least disturbed)."""
-    best = float("inf")
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        best = min(best, time.perf_counter() - t0)
-    return best
 
 
 def cpu_seconds(fn) -> float:

@@ -16,6 +16,8 @@ from collections.abc import Sequence
 import numpy as np
 
 from . import thermo
+from .compiled import AVAILABLE as _COMPILED
+from .compiled import compiled
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
@@ -255,13 +257,7 @@ def _order_levels(p, t, td, z):
     return (*out, np.arange(L)[None, :] < count[:, None])
 
 
-try:  # numba is a declared dependency; the numpy path stays for installs without it
-    from numba import njit as _njit
-    _order_compiled = _njit(cache=True, nogil=True)(_order_loop)
-    _COMPILED = True
-except ImportError:  # pragma: no cover
-    _order_compiled = None
-    _COMPILED = False
+_order_compiled = compiled(_order_loop)
 
 
 def _per_column(value, n: int, default: float = np.nan) -> np.ndarray:

@@ -25,6 +25,8 @@ import dataclasses
 
 import numpy as np
 
+from .compiled import AVAILABLE as _COMPILED
+from .compiled import compiled
 from .constants import Rd
 from .thermo import relative_humidity_pct, saturation_vapor_pressure_hpa
 
@@ -290,13 +292,7 @@ def _layers_loop(p, z, v, ln_p, top_limit, kind, out, count):
         out[7, i, c - 1] = np.nan
 
 
-try:  # numba is a declared dependency; the numpy path stays for installs without it
-    from numba import njit as _njit
-    _layers_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_layers_loop)
-    _COMPILED = True
-except ImportError:  # pragma: no cover
-    _layers_compiled = None
-    _COMPILED = False
+_layers_compiled = compiled(_layers_loop, numpy_errors=True)
 
 
 def freezing_levels_m(layers: LayerSet) -> np.ndarray:

@@ -27,6 +27,8 @@ import numpy as np
 from . import thermo
 from .codes import Code
 from .columns import Columns
+from .compiled import AVAILABLE as _COMPILED
+from .compiled import compiled
 from .errors import OptionError
 
 DEFAULT_MEMBERS = 50
@@ -96,13 +98,7 @@ def _ar1_loop(r, s, white, out):
             out[i, k] = e
 
 
-try:  # numba is a declared dependency; the numpy path stays for installs without it
-    from numba import njit as _njit
-    _ar1_compiled = _njit(cache=True, nogil=True)(_ar1_loop)
-    _COMPILED = True
-except ImportError:  # pragma: no cover
-    _ar1_compiled = None
-    _COMPILED = False
+_ar1_compiled = compiled(_ar1_loop)
 
 
 def perturb(columns: Columns, members: int, seed=None, *,

@@ -119,15 +119,22 @@ def test_decide_ongoing_alert_keeps_onset():
 
 # --- through the service and the store -----------------------------------------------------
 
-def test_alert_lifecycle_alert_update_cancel_with_references(tmp_path):
+def _service_with_site(tmp_path, **config):
+    """The service on a fresh store at 2026-01-27 00 UTC (5 members per alert evaluation), an
+    API key's headers and a new site: ``(app, client, headers, site_id)``."""
     app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
-                      "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5})
+                      "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5, **config})
     client = app.test_client()
     with store_for(app).write() as s:
         key, _ = keys.create_key(s, "t", NOW)
     h = {"Authorization": f"Bearer {key}"}
     site = client.post("/v1/sites", json={"name": "Test Hill", "latitude": 47.1,
                                           "longitude": -33.2}, headers=h).json["id"]
+    return app, client, h, site
+
+
+def test_alert_lifecycle_alert_update_cancel_with_references(tmp_path):
+    app, client, h, site = _service_with_site(tmp_path)
     client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs(),
                                                     "issued_time": "2026-01-27T00:00:00Z"},
                 headers=h)
@@ -165,14 +172,7 @@ def test_alert_lifecycle_alert_update_cancel_with_references(tmp_path):
 
 
 def test_alerts_expire_with_the_clock(tmp_path):
-    app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
-                      "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5})
-    client = app.test_client()
-    with store_for(app).write() as s:
-        key, _ = keys.create_key(s, "t", NOW)
-    h = {"Authorization": f"Bearer {key}"}
-    site = client.post("/v1/sites", json={"name": "T", "latitude": 1, "longitude": 1},
-                       headers=h).json["id"]
+    app, client, h, site = _service_with_site(tmp_path)
     client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs()}, headers=h)
     alerts = client.get("/v1/alerts").json["alerts"]
     assert alerts and all(a["status"] == "active" for a in alerts)
@@ -201,15 +201,7 @@ def test_observed_present_weather_makes_certainty_observed():
 
 
 def test_cap_status_recorded_with_each_message(tmp_path):
-    app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
-                      "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5,
-                      "PTYPE_CAP_STATUS": "Exercise"})
-    client = app.test_client()
-    with store_for(app).write() as s:
-        key, _ = keys.create_key(s, "t", NOW)
-    h = {"Authorization": f"Bearer {key}"}
-    site = client.post("/v1/sites", json={"name": "T", "latitude": 1, "longitude": 1},
-                       headers=h).json["id"]
+    app, client, h, site = _service_with_site(tmp_path, PTYPE_CAP_STATUS="Exercise")
     client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs()}, headers=h)
     alert = client.get("/v1/alerts").json["alerts"][0]
     from ptype.alerts import service
@@ -221,14 +213,7 @@ def test_cap_status_recorded_with_each_message(tmp_path):
 
 
 def test_no_forecast_covering_now_does_not_cancel(tmp_path):
-    app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True,
-                      "PTYPE_NOW": "2026-01-27T00:00:00Z", "PTYPE_ALERT_MEMBERS": 5})
-    client = app.test_client()
-    with store_for(app).write() as s:
-        key, _ = keys.create_key(s, "t", NOW)
-    h = {"Authorization": f"Bearer {key}"}
-    site = client.post("/v1/sites", json={"name": "T", "latitude": 1, "longitude": 1},
-                       headers=h).json["id"]
+    app, client, h, site = _service_with_site(tmp_path)
     client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs()}, headers=h)
     before = {a["id"]: a["status"] for a in client.get("/v1/alerts").json["alerts"]}
     # Five hours on, the 6-hour forecast still covers now; at 6 h 30 min it no longer does.

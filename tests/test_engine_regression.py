@@ -56,7 +56,8 @@ def _load(path: Path) -> dict:
 
 
 def _sixty_level_document() -> dict:
-    # The benchmark profile (bench/bench_diagnose.py): freezing-rain shape, 60 levels.
+    # The benchmark profile (bench/bench_diagnose.py): freezing-rain shape, 60 levels.  A
+    # frozen copy on purpose: the corpus must not move if the benchmark's profile does.
     p = np.linspace(1000.0, 250.0, 60)
     z = np.linspace(0.0, 10500.0, 60)
     t = np.interp(p, [250, 500, 700, 760, 820, 880, 950, 1000],

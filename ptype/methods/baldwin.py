@@ -46,6 +46,8 @@ import numpy as np
 
 from ..codes import NO_RESULT, Code
 from ..columns import interpolate_at_pressure
+from ..compiled import AVAILABLE as _COMPILED
+from ..compiled import compiled
 from .base import Context, MethodResult, Step, select_first
 
 NAME = "baldwin"
@@ -154,6 +156,19 @@ def area_k_m(height_m, value_c, bottom_m, top_m, part: str = "net", *, integrand
 _PARTS = ("net", "positive", "negative")
 
 
+def _clip(z, lo, hi):
+    """``np.minimum(np.maximum(z, lo), hi)`` for one value: NaN in any of them gives NaN."""
+    if np.isnan(z) or np.isnan(lo):
+        z = np.nan
+    elif z < lo:
+        z = lo
+    if np.isnan(z) or np.isnan(hi):
+        z = np.nan
+    elif z > hi:
+        z = hi
+    return z
+
+
 def _parts_loop(za, zb, va, ok, slope, lo, hi, part, out):
     """The per-interval integrals of :func:`area_k_m` (compiled with numba): the numpy path's
     arithmetic, element by element, without its temporaries.  ``part`` indexes :data:`_PARTS`."""
@@ -161,25 +176,8 @@ def _parts_loop(za, zb, va, ok, slope, lo, hi, part, out):
     for i in range(n):
         bot, top = lo[i], hi[i]
         for j in range(m):
-            # np.minimum(np.maximum(z, lo), hi), NaN propagating.
-            z0 = za[i, j]
-            z1 = zb[i, j]
-            if np.isnan(z0) or np.isnan(bot):
-                z0 = np.nan
-            elif z0 < bot:
-                z0 = bot
-            if np.isnan(z0) or np.isnan(top):
-                z0 = np.nan
-            elif z0 > top:
-                z0 = top
-            if np.isnan(z1) or np.isnan(bot):
-                z1 = np.nan
-            elif z1 < bot:
-                z1 = bot
-            if np.isnan(z1) or np.isnan(top):
-                z1 = np.nan
-            elif z1 > top:
-                z1 = top
+            z0 = _clip(za[i, j], bot, top)
+            z1 = _clip(zb[i, j], bot, top)
             s = slope[i, j]
             a = va[i, j] + s * (z0 - za[i, j])
             b = va[i, j] + s * (z1 - za[i, j])
@@ -200,13 +198,9 @@ def _parts_loop(za, zb, va, ok, slope, lo, hi, part, out):
             out[i, j] = pos if part == 1 else net - pos
 
 
-try:  # numba is a declared dependency; the numpy path stays for installs without it
-    from numba import njit as _njit
-    _parts_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_parts_loop)
-    _COMPILED = True
-except ImportError:  # pragma: no cover
-    _parts_compiled = None
-    _COMPILED = False
+if _COMPILED:  # the helper is inlined into the compiled parts loop
+    _clip = compiled(_clip, inline=True)
+_parts_compiled = compiled(_parts_loop, numpy_errors=True)
 
 
 def saturated_levels(columns):

@@ -32,6 +32,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..codes import NO_RESULT, Code
+from ..compiled import AVAILABLE as _COMPILED
+from ..compiled import compiled
 from ..layers import cumulative_dry_depth_m
 from .base import Context, MethodResult, Step, select_first
 
@@ -141,13 +143,7 @@ def _seeding_loop(count, min_temperature_c, top_index, bottom_index, cum_dry, ic
         seeded[i] = was_seeded
 
 
-try:  # numba is a declared dependency; the numpy path stays for installs without it
-    from numba import njit as _njit
-    _seeding_compiled = _njit(cache=True, nogil=True)(_seeding_loop)
-    _COMPILED = True
-except ImportError:  # pragma: no cover
-    _seeding_compiled = None
-    _COMPILED = False
+_seeding_compiled = compiled(_seeding_loop)
 
 
 def run(ctx: Context) -> MethodResult:

@@ -57,6 +57,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..codes import NO_RESULT, Code
+from ..compiled import AVAILABLE as _COMPILED
+from ..compiled import compiled
 from ..constants import T0, Lf, Rd, Rv, rho_i
 from ..errors import OptionError
 from ..layers import TOP_LIMIT_HPA
@@ -277,15 +279,7 @@ def _lnp_integral_loop(p, x, v, target, x_target, out):
             out[t, i] = cum + part
 
 
-try:  # numba is a declared dependency; the numpy path stays for installs without it
-    from numba import njit as _njit
-    # error_model="numpy": x / 0 gives inf or NaN as in numpy instead of raising.
-    _lnp_integral_compiled = _njit(cache=True, nogil=True, error_model="numpy")(
-        _lnp_integral_loop)
-    _COMPILED = True
-except ImportError:  # pragma: no cover
-    _lnp_integral_compiled = None
-    _COMPILED = False
+_lnp_integral_compiled = compiled(_lnp_integral_loop, numpy_errors=True)
 
 
 def run(ctx: Context, *, radius_m: float | None = None,

@@ -50,6 +50,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..codes import NO_RESULT, Code
+from ..compiled import AVAILABLE as _COMPILED
+from ..compiled import compiled
 from ..layers import level_index_runs
 from .base import Context, MethodResult, Step, select_first
 
@@ -529,16 +531,10 @@ def _march_loop(x, tw, rh_frac, xg, ice0, ice_out, was_liquid_out, table, count)
         count[i] = s + 1
 
 
-try:  # numba is a declared dependency; the numpy path stays for installs without it
-    from numba import njit as _njit
-    # error_model="numpy": x / 0 gives inf or NaN as in numpy instead of raising.
-    _march_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_march_loop)
-    _moist = _njit(cache=True, nogil=True, inline="always")(_moist)
-    _generation_compiled = _njit(cache=True, nogil=True, error_model="numpy")(_generation_loop)
-    _COMPILED = True
-except ImportError:  # pragma: no cover
-    _march_compiled = _generation_compiled = None
-    _COMPILED = False
+_march_compiled = compiled(_march_loop, numpy_errors=True)
+if _COMPILED:  # the helper is inlined into the compiled generation loop
+    _moist = compiled(_moist, inline=True)
+_generation_compiled = compiled(_generation_loop, numpy_errors=True)
 
 
 def run(ctx: Context, *, abstain_on_mix: bool | None = None) -> MethodResult:
