@@ -53,7 +53,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     if config:
         app.config.update(dict(config))
     app.json.sort_keys = False
-    from . import errors
+    from api import errors
     errors.init_app(app)
     for name in BLUEPRINT_MODULES:
         module = importlib.import_module(name)

@@ -8,14 +8,14 @@ import os
 
 from flask import Blueprint, Response, current_app, jsonify, request
 
-from ptype import CAUTION
-from ptype.alerts import service
-from ptype.alerts.cap import DEFAULT_RADIUS_KM, STATUS
+from ptype.constants import CAUTION
+from ptype.roads.alerts import service
+from ptype.roads.alerts.cap import DEFAULT_RADIUS_KM, STATUS
 from ptype.store import Alert
-from ptype.store.clock import iso
+from ptype.clock import iso
 
-from .errors import ApiError
-from .sites import get_store, now, require_key
+from api.errors import ApiError
+from api.sites import get_store, now, require_key
 
 bp = Blueprint("alerts", __name__)
 
@@ -67,7 +67,7 @@ def alert_cap(alert_id: str):
 
 @bp.get("/v1/alerts.atom")
 def alerts_atom():
-    from ptype.alerts.atom import build_feed
+    from ptype.roads.alerts.atom import build_feed
     xml = build_feed(_alerts(), base_url=request.host_url.rstrip("/"), sender=sender(),
                      now=now())
     return Response(xml, mimetype="application/atom+xml")
@@ -80,7 +80,7 @@ def evaluate():
 
     from ptype.store import Site
 
-    from .sites import _evaluate_alerts
+    from api.sites import _evaluate_alerts
     with get_store().read() as s:
         ids = list(s.scalars(sa.select(Site.id).order_by(Site.id)))
     actions = []

@@ -15,10 +15,10 @@ from pathlib import Path
 
 from flask import Blueprint, Response, current_app, url_for
 
-from ptype import CAUTION
+from ptype.constants import CAUTION
 
-from .diagnose import json_response
-from .errors import ApiError
+from api.diagnose import json_response
+from api.errors import ApiError
 
 bp = Blueprint("demo", __name__, url_prefix="/v1")
 

@@ -18,8 +18,8 @@ import ptype
 from ptype.errors import ProfileError, ReaderError
 from ptype.readers import read_document
 
-from .errors import ApiError, error_body
-from .models import DiagnoseOptions
+from api.errors import ApiError, error_body
+from api.models import DiagnoseOptions
 
 bp = Blueprint("diagnose", __name__, url_prefix="/v1")
 
@@ -40,7 +40,7 @@ def init_app(app) -> None:
 
 def check_work(n_levels: int, kwargs: dict) -> None:
     """Refuse a request whose members x levels exceed ``PTYPE_MAX_MEMBER_LEVELS``."""
-    from ptype.probability import DEFAULT_MEMBERS
+    from ptype.engine.probability import DEFAULT_MEMBERS
     members = kwargs.get("members", DEFAULT_MEMBERS)
     limit = current_app.config.get("PTYPE_MAX_MEMBER_LEVELS", DEFAULT_MAX_MEMBER_LEVELS)
     if members * n_levels > limit:
@@ -87,7 +87,7 @@ def diagnose_kwargs(options: DiagnoseOptions) -> dict[str, Any]:
         if not names:
             raise ApiError(400, "invalid_option", "methods: expected at least one method name",
                            "methods")
-        from ptype.methods import get_method
+        from ptype.engine.methods import get_method
         for name in names:
             get_method(name)  # an unknown name is an OptionError (400) before any work
         kwargs["methods"] = names

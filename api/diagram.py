@@ -10,10 +10,10 @@ from __future__ import annotations
 from flask import Blueprint, Response, request
 
 import ptype
-from ptype.diagram import FORMATS, draw_diagram
+from ptype.plot.diagram import FORMATS, draw_diagram
 
-from .diagnose import check_work, diagnose_kwargs, parse_options, profile_from_request
-from .models import DiagramOptions
+from api.diagnose import check_work, diagnose_kwargs, parse_options, profile_from_request
+from api.models import DiagramOptions
 
 bp = Blueprint("diagram", __name__, url_prefix="/v1")
 

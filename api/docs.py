@@ -16,10 +16,10 @@ from pydantic import BaseModel
 from pydantic.json_schema import models_json_schema
 
 import ptype
-from ptype.document import ProfileDocument
+from ptype.profile.document import ProfileDocument
 
-from . import models as m
-from .diagnose import json_response
+from api import models as m
+from api.diagnose import json_response
 
 bp = Blueprint("docs", __name__)
 
@@ -130,7 +130,7 @@ def all_operations() -> list[dict[str, Any]]:
     """
     import importlib
 
-    from . import BLUEPRINT_MODULES
+    from api import BLUEPRINT_MODULES
     ops = list(OPERATIONS)
     for name in BLUEPRINT_MODULES:
         module = importlib.import_module(name)
@@ -338,7 +338,7 @@ def docs_page():
                for name, s in doc["components"]["schemas"].items()]
     from flask import make_response
 
-    from .page import secure_html
+    from api.page import secure_html
     return secure_html(make_response(render_template(
         "docs.html", info=doc["info"], operations=operations, schemas=schemas,
         caution=ptype.CAUTION)))

@@ -13,7 +13,7 @@ from typing import Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
-from ptype.document import ProfileDocument
+from ptype.profile.document import ProfileDocument
 
 PTYPE_CODES = ("NONE", "RA", "SN", "PL", "FZRA", "FZDZ", "DZ", "RASN", "RAPL", "FZRAPL")
 METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from flask import Blueprint, make_response, render_template
 
-from ptype import CAUTION
+from ptype.constants import CAUTION
 
 bp = Blueprint("page", __name__)
 

@@ -24,14 +24,14 @@ from flask import Blueprint, current_app, jsonify, request
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
 
 from ptype import Profile
-from ptype.alerts import service
-from ptype.document import _loc
+from ptype.roads.alerts import service
+from ptype.profile.document import _loc
 from ptype.errors import OptionError, ProfileError
 from ptype.store import ApiKey, Observation, ProfileRecord, Site, Store, open_store
 from ptype.store import keys as keystore
-from ptype.store.clock import iso, parse_time, utcnow
+from ptype.clock import iso, parse_time, utcnow
 
-from .errors import ApiError
+from api.errors import ApiError
 
 log = logging.getLogger("ptype.api.sites")
 bp = Blueprint("sites", __name__)
@@ -141,7 +141,7 @@ class _Body(BaseModel):
 
 
 class RoadThresholds(_Body):
-    """Per-site alert thresholds (all optional; defaults in ``ptype.alerts.rules``)."""
+    """Per-site alert thresholds (all optional; defaults in ``ptype.roads.alerts.rules``)."""
 
     freezing_probability: float | None = Field(None, ge=0, le=1)
     freezing_window_hours: float | None = Field(None, gt=0, le=48)

@@ -11,14 +11,14 @@ from html import escape
 import sqlalchemy as sa
 from flask import Blueprint, Response, current_app, request
 
-from ptype import CAUTION
-from ptype.alerts import service
+from ptype.constants import CAUTION
+from ptype.roads.alerts import service
 from ptype.codes import LABELS, Code
 from ptype.store import Site
-from ptype.store.clock import iso
+from ptype.clock import iso
 
-from .page import secure_html
-from .sites import get_store, now
+from api.page import secure_html
+from api.sites import get_store, now
 
 bp = Blueprint("sites_page", __name__)
 

@@ -92,7 +92,7 @@ def snap_grid() -> dict:
 
 
 def _nowcast():
-    for name in ("ptype.roads.nowcast", "ptype.nowcast"):
+    for name in ("ptype.roads.nowcast", "ptype.roads.nowcast"):
         try:
             return importlib.import_module(name)
         except ImportError:
@@ -102,7 +102,7 @@ def _nowcast():
 
 def snap_timeline() -> dict:
     import ptype
-    from ptype.store.clock import parse_time
+    from ptype.clock import parse_time
     nowcast = _nowcast()
     manifest = json.loads((DEMO / "series" / "manifest.json").read_text())
     out = {}

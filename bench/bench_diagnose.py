@@ -25,7 +25,7 @@ import numpy as np
 from _common import code_version  # sibling module of the scripts
 
 import ptype
-from ptype.probability import DEFAULT_MEMBERS
+from ptype.engine.probability import DEFAULT_MEMBERS
 
 TARGET_MS = 5.0
 #: Median of this benchmark before the engine's call overhead was cut (same profile, quiet

@@ -3,7 +3,7 @@
 Both are measured in this one process on the same 24-hour series (the demo storm of one
 site when ``soundings_demo/series`` exists, else a synthetic series), 15-minute steps:
 
-* ``ptype.nowcast.build_timeline`` — every step's column interpolated, adjusted, diagnosed
+* ``ptype.roads.nowcast.build_timeline`` — every step's column interpolated, adjusted, diagnosed
   and given Monte-Carlo probabilities in one batch;
 * the reference — the same interpolated columns, each diagnosed and given probabilities
   separately (``diagnose_columns`` and ``member_probabilities`` on one column at a time).
@@ -29,9 +29,9 @@ import numpy as np
 from _common import best_of  # sibling module of the scripts
 
 from ptype import Profile
-from ptype.diagnosis import diagnose_columns
-from ptype.nowcast import build_timeline
-from ptype.probability import member_probabilities
+from ptype.engine.run import diagnose_columns
+from ptype.roads.nowcast import build_timeline
+from ptype.engine.run import member_probabilities
 from ptype.readers import read_profile
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -67,7 +67,7 @@ def main(argv=None) -> dict:
     vectorised = best_of(lambda: build_timeline(profiles, **kw))
 
     # Reference: capture the adjusted columns, then diagnose them one by one.
-    import ptype.nowcast as nc
+    import ptype.roads.nowcast as nc
     captured = {}
     original = nc.Columns.from_arrays
 

@@ -216,7 +216,7 @@ def stage_timings(document: dict, repeat: int = 40) -> dict:
     sys.path.insert(0, str(ROOT))
     import ptype
     from api import create_app
-    from ptype.document import parse_document
+    from ptype.profile.document import parse_document
 
     body = json.dumps(document)
 
@@ -253,10 +253,10 @@ def _engine_breakdown(profile, repeat: int = 20) -> dict:
     """The engine's parts for one profile with 50 members, through its public entry points:
     perturbing the members, the deterministic methods on the profile, all methods on the
     50 perturbed columns, and each method alone on those 50 columns."""
-    from ptype.columns import Columns
-    from ptype.diagnosis import diagnose_columns
-    from ptype.methods import METHOD_NAMES
-    from ptype.probability import perturb
+    from ptype.engine.columns import Columns
+    from ptype.engine.run import diagnose_columns
+    from ptype.engine.methods import METHOD_NAMES
+    from ptype.engine.probability import perturb
 
     def timed(fn):
         fn()

@@ -34,7 +34,7 @@ and thins (first at the coast, last in the sheltered valley).  A dry slot
 aloft ends the deep cloud in the evening and leaves low stratus behind.
 
 Layer areas are Bourgouin's (2000) ``R_d * integral (T - T0) d ln p`` in J/kg,
-computed with :func:`ptype.layers.analyse_layers`; the script prints them for
+computed with :func:`ptype.engine.layers.analyse_layers`; the script prints them for
 every case so the design can be checked against the intended type.
 """
 
@@ -55,7 +55,7 @@ if str(HERE.parent) not in sys.path:  # allow running from a source checkout
     sys.path.insert(0, str(HERE.parent))
 
 from ptype import thermo  # noqa: E402
-from ptype.layers import analyse_layers, cloud_mask, level_runs  # noqa: E402
+from ptype.engine.layers import analyse_layers, cloud_mask, level_runs  # noqa: E402
 from ptype.readers.temp_format import write_temp  # noqa: E402
 
 # --- the invented region -------------------------------------------------------------------
@@ -69,7 +69,7 @@ REGION = {
 
 #: The road-weather sites.  ``temp_station`` is the invented five-digit number used in the
 #: WMO TEMP copies; ``road_surface`` describes the pavement; the optional ``thresholds``
-#: override the alert defaults of :mod:`ptype.alerts.rules` for that site (bridge decks ice
+#: override the alert defaults of :mod:`ptype.roads.alerts.rules` for that site (bridge decks ice
 #: first, so their freezing-precipitation alerts start at a lower probability; the pass is
 #: ploughed at a lower snowfall rate).
 SITES = [
@@ -574,14 +574,14 @@ def available_methods() -> tuple[str, ...] | None:
     """Names of the diagnosis methods importable here (None without the diagnosis engine)."""
     import importlib
     try:
-        from ptype.methods import METHOD_NAMES
-        importlib.import_module("ptype.diagnosis")
+        from ptype.engine.methods import METHOD_NAMES
+        importlib.import_module("ptype.engine.diagnosis")
     except ImportError:
         return None
     names = []
     for name in METHOD_NAMES:
         try:
-            importlib.import_module(f"ptype.methods.{name}")
+            importlib.import_module(f"ptype.engine.methods.{name}")
         except ImportError:
             continue
         names.append(name)
@@ -593,7 +593,7 @@ def _diagnose(doc: dict) -> str:
     methods = available_methods()
     if not methods:
         return "-"
-    from ptype.diagnosis import diagnose
+    from ptype.engine.diagnosis import diagnose
     return diagnose(doc, members=0, seed=0, methods=methods).ptype
 
 
@@ -721,7 +721,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--out", type=Path, default=HERE, help="output directory (default: here)")
     parser.add_argument("--quiet", action="store_true", help="do not print the design table")
     parser.add_argument("--diagnose", action="store_true",
-                        help="add the ptype consensus to the table (needs ptype.diagnosis)")
+                        help="add the ptype consensus to the table (needs ptype.engine.diagnosis)")
     args = parser.parse_args(argv)
     generate(args.out, quiet=args.quiet, diagnose=args.diagnose)
     return 0

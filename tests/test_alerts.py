@@ -1,4 +1,4 @@
-"""Tests of ptype.alerts: rules, lifecycle decisions, and the lifecycle through the service."""
+"""Tests of ptype.roads.alerts: rules, lifecycle decisions, and the lifecycle through the service."""
 
 from datetime import timedelta
 
@@ -7,8 +7,8 @@ from series_helpers import T0, profile_doc, storm_docs
 
 from api import create_app
 from api.sites import store_for
-from ptype.alerts.lifecycle import CHANGE_TOLERANCE, decide
-from ptype.alerts.rules import Candidate, certainty_word, evaluate_rules, urgency_word
+from ptype.roads.alerts.lifecycle import CHANGE_TOLERANCE, decide
+from ptype.roads.alerts.rules import Candidate, certainty_word, evaluate_rules, urgency_word
 from ptype.store import keys
 
 NOW = T0
@@ -183,7 +183,7 @@ def test_alerts_expire_with_the_clock(tmp_path):
 
 
 def test_observed_present_weather_makes_certainty_observed():
-    from ptype.alerts.rules import observed_confirms
+    from ptype.roads.alerts.rules import observed_confirms
     # METAR w'w' groups (WMO code table 4678): intensity ignored for freezing types.
     assert observed_confirms("freezing_precipitation", "-FZRA BR")
     assert observed_confirms("freezing_precipitation", "FZDZ")
@@ -204,7 +204,7 @@ def test_cap_status_recorded_with_each_message(tmp_path):
     app, client, h, site = _service_with_site(tmp_path, PTYPE_CAP_STATUS="Exercise")
     client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs()}, headers=h)
     alert = client.get("/v1/alerts").json["alerts"][0]
-    from ptype.alerts import service
+    from ptype.roads.alerts import service
     from ptype.store import Alert
     with store_for(app).read() as s:
         xml = service.cap_for(s.get(Alert, alert["id"]), "x", None, 10.0).decode()

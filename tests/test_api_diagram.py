@@ -12,7 +12,7 @@ from api_support import freezing_rain_document, snow_document
 
 import ptype
 from api import create_app
-from ptype.diagram import draw_diagram
+from ptype.plot.diagram import draw_diagram
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C / ISO/IEC 15948), section 5.2
 SVG_NS = "{http://www.w3.org/2000/svg}"  # W3C SVG 1.1 namespace

@@ -8,7 +8,7 @@ from series_helpers import storm_docs
 from api import create_app
 from api.sites import store_for
 from ptype.store import keys
-from ptype.store.clock import parse_time
+from ptype.clock import parse_time
 
 NOW = "2026-01-27T00:00:00Z"
 

@@ -1,4 +1,4 @@
-"""Tests of ptype.alerts.cap (OASIS CAP 1.2) and ptype.alerts.atom (RFC 4287).
+"""Tests of ptype.roads.alerts.cap (OASIS CAP 1.2) and ptype.roads.alerts.atom (RFC 4287).
 
 The schema tests/data/cap12_subset.xsd is written from the CAP 1.2 element list (OASIS
 Standard, 1 July 2010, sec. 3.2): element order, required elements, enumerations and the
@@ -13,7 +13,7 @@ from xml.etree import ElementTree as ET
 import pytest
 from lxml import etree
 
-from ptype.alerts import atom, cap
+from ptype.roads.alerts import atom, cap
 
 NS = {"c": cap.NAMESPACE}
 XSD = etree.XMLSchema(etree.parse(str(Path(__file__).parent / "data" / "cap12_subset.xsd")))

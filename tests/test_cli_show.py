@@ -8,7 +8,9 @@ from pathlib import Path
 
 import pytest
 
-from ptype import CAUTION, thermo
+from ptype import thermo
+
+from ptype.constants import CAUTION
 
 ROOT = Path(__file__).resolve().parents[1]
 PTYPE = ROOT / ".venv" / "bin" / "ptype"

@@ -1,12 +1,12 @@
-"""ptype.columns: level ordering of ``Columns.from_arrays`` (compiled pass against numpy)."""
+"""ptype.engine.columns: level ordering of ``Columns.from_arrays`` (compiled pass against numpy)."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from ptype import columns as cmod
-from ptype.columns import Columns
+from ptype.engine import columns as cmod
+from ptype.engine.columns import Columns
 
 
 def _messy_levels(seed: int, n: int = 3000, L: int = 25):

@@ -18,9 +18,9 @@ import pytest
 
 import ptype
 from ptype.codes import Code
-from ptype.columns import Columns
-from ptype.constants import Rd
-from ptype.layers import analyse_layers, cloud_mask, dry_mask, level_runs
+from ptype.engine.columns import Columns
+from ptype.thermo.constants import Rd
+from ptype.engine.layers import analyse_layers, cloud_mask, dry_mask, level_runs
 
 DEMO = Path(__file__).resolve().parents[1] / "soundings_demo"
 #: Sub-directories written by make_demo.py (soundings_demo/verification has its own generator).
@@ -59,7 +59,7 @@ def _manifest() -> dict:
 def _methods() -> tuple[str, ...]:
     """Every diagnosis method installed; the melting-layer and cloud-top voters must be."""
     names = make_demo.available_methods()
-    assert names is not None, "ptype.diagnosis is not importable"
+    assert names is not None, "ptype.engine.diagnosis is not importable"
     assert {"bourgouin", "ramer", "baldwin", "cloud_top"} <= set(names)
     return names
 
@@ -270,7 +270,7 @@ def test_sites_are_complete():
         assert set(s) >= {"id", "name", "latitude", "longitude", "elevation_m", "description"}
         assert -90 <= s["latitude"] <= 90 and -180 <= s["longitude"] <= 180
         # Optional alert thresholds use the alert rules' own keys and types.
-        from ptype.alerts.rules import DEFAULT_THRESHOLDS
+        from ptype.roads.alerts.rules import DEFAULT_THRESHOLDS
         for key, value in s.get("thresholds", {}).items():
             assert type(value) is type(DEFAULT_THRESHOLDS[key]), key
     by_id = {s["id"]: s for s in sites}
@@ -283,7 +283,7 @@ def test_sites_are_complete():
 def _series_codes(site_id: str) -> tuple[list[str], list]:
     files = _manifest()["sites"][site_id]["files"]
     profiles = [ptype.read_profile(DEMO / "series" / f) for f in files]
-    from ptype.diagnosis import diagnose_columns
+    from ptype.engine.run import diagnose_columns
     out = diagnose_columns(Columns.from_profiles(profiles), methods=_methods())
     return [Code(int(c)).name for c in out["ptype"]], profiles
 
@@ -339,7 +339,7 @@ def test_series_frost_before_the_storm():
 # --- diagnosis of the case library ----------------------------------------------------------
 
 def test_diagnose_case_library_covers_every_type():
-    from ptype.diagnosis import diagnose
+    from ptype.engine.diagnosis import diagnose
     methods = _methods()
     found = {}
     for case in make_demo.CASES:

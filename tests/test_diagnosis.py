@@ -10,12 +10,13 @@ from hypothesis import strategies as st
 import ptype
 from ptype import thermo
 from ptype.codes import Code
-from ptype.columns import Columns
-from ptype.consensus import consensus
-from ptype.diagnosis import diagnose_columns
-from ptype.methods import METHOD_NAMES
-from ptype.methods.base import Context, MethodResult
-from ptype.probability import correlated_noise, member_probabilities
+from ptype.engine.columns import Columns
+from ptype.engine.consensus import consensus
+from ptype.engine.run import diagnose_columns
+from ptype.engine.methods import METHOD_NAMES
+from ptype.engine.methods.base import Context, MethodResult
+from ptype.engine.probability import correlated_noise
+from ptype.engine.run import member_probabilities
 
 
 def document(p, t, td, **extra):
@@ -154,7 +155,7 @@ def test_diagnose_many_matches_diagnose_per_profile(monkeypatch):
     # members of several profiles (here in batches of 2) give probabilities that sum to 1,
     # put most weight on the control's type for these clear-cut profiles, and are
     # reproducible with a seed.
-    from ptype import diagnosis
+    from ptype.engine import diagnosis
     monkeypatch.setattr(diagnosis, "MANY_MEMBER_BATCH", 2)
     warm = [t + 8.0 for t in FZRA_T]
     docs = [document(FZRA_P, FZRA_T, FZRA_TD), document(FZRA_P, warm, FZRA_TD),
@@ -248,7 +249,7 @@ def test_boiling_level_refused_with_field():
                                      "bourgouin,czys,jennings"])
 def test_diagnose_columns_consensus_only_same_codes(methods):
     # Consistency check against the full pipeline: the consensus reads only its voters
-    # (ptype.consensus.VOTERS) and computes Jennings et al. (2018) itself, so skipping the
+    # (ptype.engine.consensus.VOTERS) and computes Jennings et al. (2018) itself, so skipping the
     # non-voting methods must leave every code unchanged, controls and perturbed members alike
     # (the regression corpus of tests/test_engine_regression.py).
     import gzip
@@ -256,7 +257,7 @@ def test_diagnose_columns_consensus_only_same_codes(methods):
 
     from test_engine_regression import EXPECTED, _load, corpus_paths
 
-    from ptype.probability import perturb
+    from ptype.engine.probability import perturb
     from ptype.profile import Profile
 
     cols = Columns.from_profiles([Profile.from_document(_load(p)) for p in corpus_paths()])

@@ -20,7 +20,7 @@ import pytest
 import sqlalchemy as sa
 
 from ptype.store import Store, database_url, keys
-from ptype.store.clock import utcnow
+from ptype.clock import utcnow
 
 ROOT = Path(__file__).resolve().parents[1]
 GUNICORN = Path(sys.executable).parent / "gunicorn"

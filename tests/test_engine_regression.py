@@ -23,10 +23,10 @@ import numpy as np
 import pytest
 
 import ptype
-from ptype.columns import Columns
-from ptype.diagnosis import diagnose_columns
+from ptype.engine.columns import Columns
+from ptype.engine.run import diagnose_columns
 from ptype.errors import ProfileError
-from ptype.probability import perturb
+from ptype.engine.probability import perturb
 from ptype.profile import Profile
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -236,7 +236,7 @@ def member_columns():
 
 
 def test_ramer_generation_layer_compiled_matches_numpy(member_columns):
-    from ptype.methods import ramer
+    from ptype.engine.methods import ramer
     if not ramer._COMPILED:
         pytest.skip("numba not installed")
     c = member_columns
@@ -253,7 +253,7 @@ def test_ramer_generation_layer_compiled_matches_numpy(member_columns):
     assert len(ramer._generation_layer_fast(c.pressure_hpa, c.relative_humidity_pct)) == 2
 
 def _ramer_march_inputs(c):
-    from ptype.methods import ramer
+    from ptype.engine.methods import ramer
     top, _, top_tw = ramer.generation_layer(c.pressure_hpa, c.relative_humidity_pct, c.wetbulb_c)
     ice0 = np.where(np.isfinite(top) & (top_tw <= ramer.FREEZING_ONSET_TW_C), 1.0, 0.0)
     return c.pressure_hpa, c.wetbulb_c, c.relative_humidity_pct / 100.0, top, ice0
@@ -262,7 +262,7 @@ def _ramer_march_inputs(c):
 @pytest.mark.parametrize("room", [None, 1])
 def test_ramer_march_compiled_matches_numpy(member_columns, monkeypatch, room):
     # room=1 makes the compiled march run out of stage room and march again.
-    from ptype.methods import ramer
+    from ptype.engine.methods import ramer
     if not ramer._COMPILED:
         pytest.skip("numba not installed")
     if room is not None:
@@ -282,7 +282,7 @@ def test_ramer_march_compiled_matches_numpy(member_columns, monkeypatch, room):
 
 def test_ramer_march_compiled_matches_numpy_on_rough_profiles(member_columns):
     # Noisy wet-bulbs and RH (many crossings of 0 and -6.6 degC) and missing values.
-    from ptype.methods import ramer
+    from ptype.engine.methods import ramer
     if not ramer._COMPILED:
         pytest.skip("numba not installed")
     rng = np.random.default_rng(17)
@@ -301,7 +301,7 @@ def test_ramer_march_compiled_matches_numpy_on_rough_profiles(member_columns):
 
 
 def test_czys_lnp_integral_compiled_matches_numpy(member_columns):
-    from ptype.methods import czys
+    from ptype.engine.methods import czys
     if not czys._COMPILED:
         pytest.skip("numba not installed")
     c = member_columns
@@ -321,7 +321,7 @@ def test_czys_lnp_integral_compiled_matches_numpy(member_columns):
 
 
 def test_correlated_noise_compiled_matches_numpy(member_columns):
-    from ptype import probability
+    from ptype.engine import probability
     if not probability._COMPILED:
         pytest.skip("numba not installed")
     z = member_columns.height_m
@@ -334,7 +334,7 @@ def test_correlated_noise_compiled_matches_numpy(member_columns):
 
 
 def test_interpolate_at_pressures_matches_one_at_a_time(member_columns):
-    from ptype.columns import interpolate_at_pressure, interpolate_at_pressures
+    from ptype.engine.columns import interpolate_at_pressure, interpolate_at_pressures
     c = member_columns
     levels = np.unique(c.pressure_hpa[np.isfinite(c.pressure_hpa)])[::9]
     levels = np.concatenate([[1100.0, 1000.0, 850.0, 700.0, 500.0, 250.0, 10.0], levels])
@@ -346,7 +346,7 @@ def test_interpolate_at_pressures_matches_one_at_a_time(member_columns):
 
 @pytest.mark.parametrize("field", ["temperature_c", "wetbulb_c", "rounded", "noise"])
 def test_analyse_layers_compiled_matches_numpy(member_columns, field):
-    from ptype import layers
+    from ptype.engine import layers
     if not layers._COMPILED:
         pytest.skip("numba not installed")
     c = member_columns
@@ -365,7 +365,7 @@ def test_analyse_layers_compiled_matches_numpy(member_columns, field):
 
 @pytest.mark.parametrize("part", ["net", "positive", "negative"])
 def test_baldwin_area_compiled_matches_numpy(member_columns, part, monkeypatch):
-    from ptype.methods import baldwin
+    from ptype.engine.methods import baldwin
     if not baldwin._COMPILED:
         pytest.skip("numba not installed")
     c = member_columns
@@ -387,9 +387,9 @@ def test_baldwin_area_compiled_matches_numpy(member_columns, part, monkeypatch):
                 np.testing.assert_array_equal(fast, slow)
 
 def test_cloud_top_seeding_compiled_matches_numpy(member_columns):
-    from ptype.layers import cumulative_dry_depth_m
-    from ptype.methods import cloud_top
-    from ptype.methods.base import Context
+    from ptype.engine.layers import cumulative_dry_depth_m
+    from ptype.engine.methods import cloud_top
+    from ptype.engine.methods.base import Context
     if not cloud_top._COMPILED:
         pytest.skip("numba not installed")
     c = member_columns

@@ -232,7 +232,7 @@ def test_diagnose_dataset_is_lazy_and_independent_of_chunking(small_file, small_
 
 def test_column_kernel_batches_give_the_same_answers(small_file, small_result, monkeypatch):
     # A chunk larger than the engine's batch is diagnosed batch by batch: same values.
-    monkeypatch.setattr(grid, "ENGINE_BATCH_COLUMNS", 7)
+    monkeypatch.setattr(grid.kernel, "ENGINE_BATCH_COLUMNS", 7)
     out = grid.diagnose_dataset(grid.open_grid(small_file), per_method=True).compute()
     for name in small_result.data_vars:
         np.testing.assert_array_equal(out[name].values, small_result[name].values)
@@ -249,14 +249,14 @@ def test_retain_freed_memory_applies_on_glibc():
 
 def test_default_chunks_follow_storage_and_members(small_grid, tmp_path, monkeypatch):
     # Contiguous storage: whole rows of the innermost dimension, bands along the outer one.
-    monkeypatch.setattr(grid, "DEFAULT_CHUNK_WORK", 64)
+    monkeypatch.setattr(grid.io, "DEFAULT_CHUNK_WORK", 64)
     fields = grid.find_fields(small_grid)
     chunks = grid.default_chunks(small_grid, fields)
     assert (chunks["x"], chunks["y"], chunks["time"], chunks[fields.level_dim]) == (16, 4, 1, -1)
     # Members multiply the work per column: 64 // (1 + 3) = 16 columns, one row.
     assert (grid.default_chunks(small_grid, fields, members=3)["y"]) == 1
     # Chunked storage (2 x 3 columns per file chunk): whole multiples of the file's chunks.
-    monkeypatch.setattr(grid, "DEFAULT_CHUNK_WORK", 8)
+    monkeypatch.setattr(grid.io, "DEFAULT_CHUNK_WORK", 8)
     path = tmp_path / "chunked.nc"
     enc = {v: {"chunksizes": (1, 1, 2, 3)} for v in small_grid.data_vars
            if small_grid[v].ndim == 4}
@@ -266,7 +266,7 @@ def test_default_chunks_follow_storage_and_members(small_grid, tmp_path, monkeyp
         chunks = grid.default_chunks(ds, grid.find_fields(ds))
     assert (chunks["x"], chunks["y"]) == (9, 2)
     # One file chunk for the whole variable: split like contiguous storage, not one task.
-    monkeypatch.setattr(grid, "DEFAULT_CHUNK_WORK", 64)
+    monkeypatch.setattr(grid.io, "DEFAULT_CHUNK_WORK", 64)
     path = tmp_path / "one_chunk.nc"
     small_grid.to_netcdf(path, encoding={v: {"chunksizes": small_grid[v].shape}
                                          for v in small_grid.data_vars})
@@ -276,7 +276,7 @@ def test_default_chunks_follow_storage_and_members(small_grid, tmp_path, monkeyp
 
 
 def test_diagnose_dataset_without_per_method_same_consensus(small_file, small_result):
-    # Consistency: without per-method outputs only the voting methods run (ptype.consensus
+    # Consistency: without per-method outputs only the voting methods run (ptype.engine.consensus
     # VOTERS); the consensus, energies and heights must equal those of the full run.
     out = grid.diagnose_dataset(grid.open_grid(small_file)).compute()
     assert not any(n.startswith("precipitation_type_") for n in out.data_vars)
@@ -402,7 +402,7 @@ def test_plot_types_uses_palette_and_legend(small_result, tmp_path):
     from matplotlib.colors import to_rgb
     from matplotlib.image import imread
 
-    from ptype.gridplot import PALETTE, plot_types
+    from ptype.plot.gridmap import PALETTE, plot_types
     path = plot_types(small_result, tmp_path / "m.png", time_index=1)
     img = np.round(imread(path)[..., :3] * 255.0).astype(int)
     colours = {tuple(c) for c in img.reshape(-1, 3)}

@@ -1,4 +1,4 @@
-"""Compiled wet-bulb kernels (ptype.fastthermo) against the numpy path and reference libraries."""
+"""Compiled wet-bulb kernels (ptype.thermo.fast) against the numpy path and reference libraries."""
 
 from __future__ import annotations
 
@@ -7,7 +7,10 @@ import threading
 import numpy as np
 import pytest
 
-from ptype import fastthermo, thermo
+from ptype import thermo
+from ptype.thermo import wetbulb
+
+from ptype.thermo import fast as fastthermo
 
 pytestmark = pytest.mark.skipif(not fastthermo.AVAILABLE, reason="numba not installed")
 
@@ -26,7 +29,7 @@ def test_wet_bulb_c_isobaric_matches_numpy_path():
     # with the numpy solver to 1e-6 K everywhere, including very dry, very cold and 100 hPa air.
     p, t, td = _sample(50_000)
     fast = fastthermo.wet_bulb_c(p, t, td, kind="isobaric")
-    ref = thermo._isobaric_wet_bulb_c(p, t, td)
+    ref = wetbulb._isobaric_wet_bulb_c(p, t, td)
     assert np.max(np.abs(fast - ref)) < 1e-6
 
 
@@ -35,7 +38,7 @@ def test_wet_bulb_c_adiabatic_matches_numpy_path():
     # both stop on a 1e-3 K step, so they agree to well under 1e-5 K.
     p, t, td = _sample(20_000, seed=1, t_range=(-50.0, 40.0), p_range=(300.0, 1080.0))
     fast = fastthermo.wet_bulb_c(p, t, td, kind="adiabatic")
-    ref = thermo._adiabatic_wet_bulb_c(p, t, td)
+    ref = wetbulb._adiabatic_wet_bulb_c(p, t, td)
     assert np.max(np.abs(fast - ref)) < 1e-5
 
 
@@ -117,13 +120,13 @@ def test_wet_bulb_c_rejects_unknown_kind():
 
 
 def test_wet_bulb_temperature_dispatches_large_arrays_to_compiled_path():
-    p, t, td = _sample(thermo._FAST_MIN_SIZE * 2, seed=6)
+    p, t, td = _sample(wetbulb._FAST_MIN_SIZE * 2, seed=6)
     td[::7] = np.nan
     out = thermo.wet_bulb_temperature(p, t, td)
     ok = np.isfinite(td)
     np.testing.assert_array_equal(out[ok], fastthermo.wet_bulb_c(p[ok], t[ok], td[ok]))
     assert np.isnan(out[~ok]).all()
-    assert np.max(np.abs(out[ok] - thermo._isobaric_wet_bulb_c(p[ok], t[ok], td[ok]))) < 1e-6
+    assert np.max(np.abs(out[ok] - wetbulb._isobaric_wet_bulb_c(p[ok], t[ok], td[ok]))) < 1e-6
 
 
 def test_wet_bulbs_c_equals_each_kind_and_both_paths():
@@ -140,7 +143,7 @@ def test_wet_bulbs_c_equals_each_kind_and_both_paths():
         np.testing.assert_array_equal(a, b)
     ok = np.isfinite(td) & (p > 0)
     assert np.isnan(iso[~ok]).all() and np.isnan(adi[~ok]).all()
-    assert np.max(np.abs(adi[ok] - thermo._adiabatic_wet_bulb_c(p[ok], t[ok], td[ok]))) < 1e-5
+    assert np.max(np.abs(adi[ok] - wetbulb._adiabatic_wet_bulb_c(p[ok], t[ok], td[ok]))) < 1e-5
     small = thermo.wet_bulb_temperatures(p[:20], t[:20], td[:20])  # numpy path below the threshold
     np.testing.assert_array_equal(small[1], thermo.wet_bulb_temperature(p[:20], t[:20], td[:20],
                                                                          kind="adiabatic"))

@@ -1,4 +1,4 @@
-"""Tests of ptype.hazards: road hazards and the Jones ice-accretion model."""
+"""Tests of ptype.roads.hazards: road hazards and the Jones ice-accretion model."""
 
 import math
 
@@ -8,7 +8,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from ptype import hazards
+from ptype.roads import hazards
 from ptype.codes import Code
 
 

@@ -1,4 +1,4 @@
-"""Tests of ptype.methods.baldwin and baldwin_revised against Baldwin et al. (1994) and its
+"""Tests of ptype.engine.methods.baldwin and baldwin_revised against Baldwin et al. (1994) and its
 2005 revision (thresholds as used in operational post-processing, docs/methods.md): saturation 2/4/6 K between p_sfc - 70 hPa and 500 hPa, the -4 degC no-ice
 branch, AREAP4 < 3000 K m and (revision) AREAP0 < 350 K m -> SN, SURFC < -3000 K m or
 (AREAS8 < -3000 K m and SURFW < 50 K m) -> PL.
@@ -16,9 +16,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ptype.codes import NO_RESULT, Code
-from ptype.columns import Columns
-from ptype.methods import baldwin, baldwin_revised, get_method
-from ptype.methods.base import Context
+from ptype.engine.columns import Columns
+from ptype.engine.methods import baldwin, baldwin_revised, get_method
+from ptype.engine.methods.base import Context
 
 
 def run(module, p, z, t, td=None):

@@ -2,7 +2,7 @@
 
 Areas follow the paper's definition (area between the sounding and 0 degC on
 an equal-area diagram, R_d * integral (T - T0) d ln p) and are computed here in
-closed form for piecewise-linear-in-ln-p profiles, independently of ptype.layers.
+closed form for piecewise-linear-in-ln-p profiles, independently of ptype.engine.layers.
 Thresholds 2, 5.6, 13.2 J/kg and lines 46 + 0.66 PA / 66 + 0.66 PA: Bourgouin
 (2000), Wea. Forecasting 15, 583-592 (confirmed against the operational code).
 """
@@ -13,10 +13,10 @@ import numpy as np
 import pytest
 
 from ptype.codes import Code
-from ptype.columns import Columns
-from ptype.constants import Rd
-from ptype.methods import bourgouin
-from ptype.methods.base import Context
+from ptype.engine.columns import Columns
+from ptype.thermo.constants import Rd
+from ptype.engine.methods import bourgouin
+from ptype.engine.methods.base import Context
 
 
 def run_one(p, t, sfc_t=None):

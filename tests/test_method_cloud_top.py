@@ -13,9 +13,9 @@ import numpy as np
 import pytest
 
 from ptype.codes import NO_RESULT, Code
-from ptype.columns import Columns
-from ptype.methods import cloud_top
-from ptype.methods.base import Context
+from ptype.engine.columns import Columns
+from ptype.engine.methods import cloud_top
+from ptype.engine.methods.base import Context
 
 
 def run_one(p, t, td, sfc_t=None):

@@ -1,4 +1,4 @@
-"""Tests of ptype.methods.czys against Czys et al. (1996) (docs/methods.md).
+"""Tests of ptype.engine.methods.czys against Czys et al. (1996) (docs/methods.md).
 
 The melting time is the textbook form t_m = rho_i L_f r0^2 / (2 f [K_a dT + L_v D_v d_rho_v])
 (Mason 1971; Pruppacher & Klett 1997 -- from memory, unverified);
@@ -17,10 +17,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ptype.codes import NO_RESULT, Code
-from ptype.columns import Columns
+from ptype.engine.columns import Columns
 from ptype.errors import OptionError
-from ptype.methods import czys, get_method
-from ptype.methods.base import Context
+from ptype.engine.methods import czys, get_method
+from ptype.engine.methods.base import Context
 
 # Textbook constants near 0 degC (from memory, [M]): rho_i, L_f, L_v, K_a.
 RHO_I, LF, LV, KA = 917.0, 3.34e5, 2.5e6, 0.024

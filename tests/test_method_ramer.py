@@ -1,4 +1,4 @@
-"""Tests of ptype.methods.ramer against Ramer (1993) (docs/methods.md).
+"""Tests of ptype.engine.methods.ramer against Ramer (1993) (docs/methods.md).
 
 Expected values are computed here, independently of the module, from the published
 formula ``dI = ln(p_b/p_t) * (T0 - Tw) / (E * RH)`` with E = 0.045 and the thresholds
@@ -17,9 +17,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ptype.codes import NO_RESULT, Code
-from ptype.columns import Columns
-from ptype.methods import get_method, ramer
-from ptype.methods.base import Context
+from ptype.engine.columns import Columns
+from ptype.engine.methods import get_method, ramer
+from ptype.engine.methods.base import Context
 
 E = 0.045  # Ramer (1993) melting coefficient (operational constant)
 

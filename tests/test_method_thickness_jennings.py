@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from ptype.codes import NO_RESULT, Code
-from ptype.columns import Columns
-from ptype.methods import jennings, thickness
-from ptype.methods.base import Context
+from ptype.engine.columns import Columns
+from ptype.engine.methods import jennings, thickness
+from ptype.engine.methods.base import Context
 
 
 def column_with_thickness(low_m, mid_m, t_sfc=1.0, td_dep=0.5):

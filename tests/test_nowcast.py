@@ -1,4 +1,4 @@
-"""Tests of ptype.nowcast: interpolation, the three nowcast adjustments, and the timeline."""
+"""Tests of ptype.roads.nowcast: interpolation, the three nowcast adjustments, and the timeline."""
 
 import itertools
 import math
@@ -10,8 +10,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from series_helpers import T0, profile_doc, storm_docs
 
-from ptype import Profile, nowcast
-from ptype.constants import Cp_d, Lf, rho_w
+from ptype import Profile
+
+from ptype.roads import nowcast
+from ptype.thermo.constants import Cp_d, Lf, rho_w
 from ptype.errors import OptionError, ProfileError
 
 

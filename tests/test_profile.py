@@ -21,7 +21,7 @@ import psychrolib
 import pytest
 from metpy.units import units
 
-from ptype.document import json_schema, parse_document
+from ptype.profile.document import json_schema, parse_document
 from ptype.errors import ProfileError
 from ptype.profile import Profile
 
@@ -378,11 +378,11 @@ def test_to_document_round_trips():
 def test_json_schema_matches_committed_file():
     committed = json.loads((ROOT / "docs" / "profile.schema.json").read_text())
     assert committed == json_schema(), ("docs/profile.schema.json is stale: regenerate with "
-                                        "python -m ptype.document > docs/profile.schema.json")
+                                        "python -m ptype.profile.document > docs/profile.schema.json")
 
 
 def test_json_schema_module_entry_point_prints_schema():
-    out = subprocess.run([sys.executable, "-m", "ptype.document"], capture_output=True, text=True,
+    out = subprocess.run([sys.executable, "-m", "ptype.profile.document"], capture_output=True, text=True,
                          check=True, cwd=ROOT)
     assert json.loads(out.stdout) == json_schema()
 

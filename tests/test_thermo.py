@@ -10,6 +10,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ptype import thermo
+from ptype.thermo import wetbulb
 
 # --- saturation vapour pressure -----------------------------------------------------------
 
@@ -229,8 +230,8 @@ def test_wet_bulb_newton_converged():
     p = rng.uniform(300.0, 1050.0, 20000)
     t = rng.uniform(-40.0, 30.0, 20000)
     td = t - rng.uniform(0.0, 30.0, 20000)
-    fast = thermo._isobaric_wet_bulb_c(p, t, td)
-    tight = thermo._isobaric_wet_bulb_c(p, t, td, step_tolerance_k=0.0, max_iter=60)
+    fast = wetbulb._isobaric_wet_bulb_c(p, t, td)
+    tight = wetbulb._isobaric_wet_bulb_c(p, t, td, step_tolerance_k=0.0, max_iter=60)
     assert np.max(np.abs(fast - tight)) < 1e-4
 
 

@@ -163,7 +163,7 @@ def test_render_table_and_html_carry_scores_and_caution(report):
 
 
 def test_run_verification_default_runs_every_method(manifest):
-    from ptype.methods import METHOD_NAMES
+    from ptype.engine.methods import METHOD_NAMES
     r = run_verification(read_manifest(manifest)[:8], members=2)
     assert tuple(r["methods"]) == METHOD_NAMES
     assert set(r["cases"][0]["methods"]) == set(METHOD_NAMES)

@@ -14,7 +14,7 @@ import importlib
 import os
 import sys
 
-from .. import __version__
+from ptype import __version__
 
 #: Command modules, in the order ``ptype --help`` lists them.
 COMMAND_MODULES = ["show", "diagnose", "serve", "timeline", "alerts", "keys", "grid", "verify"]
@@ -45,7 +45,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
-    from ..errors import OptionError, ProfileError
+    from ptype.errors import OptionError, ProfileError
     parser = build_parser()
     args = parser.parse_args(argv)
     if not getattr(args, "func", None):

@@ -20,10 +20,10 @@ def register(sub) -> None:
 def run(args) -> int:
     import os
 
-    from .. import CAUTION
-    from ..alerts import service
-    from ..store import Alert, open_store
-    from ..store.clock import utcnow
+    from ptype.constants import CAUTION
+    from ptype.roads.alerts import service
+    from ptype.store import Alert, open_store
+    from ptype.clock import utcnow
     store = open_store()
     now = utcnow()
     sender = os.environ.get("PTYPE_CAP_SENDER") or "ptype@localhost"
@@ -42,7 +42,7 @@ def run(args) -> int:
         print(json.dumps({"alerts": alerts, "caution": CAUTION}, indent=2))
         return 0
     if args.format == "atom":
-        from ..alerts.atom import build_feed
+        from ptype.roads.alerts.atom import build_feed
         print(build_feed(alerts, base_url="", sender=sender, now=now).decode())
         return 0
     if not alerts:

@@ -6,8 +6,8 @@ import json
 import shutil
 import sys
 
-from .. import CAUTION
-from ..probability import DEFAULT_MEMBERS
+from ptype.constants import CAUTION
+from ptype.engine.probability import DEFAULT_MEMBERS
 
 BAR_WIDTH = 30
 
@@ -29,7 +29,7 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from ..diagnosis import diagnose
+    from ptype.engine.diagnosis import diagnose
     out = []
     for path in args.paths:
         source = sys.stdin.read() if path == "-" else path

@@ -7,7 +7,7 @@ import os
 import sys
 import time
 
-from .. import CAUTION
+from ptype.constants import CAUTION
 
 #: Seconds to wait for a --scheduler to answer.
 CONNECT_TIMEOUT_S = 10
@@ -47,8 +47,9 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from .. import grid
-    from ..errors import OptionError
+    from ptype import grid
+    from ptype.grid import io as grid_io
+    from ptype.errors import OptionError
 
     if os.path.abspath(args.output) in {os.path.abspath(p) for p in args.inputs}:
         raise OptionError(f"output {args.output}: would overwrite an input file", field="output")
@@ -75,13 +76,13 @@ def run(args) -> int:
             client.close()
     counts = grid.summary(args.output)
     total = sum(counts.values())
-    print(f"wrote {args.output}: {total} columns in {grid._fmt_seconds(elapsed)}")
+    print(f"wrote {args.output}: {total} columns in {grid_io.format_seconds(elapsed)}")
     for meaning, k in sorted(counts.items(), key=lambda kv: -kv[1]):
         print(f"  {meaning.replace('_', ' '):<28} {k:>10}  {100.0 * k / total:5.1f} %")
     if args.plot:
         import xarray as xr
 
-        from ..gridplot import plot_types
+        from ptype.plot.gridmap import plot_types
         with xr.open_dataset(args.output, engine="netcdf4", mask_and_scale=False) as written:
             plot_types(written, args.plot, time_index=args.plot_time)
         print(f"map: {args.plot}")
@@ -105,7 +106,7 @@ def _argv(args) -> list[str]:
 
 
 def _connect(address: str):
-    from ..errors import OptionError
+    from ptype.errors import OptionError
     try:
         from distributed import Client
     except ImportError:  # pragma: no cover - distributed is a declared dependency

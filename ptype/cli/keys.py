@@ -28,19 +28,19 @@ def register(sub) -> None:
 
 
 def _store():
-    from ..store import open_store
+    from ptype.store import open_store
     return open_store()
 
 
 def run_create(args) -> int:
-    from ..store import keys
-    from ..store.clock import utcnow
+    from ptype.store import keys
+    from ptype.clock import utcnow
     store = _store()
     try:
         with store.write() as s:
             key, info = keys.create_key(s, args.name, utcnow())
     except ValueError as exc:
-        from ..errors import OptionError
+        from ptype.errors import OptionError
         raise OptionError(str(exc), field="name") from None
     print(f"created key {info.key_id} for {info.name!r}; store it now, it is not shown again:")
     print(key)
@@ -48,7 +48,7 @@ def run_create(args) -> int:
 
 
 def run_list(args) -> int:
-    from ..store import keys
+    from ptype.store import keys
     with _store().read() as s:
         rows = [k.to_dict() for k in keys.list_keys(s)]
     if args.format == "json":
@@ -61,9 +61,9 @@ def run_list(args) -> int:
 
 
 def run_revoke(args) -> int:
-    from ..errors import OptionError
-    from ..store import keys
-    from ..store.clock import utcnow
+    from ptype.errors import OptionError
+    from ptype.store import keys
+    from ptype.clock import utcnow
     with _store().write() as s:
         info = keys.revoke_key(s, args.key_id, utcnow())
     if info is None:

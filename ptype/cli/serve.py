@@ -145,5 +145,5 @@ def run(args) -> int:
 
 
 if __name__ == "__main__":  # pragma: no cover
-    from . import main
+    from ptype.cli import main
     sys.exit(main(["serve", *sys.argv[1:]]))

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import json
 
-from .. import CAUTION
-from ..readers import read_profile
+from ptype.constants import CAUTION
+from ptype.readers import read_profile
 
 
 def register(sub) -> None:

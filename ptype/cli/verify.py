@@ -6,7 +6,7 @@ import json
 import sys
 from pathlib import Path
 
-from ..errors import OptionError
+from ptype.errors import OptionError
 
 FORMATS = ("table", "json", "html")
 EXTENSIONS = {"table": "txt", "json": "json", "html": "html"}
@@ -39,8 +39,8 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
-    from ..verify.manifest import read_manifest
-    from ..verify.report import make_figures, render_html, render_table, run_verification
+    from ptype.verify.manifest import read_manifest
+    from ptype.verify.report import make_figures, render_html, render_table, run_verification
     if args.members < 0:
         raise OptionError(f"--members {args.members}: expected 0 or more", field="members")
     cases = read_manifest(args.manifest)

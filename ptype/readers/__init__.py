@@ -12,9 +12,9 @@ import os
 from pathlib import Path
 from typing import Any
 
-from ..errors import ReaderError
-from ..profile import Profile
-from . import csv_format, json_format
+from ptype.errors import ReaderError
+from ptype.profile import Profile
+from ptype.readers import csv_format, json_format
 
 FORMATS = ("json", "csv", "temp", "netcdf")
 _EXTENSIONS = {".json": "json", ".csv": "csv", ".txt": "temp", ".temp": "temp", ".tmp": "temp",
@@ -63,7 +63,7 @@ def read_document(source: str | os.PathLike | bytes, format: str | None = None) 
             raise ReaderError(f"{name}: no such file")
         fmt = format or _EXTENSIONS.get(path.suffix.lower())
         if fmt == "netcdf":
-            from . import netcdf_format
+            from ptype.readers import netcdf_format
             return netcdf_format.read_netcdf_document(path), name
         try:
             text = path.read_text(encoding="utf-8-sig")  # tolerate a byte-order mark
@@ -75,7 +75,7 @@ def read_document(source: str | os.PathLike | bytes, format: str | None = None) 
         name = "<text>"
         if isinstance(source, bytes):
             if format == "netcdf" or source[:3] == b"CDF" or source[:4] == b"\x89HDF":
-                from . import netcdf_format
+                from ptype.readers import netcdf_format
                 return netcdf_format.read_netcdf_document(source), name
             try:
                 text = source.decode("utf-8-sig")
@@ -93,7 +93,7 @@ def read_document(source: str | os.PathLike | bytes, format: str | None = None) 
     if fmt == "csv":
         return csv_format.read_csv_document(text, name), name
     if fmt == "temp":
-        from . import temp_format
+        from ptype.readers import temp_format
         return temp_format.read_temp_document(text, name), name
     if fmt == "netcdf":
         raise ReaderError(f"{name}: NetCDF must be given as a file path or bytes")
@@ -119,8 +119,8 @@ def read_profile(path_or_text: str | os.PathLike | bytes, format: str | None = N
         The content was read but is not a valid profile.
     """
     document, name = read_document(path_or_text, format)
-    from ..document import parse_document
-    from ..errors import ProfileError
+    from ptype.profile.document import parse_document
+    from ptype.errors import ProfileError
     try:
         return Profile.from_document(parse_document(document))
     except ReaderError:

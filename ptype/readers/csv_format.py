@@ -25,8 +25,8 @@ from __future__ import annotations
 import csv
 import io
 
-from ..errors import ReaderError
-from ..profile import LEVEL_FIELDS
+from ptype.errors import ReaderError
+from ptype.profile import LEVEL_FIELDS
 
 _SITE_KEYS = {"site_id": "id", "site_name": "name", "latitude": "latitude",
               "longitude": "longitude", "elevation_m": "elevation_m"}

@@ -32,7 +32,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import ReaderError
+from ptype.errors import ReaderError
 
 _PRESSURE_TO_HPA = {"pa": 0.01, "hpa": 1.0, "mbar": 1.0, "mb": 1.0, "millibar": 1.0,
                     "hectopascal": 1.0, "hectopascals": 1.0, "kpa": 10.0, "pascal": 0.01,

@@ -37,7 +37,7 @@ from datetime import UTC, datetime
 
 import numpy as np
 
-from ..errors import ReaderError
+from ptype.errors import ReaderError
 
 # --- code tables --------------------------------------------------------------------------
 
@@ -561,7 +561,7 @@ def write_temp(document: dict, *, station: str = "99901", day: int = 15, hour: i
     Precision of the code: temperature 0.1 degC (the sign rides on the parity of the
     tenths), dew-point depression 0.1 degC up to 5 degC then whole degrees.
     """
-    from ..profile import Profile
+    from ptype.profile import Profile
 
     if not (isinstance(station, str) and len(station) == 5 and station.isdigit()):
         raise ValueError(f"station {station!r}: expected five digits IIiii")

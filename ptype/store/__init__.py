@@ -26,8 +26,8 @@ import sqlalchemy as sa
 from sqlalchemy import event
 from sqlalchemy.orm import Session, sessionmaker
 
-from . import migrations
-from .models import Alert, AlertMessage, ApiKey, Base, Observation, ProfileRecord, Site
+from ptype.store import migrations
+from ptype.store.models import Alert, AlertMessage, ApiKey, Base, Observation, ProfileRecord, Site
 
 __all__ = [
     "Alert",

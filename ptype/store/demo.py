@@ -16,10 +16,10 @@ from typing import Any
 
 import sqlalchemy as sa
 
-from ..readers import read_profile
-from . import Store
-from .clock import parse_time
-from .models import ProfileRecord, Site
+from ptype.readers import read_profile
+from ptype.store import Store
+from ptype.clock import parse_time
+from ptype.store.models import ProfileRecord, Site
 
 
 def default_demo_dir() -> Path:

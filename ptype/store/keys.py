@@ -21,7 +21,7 @@ from datetime import datetime
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
-from .models import ApiKey
+from ptype.store.models import ApiKey
 
 PREFIX = "ptk"
 SCRYPT_N, SCRYPT_R, SCRYPT_P = 2 ** 14, 8, 1
@@ -50,7 +50,7 @@ class KeyInfo:
     revoked_at: datetime | None
 
     def to_dict(self) -> dict:
-        from .clock import iso
+        from ptype.clock import iso
         return {"key_id": self.key_id, "name": self.name, "created_at": iso(self.created_at),
                 "revoked_at": iso(self.revoked_at),
                 "status": "revoked" if self.revoked_at else "active"}

@@ -15,9 +15,9 @@ See docs/verification.md.
 
 from __future__ import annotations
 
-from .manifest import Case, read_manifest
-from .observations import Observation, parse_observation
-from .report import ORDER, run_verification
+from ptype.verify.manifest import Case, read_manifest
+from ptype.verify.observations import Observation, parse_observation
+from ptype.verify.report import ORDER, run_verification
 
 __all__ = ["ORDER", "Case", "Observation", "parse_observation", "read_manifest",
            "run_verification"]

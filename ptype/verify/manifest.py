@@ -31,7 +31,7 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any
 
-from ..errors import ProfileError, ReaderError
+from ptype.errors import ProfileError, ReaderError
 
 FIELDS = ("profile", "observed", "valid_time", "site")
 REQUIRED = ("profile", "observed")
@@ -59,8 +59,8 @@ class Case:
 
     def load_profile(self):
         """Read and validate the profile; errors name the manifest entry and the field."""
-        from ..profile import Profile
-        from ..readers import read_profile
+        from ptype.profile import Profile
+        from ptype.readers import read_profile
         try:
             if isinstance(self.profile, dict):
                 return Profile.from_document(self.profile)

@@ -44,7 +44,7 @@ from __future__ import annotations
 import dataclasses
 import re
 
-from ..codes import Code
+from ptype.codes import Code
 
 INTENSITY = {"-": "light", "+": "heavy", "": "moderate"}
 DESCRIPTORS = ("MI", "BC", "PR", "DR", "BL", "SH", "TS", "FZ")

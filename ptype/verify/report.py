@@ -1,9 +1,8 @@
 """Run a verification over paired cases and write it as JSON, a text table or HTML.
 
 :func:`run_verification` parses the observations, diagnoses every profile in one
-vectorised pass (:func:`ptype.diagnosis.diagnose_columns` on stacked
-:class:`~ptype.columns.Columns`; Monte-Carlo probabilities from
-:func:`ptype.probability.member_probabilities`) and scores the consensus and every
+vectorised pass (:func:`ptype.engine.run.run_columns` on stacked
+:class:`~ptype.engine.columns.Columns`, with the Monte-Carlo members) and scores the consensus and every
 method with :mod:`ptype.verify.scores`.  The renderers only format that dict.
 
 Category order
@@ -28,12 +27,14 @@ from typing import Any
 
 import numpy as np
 
-from .. import CAUTION, __version__
-from ..codes import LABELS, NO_RESULT, Code
-from ..methods import METHOD_NAMES
-from . import scores as sc
-from .manifest import Case
-from .observations import parse_observation
+from ptype import __version__
+
+from ptype.constants import CAUTION
+from ptype.codes import LABELS, NO_RESULT, Code
+from ptype.engine.methods import METHOD_NAMES
+from ptype.verify import scores as sc
+from ptype.verify.manifest import Case
+from ptype.verify.observations import parse_observation
 
 ORDER: tuple[Code, ...] = (Code.SN, Code.PL, Code.RASN, Code.FZRAPL, Code.RAPL, Code.FZRA,
                            Code.FZDZ, Code.RA, Code.DZ, Code.NONE)
@@ -138,23 +139,14 @@ def _batch_seed(seed, index: int):
 def diagnose_cases(profiles: Sequence, *, members: int, seed, methods=None
                    ) -> tuple[dict[str, np.ndarray], np.ndarray | None]:
     """Consensus and method codes for every profile, and member probabilities (or None)."""
-    from ..columns import Columns
-    from ..diagnosis import diagnose_columns
-    from ..probability import check_members, member_probabilities
-    members = check_members(members)
+    from ptype.engine.columns import Columns
+    from ptype.engine.run import run_columns
     columns = Columns.from_profiles(list(profiles))
-    codes = {k: np.asarray(v) for k, v in diagnose_columns(columns, methods=methods).items()
-             if not k.startswith("_")}
-    if members == 0:
-        return codes, None
-    n = columns.n_columns
-    prob = np.empty((n, len(Code)))
-    per_batch = max(1, MEMBER_BATCH_COLUMNS // members)
-    for k, start in enumerate(range(0, n, per_batch)):
-        idx = np.arange(start, min(n, start + per_batch))
-        prob[idx] = member_probabilities(columns.take(idx), members, _batch_seed(seed, k),
-                                         methods=methods)
-    return codes, prob
+    run = run_columns(columns, members, seed, methods,
+                      batch_columns=max(1, MEMBER_BATCH_COLUMNS // max(members, 1)),
+                      batch_seed=lambda k, start: _batch_seed(seed, k))
+    codes = {k: np.asarray(v) for k, v in run.fields.items()}
+    return codes, run.probabilities
 
 
 def run_verification(cases: Sequence[Case], *, members: int = 50, seed=DEFAULT_SEED,

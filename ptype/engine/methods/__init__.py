@@ -1,0 +1,21 @@
+"""Published precipitation-type methods, one module each (see :mod:`ptype.engine.methods.base`)."""
+
+from __future__ import annotations
+
+import importlib
+
+#: Method names in the order results list them.
+METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",
+                "thickness", "jennings")
+
+_MODULE_OF: dict[str, str] = {}
+
+
+def get_method(name: str):
+    """The module implementing method ``name``."""
+    if name not in METHOD_NAMES:
+        from ptype.errors import OptionError
+        raise OptionError(f"unknown method {name!r}; expected one of {', '.join(METHOD_NAMES)}",
+                          field="methods")
+    module = importlib.import_module(f"{__name__}.{_MODULE_OF.get(name, name)}")
+    return module

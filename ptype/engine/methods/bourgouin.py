@@ -1,0 +1,168 @@
+"""Bourgouin (2000) energy ("area") method.
+
+Bourgouin, P., 2000: A method to determine precipitation types. *Weather and
+Forecasting* 15, 583-592, doi:10.1175/1520-0434(2000)015<0583:AMTDPT>2.0.CO;2.
+
+Areas are computed from the **air temperature** (not the wet-bulb) as
+``R_d * integral (T - T0) d ln p`` (J/kg) by :mod:`ptype.engine.layers`.  Profiles fall
+into four cases:
+
+* D - the whole column below 0 degC: snow.
+* C - only a surface-based warm layer (area PA_s): PA_s < 5.6 -> SN,
+  PA_s > 13.2 -> RA, in between -> rain/snow mix (RASN).
+* A - an elevated warm layer (area PA, summed over every elevated warm layer)
+  above a surface cold layer (area NA, the cold area below the highest warm
+  layer): NA > 66 + 0.66 PA -> PL; NA < 46 + 0.66 PA -> FZRA (RA when the
+  surface air is at or above 0 degC); between the lines -> FZRA/PL mix (FZRAPL).
+* B - a warm surface layer, a cold layer and a warm layer aloft: A's lines on
+  PA and NA; when they say ice pellets, the surface layer decides
+  (PA_s < 5.6 -> PL, > 13.2 -> RA, between -> RAPL); when they say liquid -> RA.
+  Between the lines we report RAPL when the surface layer cannot melt ice
+  completely (PA_s <= 13.2) and RA otherwise (our reading of a partly refrozen
+  population reaching a warm surface layer).
+
+An elevated warm layer (or the sum of them) under 2 J/kg is ignored.
+
+The thresholds 2, 5.6, 13.2 J/kg and the lines 46 + 0.66 PA, 66 + 0.66 PA are
+confirmed against the operational implementation (brief section 1); which case
+each applies to follows the paper's figures (from memory, consistent with that code).
+Where the operational code picks a type at random inside the mix zones, we report the mix.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ptype.codes import Code
+from ptype.engine.methods.base import Context, MethodResult, Step
+
+NAME = "bourgouin"
+TITLE = "Bourgouin (2000) energy method"
+REFERENCE = "Bourgouin2000"
+WETBULB = None
+
+#: Elevated warm area below which the warm layer is ignored, J/kg.
+MIN_ALOFT_J_KG = 2.0
+#: Surface-layer melting thresholds, J/kg.
+SURFACE_SNOW_J_KG = 5.6
+SURFACE_RAIN_J_KG = 13.2
+#: Refreezing lines NA = intercept + slope * PA, J/kg.
+LINE_SLOPE = 0.66
+LINE_LIQUID_INTERCEPT = 46.0   # below this line the drops stay liquid
+LINE_ICE_INTERCEPT = 66.0      # above this line they refreeze to ice pellets
+
+SOURCE = "Bourgouin (2000), Wea. Forecasting 15, 583-592"
+
+RULES = (
+    "all_cold",                # 0  D: SN
+    "surface_layer_snow",      # 1  C: PA_s < 5.6
+    "surface_layer_mix",       # 2  C: between
+    "surface_layer_rain",      # 3  C: PA_s > 13.2
+    "refreeze_pellets",        # 4  A: NA > 66 + .66 PA
+    "refreeze_mix",            # 5  A: between
+    "no_refreeze_freezing",    # 6  A: NA < 46 + .66 PA, surface < 0
+    "no_refreeze_warm_surface",  # 7 A: surface >= 0
+    "b_pellets_survive",       # 8  B: IP then PA_s < 5.6
+    "b_pellets_partly_melt",   # 9  B: IP then between
+    "b_pellets_melt",          # 10 B: IP then PA_s > 13.2
+    "b_liquid",                # 11 B: liquid
+    "b_between",               # 12 B: between lines
+)
+
+
+def run(ctx: Context) -> MethodResult:
+    lay = ctx.air_layers
+    c = ctx.columns
+    _, K = lay.kind.shape
+    k_idx = np.arange(K)[None, :]
+    present = lay.kind != 0
+    area = np.where(present, lay.area_j_kg, 0.0)
+    warm = lay.kind > 0
+    cold = lay.kind < 0
+    surface_warm = lay.kind[:, 0] > 0
+    pa_surface = np.where(surface_warm, area[:, 0], 0.0)
+    aloft_warm = warm & (k_idx > 0)
+    pa_aloft = np.where(aloft_warm, area, 0.0).sum(axis=1)
+    has_aloft = aloft_warm.any(axis=1)
+    highest_warm = np.where(has_aloft, K - 1 - np.argmax(aloft_warm[:, ::-1], axis=1), -1)
+    na = np.where(cold & (k_idx < highest_warm[:, None]), area, 0.0).sum(axis=1)
+    aloft = has_aloft & (pa_aloft >= MIN_ALOFT_J_KG)
+    line_liquid = LINE_LIQUID_INTERCEPT + LINE_SLOPE * pa_aloft
+    line_ice = LINE_ICE_INTERCEPT + LINE_SLOPE * pa_aloft
+    refreeze = na > line_ice
+    liquid = na < line_liquid
+    sfc_t = c.surface_temperature_c
+
+    def surface_decides(snowlike, mixlike, rainlike):
+        return np.where(pa_surface < SURFACE_SNOW_J_KG, snowlike,
+                        np.where(pa_surface > SURFACE_RAIN_J_KG, rainlike, mixlike))
+
+    case_c_rule = surface_decides(1, 2, 3)
+    case_a_rule = np.where(refreeze, 4, np.where(liquid, np.where(sfc_t < 0.0, 6, 7), 5))
+    case_b_rule = np.where(refreeze, surface_decides(8, 9, 10),
+                           np.where(liquid, 11, np.where(pa_surface <= SURFACE_RAIN_J_KG, 12, 11)))
+    rule = np.where(~aloft, np.where(surface_warm, case_c_rule, 0),
+                    np.where(surface_warm, case_b_rule, case_a_rule))
+    lut = np.array([Code.SN, Code.SN, Code.RASN, Code.RA, Code.PL, Code.FZRAPL, Code.FZRA, Code.RA,
+                    Code.PL, Code.RAPL, Code.RA, Code.RA, Code.RAPL], dtype=np.int64)
+    code = lut[rule]
+    case = np.where(~aloft, np.where(surface_warm, 1, 0), np.where(surface_warm, 3, 2))
+    values = {"case": case, "pa_aloft_j_kg": pa_aloft, "na_j_kg": na, "pa_surface_j_kg": pa_surface,
+              "line_liquid_j_kg": line_liquid, "line_ice_j_kg": line_ice,
+              "surface_temperature_c": sfc_t, "ignored_aloft": has_aloft & ~aloft}
+    return MethodResult(NAME, code, rule, values, explain)
+
+
+_CASES = ("D (whole column below 0 °C)", "C (warm layer at the surface only)",
+          "A (warm layer aloft over a cold surface layer)",
+          "B (warm surface layer, cold layer, warm layer aloft)")
+
+
+def explain(result: MethodResult, i: int) -> list[Step]:
+    v = {k: (float(a[i]) if np.ndim(a) == 1 else a[i]) for k, a in result.values.items()}
+    rule = RULES[int(result.rule[i])]
+    case = int(v["case"])
+    steps = [Step("profile_case", f"Profile case {_CASES[case]}.", {"case": "DCAB"[case]}, {}, SOURCE)]
+    pa, na, pas = v["pa_aloft_j_kg"], v["na_j_kg"], v["pa_surface_j_kg"]
+    lo, hi = v["line_liquid_j_kg"], v["line_ice_j_kg"]
+    if v["ignored_aloft"]:
+        steps.append(Step("weak_aloft_ignored",
+                          f"The warm area aloft, {pa:.1f} J/kg, is under {MIN_ALOFT_J_KG} J/kg and is ignored.",
+                          {"pa_aloft_j_kg": pa}, {"min_aloft_j_kg": MIN_ALOFT_J_KG}, SOURCE))
+    thresholds_sfc = {"snow_below_j_kg": SURFACE_SNOW_J_KG, "rain_above_j_kg": SURFACE_RAIN_J_KG}
+    thresholds_lines = {"liquid_line_j_kg": lo, "ice_line_j_kg": hi,
+                        "line": "46 + 0.66 PA / 66 + 0.66 PA"}
+    if rule == "all_cold":
+        steps.append(Step(rule, "No layer above 0 °C below 250 hPa: snow.", {}, {}, SOURCE))
+    elif rule.startswith("surface_layer"):
+        outcome = {"surface_layer_snow": "too little to melt snow: snow",
+                   "surface_layer_mix": "partial melting: rain and snow",
+                   "surface_layer_rain": "enough to melt snow: rain"}[rule]
+        steps.append(Step(rule, f"Surface warm area {pas:.1f} J/kg vs {SURFACE_SNOW_J_KG}/{SURFACE_RAIN_J_KG} J/kg: "
+                                f"{outcome}.", {"pa_surface_j_kg": pas}, thresholds_sfc, SOURCE))
+    else:
+        where = ("refreezing area NA" if case == 2 else "middle cold-layer area NA")
+        if na > hi:
+            verdict = f"above the ice line {hi:.1f} J/kg: drops refreeze to ice pellets"
+        elif na < lo:
+            verdict = f"below the liquid line {lo:.1f} J/kg: drops stay liquid"
+        else:
+            verdict = f"between the lines {lo:.1f} and {hi:.1f} J/kg: partial refreezing"
+        steps.append(Step("refreezing_lines",
+                          f"Warm area aloft PA = {pa:.1f} J/kg; {where} = {na:.1f} J/kg, {verdict}.",
+                          {"pa_aloft_j_kg": pa, "na_j_kg": na}, thresholds_lines, SOURCE))
+        final = {
+            "refreeze_pellets": "ice pellets",
+            "refreeze_mix": "freezing rain and ice pellets (mix zone)",
+            "no_refreeze_freezing": f"surface air {v['surface_temperature_c']:.1f} °C is below 0 °C: freezing rain",
+            "no_refreeze_warm_surface": f"surface air {v['surface_temperature_c']:.1f} °C is not below 0 °C: rain",
+            "b_pellets_survive": f"surface warm area {pas:.1f} J/kg < {SURFACE_SNOW_J_KG}: pellets survive",
+            "b_pellets_partly_melt": f"surface warm area {pas:.1f} J/kg between {SURFACE_SNOW_J_KG} and {SURFACE_RAIN_J_KG}: rain and ice pellets",
+            "b_pellets_melt": f"surface warm area {pas:.1f} J/kg > {SURFACE_RAIN_J_KG}: pellets melt, rain",
+            "b_liquid": "liquid drops fall through a warm surface layer: rain",
+            "b_between": f"partly refrozen drops meet a surface warm area of {pas:.1f} J/kg: rain and ice pellets",
+        }[rule]
+        steps.append(Step(rule, final[0].upper() + final[1:] + ".",
+                          {"pa_surface_j_kg": pas, "surface_temperature_c": v["surface_temperature_c"]},
+                          thresholds_sfc if rule.startswith("b_") else {"surface_freezing_c": 0.0}, SOURCE))
+    return steps

@@ -1,0 +1,238 @@
+"""Top-down (ice-nucleation) reasoning: does the cloud make ice, and what happens on the way down.
+
+Following a hydrometeor from its source to the ground in four steps
+(Baumgardt 2000, NWS La Crosse "Precipitation Type Forecasting" teletraining):
+
+1. **Is there ice in the cloud?**  Cloud layers are found with the saturation
+   criteria of :mod:`ptype.engine.layers` (RH over water >= 90 %, or over ice >= 95 %
+   below 0 degC).  A cloud layer makes ice when its coldest temperature is at or
+   below :data:`ICE_NUCLEATION_C` (-10 degC: heterogeneous freezing is likeliest
+   below -10 degC and deposition nucleation is efficient from -10 to -20 degC,
+   NWS Louisville guidance quoted in the brief, section 6).  A higher ice cloud
+   *seeds* a lower one unless the gap between them holds more than
+   :data:`SEEDING_GAP_M` of dry air (RH over water below 80 %, :mod:`ptype.engine.layers`)
+   in which the crystals sublimate (ours, from memory of seeder-feeder
+   practice: crystals survive a fall of the order of a kilometre through
+   moderately dry air; not a published constant).  Nearly saturated gaps do
+   not block seeding, so one slightly drier level between two cloud decks
+   does not switch the answer.
+2. Without ice the cloud rains out by collision-coalescence as **drizzle**:
+   freezing drizzle when the surface air is at or below 0 degC (Huffman &
+   Norman 1988; Bocchieri 1980), whatever the melting-layer methods say.
+3. With ice, the **warm layers** decide melting by their maximum wet-bulb
+   (Stewart & King 1987): above 3 degC complete melting; 1-3 degC partial
+   melting; below 1 degC little melting.
+4. The **near-surface cold layer** refreezes drops that melted completely only
+   if it is colder than -8 degC (WPC training guidance quoted in the brief,
+   section 6); partly melted particles keep an ice core and refreeze readily.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ptype.codes import NO_RESULT, Code
+from ptype.engine.compiled import AVAILABLE as _COMPILED
+from ptype.engine.compiled import compiled
+from ptype.engine.layers import cumulative_dry_depth_m
+from ptype.engine.methods.base import Context, MethodResult, Step, select_first
+
+NAME = "cloud_top"
+TITLE = "Cloud-top ice nucleation (top-down) reasoning"
+REFERENCE = "Baumgardt2000"
+WETBULB = "isobaric"
+
+#: A cloud whose coldest temperature is at or below this makes ice, degC.
+ICE_NUCLEATION_C = -10.0
+#: Deepest clear gap through which a higher ice cloud still seeds a lower one, m (ours).
+SEEDING_GAP_M = 1000.0
+#: Stewart & King (1987) warm-layer maximum wet-bulb limits, degC.
+COMPLETE_MELT_TW_C = 3.0
+PARTIAL_MELT_TW_C = 1.0
+#: Completely melted drops refreeze to ice pellets only in a cold layer colder than this, degC.
+REFREEZE_COLD_LAYER_C = -8.0
+#: Precipitation freezes on contact when the surface air is at or below this, degC.
+FREEZING_SURFACE_C = 0.0
+
+RULES = ("no_cloud", "no_ice_freezing_drizzle", "no_ice_drizzle", "melted_freezing_rain",
+         "melted_refrozen_pellets", "melted_rain", "partly_melted_pellets", "partly_melted_rain_pellets",
+         "surface_melt_rain", "surface_melt_rain_snow", "snow")
+_LUT = np.array([NO_RESULT, Code.FZDZ, Code.DZ, Code.FZRA, Code.PL, Code.RA, Code.PL, Code.RAPL,
+                 Code.RA, Code.RASN, Code.SN], dtype=np.int64)
+
+SOURCE_ICE = "Baumgardt (2000); ice nucleation below -10 °C (NWS guidance)"
+SOURCE_MELT = "Stewart & King (1987) warm-layer wet-bulb limits"
+SOURCE_REFREEZE = "Refreezing needs a cold layer below about -8 °C (WPC guidance)"
+
+
+def ice_analysis(ctx: Context) -> dict[str, np.ndarray]:
+    """Vectorised step 1: which columns bring ice into their lowest cloud layer.
+
+    Returns per-column arrays: ``has_cloud``, ``ice`` (ice reaches the lowest cloud),
+    ``seeded`` (the ice came from a higher cloud), ``top_cloud_top_hpa``,
+    ``top_cloud_top_m``, ``top_cloud_min_c`` (coldest temperature of the highest cloud),
+    ``lowest_cloud_top_hpa``, ``lowest_cloud_min_c``.
+    """
+    cl = ctx.cloud_layers
+    n = cl.bottom_m.shape[0]
+    count = cl.count
+    rows = np.arange(n)
+    cum_dry = cumulative_dry_depth_m(ctx.columns.height_m, ctx.dry_mask)
+    if _COMPILED:
+        ice = np.empty(n, dtype=np.bool_)
+        seeded = np.empty(n, dtype=np.bool_)
+        _seeding_compiled(np.ascontiguousarray(count), np.ascontiguousarray(cl.min_temperature_c),
+                          np.ascontiguousarray(cl.top_index), np.ascontiguousarray(cl.bottom_index),
+                          np.ascontiguousarray(cum_dry), ice, seeded)
+    else:
+        ice, seeded = _seeding_numpy(count, cl.min_temperature_c, cl.top_index,
+                                     cl.bottom_index, cum_dry)
+    top = np.maximum(count - 1, 0)
+    has = count > 0
+    return {
+        "has_cloud": has,
+        "ice": ice & has,
+        "seeded": seeded & has,
+        "top_cloud_top_hpa": np.where(has, cl.top_hpa[rows, top], np.nan),
+        "top_cloud_top_m": np.where(has, cl.top_m[rows, top], np.nan),
+        "top_cloud_min_c": np.where(has, cl.min_temperature_c[rows, top], np.nan),
+        "lowest_cloud_top_hpa": np.where(has, cl.top_hpa[:, 0], np.nan),
+        "lowest_cloud_base_hpa": np.where(has, cl.bottom_hpa[:, 0], np.nan),
+        "lowest_cloud_min_c": np.where(has, cl.min_temperature_c[:, 0], np.nan),
+    }
+
+
+def _seeding_numpy(count, min_temperature_c, top_index, bottom_index, cum_dry):
+    """From the highest cloud layer down: does each layer hold ice, its own (coldest
+    temperature at or below :data:`ICE_NUCLEATION_C`) or seeded from the layer above across
+    at most :data:`SEEDING_GAP_M` of dry air?  Returns ``(ice, seeded)`` of the lowest layer."""
+    n, R = min_temperature_c.shape
+    rows = np.arange(n)
+    ice = np.zeros(n, dtype=bool)
+    seeded = np.zeros(n, dtype=bool)
+    upper_base_dry = np.full(n, np.nan)
+    for r in range(R - 1, -1, -1):
+        present = r < count
+        own = min_temperature_c[:, r] <= ICE_NUCLEATION_C
+        top_dry = cum_dry[rows, np.maximum(top_index[:, r], 0)]
+        gap_dry = upper_base_dry - top_dry
+        from_above = ice & np.isfinite(gap_dry) & (gap_dry <= SEEDING_GAP_M)
+        seeded = np.where(present, from_above & ~own, seeded)
+        ice = np.where(present, own | from_above, ice)
+        upper_base_dry = np.where(present, cum_dry[rows, np.maximum(bottom_index[:, r], 0)],
+                                  upper_base_dry)
+    return ice, seeded
+
+
+def _seeding_loop(count, min_temperature_c, top_index, bottom_index, cum_dry, ice, seeded):
+    """:func:`_seeding_numpy` one column at a time (compiled with numba); fills ``ice`` and
+    ``seeded``."""
+    n, R = min_temperature_c.shape
+    for i in range(n):
+        has_ice = False
+        was_seeded = False
+        upper_base_dry = np.nan
+        for r in range(min(count[i], R) - 1, -1, -1):
+            own = min_temperature_c[i, r] <= ICE_NUCLEATION_C
+            gap_dry = upper_base_dry - cum_dry[i, max(top_index[i, r], 0)]
+            from_above = has_ice and np.isfinite(gap_dry) and gap_dry <= SEEDING_GAP_M
+            was_seeded = from_above and not own
+            has_ice = own or from_above
+            upper_base_dry = cum_dry[i, max(bottom_index[i, r], 0)]
+        ice[i] = has_ice
+        seeded[i] = was_seeded
+
+
+_seeding_compiled = compiled(_seeding_loop)
+
+
+def run(ctx: Context) -> MethodResult:
+    c = ctx.columns
+    ia = ice_analysis(ctx)
+    wb = ctx.wetbulb_layers
+    _, K = wb.kind.shape
+    k_idx = np.arange(K)[None, :]
+    warm_wb = wb.kind > 0
+    aloft_max = np.where(warm_wb & (k_idx > 0), wb.extreme_c, 0.0).max(axis=1)
+    surface_max = np.where(warm_wb[:, 0], wb.extreme_c[:, 0], 0.0)
+    air = ctx.air_layers
+    Ka = air.kind.shape[1]
+    ka = np.arange(Ka)[None, :]
+    aloft_warm_air = (air.kind > 0) & (ka > 0)
+    highest = np.where(aloft_warm_air.any(axis=1), Ka - 1 - np.argmax(aloft_warm_air[:, ::-1], axis=1), 0)
+    cold_below = (air.kind < 0) & (ka < highest[:, None])
+    cold_min = np.where(cold_below, air.extreme_c, 0.0).min(axis=1)
+    sfc_t = c.surface_temperature_c
+    freezing_sfc = sfc_t <= FREEZING_SURFACE_C
+
+    melted = aloft_max > COMPLETE_MELT_TW_C
+    partly = (aloft_max >= PARTIAL_MELT_TW_C) & ~melted
+    rule_ice = select_first(
+        [melted & ~freezing_sfc, melted & (cold_min <= REFREEZE_COLD_LAYER_C), melted,
+         partly & freezing_sfc, partly,
+         surface_max > COMPLETE_MELT_TW_C, surface_max >= PARTIAL_MELT_TW_C],
+        [5, 4, 3, 6, 7, 8, 9], default=10)
+    rule = np.where(~ia["has_cloud"], 0,
+                    np.where(~ia["ice"], np.where(freezing_sfc, 1, 2), rule_ice))
+    values = dict(ia)
+    values.update({"max_wetbulb_aloft_c": aloft_max, "max_wetbulb_surface_layer_c": surface_max,
+                   "cold_layer_min_c": cold_min, "surface_temperature_c": sfc_t})
+    return MethodResult(NAME, _LUT[rule], rule, values, explain)
+
+
+def explain(result: MethodResult, i: int) -> list[Step]:
+    v = {k: a[i] for k, a in result.values.items()}
+    rule = RULES[int(result.rule[i])]
+    if rule == "no_cloud":
+        return [Step(rule, "No saturated layer in the profile: the cloud-top reasoning cannot say "
+                           "where precipitation forms.", {}, {}, SOURCE_ICE)]
+    steps = []
+    top_c = float(v["top_cloud_min_c"])
+    low_c = float(v["lowest_cloud_min_c"])
+    th = {"ice_nucleation_c": ICE_NUCLEATION_C, "seeding_gap_m": SEEDING_GAP_M}
+    if v["ice"]:
+        if v["seeded"]:
+            text = (f"The lowest cloud (coldest {low_c:.1f} °C) is too warm to make ice itself but is "
+                    f"seeded by ice from a higher cloud (top {float(v['top_cloud_top_hpa']):.0f} hPa, "
+                    f"{top_c:.1f} °C) through a gap with at most {SEEDING_GAP_M:.0f} m of dry air.")
+        else:
+            text = (f"The cloud reaches {low_c if low_c <= ICE_NUCLEATION_C else top_c:.1f} °C, at or below "
+                    f"{ICE_NUCLEATION_C:.0f} °C: it makes ice.")
+        steps.append(Step("ice_present", text, {"cloud_min_c": min(low_c, top_c)}, th, SOURCE_ICE))
+    else:
+        steps.append(Step("no_ice", f"The precipitating cloud is no colder than {low_c:.1f} °C "
+                          f"(ice needs {ICE_NUCLEATION_C:.0f} °C or colder) and no higher ice cloud seeds it: "
+                          "supercooled liquid, growing as drizzle.",
+                          {"cloud_min_c": low_c}, th, SOURCE_ICE))
+        sfc = float(v["surface_temperature_c"])
+        word = "freezing drizzle" if rule == "no_ice_freezing_drizzle" else "drizzle"
+        steps.append(Step(rule, f"Surface air {sfc:.1f} °C: {word}.", {"surface_temperature_c": sfc},
+                          {"freezing_surface_c": FREEZING_SURFACE_C}, "Huffman & Norman (1988)"))
+        return steps
+    aloft = float(v["max_wetbulb_aloft_c"])
+    sfc_l = float(v["max_wetbulb_surface_layer_c"])
+    cold = float(v["cold_layer_min_c"])
+    sfc = float(v["surface_temperature_c"])
+    mth = {"complete_melt_tw_c": COMPLETE_MELT_TW_C, "partial_melt_tw_c": PARTIAL_MELT_TW_C}
+    texts = {
+        "melted_freezing_rain": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C (> {COMPLETE_MELT_TW_C}): "
+                                f"snow melts completely; the cold layer below reaches only {cold:.1f} °C "
+                                f"(refreezing needs {REFREEZE_COLD_LAYER_C} °C) and the surface is {sfc:.1f} °C: freezing rain.",
+        "melted_refrozen_pellets": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C: snow melts completely, "
+                                   f"then the cold layer below reaches {cold:.1f} °C: drops refreeze to ice pellets.",
+        "melted_rain": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C: snow melts completely and the "
+                       f"surface air is {sfc:.1f} °C: rain.",
+        "partly_melted_pellets": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C (1-3 °C): partial melting; "
+                                 f"the particles refreeze below and the surface is {sfc:.1f} °C: ice pellets.",
+        "partly_melted_rain_pellets": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C (1-3 °C): partial melting; "
+                                      f"the surface air is {sfc:.1f} °C: rain and ice pellets.",
+        "surface_melt_rain": f"The surface-based warm layer peaks at wet-bulb {sfc_l:+.1f} °C: snow melts: rain.",
+        "surface_melt_rain_snow": f"The surface-based warm layer peaks at wet-bulb {sfc_l:+.1f} °C (1-3 °C): "
+                                  "partial melting: rain and snow.",
+        "snow": f"No warm layer reaches a wet-bulb of {PARTIAL_MELT_TW_C} °C (warmest {max(aloft, sfc_l):+.1f} °C): snow.",
+    }
+    src = SOURCE_REFREEZE if rule.startswith("melted") else SOURCE_MELT
+    steps.append(Step(rule, texts[rule], {"max_wetbulb_aloft_c": aloft, "max_wetbulb_surface_layer_c": sfc_l,
+                                          "cold_layer_min_c": cold, "surface_temperature_c": sfc},
+                      dict(mth, refreeze_cold_layer_c=REFREEZE_COLD_LAYER_C), src))
+    return steps

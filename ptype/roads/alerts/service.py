@@ -1,0 +1,237 @@
+"""Alerts against the store: build a site's timeline, apply the rules and the lifecycle.
+
+This is the thin I/O layer over :mod:`.rules`, :mod:`.lifecycle` and
+:func:`ptype.roads.nowcast.build_timeline`; it is run after every ingest of profiles or
+observations for a site, inside the same write transaction, so an acknowledged ingest
+always has its alerts evaluated.
+"""
+
+from __future__ import annotations
+
+import uuid
+from collections.abc import Mapping
+from datetime import datetime, timedelta
+from typing import Any
+
+import sqlalchemy as sa
+from sqlalchemy.orm import Session
+
+from ptype.profile import Profile
+from ptype.clock import iso
+from ptype.store.models import Alert, AlertMessage, Observation, ProfileRecord, Site
+from ptype.roads.alerts.lifecycle import decide
+from ptype.roads.alerts.rules import evaluate_rules
+
+#: Alerts that ended less than this long ago are still listed (ours).
+RECENT = timedelta(hours=24)
+#: Timeline length evaluated for alerts, h (the rule windows are shorter; ice accretion is
+#: totalled over all of it).
+ALERT_HOURS = 24.0
+ALERT_STEP = "30min"
+ALERT_MEMBERS = 20
+
+
+def latest_issue(session: Session, site_id: int) -> list[ProfileRecord]:
+    """The profiles of the site's latest issue (latest issued_time; its most recent source)."""
+    top = session.execute(
+        sa.select(ProfileRecord.issued_time, ProfileRecord.source)
+        .where(ProfileRecord.site_id == site_id)
+        .order_by(ProfileRecord.issued_time.desc(), ProfileRecord.received_at.desc(),
+                  ProfileRecord.id.desc()).limit(1)).first()
+    if top is None:
+        return []
+    return list(session.scalars(
+        sa.select(ProfileRecord).where(ProfileRecord.site_id == site_id,
+                                       ProfileRecord.issued_time == top.issued_time,
+                                       ProfileRecord.source == top.source)
+        .order_by(ProfileRecord.valid_time)))
+
+
+def recent_observations(session: Session, site_id: int, now: datetime) -> list[dict]:
+    rows = session.scalars(
+        sa.select(Observation).where(Observation.site_id == site_id, Observation.time <= now,
+                                     Observation.time >= now - timedelta(hours=6))
+        .order_by(Observation.time.desc()).limit(12))
+    return [observation_dict(o) for o in rows]
+
+
+def observation_dict(o: Observation) -> dict:
+    return {"time": o.time, "air_temperature_c": o.air_temperature_c, "dewpoint_c": o.dewpoint_c,
+            "road_surface_temperature_c": o.road_surface_temperature_c,
+            "precipitation_rate_mm_h": o.precipitation_rate_mm_h,
+            "wind_speed_m_s": o.wind_speed_m_s, "present_weather": o.present_weather}
+
+
+def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
+                  step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
+                  adjustments=None) -> dict[str, Any]:
+    """The site's timeline from its latest issue of profiles and its recent observations."""
+    from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
+    records = latest_issue(session, site.id)
+    base = {"site": site_summary(site)}
+    if not records:
+        from ptype.constants import CAUTION
+        return {**base, "now": iso(now), "steps": [], "transitions": [], "totals": {},
+                "caution": CAUTION, "message": "no profiles have been posted for this site"}
+    profiles = [Profile.from_document(r.document) for r in records]
+    out = build_timeline(profiles, now=now, hours=hours, step=step,
+                         observations=recent_observations(session, site.id, now),
+                         adjustments=ADJUSTMENTS if adjustments is None else adjustments,
+                         members=members, seed=seed)
+    out["issued_time"] = iso(records[0].issued_time)
+    out["source"] = records[0].source
+    return {**base, **out}
+
+
+def site_summary(site: Site) -> dict:
+    return {"id": site.id, "name": site.name, "latitude": site.latitude,
+            "longitude": site.longitude, "elevation_m": site.elevation_m}
+
+
+def _snapshot(site: Site, cand) -> dict:
+    snap = cand.to_dict()
+    snap["site"] = site_summary(site)
+    return snap
+
+
+def _add_message(session: Session, alert: Alert, msg_type: str, now: datetime, snap: dict,
+                 cap_status: str | None = None):
+    if cap_status:
+        snap = {**snap, "cap_status": cap_status}
+    seq = 1 + max((m.seq for m in alert.messages), default=0)
+    msg = AlertMessage(alert_id=alert.id, seq=seq, identifier=f"{alert.id}.{seq}",
+                       msg_type=msg_type, sent=now, snapshot=snap)
+    alert.messages.append(msg)
+    session.add(msg)
+
+
+def site_candidates(session: Session, site: Site, now: datetime, *,
+                    members: int = ALERT_MEMBERS) -> list | None:
+    """Alert candidates from the site's current timeline (read-only; the slow part).
+
+    None when no forecast covers now: active alerts are then neither updated nor cancelled
+    (they still expire), because "the hazard left the forecast" cannot be told from "there is
+    no forecast"."""
+    timeline = site_timeline(session, site, now, members=members)
+    if not timeline.get("steps"):
+        return None  # no forecast covers now: nothing can be said about the hazards
+    return evaluate_rules(timeline, now, site.name, site.thresholds)
+
+
+def evaluate_site(session: Session, site: Site, now: datetime, *,
+                  members: int = ALERT_MEMBERS, cap_status: str | None = None) -> list[dict]:
+    """Evaluate the site's alerts now in one transaction; returns the actions taken."""
+    return apply_candidates(session, site, site_candidates(session, site, now, members=members),
+                            now, cap_status=cap_status)
+
+
+def apply_candidates(session: Session, site: Site, candidates, now: datetime, *,
+                     cap_status: str | None = None) -> list[dict]:
+    """Apply the lifecycle to fresh state (call inside a write transaction).
+
+    ``cap_status`` (CAP ``status``: Actual, Exercise...) is recorded with each message so that
+    every later rendering of it says the same."""
+    active = list(session.scalars(sa.select(Alert).where(Alert.site_id == site.id,
+                                                         Alert.status == "active")))
+    if candidates is None:
+        expired = [a for a in active if a.expires <= now]
+        for a in expired:
+            a.status, a.ended_at, a.updated_at = "expired", a.expires, now
+        return [{"action": "expire", "event": a.event, "alert_id": a.id} for a in expired]
+    by_id = {a.id: a for a in active}
+    actions = decide([{"id": a.id, "event": a.event, "onset": a.onset, "expires": a.expires,
+                       "severity": a.severity, "certainty": a.certainty} for a in active],
+                     candidates, now)
+    done = []
+    for act in actions:
+        if act.kind == "new":
+            c = act.candidate
+            alert = Alert(id=str(uuid.uuid4()), site_id=site.id, event=c.event, status="active",
+                          severity=c.severity, certainty=c.certainty, urgency=c.urgency,
+                          onset=c.onset, expires=c.expires, details=c.to_dict(), version=1,
+                          created_at=now, updated_at=now)
+            session.add(alert)
+            session.flush()
+            _add_message(session, alert, "Alert", now, _snapshot(site, c), cap_status)
+        else:
+            alert = by_id[act.alert_id]
+            if act.kind == "update":
+                c = act.candidate
+                alert.severity, alert.certainty, alert.urgency = c.severity, c.certainty, c.urgency
+                alert.onset, alert.expires, alert.details = c.onset, c.expires, c.to_dict()
+                alert.version += 1
+                alert.updated_at = now
+                _add_message(session, alert, "Update", now, _snapshot(site, c), cap_status)
+            elif act.kind == "cancel":
+                alert.status, alert.ended_at, alert.updated_at = "cancelled", now, now
+                snap = dict(alert.messages[-1].snapshot)
+                _add_message(session, alert, "Cancel", now, snap, cap_status)
+            elif act.kind == "expire":
+                alert.status, alert.ended_at, alert.updated_at = "expired", alert.expires, now
+        done.append({"action": act.kind, "event": act.event, "alert_id": alert.id})
+    return done
+
+
+def expire_due(session: Session, now: datetime) -> int:
+    """Mark every active alert whose expiry has passed as expired (cheap; run before listing)."""
+    rows = list(session.scalars(sa.select(Alert).where(Alert.status == "active",
+                                                       Alert.expires <= now)))
+    for a in rows:
+        a.status, a.ended_at, a.updated_at = "expired", a.expires, now
+    return len(rows)
+
+
+def alert_dict(alert: Alert, sender: str) -> dict:
+    from ptype.roads.alerts.cap import reference
+    last = alert.messages[-1]
+    earlier = alert.messages[:-1]
+    d = alert.details or {}
+    return {
+        "id": alert.id, "status": alert.status, "event": alert.event,
+        "onset": iso(alert.onset), "expires": iso(alert.expires), "sent": iso(last.sent),
+        "site": last.snapshot.get("site"), "severity": alert.severity,
+        "certainty": alert.certainty, "urgency": alert.urgency, "msg_type": last.msg_type,
+        "identifier": last.identifier,
+        "references": [reference(sender, m.identifier, m.sent) for m in earlier],
+        "headline": d.get("headline"), "description": d.get("description"),
+        "instruction": d.get("instruction"), "parameters": d.get("parameters", {}),
+        "created": iso(alert.created_at), "updated": iso(alert.updated_at),
+        "ended": iso(alert.ended_at), "version": alert.version,
+    }
+
+
+def list_alerts(session: Session, now: datetime, sender: str, *, include_recent: bool = True,
+                site_id: int | None = None) -> list[dict]:
+    q = sa.select(Alert)
+    if include_recent:
+        q = q.where(sa.or_(Alert.status == "active", Alert.ended_at >= now - RECENT))
+    else:
+        q = q.where(Alert.status == "active")
+    if site_id is not None:
+        q = q.where(Alert.site_id == site_id)
+    rows = session.scalars(q.order_by(Alert.onset, Alert.id))
+    return [alert_dict(a, sender) for a in rows]
+
+
+def cap_for(alert: Alert, sender: str, status: str | None, radius_km: float) -> bytes:
+    """CAP XML of the alert's latest message; ``status`` None uses the one recorded with it."""
+    from ptype.roads.alerts.cap import build_cap
+    last = alert.messages[-1]
+    msg = {"identifier": last.identifier, "msg_type": last.msg_type, "sent": last.sent,
+           "snapshot": last.snapshot}
+    earlier = [{"identifier": m.identifier, "sent": m.sent} for m in alert.messages[:-1]]
+    status = status or last.snapshot.get("cap_status") or "Actual"
+    return build_cap(msg, earlier, sender=sender, status=status, radius_km=radius_km)
+
+
+def evaluate_all(session: Session, now: datetime, *, members: int = ALERT_MEMBERS,
+                 cap_status: str | None = None) -> list[dict]:
+    out = []
+    for site in session.scalars(sa.select(Site).order_by(Site.id)):
+        out.extend(evaluate_site(session, site, now, members=members, cap_status=cap_status))
+    return out
+
+
+def config_value(config: Mapping[str, Any] | None, key: str, default):
+    import os
+    return (config or {}).get(key) or os.environ.get(key) or default
