@@ -8,14 +8,13 @@ import os
 
 from flask import Blueprint, Response, current_app, jsonify, request
 
+from api.errors import ApiError
+from api.sites import get_store, now, require_key
+from ptype.clock import iso
 from ptype.constants import CAUTION
 from ptype.roads.alerts import service
 from ptype.roads.alerts.cap import DEFAULT_RADIUS_KM, STATUS
 from ptype.store import Alert
-from ptype.clock import iso
-
-from api.errors import ApiError
-from api.sites import get_store, now, require_key
 
 bp = Blueprint("alerts", __name__)
 
@@ -78,9 +77,8 @@ def evaluate():
     require_key()
     import sqlalchemy as sa
 
-    from ptype.store import Site
-
     from api.sites import _evaluate_alerts
+    from ptype.store import Site
     with get_store().read() as s:
         ids = list(s.scalars(sa.select(Site.id).order_by(Site.id)))
     actions = []

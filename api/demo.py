@@ -15,10 +15,9 @@ from pathlib import Path
 
 from flask import Blueprint, Response, current_app, url_for
 
-from ptype.constants import CAUTION
-
 from api.diagnose import json_response
 from api.errors import ApiError
+from ptype.constants import CAUTION
 
 bp = Blueprint("demo", __name__, url_prefix="/v1")
 

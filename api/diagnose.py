@@ -15,11 +15,10 @@ from flask import Blueprint, Response, current_app, request
 from pydantic import ValidationError
 
 import ptype
-from ptype.errors import ProfileError, ReaderError
-from ptype.readers import read_document
-
 from api.errors import ApiError, error_body
 from api.models import DiagnoseOptions
+from ptype.errors import ProfileError, ReaderError
+from ptype.readers import read_document
 
 bp = Blueprint("diagnose", __name__, url_prefix="/v1")
 

@@ -10,10 +10,9 @@ from __future__ import annotations
 from flask import Blueprint, Response, request
 
 import ptype
-from ptype.plot.diagram import FORMATS, draw_diagram
-
 from api.diagnose import check_work, diagnose_kwargs, parse_options, profile_from_request
 from api.models import DiagramOptions
+from ptype.plot.diagram import FORMATS, draw_diagram
 
 bp = Blueprint("diagram", __name__, url_prefix="/v1")
 

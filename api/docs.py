@@ -16,10 +16,9 @@ from pydantic import BaseModel
 from pydantic.json_schema import models_json_schema
 
 import ptype
-from ptype.profile.document import ProfileDocument
-
 from api import models as m
 from api.diagnose import json_response
+from ptype.profile.document import ProfileDocument
 
 bp = Blueprint("docs", __name__)
 

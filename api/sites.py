@@ -23,15 +23,14 @@ import sqlalchemy as sa
 from flask import Blueprint, current_app, jsonify, request
 from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
 
+from api.errors import ApiError
 from ptype import Profile
-from ptype.roads.alerts import service
-from ptype.profile.document import _loc
+from ptype.clock import iso, parse_time, utcnow
 from ptype.errors import OptionError, ProfileError
+from ptype.profile.document import _loc
+from ptype.roads.alerts import service
 from ptype.store import ApiKey, Observation, ProfileRecord, Site, Store, open_store
 from ptype.store import keys as keystore
-from ptype.clock import iso, parse_time, utcnow
-
-from api.errors import ApiError
 
 log = logging.getLogger("ptype.api.sites")
 bp = Blueprint("sites", __name__)

@@ -11,14 +11,13 @@ from html import escape
 import sqlalchemy as sa
 from flask import Blueprint, Response, current_app, request
 
-from ptype.constants import CAUTION
-from ptype.roads.alerts import service
-from ptype.codes import LABELS, Code
-from ptype.store import Site
-from ptype.clock import iso
-
 from api.page import secure_html
 from api.sites import get_store, now
+from ptype.clock import iso
+from ptype.codes import LABELS, Code
+from ptype.constants import CAUTION
+from ptype.roads.alerts import service
+from ptype.store import Site
 
 bp = Blueprint("sites_page", __name__)
 

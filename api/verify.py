@@ -18,12 +18,11 @@ from typing import Any
 from flask import Blueprint, current_app, jsonify, request
 from pydantic import Field
 
+from api import models as m
+from api.errors import ApiError
 from ptype.profile.document import ProfileDocument
 from ptype.verify.manifest import cases_from_entries
 from ptype.verify.report import DEFAULT_SEED, run_verification
-
-from api import models as m
-from api.errors import ApiError
 
 bp = Blueprint("verify", __name__)
 

@@ -116,7 +116,7 @@ def snap_verify() -> dict:
     from ptype.verify import read_manifest, run_verification
     cases = read_manifest(DEMO / "verification" / "cases.csv")
     result = run_verification(cases, members=10, seed=5)
-    return result if isinstance(result, dict) else getattr(result, "to_dict", lambda: {})()
+    return result if isinstance(result, dict) else getattr(result, "to_dict", dict)()
 
 
 API_REQUESTS = [

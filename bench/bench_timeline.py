@@ -29,10 +29,9 @@ import numpy as np
 from _common import best_of  # sibling module of the scripts
 
 from ptype import Profile
-from ptype.engine.run import diagnose_columns
-from ptype.roads.nowcast import build_timeline
-from ptype.engine.run import member_probabilities
+from ptype.engine.run import diagnose_columns, member_probabilities
 from ptype.readers import read_profile
+from ptype.roads.nowcast import build_timeline
 
 ROOT = Path(__file__).resolve().parents[1]
 T0 = datetime(2026, 1, 27, tzinfo=UTC)

@@ -27,9 +27,8 @@ from pathlib import Path
 import numpy as np
 
 from ptype import thermo
-from ptype.thermo import wetbulb
-
 from ptype.thermo import fast as fastthermo
+from ptype.thermo import wetbulb
 
 TARGET_POINTS_PER_S = 20e6
 TARGET_RATIO_METPY = 40_000

@@ -254,9 +254,9 @@ def _engine_breakdown(profile, repeat: int = 20) -> dict:
     perturbing the members, the deterministic methods on the profile, all methods on the
     50 perturbed columns, and each method alone on those 50 columns."""
     from ptype.engine.columns import Columns
-    from ptype.engine.run import diagnose_columns
     from ptype.engine.methods import METHOD_NAMES
     from ptype.engine.probability import perturb
+    from ptype.engine.run import diagnose_columns
 
     def timed(fn):
         fn()

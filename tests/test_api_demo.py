@@ -28,8 +28,8 @@ def demo_dir(tmp_path):
 
 
 @pytest.fixture()
-def client(demo_dir):
-    return create_app({"TESTING": True, "PTYPE_DEMO_DIR": str(demo_dir)}).test_client()
+def client(make_app, demo_dir):
+    return make_app(PTYPE_DEMO_DIR=str(demo_dir)).test_client()
 
 
 def test_demo_list_names_every_sounding(client):

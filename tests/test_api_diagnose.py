@@ -15,16 +15,6 @@ from api.models import BatchResponse, Diagnosis, ErrorResponse
 from ptype.readers.temp_format import write_temp
 
 
-@pytest.fixture(scope="module")
-def app():
-    return create_app({"TESTING": True})
-
-
-@pytest.fixture()
-def client(app):
-    return app.test_client()
-
-
 def _assert_error(response, status, code=None, field=None):
     """A JSON error body of the one documented shape, without traceback text."""
     assert response.status_code == status, response.get_data(as_text=True)

@@ -1,5 +1,5 @@
 """HTTP tests of ``POST /v1/diagram`` (api/diagram.py) and of the drawing itself
-(ptype/diagram.py): formats, content negotiation, what the picture carries, and errors."""
+(ptype/plot/diagram.py): formats, content negotiation, what the picture carries, and errors."""
 
 from __future__ import annotations
 
@@ -11,16 +11,10 @@ import pytest
 from api_support import freezing_rain_document, snow_document
 
 import ptype
-from api import create_app
 from ptype.plot.diagram import draw_diagram
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C / ISO/IEC 15948), section 5.2
 SVG_NS = "{http://www.w3.org/2000/svg}"  # W3C SVG 1.1 namespace
-
-
-@pytest.fixture(scope="module")
-def client():
-    return create_app({"TESTING": True}).test_client()
 
 
 def _svg_text(svg: bytes) -> str:

@@ -11,13 +11,7 @@ import pytest
 from schemathesis.specs.openapi.definitions import OPENAPI_31  # the OAS 3.1 meta-schema
 
 import ptype
-from api import create_app
 from api.docs import OPERATIONS
-
-
-@pytest.fixture(scope="module")
-def app():
-    return create_app({"TESTING": True})
 
 
 @pytest.fixture(scope="module")

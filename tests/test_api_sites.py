@@ -5,25 +5,16 @@ import os
 import pytest
 from series_helpers import storm_docs
 
-from api import create_app
 from api.sites import store_for
-from ptype.store import keys
 from ptype.clock import parse_time
+from ptype.store import keys
 
 NOW = "2026-01-27T00:00:00Z"
 
 
 @pytest.fixture
-def app(tmp_path):
-    app = create_app({"PTYPE_DATA_DIR": str(tmp_path), "TESTING": True, "PTYPE_NOW": NOW,
-                      "PTYPE_ALERT_MEMBERS": 5})
-    yield app
-    store_for(app).dispose()
-
-
-@pytest.fixture
-def client(app):
-    return app.test_client()
+def app(make_app):
+    return make_app(PTYPE_NOW=NOW, PTYPE_ALERT_MEMBERS=5)
 
 
 def _key(app, name="ops"):

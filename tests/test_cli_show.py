@@ -9,7 +9,6 @@ from pathlib import Path
 import pytest
 
 from ptype import thermo
-
 from ptype.constants import CAUTION
 
 ROOT = Path(__file__).resolve().parents[1]

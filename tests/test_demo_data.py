@@ -19,8 +19,8 @@ import pytest
 import ptype
 from ptype.codes import Code
 from ptype.engine.columns import Columns
-from ptype.thermo.constants import Rd
 from ptype.engine.layers import analyse_layers, cloud_mask, dry_mask, level_runs
+from ptype.thermo.constants import Rd
 
 DEMO = Path(__file__).resolve().parents[1] / "soundings_demo"
 #: Sub-directories written by make_demo.py (soundings_demo/verification has its own generator).

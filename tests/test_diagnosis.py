@@ -12,11 +12,10 @@ from ptype import thermo
 from ptype.codes import Code
 from ptype.engine.columns import Columns
 from ptype.engine.consensus import consensus
-from ptype.engine.run import diagnose_columns
 from ptype.engine.methods import METHOD_NAMES
 from ptype.engine.methods.base import Context, MethodResult
 from ptype.engine.probability import correlated_noise
-from ptype.engine.run import member_probabilities
+from ptype.engine.run import diagnose_columns, member_probabilities
 
 
 def document(p, t, td, **extra):

@@ -19,8 +19,8 @@ from pathlib import Path
 import pytest
 import sqlalchemy as sa
 
-from ptype.store import Store, database_url, keys
 from ptype.clock import utcnow
+from ptype.store import Store, database_url, keys
 
 ROOT = Path(__file__).resolve().parents[1]
 GUNICORN = Path(sys.executable).parent / "gunicorn"

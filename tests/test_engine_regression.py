@@ -24,9 +24,9 @@ import pytest
 
 import ptype
 from ptype.engine.columns import Columns
+from ptype.engine.probability import perturb
 from ptype.engine.run import diagnose_columns
 from ptype.errors import ProfileError
-from ptype.engine.probability import perturb
 from ptype.profile import Profile
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -8,9 +8,8 @@ import numpy as np
 import pytest
 
 from ptype import thermo
-from ptype.thermo import wetbulb
-
 from ptype.thermo import fast as fastthermo
+from ptype.thermo import wetbulb
 
 pytestmark = pytest.mark.skipif(not fastthermo.AVAILABLE, reason="numba not installed")
 

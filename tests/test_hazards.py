@@ -8,8 +8,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from ptype.roads import hazards
 from ptype.codes import Code
+from ptype.roads import hazards
 
 
 def _probs(code_probs: dict, n: int = 1) -> np.ndarray:

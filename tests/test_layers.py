@@ -8,8 +8,14 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ptype.engine.columns import Columns
+from ptype.engine.layers import (
+    analyse_layers,
+    cloud_mask,
+    layer_area_j_kg,
+    level_runs,
+    zero_height_m,
+)
 from ptype.thermo.constants import Rd
-from ptype.engine.layers import analyse_layers, cloud_mask, layer_area_j_kg, level_runs, zero_height_m
 
 
 def dense_area(p, t):

@@ -14,9 +14,9 @@ import pytest
 
 from ptype.codes import Code
 from ptype.engine.columns import Columns
-from ptype.thermo.constants import Rd
 from ptype.engine.methods import bourgouin
 from ptype.engine.methods.base import Context
+from ptype.thermo.constants import Rd
 
 
 def run_one(p, t, sfc_t=None):

@@ -18,9 +18,9 @@ from hypothesis import strategies as st
 
 from ptype.codes import NO_RESULT, Code
 from ptype.engine.columns import Columns
-from ptype.errors import OptionError
 from ptype.engine.methods import czys, get_method
 from ptype.engine.methods.base import Context
+from ptype.errors import OptionError
 
 # Textbook constants near 0 degC (from memory, [M]): rho_i, L_f, L_v, K_a.
 RHO_I, LF, LV, KA = 917.0, 3.34e5, 2.5e6, 0.024

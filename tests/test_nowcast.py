@@ -11,10 +11,9 @@ from hypothesis import strategies as st
 from series_helpers import T0, profile_doc, storm_docs
 
 from ptype import Profile
-
+from ptype.errors import OptionError, ProfileError
 from ptype.roads import nowcast
 from ptype.thermo.constants import Cp_d, Lf, rho_w
-from ptype.errors import OptionError, ProfileError
 
 
 def _profiles(docs):

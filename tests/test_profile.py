@@ -1,4 +1,4 @@
-"""Profile validation and completion (ptype/profile.py, ptype/document.py).
+"""Profile validation and completion (ptype/profile/model.py, ptype/profile/document.py).
 
 Every bad input must give one ProfileError on one line that names the level,
 the field, the value and what was expected.  Physical completions (humidity
@@ -21,9 +21,9 @@ import psychrolib
 import pytest
 from metpy.units import units
 
-from ptype.profile.document import json_schema, parse_document
 from ptype.errors import ProfileError
 from ptype.profile import Profile
+from ptype.profile.document import json_schema, parse_document
 
 ROOT = Path(__file__).resolve().parents[1]
 

@@ -7,9 +7,9 @@ from datetime import UTC, datetime
 import pytest
 import sqlalchemy as sa
 
+from ptype.clock import iso, parse_time, utcnow
 from ptype.errors import OptionError
 from ptype.store import Store, database_url, keys, migrations, open_store
-from ptype.clock import iso, parse_time, utcnow
 
 NOW = datetime(2026, 1, 27, 0, 0, tzinfo=UTC)
 

@@ -30,10 +30,8 @@ def _doc(i: int) -> dict:
 
 
 @pytest.fixture
-def client(tmp_path):
-    app = create_app({"TESTING": True, "PTYPE_DATA_DIR": str(tmp_path),
-                      "PTYPE_MAX_VERIFY_CASES": 5, "PTYPE_MAX_VERIFY_MEMBER_COLUMNS": 40})
-    return app.test_client()
+def client(make_app):
+    return make_app(PTYPE_MAX_VERIFY_CASES=5, PTYPE_MAX_VERIFY_MEMBER_COLUMNS=40).test_client()
 
 
 def _cases(n=3):

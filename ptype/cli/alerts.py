@@ -20,10 +20,10 @@ def register(sub) -> None:
 def run(args) -> int:
     import os
 
+    from ptype.clock import utcnow
     from ptype.constants import CAUTION
     from ptype.roads.alerts import service
     from ptype.store import Alert, open_store
-    from ptype.clock import utcnow
     store = open_store()
     now = utcnow()
     sender = os.environ.get("PTYPE_CAP_SENDER") or "ptype@localhost"

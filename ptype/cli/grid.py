@@ -48,8 +48,8 @@ def register(sub) -> None:
 
 def run(args) -> int:
     from ptype import grid
-    from ptype.grid import io as grid_io
     from ptype.errors import OptionError
+    from ptype.grid import io as grid_io
 
     if os.path.abspath(args.output) in {os.path.abspath(p) for p in args.inputs}:
         raise OptionError(f"output {args.output}: would overwrite an input file", field="output")

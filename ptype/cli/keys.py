@@ -33,8 +33,8 @@ def _store():
 
 
 def run_create(args) -> int:
-    from ptype.store import keys
     from ptype.clock import utcnow
+    from ptype.store import keys
     store = _store()
     try:
         with store.write() as s:
@@ -61,9 +61,9 @@ def run_list(args) -> int:
 
 
 def run_revoke(args) -> int:
+    from ptype.clock import utcnow
     from ptype.errors import OptionError
     from ptype.store import keys
-    from ptype.clock import utcnow
     with _store().write() as s:
         info = keys.revoke_key(s, args.key_id, utcnow())
     if info is None:

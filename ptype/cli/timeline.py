@@ -24,11 +24,11 @@ def register(sub) -> None:
 
 
 def run(args) -> int:
+    from ptype.clock import parse_time
     from ptype.constants import CAUTION
     from ptype.errors import ProfileError
-    from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
     from ptype.readers import read_profile
-    from ptype.clock import parse_time
+    from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
     profiles = [read_profile(f) for f in args.files]
     for path, pr in zip(args.files, profiles, strict=True):
         if pr.valid_time is None:

@@ -20,18 +20,18 @@ from typing import Any
 
 import numpy as np
 
-from ptype.constants import CAUTION
 from ptype.codes import GRIB2_4201, Code
+from ptype.constants import CAUTION
 from ptype.engine import consensus as consensus_module
 from ptype.engine.columns import Columns
 from ptype.engine.layers import analyse_layers, zero_height_m
 from ptype.engine.methods import get_method
 from ptype.engine.methods.base import Context, MethodResult
+from ptype.engine.probability import DEFAULT_MEMBERS, check_members, confidence_word
 from ptype.engine.run import EngineRun, method_names, run_columns
 from ptype.errors import OptionError
-from ptype.thermo import WET_BULB_KINDS
-from ptype.engine.probability import DEFAULT_MEMBERS, check_members, confidence_word
 from ptype.profile import Profile
+from ptype.thermo import WET_BULB_KINDS
 
 
 def _to_profile(source) -> Profile:

@@ -27,8 +27,8 @@ import numpy as np
 
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
-from ptype.thermo.constants import Rd
 from ptype.thermo import relative_humidity_pct, saturation_vapor_pressure_hpa
+from ptype.thermo.constants import Rd
 
 #: Levels above this pressure are not analysed for melting/refreezing layers.
 TOP_LIMIT_HPA = 250.0

@@ -22,8 +22,8 @@ from typing import Any
 import numpy as np
 
 from ptype import thermo
-from ptype.profile.document import ProfileDocument, Site, Surface, parse_document
 from ptype.errors import ProfileError
+from ptype.profile.document import ProfileDocument, Site, Surface, parse_document
 
 #: Accepted physical ranges (common practice for tropospheric soundings).
 PRESSURE_RANGE_HPA = (0.0, 1100.0)          # exclusive lower bound

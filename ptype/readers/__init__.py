@@ -7,7 +7,6 @@ and returns a profile *document* (dict); validation is shared.
 
 from __future__ import annotations
 
-import json
 import os
 from pathlib import Path
 from typing import Any
@@ -119,8 +118,8 @@ def read_profile(path_or_text: str | os.PathLike | bytes, format: str | None = N
         The content was read but is not a valid profile.
     """
     document, name = read_document(path_or_text, format)
-    from ptype.profile.document import parse_document
     from ptype.errors import ProfileError
+    from ptype.profile.document import parse_document
     try:
         return Profile.from_document(parse_document(document))
     except ReaderError:
@@ -129,11 +128,3 @@ def read_profile(path_or_text: str | os.PathLike | bytes, format: str | None = N
         if name != "<text>":
             raise ProfileError(f"{name}: {exc.message}", field=exc.field) from None
         raise
-
-
-def loads_json(text: str, name: str = "<text>") -> Any:
-    """Parse JSON text with a one-line error naming the line and column."""
-    try:
-        return json.loads(text)
-    except json.JSONDecodeError as exc:
-        raise ReaderError(f"{name}: line {exc.lineno} column {exc.colno}: invalid JSON ({exc.msg})") from None

@@ -26,15 +26,13 @@ from typing import Any
 import numpy as np
 
 from ptype import thermo
-
-from ptype.constants import CAUTION
-
-from ptype.roads import hazards
 from ptype.codes import GRIB2_4201, LABELS, Code
+from ptype.constants import CAUTION
 from ptype.engine.columns import Columns
-from ptype.thermo.constants import T0, Cp_d, Lf, Rd, rho_w
 from ptype.errors import OptionError, ProfileError
 from ptype.profile import Profile
+from ptype.roads import hazards
+from ptype.thermo.constants import T0, Cp_d, Lf, Rd, rho_w
 
 #: (a) e-folding height of the observation increment above ground, m (our choice).
 OBS_EFOLD_HEIGHT_M = 500.0

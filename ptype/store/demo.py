@@ -16,9 +16,9 @@ from typing import Any
 
 import sqlalchemy as sa
 
+from ptype.clock import parse_time
 from ptype.readers import read_profile
 from ptype.store import Store
-from ptype.clock import parse_time
 from ptype.store.models import ProfileRecord, Site
 
 

@@ -28,9 +28,8 @@ from typing import Any
 import numpy as np
 
 from ptype import __version__
-
-from ptype.constants import CAUTION
 from ptype.codes import LABELS, NO_RESULT, Code
+from ptype.constants import CAUTION
 from ptype.engine.methods import METHOD_NAMES
 from ptype.verify import scores as sc
 from ptype.verify.manifest import Case

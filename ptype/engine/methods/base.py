@@ -23,7 +23,14 @@ from collections.abc import Callable
 import numpy as np
 
 from ptype.engine.columns import Columns
-from ptype.engine.layers import CloudLayers, LayerSet, analyse_layers, cloud_mask, dry_mask, level_runs
+from ptype.engine.layers import (
+    CloudLayers,
+    LayerSet,
+    analyse_layers,
+    cloud_mask,
+    dry_mask,
+    level_runs,
+)
 
 
 @dataclasses.dataclass(frozen=True)

@@ -59,11 +59,11 @@ import numpy as np
 from ptype.codes import NO_RESULT, Code
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
-from ptype.thermo.constants import T0, Lf, Rd, Rv, rho_i
-from ptype.errors import OptionError
 from ptype.engine.layers import TOP_LIMIT_HPA
-from ptype.thermo import saturation_vapor_pressure_hpa
 from ptype.engine.methods.base import Context, MethodResult, Step, select_first
+from ptype.errors import OptionError
+from ptype.thermo import saturation_vapor_pressure_hpa
+from ptype.thermo.constants import T0, Lf, Rd, Rv, rho_i
 
 NAME = "czys"
 TITLE = "Czys et al. (1996) melting parameter"

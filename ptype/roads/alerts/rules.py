@@ -30,8 +30,8 @@ from dataclasses import dataclass, field
 from datetime import datetime, timedelta
 from typing import Any
 
-from ptype.constants import CAUTION
 from ptype.codes import GRIB2_4201, Code
+from ptype.constants import CAUTION
 
 DEFAULT_THRESHOLDS: dict[str, Any] = {
     "freezing_probability": 0.3,

@@ -16,11 +16,11 @@ from typing import Any
 import sqlalchemy as sa
 from sqlalchemy.orm import Session
 
-from ptype.profile import Profile
 from ptype.clock import iso
-from ptype.store.models import Alert, AlertMessage, Observation, ProfileRecord, Site
+from ptype.profile import Profile
 from ptype.roads.alerts.lifecycle import decide
 from ptype.roads.alerts.rules import evaluate_rules
+from ptype.store.models import Alert, AlertMessage, Observation, ProfileRecord, Site
 
 #: Alerts that ended less than this long ago are still listed (ours).
 RECENT = timedelta(hours=24)
