@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ptype.codes import Code
+from ptype.engine.consensus import _tally
 from ptype.engine.methods import bourgouin, cloud_top
 
 
@@ -97,11 +98,10 @@ def narrative(diagnosis) -> list[str]:
     cons = diagnosis.consensus_result
     counts = cons.values["counts"][i]
     if int(cons.values["n_voters"][i]) > 0:
-        tally = ", ".join(f"{Code(k).name} {int(counts[k])}" for k in np.argsort(-counts, kind="stable")
-                          if counts[k] > 0)
+        tally = ", ".join(f"{name} {votes}" for name, votes in _tally(counts).items())
         out.append(f"Method votes: {tally}.")
     for step in cons.steps(i):
-        if step.rule.startswith("surface_humidity") or step.rule == "no_ice_drizzle":
+        if step.rule.startswith(("surface_humidity", "phase_")) or step.rule == "no_ice_drizzle":
             out.append(step.text)
     code = diagnosis.code
     if diagnosis.members:

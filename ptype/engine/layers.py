@@ -33,13 +33,23 @@ from ptype.thermo.constants import Rd
 #: Levels above this pressure are not analysed for melting/refreezing layers.
 TOP_LIMIT_HPA = 250.0
 
-#: A level is "in cloud" when RH over water >= 90 %, or, below 0 degC, RH over ice >= 95 %.
-#: Ours (common practice for observed and model soundings, which rarely reach exactly 100 %).
+#: A level is "in cloud" when RH over water >= 90 %, or, at or below
+#: :data:`ICE_CLOUD_MAX_C`, RH over ice >= 95 % (an ice cloud).  Ours (common practice for
+#: observed and model soundings, which rarely reach exactly 100 %).  Air saturated over ice
+#: but not over water counts as cloud only where it is cold enough for ice to form: warmer
+#: than that it holds neither drops nor crystals.
 CLOUD_RH_WATER_PCT = 90.0
 CLOUD_RH_ICE_PCT = 95.0
+#: Ice-saturated air counts as (ice) cloud at or below this temperature, degC: heterogeneous
+#: ice nucleation becomes likely below about -10 degC (common practice; the cloud-top method's
+#: ice-nucleation threshold).
+ICE_CLOUD_MAX_C = -10.0
 #: A level is "dry" (evaporation/sublimation cools falling precipitation) when RH over water < 80 %.
 #: Ours (common practice).
 DRY_RH_WATER_PCT = 80.0
+#: A run of cloudy levels thinner than this is not a cloud layer (a single humid level, or two
+#: levels a few tens of metres apart, holds no cloud that can precipitate), m.  Ours.
+MIN_CLOUD_DEPTH_M = 100.0
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
@@ -361,6 +371,13 @@ class CloudLayers:
         return out
 
 
+def liquid_cloud_mask(relative_humidity_pct_: np.ndarray) -> np.ndarray:
+    """``(n, L)`` True where a level is saturated enough over water to hold cloud drops
+    (RH over water >= :data:`CLOUD_RH_WATER_PCT`)."""
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(relative_humidity_pct_) & (relative_humidity_pct_ >= CLOUD_RH_WATER_PCT)
+
+
 def cloud_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray,
                relative_humidity_pct_: np.ndarray | None = None) -> np.ndarray:
     """``(n, L)`` True where a level counts as cloud (see :data:`CLOUD_RH_WATER_PCT`).
@@ -373,7 +390,8 @@ def cloud_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray,
         rh_i = 100.0 * saturation_vapor_pressure_hpa(dewpoint_c, "water") / \
             saturation_vapor_pressure_hpa(temperature_c, "ice")
         return np.isfinite(rh_w) & ((rh_w >= CLOUD_RH_WATER_PCT)
-                                    | ((temperature_c < 0.0) & (rh_i >= CLOUD_RH_ICE_PCT)))
+                                    | ((temperature_c <= ICE_CLOUD_MAX_C)
+                                       & (rh_i >= CLOUD_RH_ICE_PCT)))
 
 
 def dry_mask(temperature_c: np.ndarray, dewpoint_c: np.ndarray,
@@ -427,3 +445,43 @@ def cumulative_dry_depth_m(height_m: np.ndarray, dry: np.ndarray) -> np.ndarray:
     out = np.zeros(height_m.shape)
     out[:, 1:] = np.cumsum(np.where(both, dz, 0.0), axis=1)
     return out
+
+
+def without_thin_runs(runs: CloudLayers, min_depth_m: float = MIN_CLOUD_DEPTH_M) -> CloudLayers:
+    """``runs`` without the runs thinner than ``min_depth_m`` (top minus bottom height); the
+    others keep their order, packed to the left."""
+    present = np.arange(runs.top_m.shape[1])[None, :] < runs.count[:, None]
+    with np.errstate(invalid="ignore"):
+        keep = present & ((runs.top_m - runs.bottom_m) >= min_depth_m)
+    if (keep == present).all():
+        return runs
+    n, R = keep.shape
+    count = keep.sum(axis=1)
+    R_new = max(int(count.max(initial=0)), 1)
+    ri, rk = np.nonzero(keep)
+    slot = np.cumsum(keep, axis=1)[ri, rk] - 1
+
+    def packed(a, fill):
+        out = np.full((n, R_new), fill, dtype=a.dtype)
+        out[ri, slot] = a[ri, rk]
+        return out
+
+    return CloudLayers(bottom_hpa=packed(runs.bottom_hpa, np.nan), top_hpa=packed(runs.top_hpa, np.nan),
+                       bottom_m=packed(runs.bottom_m, np.nan), top_m=packed(runs.top_m, np.nan),
+                       top_temperature_c=packed(runs.top_temperature_c, np.nan),
+                       min_temperature_c=packed(runs.min_temperature_c, np.nan), count=count,
+                       bottom_index=packed(runs.bottom_index, -1),
+                       top_index=packed(runs.top_index, -1))
+
+
+def deepest_run_within_m(mask: np.ndarray, height_m: np.ndarray, bottom_m: np.ndarray,
+                         top_m: np.ndarray) -> np.ndarray:
+    """Depth of the deepest run of True levels of ``mask`` lying between ``bottom_m`` and
+    ``top_m`` (``(n,)`` each), m; 0 where there is none."""
+    inside = mask & (height_m >= bottom_m[:, None] - 1e-6) & (height_m <= top_m[:, None] + 1e-6)
+    start, end, count = level_index_runs(inside)
+    rows = np.arange(height_m.shape[0])[:, None]
+    present = start >= 0
+    depth = np.where(present, height_m[rows, np.maximum(end, 0)]
+                     - height_m[rows, np.maximum(start, 0)], 0.0)
+    return np.nan_to_num(depth, nan=0.0).max(axis=1, initial=0.0)

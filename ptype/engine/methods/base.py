@@ -30,6 +30,7 @@ from ptype.engine.layers import (
     cloud_mask,
     dry_mask,
     level_runs,
+    without_thin_runs,
 )
 
 
@@ -119,8 +120,10 @@ class Context:
 
     @functools.cached_property
     def cloud_layers(self) -> CloudLayers:
+        """Cloud layers at least :data:`ptype.engine.layers.MIN_CLOUD_DEPTH_M` deep."""
         c = self.columns
-        return level_runs(self.cloud_mask, c.pressure_hpa, c.height_m, c.temperature_c)
+        return without_thin_runs(level_runs(self.cloud_mask, c.pressure_hpa, c.height_m,
+                                            c.temperature_c))
 
     @functools.cached_property
     def dry_layers(self) -> CloudLayers:

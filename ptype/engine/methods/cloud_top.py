@@ -18,10 +18,16 @@ Following a hydrometeor from its source to the ground in four steps
    does not switch the answer.
 2. Without ice the cloud rains out by collision-coalescence as **drizzle**:
    freezing drizzle when the surface air is at or below 0 degC (Huffman &
-   Norman 1988; Bocchieri 1980), whatever the melting-layer methods say.
-3. With ice, the **warm layers** decide melting by their maximum wet-bulb
+   Norman 1988; Bocchieri 1980), whatever the melting-layer methods say -
+   provided the cloud is at least :data:`DRIZZLE_CLOUD_DEPTH_M` deep (ours);
+   a shallower humid layer gives no result.  Cloud layers thinner than
+   :data:`ptype.engine.layers.MIN_CLOUD_DEPTH_M` are not clouds at all.
+3. With ice, the **warm layers** decide melting by their maximum temperature
    (Stewart & King 1987): above 3 degC complete melting; 1-3 degC partial
-   melting; below 1 degC little melting.
+   melting; below 1 degC little melting.  The maximum is the air temperature's,
+   as they state it, taken over the levels whose wet-bulb is above 0 degC
+   (:func:`warm_layer_peaks_c`, ours): a warm but dry layer cools falling snow
+   by sublimation and does not melt it.
 4. The **near-surface cold layer** refreezes drops that melted completely only
    if it is colder than -8 degC (WPC training guidance quoted in the brief,
    section 6); partly melted particles keep an ice core and refreeze readily.
@@ -34,7 +40,11 @@ import numpy as np
 from ptype.codes import NO_RESULT, Code
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
-from ptype.engine.layers import cumulative_dry_depth_m
+from ptype.engine.layers import (
+    cumulative_dry_depth_m,
+    deepest_run_within_m,
+    liquid_cloud_mask,
+)
 from ptype.engine.methods.base import Context, MethodResult, Step, select_first
 
 NAME = "cloud_top"
@@ -46,22 +56,28 @@ WETBULB = "isobaric"
 ICE_NUCLEATION_C = -10.0
 #: Deepest clear gap through which a higher ice cloud still seeds a lower one, m (ours).
 SEEDING_GAP_M = 1000.0
-#: Stewart & King (1987) warm-layer maximum wet-bulb limits, degC.
-COMPLETE_MELT_TW_C = 3.0
-PARTIAL_MELT_TW_C = 1.0
+#: Stewart & King (1987) warm-layer maximum temperature limits, degC, applied to the air
+#: temperature where the wet-bulb is above 0 degC (:func:`warm_layer_peaks_c`).
+COMPLETE_MELT_C = 3.0
+PARTIAL_MELT_C = 1.0
 #: Completely melted drops refreeze to ice pellets only in a cold layer colder than this, degC.
 REFREEZE_COLD_LAYER_C = -8.0
 #: Precipitation freezes on contact when the surface air is at or below this, degC.
 FREEZING_SURFACE_C = 0.0
+#: A cloud that makes no ice gives drizzle only when it is at least this deep, m (ours:
+#: collision-coalescence needs a deep enough supercooled layer to grow drizzle drops; the
+#: freezing-drizzle stratus of Huffman & Norman 1988 are several hundred metres deep).
+#: A shallower humid layer abstains instead of overriding the other methods.
+DRIZZLE_CLOUD_DEPTH_M = 300.0
 
 RULES = ("no_cloud", "no_ice_freezing_drizzle", "no_ice_drizzle", "melted_freezing_rain",
          "melted_refrozen_pellets", "melted_rain", "partly_melted_pellets", "partly_melted_rain_pellets",
-         "surface_melt_rain", "surface_melt_rain_snow", "snow")
+         "surface_melt_rain", "surface_melt_rain_snow", "snow", "cloud_too_shallow")
 _LUT = np.array([NO_RESULT, Code.FZDZ, Code.DZ, Code.FZRA, Code.PL, Code.RA, Code.PL, Code.RAPL,
-                 Code.RA, Code.RASN, Code.SN], dtype=np.int64)
+                 Code.RA, Code.RASN, Code.SN, NO_RESULT], dtype=np.int64)
 
 SOURCE_ICE = "Baumgardt (2000); ice nucleation below -10 °C (NWS guidance)"
-SOURCE_MELT = "Stewart & King (1987) warm-layer wet-bulb limits"
+SOURCE_MELT = "Stewart & King (1987) warm-layer temperature limits"
 SOURCE_REFREEZE = "Refreezing needs a cold layer below about -8 °C (WPC guidance)"
 
 
@@ -89,10 +105,19 @@ def ice_analysis(ctx: Context) -> dict[str, np.ndarray]:
                                      cl.bottom_index, cum_dry)
     top = np.maximum(count - 1, 0)
     has = count > 0
+    # Drizzle grows in the liquid part of the cloud: the depth that counts is that of its
+    # deepest run of levels saturated over water.
+    c = ctx.columns
+    liquid_depth = np.where(has, deepest_run_within_m(
+        liquid_cloud_mask(c.relative_humidity_pct), c.height_m, cl.bottom_m[:, 0],
+        cl.top_m[:, 0]), np.nan)
     return {
         "has_cloud": has,
         "ice": ice & has,
         "seeded": seeded & has,
+        # No ice and deep enough to grow drizzle (:data:`DRIZZLE_CLOUD_DEPTH_M`).
+        "drizzle": has & ~ice & (liquid_depth >= DRIZZLE_CLOUD_DEPTH_M),
+        "lowest_cloud_depth_m": liquid_depth,
         "top_cloud_top_hpa": np.where(has, cl.top_hpa[rows, top], np.nan),
         "top_cloud_top_m": np.where(has, cl.top_m[rows, top], np.nan),
         "top_cloud_min_c": np.where(has, cl.min_temperature_c[rows, top], np.nan),
@@ -146,15 +171,31 @@ def _seeding_loop(count, min_temperature_c, top_index, bottom_index, cum_dry, ic
 _seeding_compiled = compiled(_seeding_loop)
 
 
+def warm_layer_peaks_c(columns) -> tuple[np.ndarray, np.ndarray]:
+    """Peak air temperature of the melting layers aloft and of the surface-based one, degC (0
+    where there is none).
+
+    Stewart & King (1987) state their melting limits on the warm layer's maximum (air)
+    temperature.  Melting happens only where the wet-bulb is above 0 degC (in drier air the
+    falling snow cools by sublimation and stays frozen), so the peak is taken over the levels
+    whose isobaric wet-bulb is above 0 degC (ours): in saturated layers the two agree, and a
+    warm but dry layer does not count as melting.
+    """
+    c = columns
+    valid = c.valid & (c.pressure_hpa >= 250.0)
+    melting = valid & (c.wetbulb_c > 0.0)
+    surface_run = np.cumprod(melting, axis=1).astype(bool)
+    aloft = melting & ~surface_run
+    t = c.temperature_c
+    aloft_max = np.where(aloft, t, 0.0).max(axis=1)
+    surface_max = np.where(surface_run, t, 0.0).max(axis=1)
+    return np.maximum(aloft_max, 0.0), np.maximum(surface_max, 0.0)
+
+
 def run(ctx: Context) -> MethodResult:
     c = ctx.columns
     ia = ice_analysis(ctx)
-    wb = ctx.wetbulb_layers
-    _, K = wb.kind.shape
-    k_idx = np.arange(K)[None, :]
-    warm_wb = wb.kind > 0
-    aloft_max = np.where(warm_wb & (k_idx > 0), wb.extreme_c, 0.0).max(axis=1)
-    surface_max = np.where(warm_wb[:, 0], wb.extreme_c[:, 0], 0.0)
+    aloft_max, surface_max = warm_layer_peaks_c(c)
     air = ctx.air_layers
     Ka = air.kind.shape[1]
     ka = np.arange(Ka)[None, :]
@@ -165,17 +206,18 @@ def run(ctx: Context) -> MethodResult:
     sfc_t = c.surface_temperature_c
     freezing_sfc = sfc_t <= FREEZING_SURFACE_C
 
-    melted = aloft_max > COMPLETE_MELT_TW_C
-    partly = (aloft_max >= PARTIAL_MELT_TW_C) & ~melted
+    melted = aloft_max > COMPLETE_MELT_C
+    partly = (aloft_max >= PARTIAL_MELT_C) & ~melted
     rule_ice = select_first(
         [melted & ~freezing_sfc, melted & (cold_min <= REFREEZE_COLD_LAYER_C), melted,
          partly & freezing_sfc, partly,
-         surface_max > COMPLETE_MELT_TW_C, surface_max >= PARTIAL_MELT_TW_C],
+         surface_max > COMPLETE_MELT_C, surface_max >= PARTIAL_MELT_C],
         [5, 4, 3, 6, 7, 8, 9], default=10)
-    rule = np.where(~ia["has_cloud"], 0,
-                    np.where(~ia["ice"], np.where(freezing_sfc, 1, 2), rule_ice))
+    no_ice = np.where(ia["drizzle"], np.where(freezing_sfc, 1, 2), 11)
+    rule = np.where(~ia["has_cloud"], 0, np.where(~ia["ice"], no_ice, rule_ice))
     values = dict(ia)
-    values.update({"max_wetbulb_aloft_c": aloft_max, "max_wetbulb_surface_layer_c": surface_max,
+    values.update({"max_temperature_aloft_c": aloft_max,
+                   "max_temperature_surface_layer_c": surface_max,
                    "cold_layer_min_c": cold_min, "surface_temperature_c": sfc_t})
     return MethodResult(NAME, _LUT[rule], rule, values, explain)
 
@@ -199,6 +241,15 @@ def explain(result: MethodResult, i: int) -> list[Step]:
             text = (f"The cloud reaches {low_c if low_c <= ICE_NUCLEATION_C else top_c:.1f} °C, at or below "
                     f"{ICE_NUCLEATION_C:.0f} °C: it makes ice.")
         steps.append(Step("ice_present", text, {"cloud_min_c": min(low_c, top_c)}, th, SOURCE_ICE))
+    elif rule == "cloud_too_shallow":
+        depth = float(v["lowest_cloud_depth_m"])
+        steps.append(Step(rule, f"The lowest cloud makes no ice and its liquid part is {depth:.0f} m "
+                                f"deep: too shallow to grow drizzle (at least "
+                                f"{DRIZZLE_CLOUD_DEPTH_M:.0f} m, ours), so this method does not "
+                                "decide.", {"lowest_cloud_depth_m": depth},
+                          {"drizzle_cloud_depth_m": DRIZZLE_CLOUD_DEPTH_M},
+                          "ours (collision-coalescence needs a deep cloud)"))
+        return steps
     else:
         steps.append(Step("no_ice", f"The precipitating cloud is no colder than {low_c:.1f} °C "
                           f"(ice needs {ICE_NUCLEATION_C:.0f} °C or colder) and no higher ice cloud seeds it: "
@@ -209,30 +260,30 @@ def explain(result: MethodResult, i: int) -> list[Step]:
         steps.append(Step(rule, f"Surface air {sfc:.1f} °C: {word}.", {"surface_temperature_c": sfc},
                           {"freezing_surface_c": FREEZING_SURFACE_C}, "Huffman & Norman (1988)"))
         return steps
-    aloft = float(v["max_wetbulb_aloft_c"])
-    sfc_l = float(v["max_wetbulb_surface_layer_c"])
+    aloft = float(v["max_temperature_aloft_c"])
+    sfc_l = float(v["max_temperature_surface_layer_c"])
     cold = float(v["cold_layer_min_c"])
     sfc = float(v["surface_temperature_c"])
-    mth = {"complete_melt_tw_c": COMPLETE_MELT_TW_C, "partial_melt_tw_c": PARTIAL_MELT_TW_C}
+    mth = {"complete_melt_c": COMPLETE_MELT_C, "partial_melt_c": PARTIAL_MELT_C}
     texts = {
-        "melted_freezing_rain": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C (> {COMPLETE_MELT_TW_C}): "
+        "melted_freezing_rain": f"A warm layer aloft peaks at {aloft:+.1f} °C (> {COMPLETE_MELT_C}): "
                                 f"snow melts completely; the cold layer below reaches only {cold:.1f} °C "
                                 f"(refreezing needs {REFREEZE_COLD_LAYER_C} °C) and the surface is {sfc:.1f} °C: freezing rain.",
-        "melted_refrozen_pellets": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C: snow melts completely, "
+        "melted_refrozen_pellets": f"A warm layer aloft peaks at {aloft:+.1f} °C: snow melts completely, "
                                    f"then the cold layer below reaches {cold:.1f} °C: drops refreeze to ice pellets.",
-        "melted_rain": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C: snow melts completely and the "
+        "melted_rain": f"A warm layer aloft peaks at {aloft:+.1f} °C: snow melts completely and the "
                        f"surface air is {sfc:.1f} °C: rain.",
-        "partly_melted_pellets": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C (1-3 °C): partial melting; "
+        "partly_melted_pellets": f"A warm layer aloft peaks at {aloft:+.1f} °C (1-3 °C): partial melting; "
                                  f"the particles refreeze below and the surface is {sfc:.1f} °C: ice pellets.",
-        "partly_melted_rain_pellets": f"A warm layer aloft peaks at wet-bulb {aloft:+.1f} °C (1-3 °C): partial melting; "
+        "partly_melted_rain_pellets": f"A warm layer aloft peaks at {aloft:+.1f} °C (1-3 °C): partial melting; "
                                       f"the surface air is {sfc:.1f} °C: rain and ice pellets.",
-        "surface_melt_rain": f"The surface-based warm layer peaks at wet-bulb {sfc_l:+.1f} °C: snow melts: rain.",
-        "surface_melt_rain_snow": f"The surface-based warm layer peaks at wet-bulb {sfc_l:+.1f} °C (1-3 °C): "
+        "surface_melt_rain": f"The surface-based warm layer peaks at {sfc_l:+.1f} °C: snow melts: rain.",
+        "surface_melt_rain_snow": f"The surface-based warm layer peaks at {sfc_l:+.1f} °C (1-3 °C): "
                                   "partial melting: rain and snow.",
-        "snow": f"No warm layer reaches a wet-bulb of {PARTIAL_MELT_TW_C} °C (warmest {max(aloft, sfc_l):+.1f} °C): snow.",
+        "snow": f"No melting layer reaches {PARTIAL_MELT_C} °C (warmest {max(aloft, sfc_l):+.1f} °C): snow.",
     }
     src = SOURCE_REFREEZE if rule.startswith("melted") else SOURCE_MELT
-    steps.append(Step(rule, texts[rule], {"max_wetbulb_aloft_c": aloft, "max_wetbulb_surface_layer_c": sfc_l,
+    steps.append(Step(rule, texts[rule], {"max_temperature_aloft_c": aloft, "max_temperature_surface_layer_c": sfc_l,
                                           "cold_layer_min_c": cold, "surface_temperature_c": sfc},
                       dict(mth, refreeze_cold_layer_c=REFREEZE_COLD_LAYER_C), src))
     return steps

@@ -4,12 +4,14 @@ The thickness algorithm of Cortinas et al. (preprint; thresholds chosen from
 Keeter & Cline 1991, Younkin 1967 and Zerr 1997), as quoted in the brief
 (section 7, confirmed in a secondary source):
 
-1. 850-700 hPa thickness <= 1540 m -> SN;
-2. 1000-850 hPa > 1310 m, or 850-700 hPa > 1560 m -> RA when the surface
+1. 1000-850 hPa > 1310 m, or 850-700 hPa > 1560 m -> RA when the surface
    wet-bulb is above 0 degC, otherwise FZRA;
+2. 850-700 hPa thickness <= 1540 m (and 1000-850 hPa <= 1310 m) -> SN;
 3. 1540 m < 850-700 hPa <= 1560 m -> PL.
 
-The rules are applied in that order.  All of 1000, 850, 700 and 500 hPa must
+The two thicknesses are read jointly, as Keeter & Cline (1991) read them on
+their nomogram: a warm lowest layer (1000-850 hPa above the rain limit) rules
+snow out whatever the layer above says, so the liquid test comes first.  All of 1000, 850, 700 and 500 hPa must
 lie inside the profile (no extrapolation below ground or above the top);
 otherwise the method gives no result.  Thicknesses come from the profile's
 heights interpolated linearly in ln p.
@@ -48,9 +50,11 @@ def run(ctx: Context) -> MethodResult:
     complete = np.isfinite(z[1000.0]) & np.isfinite(z[850.0]) & np.isfinite(z[700.0]) & np.isfinite(z[500.0])
     warm_sfc = c.surface_wetbulb_c > 0.0
     liquid = (low > RAIN_1000_850_MIN_M) | (mid > PELLETS_850_700_MAX_M)
-    rule = select_first([~complete, mid <= SNOW_850_700_MAX_M, liquid & warm_sfc, liquid,
-                      (mid > SNOW_850_700_MAX_M) & (mid <= PELLETS_850_700_MAX_M)],
-                     [0, 1, 2, 3, 4], default=5)
+    # Jointly (Keeter & Cline 1991): the liquid test before the snow test, so a warm
+    # 1000-850 hPa layer is never snow.
+    rule = select_first([~complete, liquid & warm_sfc, liquid, mid <= SNOW_850_700_MAX_M,
+                         (mid > SNOW_850_700_MAX_M) & (mid <= PELLETS_850_700_MAX_M)],
+                        [0, 2, 3, 1, 4], default=5)
     values = {"thickness_1000_850_m": low, "thickness_850_700_m": mid,
               "surface_wetbulb_c": c.surface_wetbulb_c, "complete": complete}
     return MethodResult(NAME, _LUT[rule], rule, values, explain)
@@ -67,7 +71,8 @@ def explain(result: MethodResult, i: int) -> list[Step]:
     text = {
         "missing_levels": "The profile does not span 1000 to 500 hPa (1000 hPa below ground or the top too "
                           "low): no thickness result, as the rules are not extrapolated.",
-        "snow_850_700": f"850-700 hPa thickness {mid:.0f} m <= {SNOW_850_700_MAX_M:.0f} m: snow.",
+        "snow_850_700": f"1000-850 hPa thickness {low:.0f} m <= {RAIN_1000_850_MIN_M:.0f} m and "
+                        f"850-700 hPa {mid:.0f} m <= {SNOW_850_700_MAX_M:.0f} m: snow.",
         "liquid_warm_surface": f"1000-850 hPa thickness {low:.0f} m (limit {RAIN_1000_850_MIN_M:.0f}) or 850-700 hPa "
                                f"{mid:.0f} m (limit {PELLETS_850_700_MAX_M:.0f}) says liquid; surface wet-bulb "
                                f"{tw:+.1f} °C: rain.",
