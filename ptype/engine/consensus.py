@@ -195,7 +195,7 @@ def consensus(ctx: Context, results: dict[str, MethodResult],
               "melt_aloft_j_kg": path["melt_aloft_j_kg"],
               "melt_surface_j_kg": path["melt_surface_j_kg"],
               "melted_aloft": path["melted_aloft"],
-              "melted_at_surface": path["melted_at_surface"]}
+              "melted_at_surface": path["melted_at_surface"], "possible": path["possible"]}
     return MethodResult(NAME, code, rule, values, explain)
 
 

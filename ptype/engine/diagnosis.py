@@ -98,8 +98,7 @@ class Diagnosis:
             "members": self.members,
             "seed": self.seed,
             "methods": self._methods_dict(),
-            "consensus": {"rule": _rule_name(consensus_module, self.consensus_result, i),
-                          "steps": [s.to_dict() for s in self.consensus_result.steps(i)]},
+            "consensus": self._consensus_dict(),
             "layers": ctx.air_layers.column(i),
             "wetbulb_layers": ctx.wetbulb_layers.column(i),
             "cloud_layers": ctx.cloud_layers.column(i),
@@ -115,6 +114,19 @@ class Diagnosis:
             "site": None if pr.site is None else pr.site.model_dump(exclude_none=True),
             "valid_time": None if pr.valid_time is None else _iso(pr.valid_time),
         }
+
+    def _consensus_dict(self) -> dict[str, Any]:
+        """The consensus rule and steps of the profile itself (the control), the type it gives
+        and, when the members change the reported type, why."""
+        from ptype.engine.explain import support_sentence
+        i = self.row
+        control = Code(int(self.run.fields["control_ptype"][i]))
+        reason = int(self.run.fields["support_reason"][i])
+        return {"rule": _rule_name(consensus_module, self.consensus_result, i),
+                "steps": [s.to_dict() for s in self.consensus_result.steps(i)],
+                "control_ptype": control.name,
+                "reported": ("control", "hazard_preference", "most_probable")[reason],
+                "reported_because": support_sentence(self)}
 
     def _methods_dict(self) -> dict[str, dict]:
         i = self.row

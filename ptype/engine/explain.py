@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ptype.codes import Code
+from ptype.codes import HAZARD_RANK, Code
 from ptype.engine.consensus import _tally
 from ptype.engine.methods import bourgouin, cloud_top
 
@@ -103,6 +103,9 @@ def narrative(diagnosis) -> list[str]:
     for step in cons.steps(i):
         if step.rule.startswith(("surface_humidity", "phase_")) or step.rule == "no_ice_drizzle":
             out.append(step.text)
+    support = support_sentence(diagnosis)
+    if support:
+        out.append(support)
     code = diagnosis.code
     if diagnosis.members:
         out.append(f"Consensus: {code.label} ({code.name}), probability {diagnosis.probability:.2f} over "
@@ -110,3 +113,25 @@ def narrative(diagnosis) -> list[str]:
     else:
         out.append(f"Consensus: {code.label} ({code.name}); probabilities not computed.")
     return out
+
+
+def support_sentence(diagnosis) -> str | None:
+    """Why the reported type differs from the most probable one, or from the profile's own
+    consensus (:func:`ptype.engine.probability.supported_codes`); None when it does not."""
+    reason = int(diagnosis.run.fields["support_reason"][diagnosis.row])
+    if not diagnosis.members or reason == 0:
+        return None
+    probs = diagnosis.probability_vector
+    code = diagnosis.code
+    control = Code(int(diagnosis.run.fields["control_ptype"][diagnosis.row]))
+    if reason == 1:
+        most = Code(int(np.argmax(probs)))
+        why = (f"it is the more hazardous ({code.label} over {most.label}), a hazard preference"
+               if HAZARD_RANK[code] < HAZARD_RANK[most] else
+               "the profile's own layers decide where the members split")
+        return (f"The members give {most.name} more often ({probs[most]:.2f}) than {code.name} "
+                f"({probs[code]:.2f}); {code.name} is reported because the profile itself gives "
+                f"it, at least a quarter of the members agree, and {why}.")
+    return (f"The profile itself gives {control.name} ({control.label}), but only "
+            f"{probs[control]:.2f} of the members do, fewer than a quarter; the most probable "
+            f"type, {code.name} ({probs[code]:.2f}), is reported.")

@@ -1,23 +1,33 @@
-"""Probabilities by Monte-Carlo perturbation of the profile.
+"""Probabilities from Monte-Carlo members: perturbed profiles and perturbed method weights.
 
-Each member perturbs the temperature and the relative humidity of every level
-with Gaussian errors correlated in the vertical, then the whole batch of
-members goes through the same vectorised pipeline as the control.  The
-probability of a code is the fraction of members that give it.
+Each member is a plausible version of the profile and of the judgement of the methods; the
+whole batch of members goes through the same vectorised pipeline as the control, and the
+probability of a code is the fraction of members that give it.  A member perturbs
 
-Error model (ours, engineering defaults: the perturbation sizes used by Reeves
-et al. 2014 were not found, so these are starting points to tune, not
-published values):
+* the **temperature** of every level: Gaussian errors correlated in the vertical,
+  sigma :data:`TEMPERATURE_SIGMA_K`, correlation ``exp(-dz / L)`` with
+  :data:`CORRELATION_LENGTH_M` (a first-order autoregressive sequence up each column, the
+  exact exponential correlation for any level spacing);
+* the **surface layer** on its own: an offset of sigma :data:`SURFACE_SIGMA_K` fading with
+  height as ``exp(-z / SURFACE_DEPTH_M)`` (near-ground temperatures carry errors of their
+  own: radiation, snow cover, boundary-layer mixing);
+* the **warm nose** (the warmest elevated inversion top, when there is one): its strength by
+  an added bump of sigma :data:`NOSE_SIGMA_K`, and its height by a shift of sigma
+  :data:`NOSE_SHIFT_SIGMA_M`, both fading linearly to zero :data:`NOSE_HALF_WIDTH_M` away
+  from its peak;
+* the **humidity** as the dew-point depression on a log scale (``T - Td`` multiplied by
+  ``exp(sigma e)``, sigma :data:`DEPRESSION_LOG_SIGMA`, correlated as the temperature): a
+  saturated layer stays saturated (the old additive RH noise clipped at 100 % dried them:
+  a 100 % level averaged 97 %), a dry one stays dry, and the dew point follows the perturbed
+  temperature;
+* the **weights of the voting methods** (:func:`voter_weights`): independent exponential
+  draws (the two Baldwin variants share one), so that where the methods disagree the
+  members disagree as well (structural uncertainty), while methods that agree keep agreeing.
 
-* temperature error sigma :data:`TEMPERATURE_SIGMA_K` = 0.7 K,
-* relative-humidity error sigma :data:`RELATIVE_HUMIDITY_SIGMA_PCT` = 7 % (absolute),
-  clipped to 1-100 %,
-* vertical correlation ``exp(-dz / L)`` with :data:`CORRELATION_LENGTH_M` = 1500 m,
-  generated as a first-order autoregressive sequence up each column (the
-  exact exponential correlation for any level spacing).
-
-The consensus code is always taken from the unperturbed profile; members only
-give probabilities.
+The sizes are ours, engineering defaults to tune on paired cases (``ptype calibrate``): the
+perturbation sizes used by Reeves et al. (2014) were not found.  The consensus is taken from
+the unperturbed profile; :func:`supported_codes` makes the reported type consistent with the
+members.
 """
 
 from __future__ import annotations
@@ -25,17 +35,28 @@ from __future__ import annotations
 import numpy as np
 
 from ptype import thermo
-from ptype.codes import Code
+from ptype.codes import HAZARD_RANK, Code
 from ptype.engine.columns import Columns
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
 from ptype.errors import OptionError
 
 DEFAULT_MEMBERS = 50
-TEMPERATURE_SIGMA_K = 0.7
-RELATIVE_HUMIDITY_SIGMA_PCT = 7.0
-CORRELATION_LENGTH_M = 1500.0
 MAX_MEMBERS = 10000
+#: Level temperature error, K, and its vertical correlation length, m (ours).
+TEMPERATURE_SIGMA_K = 0.5
+CORRELATION_LENGTH_M = 1500.0
+#: Surface-layer temperature offset, K, and the depth over which it fades, m (ours).
+SURFACE_SIGMA_K = 0.7
+SURFACE_DEPTH_M = 300.0
+#: Warm-nose strength, K, height shift, m, and the half width of the nose, m (ours).
+NOSE_SIGMA_K = 0.8
+NOSE_SHIFT_SIGMA_M = 150.0
+NOSE_HALF_WIDTH_M = 1000.0
+#: Dew-point depression error on a log scale (0.3: a factor of about 1.35 either way; ours).
+DEPRESSION_LOG_SIGMA = 0.3
+#: A reported type needs at least this fraction of the members (ours).
+MIN_SUPPORT = 0.25
 
 #: Confidence words from the probability of the consensus code (ours).
 CONFIDENCE_WORDS = ((0.8, "high"), (0.5, "moderate"), (0.0, "low"))
@@ -101,25 +122,104 @@ def _ar1_loop(r, s, white, out):
 _ar1_compiled = compiled(_ar1_loop)
 
 
+def nose_peaks(columns: Columns) -> tuple[np.ndarray, np.ndarray]:
+    """Height, m, and level index of each column's warm nose: the warmest top of an
+    elevated inversion (a level warmer than the one below and not colder than the one above,
+    more than :data:`SURFACE_DEPTH_M` above the ground, at or below 500 hPa); NaN and -1 where
+    there is none."""
+    t, z, p = columns.temperature_c, columns.height_m, columns.pressure_hpa
+    n, L = t.shape
+    z0 = z[:, :1]
+    peak = np.zeros((n, L), dtype=bool)
+    with np.errstate(invalid="ignore"):
+        peak[:, 1:-1] = ((t[:, 1:-1] > t[:, :-2]) & (t[:, 1:-1] >= t[:, 2:])
+                         & (z[:, 1:-1] - z0 > SURFACE_DEPTH_M) & (p[:, 1:-1] >= 500.0))
+    has = peak.any(axis=1)
+    k = np.argmax(np.where(peak, t, -np.inf), axis=1)
+    rows = np.arange(n)
+    return np.where(has, z[rows, k], np.nan), np.where(has, k, -1)
+
+
+def _shifted(height_m: np.ndarray, values: np.ndarray, shift_m: np.ndarray) -> np.ndarray:
+    """``values`` read at ``height - shift`` along each row (linear, held at the ends):
+    the profile moved up by ``shift`` (``(n,)``)."""
+    n, L = values.shape
+    z = np.where(np.isfinite(height_m), height_m, np.inf)
+    # One sorted key for all rows: heights offset by a row number larger than any height.
+    big = np.nanmax(np.abs(height_m[np.isfinite(height_m)]), initial=1.0) * 4.0 + 1e6
+    rows = np.arange(n)[:, None]
+    keys = np.where(np.isfinite(z), z + rows * big, rows * big + big * 0.999).ravel()
+    target = (height_m - shift_m[:, None]) + rows * big
+    idx = np.searchsorted(keys, target.ravel()).reshape(n, L)
+    lo = np.clip(idx - 1 - rows * L, 0, L - 1)
+    hi = np.clip(idx - rows * L, 0, L - 1)
+    z_lo, z_hi = height_m[rows, lo], height_m[rows, hi]
+    v_lo, v_hi = values[rows, lo], values[rows, hi]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.clip((height_m - shift_m[:, None] - z_lo) / (z_hi - z_lo), 0.0, 1.0)
+    w = np.where(np.isfinite(w), w, 0.0)
+    out = v_lo + w * (v_hi - v_lo)
+    return np.where(np.isfinite(out), out, values)
+
+
 def perturb(columns: Columns, members: int, seed=None, *,
             temperature_sigma_k: float = TEMPERATURE_SIGMA_K,
-            relative_humidity_sigma_pct: float = RELATIVE_HUMIDITY_SIGMA_PCT,
             correlation_length_m: float = CORRELATION_LENGTH_M) -> Columns:
-    """Members of every column, stacked: row ``i * members + m`` is member ``m`` of column ``i``."""
+    """Members of every column, stacked: row ``i * members + m`` is member ``m`` of column ``i``
+    (the profile perturbations of the module notes; see :func:`perturb_members` for the
+    method weights as well)."""
+    return perturb_members(columns, members, seed, temperature_sigma_k=temperature_sigma_k,
+                           correlation_length_m=correlation_length_m)[0]
+
+
+def perturb_members(columns: Columns, members: int, seed=None, *,
+                    temperature_sigma_k: float = TEMPERATURE_SIGMA_K,
+                    correlation_length_m: float = CORRELATION_LENGTH_M
+                    ) -> tuple[Columns, np.ndarray]:
+    """Perturbed profiles of every column (stacked as :func:`perturb`) and each member's
+    voter weights (:func:`voter_weights`), from one random stream."""
     check_members(members)
     rng = np.random.default_rng(seed)
     rep = np.repeat(np.arange(columns.n_columns), members)
     base = columns.take(rep)
+    n = base.n_columns
     # The members of a column share its heights, hence the AR(1) coefficients: computed once
-    # per column (the same numbers as from the repeated heights), drawn twice per member.
+    # per column (the same numbers as from the repeated heights).
     r, s = (np.repeat(a, members, axis=0)
             for a in ar1_coefficients(columns.height_m, correlation_length_m))
     e_t = _ar1(r, s, rng.standard_normal(base.height_m.shape))
-    e_rh = _ar1(r, s, rng.standard_normal(base.height_m.shape))
+    e_dd = _ar1(r, s, rng.standard_normal(base.height_m.shape))
+    z = base.height_m
+    z_agl = z - z[:, :1]
     t = base.temperature_c + temperature_sigma_k * e_t
-    rh = np.clip(base.relative_humidity_pct + relative_humidity_sigma_pct * e_rh, 1.0, 100.0)
-    td = thermo.dewpoint_from_relative_humidity_c(t, rh)
-    return base.with_profile(t, td)
+    t = t + SURFACE_SIGMA_K * rng.standard_normal(n)[:, None] * np.exp(-z_agl / SURFACE_DEPTH_M)
+    nose_z, _ = nose_peaks(columns)
+    nose_z = np.repeat(nose_z, members)
+    has_nose = np.isfinite(nose_z)
+    weight = np.where(has_nose[:, None],
+                      np.clip(1.0 - np.abs(z - nose_z[:, None]) / NOSE_HALF_WIDTH_M, 0.0, 1.0),
+                      0.0)
+    weight = np.nan_to_num(weight)
+    shift = np.where(has_nose, NOSE_SHIFT_SIGMA_M * rng.standard_normal(n), 0.0)
+    bump = NOSE_SIGMA_K * rng.standard_normal(n)
+    if has_nose.any():
+        t = t + weight * (_shifted(z, base.temperature_c, shift) - base.temperature_c)
+    t = t + weight * bump[:, None]
+    depression = np.maximum(base.temperature_c - base.dewpoint_c, 0.0)
+    td = t - depression * np.exp(DEPRESSION_LOG_SIGMA * e_dd)
+    return base.with_profile(t, td), voter_weights(rng, n)
+
+
+def voter_weights(rng: np.random.Generator, n: int) -> np.ndarray:
+    """``(n, len(VOTERS))`` random weights of the voting methods for ``n`` members:
+    independent exponential draws (the weighted median is scale-free, so these act as
+    Dirichlet(1, ..., 1) weights), the two Baldwin variants sharing one draw since they
+    share one vote."""
+    from ptype.engine.consensus import VOTERS
+    draws = rng.exponential(1.0, (n, len(VOTERS)))
+    if "baldwin" in VOTERS and "baldwin_revised" in VOTERS:
+        draws[:, VOTERS.index("baldwin_revised")] = draws[:, VOTERS.index("baldwin")]
+    return draws
 
 
 def check_members(members) -> int:
@@ -128,6 +228,61 @@ def check_members(members) -> int:
     if not 0 <= members <= MAX_MEMBERS:
         raise OptionError(f"members = {members}: expected 0 to {MAX_MEMBERS}", field="members")
     return int(members)
+
+
+def supported_codes(control: np.ndarray, probabilities: np.ndarray,
+                    possible: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """The type to report for each column and why, consistent with its members.
+
+    The profile's own consensus (``control``) stands whenever at least :data:`MIN_SUPPORT` of
+    the members give it, even where another type is more probable: the explanation then gives
+    both probabilities (a hazard preference when the control is the more hazardous).  Where
+    fewer members give it, the most probable of the codes the profile's phase path allows
+    (``possible``, ``(n, len(Code))``; all when None) is reported, ties to the more hazardous.
+
+    Returns ``(codes, reason)``: ``reason`` 0 = the control is the most probable code, 1 = the
+    control is kept over a more probable code, 2 = the most probable possible code replaces
+    an under-supported control.
+    """
+    n = control.shape[0]
+    rows = np.arange(n)
+    rank = np.array([HAZARD_RANK[Code(k)] for k in range(len(Code))], dtype=np.float64)
+    tie_break = 1e-9 * rank[None, :]
+    allowed = np.ones_like(probabilities, dtype=bool) if possible is None else possible
+    most = np.argmax(probabilities - tie_break, axis=1)
+    best_allowed = np.argmax(np.where(allowed, probabilities, -1.0) - tie_break, axis=1)
+    p_control = probabilities[rows, control]
+    supported = p_control >= MIN_SUPPORT - 1e-12
+    is_most = p_control >= probabilities[rows, most] - 1e-12
+    codes = np.where(supported, control, best_allowed).astype(np.int64)
+    reason = np.where(supported, np.where(is_most, 0, 1), 2)
+    return codes, reason
+
+
+#: Ice content of each code (for mapping a member's type onto the possible ones).
+_ICE_CONTENT = np.array([{Code.SN: 1.0, Code.PL: 1.0, Code.RASN: 0.5, Code.RAPL: 0.5,
+                          Code.FZRAPL: 0.5, Code.NONE: 2.0}.get(Code(k), 0.0)
+                         for k in range(len(Code))])
+
+
+def possible_code_map(control: np.ndarray, possible: np.ndarray) -> np.ndarray:
+    """``(n, len(Code))``: for each column, the code each member's code counts as.
+
+    A member is a perturbed copy of the column's profile; a type the column's own phase path
+    rules out (:mod:`ptype.engine.phase`: snow after complete melting, pellets in a melting
+    surface layer...) counts as the possible type with the nearest ice content: the column's
+    own type when it is among those, else the most hazardous of them.  Possible types map to
+    themselves."""
+    n, k = possible.shape
+    distance = np.abs(_ICE_CONTENT[:, None] - _ICE_CONTENT[None, :])  # (from, to)
+    rank = np.array([HAZARD_RANK[Code(c)] for c in range(k)], dtype=np.float64)
+    # cost[i, from, to]: impossible targets excluded; nearest ice first, then the control,
+    # then hazard.
+    cost = np.where(possible[:, None, :], distance[None, :, :] * 1000.0, np.inf)
+    is_control = np.arange(k)[None, None, :] == control[:, None, None]
+    cost = cost + np.where(is_control, 0.0, 1.0 + rank[None, None, :])
+    mapped = np.argmin(cost, axis=2)
+    return np.where(possible, np.arange(k)[None, :], mapped)
 
 
 def probabilities_from_codes(member_codes: np.ndarray, n: int, members: int) -> np.ndarray:

@@ -28,7 +28,13 @@ from ptype.engine.consensus import VOTERS, consensus
 from ptype.engine.layers import zero_height_m
 from ptype.engine.methods import METHOD_NAMES, get_method
 from ptype.engine.methods.base import Context, MethodResult
-from ptype.engine.probability import check_members, perturb, probabilities_from_codes
+from ptype.engine.probability import (
+    check_members,
+    perturb_members,
+    possible_code_map,
+    probabilities_from_codes,
+    supported_codes,
+)
 from ptype.errors import OptionError
 
 #: Columns x members diagnosed in one vectorised pass when the caller sets no batch size.
@@ -83,7 +89,8 @@ def warm_cold_energies(ctx: Context) -> tuple[np.ndarray, np.ndarray]:
 
 
 def diagnose_columns(columns: Columns, methods=None, *, return_context: bool = False,
-                     consensus_only: bool = False) -> dict[str, Any]:
+                     consensus_only: bool = False,
+                     voter_weights: np.ndarray | None = None) -> dict[str, Any]:
     """The control pass: methods and consensus on ``columns`` as given (no members).
 
     Returns a dict of ``(n,)`` arrays: ``ptype`` (consensus :class:`Code` values), one code array
@@ -95,18 +102,19 @@ def diagnose_columns(columns: Columns, methods=None, *, return_context: bool = F
     (:func:`consensus_methods` of ``methods``) and returns ``ptype`` alone (with the
     ``_context``/``_results``/``_consensus`` entries when asked): the consensus codes are
     the same as a full run's (``tests/test_engine_regression.py`` checks it), at a lower
-    cost.  The Monte-Carlo members use it.
+    cost.  The Monte-Carlo members use it.  ``voter_weights`` (``(n, len(VOTERS))``) are the
+    members' method weights (:func:`ptype.engine.probability.voter_weights`).
     """
     ctx = Context(columns)
     if consensus_only:
         results = run_methods(ctx, consensus_methods(methods))
-        cons = consensus(ctx, results)
+        cons = consensus(ctx, results, voter_weights)
         out: dict[str, Any] = {"ptype": cons.code}
         if return_context:
             out.update(_context=ctx, _results=results, _consensus=cons)
         return out
     results = run_methods(ctx, methods)
-    cons = consensus(ctx, results)
+    cons = consensus(ctx, results, voter_weights)
     warm, cold = warm_cold_energies(ctx)
     out = {"ptype": cons.code}
     for name, res in results.items():
@@ -115,24 +123,30 @@ def diagnose_columns(columns: Columns, methods=None, *, return_context: bool = F
     out["cold_area_j_kg"] = cold
     out["wetbulb_zero_height_m"] = zero_height_m(ctx.wetbulb_layers)
     out["freezing_level_m"] = zero_height_m(ctx.air_layers)
+    out["possible"] = cons.values["possible"]
     if return_context:
         out.update(_context=ctx, _results=results, _consensus=cons)
     return out
 
 
-def member_probabilities(columns: Columns, members: int, seed=None, methods=None) -> np.ndarray:
+def member_probabilities(columns: Columns, members: int, seed=None, methods=None,
+                         code_map: np.ndarray | None = None) -> np.ndarray:
     """Probability of every code per column, ``(n, len(Code))``, rows summing to 1.
 
     All ``n * members`` perturbed columns are diagnosed in one vectorised pass, running only
-    the methods the consensus reads (the same codes as a full run).  With ``members == 0``
-    the result is all NaN.
+    the methods the consensus reads (the same codes as a full run).  ``code_map``
+    (:func:`ptype.engine.probability.possible_code_map` of the columns) counts each member's
+    type as one its column's phase path allows.  With ``members == 0`` the result is all NaN.
     """
     members = check_members(members)
     n = columns.n_columns
     if members == 0 or n == 0:
         return np.full((n, len(Code)), np.nan)
-    pert = perturb(columns, members, seed)
-    codes = diagnose_columns(pert, methods=methods, consensus_only=True)["ptype"]
+    pert, weights = perturb_members(columns, members, seed)
+    codes = diagnose_columns(pert, methods=methods, consensus_only=True,
+                             voter_weights=weights)["ptype"]
+    if code_map is not None:
+        codes = np.repeat(code_map, members, axis=0)[np.arange(n * members), codes]
     return probabilities_from_codes(codes, n, members)
 
 
@@ -141,7 +155,9 @@ class EngineRun:
     """What :func:`run_columns` returns.
 
     ``fields``: the control's ``(n,)`` arrays as :func:`diagnose_columns` gives them
-    (``ptype``, one code array per method, energies and heights);
+    (one code array per method, energies and heights) with ``ptype`` the **reported** code:
+    the control's consensus (``control_ptype``) unless too few members support it
+    (:func:`ptype.engine.probability.supported_codes`; ``support_reason`` says which case);
     ``probabilities``: ``(n, len(Code))`` member probabilities, or None without members;
     ``context``, ``results``, ``consensus``: the control's full trace when asked
     (``trace=True``), else None.
@@ -155,7 +171,7 @@ class EngineRun:
 
     @property
     def codes(self) -> np.ndarray:
-        """The consensus code of every column, ``(n,)``."""
+        """The reported code of every column, ``(n,)``."""
         return self.fields["ptype"]
 
 
@@ -195,18 +211,25 @@ def run_columns(columns: Columns, members: int = 0, seed=None, methods=None, *,
     if trace and members and n <= per_batch and batch_seed is None:
         # One pass for the control and its members (one profile: the common case of the
         # service); the control's rows come first.
-        batch = Columns.concat([columns, perturb(columns, members, seed)])
-        core = diagnose_columns(batch, names, return_context=True)
-        probs = probabilities_from_codes(core["ptype"][n:], n, members)
+        pert, weights = perturb_members(columns, members, seed)
+        batch = Columns.concat([columns, pert])
+        weights = np.concatenate([np.ones((n, weights.shape[1])), weights])
+        core = diagnose_columns(batch, names, return_context=True, voter_weights=weights)
+        code_map = possible_code_map(core["ptype"][:n], core["possible"][:n])
+        member_codes = np.repeat(code_map, members, axis=0)[np.arange(n * members),
+                                                            core["ptype"][n:]]
+        probs = probabilities_from_codes(member_codes, n, members)
         return _engine_run(core, probs, n)
     core = diagnose_columns(columns, names, return_context=trace)
     probs = None
     if members:
         probs = np.empty((n, len(Code)))
+        code_map = possible_code_map(core["ptype"], core["possible"])
         for k, start in enumerate(range(0, n, per_batch)):
             part = columns.take(slice(start, start + per_batch)) if n > per_batch else columns
             probs[start:start + per_batch] = member_probabilities(
-                part, members, _seed_of_batch(seed, k, start, batch_seed), names)
+                part, members, _seed_of_batch(seed, k, start, batch_seed), names,
+                code_map[start:start + per_batch])
     return _engine_run(core, probs, n)
 
 
@@ -221,6 +244,13 @@ def _seed_of_batch(seed, k: int, start: int, batch_seed):
 def _engine_run(core: dict[str, Any], probabilities, n: int) -> EngineRun:
     # The trace keeps every row it was computed on (members included, after the control's
     # rows); the fields are the control's.
-    return EngineRun(fields={k: v[:n] for k, v in core.items() if not k.startswith("_")},
-                     probabilities=probabilities, context=core.get("_context"),
+    fields = {k: v[:n] for k, v in core.items() if not k.startswith("_")}
+    control = np.asarray(fields["ptype"], dtype=np.int64)
+    fields["control_ptype"] = control
+    if probabilities is None:
+        fields["support_reason"] = np.zeros(n, dtype=np.int64)
+    else:
+        fields["ptype"], fields["support_reason"] = supported_codes(control, probabilities,
+                                                                    fields["possible"])
+    return EngineRun(fields=fields, probabilities=probabilities, context=core.get("_context"),
                      results=core.get("_results"), consensus=core.get("_consensus"))
