@@ -23,6 +23,7 @@ import numpy as np
 from ptype.codes import GRIB2_4201, Code
 from ptype.constants import CAUTION
 from ptype.engine import consensus as consensus_module
+from ptype.engine.calibration import UNCALIBRATED, Calibration
 from ptype.engine.columns import Columns
 from ptype.engine.layers import analyse_layers, zero_height_m
 from ptype.engine.methods import get_method
@@ -54,7 +55,7 @@ class Diagnosis:
     """
 
     def __init__(self, profile: Profile, run: EngineRun, row: int, probabilities: np.ndarray,
-                 members: int, seed, wetbulb: str):
+                 members: int, seed, wetbulb: str, calibration: Calibration | None = None):
         self.profile = profile
         self.run = run
         self.row = row
@@ -66,6 +67,7 @@ class Diagnosis:
         self.members = members
         self.seed = seed
         self.wetbulb = wetbulb
+        self.calibration = calibration
         self.probability_vector = probabilities
         self.probabilities = ({} if members == 0 else
                               {Code(k).name: float(probabilities[k]) for k in range(len(Code))
@@ -95,6 +97,8 @@ class Diagnosis:
             "probabilities": {k: round(v, 4) for k, v in sorted(self.probabilities.items(),
                                                                 key=lambda kv: -kv[1])},
             "confidence": self.confidence,
+            "calibration": (self.calibration.summary() | {"calibrated": True}
+                            if self.calibration is not None and self.members else UNCALIBRATED),
             "members": self.members,
             "seed": self.seed,
             "methods": self._methods_dict(),
@@ -197,8 +201,17 @@ def _use_adiabatic_wetbulb_layers(run: EngineRun, columns: Columns) -> None:
     run.fields["wetbulb_zero_height_m"] = zero_height_m(ctx.wetbulb_layers)[:columns.n_columns]
 
 
+def _calibration(calibration) -> Calibration | None:
+    if calibration is None or isinstance(calibration, Calibration):
+        return calibration
+    if isinstance(calibration, (str, os.PathLike)):
+        return Calibration.load(calibration)
+    raise OptionError(f"calibration: expected a Calibration or a path to its JSON file, got "
+                      f"{type(calibration).__name__}", field="calibration")
+
+
 def diagnose(source, *, members: int = DEFAULT_MEMBERS, seed=None, methods=None,
-             wetbulb: str = "isobaric") -> Diagnosis:
+             wetbulb: str = "isobaric", calibration=None) -> Diagnosis:
     """Diagnose the precipitation type at the ground for one profile.
 
     Parameters
@@ -214,6 +227,9 @@ def diagnose(source, *, members: int = DEFAULT_MEMBERS, seed=None, methods=None,
     wetbulb : {"isobaric", "adiabatic"}
         Which wet-bulb to report in ``profile.wetbulb_c`` and the wet-bulb layers.  Each
         method always uses the wet-bulb its authors used (recorded in its ``wetbulb`` field).
+    calibration : Calibration or path, optional
+        A fitted calibration (``ptype calibrate``) that turns the member frequencies into
+        calibrated probabilities; the result says which (``calibration`` in ``to_dict``).
 
     Returns
     -------
@@ -222,13 +238,14 @@ def diagnose(source, *, members: int = DEFAULT_MEMBERS, seed=None, methods=None,
     """
     members = _check_options(members, seed, wetbulb)
     names = method_names(methods)
+    cal = _calibration(calibration)
     profile = _to_profile(source)
     columns = Columns.from_profiles([profile])
-    run = run_columns(columns, members, seed, names, trace=True)
+    run = run_columns(columns, members, seed, names, trace=True, calibration=cal)
     if wetbulb == "adiabatic":
         _use_adiabatic_wetbulb_layers(run, columns)
     probs = run.probabilities[0] if members else np.full(len(Code), np.nan)
-    return Diagnosis(profile, run, 0, probs, members, seed, wetbulb)
+    return Diagnosis(profile, run, 0, probs, members, seed, wetbulb, cal)
 
 
 #: Profiles whose Monte-Carlo members :func:`diagnose_many` diagnoses in one vectorised pass
@@ -237,7 +254,7 @@ MANY_MEMBER_BATCH = 64
 
 
 def diagnose_many(sources: Iterable, *, members: int = DEFAULT_MEMBERS, seed=None,
-                  methods=None, wetbulb: str = "isobaric") -> list[Diagnosis]:
+                  methods=None, wetbulb: str = "isobaric", calibration=None) -> list[Diagnosis]:
     """Diagnose several profiles; each result as :func:`diagnose` gives it.
 
     ``sources`` are what :func:`diagnose` accepts (profiles, documents, paths).  The control
@@ -249,16 +266,18 @@ def diagnose_many(sources: Iterable, *, members: int = DEFAULT_MEMBERS, seed=Non
     """
     sources = list(sources)
     members = _check_options(members, seed, wetbulb)
+    cal = _calibration(calibration)
     if len(sources) < 2 or members == 0:
-        return [diagnose(s, members=members, seed=seed, methods=methods, wetbulb=wetbulb)
-                for s in sources]
+        return [diagnose(s, members=members, seed=seed, methods=methods, wetbulb=wetbulb,
+                         calibration=cal) for s in sources]
     names = method_names(methods)
     profiles = [_to_profile(s) for s in sources]
     columns = Columns.from_profiles(profiles)
     run = run_columns(columns, members, seed, names, trace=True,
                       batch_columns=MANY_MEMBER_BATCH,
-                      batch_seed=lambda k, start: None if seed is None else seed + start)
+                      batch_seed=lambda k, start: None if seed is None else seed + start,
+                      calibration=cal)
     if wetbulb == "adiabatic":
         _use_adiabatic_wetbulb_layers(run, columns)
-    return [Diagnosis(pr, run, i, run.probabilities[i], members, seed, wetbulb)
+    return [Diagnosis(pr, run, i, run.probabilities[i], members, seed, wetbulb, cal)
             for i, pr in enumerate(profiles)]

@@ -23,6 +23,7 @@ from typing import Any
 import numpy as np
 
 from ptype.codes import Code
+from ptype.engine.calibration import Calibration, features
 from ptype.engine.columns import Columns
 from ptype.engine.consensus import VOTERS, consensus
 from ptype.engine.layers import zero_height_m
@@ -124,6 +125,14 @@ def diagnose_columns(columns: Columns, methods=None, *, return_context: bool = F
     out["wetbulb_zero_height_m"] = zero_height_m(ctx.wetbulb_layers)
     out["freezing_level_m"] = zero_height_m(ctx.air_layers)
     out["possible"] = cons.values["possible"]
+    # What a calibration reads (ptype.engine.calibration.features).
+    counts = cons.values["counts"]
+    total = counts.sum(axis=1, keepdims=True)
+    out["vote_share"] = counts / np.where(total > 0, total, 1.0)
+    out["melt_aloft_j_kg"] = cons.values["melt_aloft_j_kg"]
+    out["melt_surface_j_kg"] = cons.values["melt_surface_j_kg"]
+    out["surface_temperature_c"] = columns.surface_temperature_c
+    out["surface_wetbulb_c"] = columns.surface_wetbulb_c
     if return_context:
         out.update(_context=ctx, _results=results, _consensus=cons)
     return out
@@ -177,7 +186,8 @@ class EngineRun:
 
 def run_columns(columns: Columns, members: int = 0, seed=None, methods=None, *,
                 trace: bool = False, batch_columns: int | None = None,
-                batch_seed: Callable[[int, int], Any] | None = None) -> EngineRun:
+                batch_seed: Callable[[int, int], Any] | None = None,
+                calibration: Calibration | None = None) -> EngineRun:
     """Diagnose a batch of columns: the control, and member probabilities when ``members``.
 
     Parameters
@@ -199,6 +209,10 @@ def run_columns(columns: Columns, members: int = 0, seed=None, methods=None, *,
     batch_seed : callable, optional
         ``batch_seed(k, first_column) -> seed`` of member batch ``k``; default ``seed`` for
         the first batch and a stream derived from ``seed`` and ``k`` for the others.
+    calibration : Calibration, optional
+        Turns the member frequencies into calibrated probabilities
+        (:mod:`ptype.engine.calibration`); the raw frequencies stay in
+        ``fields["member_frequencies"]``.
 
     Returns
     -------
@@ -219,7 +233,7 @@ def run_columns(columns: Columns, members: int = 0, seed=None, methods=None, *,
         member_codes = np.repeat(code_map, members, axis=0)[np.arange(n * members),
                                                             core["ptype"][n:]]
         probs = probabilities_from_codes(member_codes, n, members)
-        return _engine_run(core, probs, n)
+        return _engine_run(core, probs, n, calibration)
     core = diagnose_columns(columns, names, return_context=trace)
     probs = None
     if members:
@@ -230,7 +244,7 @@ def run_columns(columns: Columns, members: int = 0, seed=None, methods=None, *,
             probs[start:start + per_batch] = member_probabilities(
                 part, members, _seed_of_batch(seed, k, start, batch_seed), names,
                 code_map[start:start + per_batch])
-    return _engine_run(core, probs, n)
+    return _engine_run(core, probs, n, calibration)
 
 
 def _seed_of_batch(seed, k: int, start: int, batch_seed):
@@ -241,12 +255,16 @@ def _seed_of_batch(seed, k: int, start: int, batch_seed):
     return [int(seed), k]
 
 
-def _engine_run(core: dict[str, Any], probabilities, n: int) -> EngineRun:
+def _engine_run(core: dict[str, Any], probabilities, n: int,
+                calibration: Calibration | None = None) -> EngineRun:
     # The trace keeps every row it was computed on (members included, after the control's
     # rows); the fields are the control's.
     fields = {k: v[:n] for k, v in core.items() if not k.startswith("_")}
     control = np.asarray(fields["ptype"], dtype=np.int64)
     fields["control_ptype"] = control
+    if probabilities is not None and calibration is not None:
+        fields["member_frequencies"] = probabilities
+        probabilities = calibration.apply(features(fields, probabilities), fields["possible"])
     if probabilities is None:
         fields["support_reason"] = np.zeros(n, dtype=np.int64)
     else:
