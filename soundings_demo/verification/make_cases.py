@@ -19,25 +19,32 @@ temperature is drawn from 0 to +8 degC.  Moisture: saturated (dew-point depressi
 top (drawn from 720 to 420 hPa; in one case in eight a shallow cloud, 880 to 760 hPa),
 dry above it (depression 12-25 K).
 
-Truth rule ("observed" before noise; ours, physically motivated)
----------------------------------------------------------------
-1. Ice in cloud: the cloud-top temperature must be below -10 degC (heterogeneous
-   nucleation is likely below about -10 degC; NWS training material quoted in the
-   methods brief, section 6).  Otherwise the cloud is supercooled liquid: drizzle,
-   FZDZ when the surface wet-bulb is <= 0 degC, else DZ.
-2. Elevated warm layer (wet-bulb nose above 0 degC): melting follows the peak wet-bulb
-   of the nose (Stewart & King 1987 as quoted in the methods brief, section 6):
-   below 0.5 degC it is ignored; 0.5-1.5 partial melting; 1.5-3 most of the mass melts;
-   above 3 complete melting.  Then the surface:
-   - surface wet-bulb > 0.5 degC: complete melting -> RA, otherwise RAPL (PL if the cold
-     layer below the nose is colder than -8 degC and melting was only partial);
-   - surface wet-bulb <= 0.5 degC: partial -> PL; most melted -> PL if the cold layer is
-     colder than -6 degC, else FZRAPL; complete -> PL below -10 degC, FZRAPL from -10 to
-     -6 degC, FZRA otherwise (refreezing needs about -8 degC or colder, WPC slides quoted
-     in section 6; the exact bands are ours).
-3. No elevated warm layer: depth of the surface-based wet-bulb warm layer (snow
-   survives roughly 300 m below the melting level, section 6): < 250 m SN,
-   250-500 m RASN, > 500 m RA.
+Truth ("observed" before noise): an invented observation process of its own
+----------------------------------------------------------------------------
+The observed type is **drawn at random** from the design of each profile, by a process that
+shares no code, quantity or threshold with any method ptype ships (so that verifying those
+methods against it is not circular).  It works on the generator's own arrays (air
+temperature on a scale-height grid, z = 8 km ln(p_sfc/p)) and invented rates:
+
+1. Ice: the cloud makes ice with probability ``1 / (1 + exp((T_top + 11) / 2))`` (T_top the
+   cloud-top air temperature, degC); otherwise it rains drizzle, freezing on a surface at or
+   below 0 degC.
+2. Melting aloft: the nose's melting potential ``M = sum max(T, 0) dz`` (K m, air
+   temperature, the elevated part only; halved when the nose lies in dry air) melts a
+   fraction ``f = 1 - exp(-M / M0)`` of the snow, with ``M0`` drawn per case around 600 K m
+   (log-normal, sigma 0.35).
+3. Refreezing below the nose: completely melted drops (f > 0.9) refreeze with probability
+   ``s((-T_cold - 7) / 1.5) (1 - exp(-D / 500 m))``; partly melted ones (0.1 < f <= 0.9),
+   which keep an ice core, with ``s((-T_cold - 1) / 1.0)`` (s the logistic function, T_cold
+   and D the coldest temperature and the depth of the cold layer below the nose); the
+   outcome is drawn: refrozen, liquid, or (probability near one half) both.
+4. The surface layer melts a fraction ``g = 1 - exp(-M_s / M1)`` of what reaches it
+   (``M_s`` its own melting potential, ``M1`` around 250 K m); drops land freezing on a
+   surface at or below 0 degC.
+
+The rates and scales are ours and invented; they are NOT fitted to any observations.
+Scores computed on these cases prove nothing about the real skill of any method: the set
+only exercises the verification and calibration machinery.
 
 Noise: 13 % of observations are moved to a neighbouring class (FZRA<->PL, FZRA<->FZDZ,
 SN<->RASN, RA<->RASN, RA<->DZ, PL<->SN, FZRAPL<->FZRA/PL) to mimic observer and sensor
@@ -60,7 +67,6 @@ import numpy as np
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parents[1]))
 
-from ptype import thermo
 from ptype.profile import Profile
 
 N_CASES = 240
@@ -111,43 +117,53 @@ def build_profile(rng: np.random.Generator) -> tuple[dict, dict]:
     return {"levels": levels}, params
 
 
-def truth(profile: Profile, p_top: float) -> str:
-    """The documented truth rule (module docstring) applied to a validated profile."""
-    p, z = profile.pressure_hpa, profile.height_m
-    t = profile.temperature_c
-    tw = thermo.wet_bulb_temperature(p, t, profile.dewpoint_c)
-    tw_sfc = float(tw[0])
-    cloud_top_t = float(np.interp(-p_top, -p, t))
-    if cloud_top_t > -10.0:
-        return "FZDZ" if tw_sfc <= 0.0 else "DZ"
-    above0 = tw > 0
-    # Elevated warm layer: a run of Tw > 0 that does not touch the surface.
-    first_cold = int(np.argmax(~above0)) if (~above0).any() else len(tw)
-    aloft = above0.copy()
-    aloft[:first_cold] = False
-    aloft &= p > 500
-    nose_tw = float(tw[aloft].max()) if aloft.any() else -np.inf
-    if nose_tw >= 0.5:
-        k_nose = int(np.flatnonzero(aloft)[0])
-        cold_min = float(t[:k_nose].min())
-        melt = "partial" if nose_tw < 1.5 else ("most" if nose_tw < 3.0 else "complete")
-        if tw_sfc > 0.5:
-            if melt == "complete":
-                return "RA"
-            return "PL" if (melt == "partial" and cold_min < -8.0) else "RAPL"
-        if melt == "partial":
-            return "PL"
-        if melt == "most":
-            return "PL" if cold_min < -6.0 else "FZRAPL"
-        if cold_min < -10.0:
-            return "PL"
-        return "FZRAPL" if cold_min < -6.0 else "FZRA"
-    # Surface-based warm layer only: its depth decides whether the snow survives.
-    depth = float(np.interp(0.0, -tw[: first_cold + 1], z[: first_cold + 1]) - z[0]) \
-        if tw_sfc > 0 and first_cold < len(tw) else 0.0
-    if depth < 250:
-        return "SN"
-    return "RASN" if depth < 500 else "RA"
+def _logistic(x: float) -> float:
+    return 1.0 / (1.0 + float(np.exp(-x)))
+
+
+def _melting_potential_k_m(temperature: np.ndarray, z: np.ndarray, mask: np.ndarray) -> float:
+    """``sum max(T, 0) dz`` over the levels in ``mask`` (K m), trapezoids on the design grid."""
+    warm = np.where(mask, np.maximum(temperature, 0.0), 0.0)
+    return float(np.sum(0.5 * (warm[1:] + warm[:-1]) * np.diff(z)))
+
+
+def truth(doc: dict, params: dict, rng: np.random.Generator) -> str:
+    """The observed type drawn from the design of one profile (module notes: an invented
+    process sharing nothing with ptype's methods)."""
+    lv = doc["levels"]
+    p = np.array([x["pressure_hpa"] for x in lv])
+    t = np.array([x["temperature_c"] for x in lv])
+    dd = t - np.array([x["dewpoint_c"] for x in lv])
+    z = 8000.0 * np.log(p[0] / p)
+    freezing_surface = t[0] <= 0.0
+    t_top = float(np.interp(-params["p_top"], -p, t))
+    if rng.random() > _logistic(-(t_top + 11.0) / 2.0):
+        return "FZDZ" if freezing_surface else "DZ"
+    warm = t > 0.0
+    surface_run = np.cumprod(warm).astype(bool)
+    aloft = warm & ~surface_run & (p > 500.0)
+    m_aloft = _melting_potential_k_m(t, z, aloft)
+    if aloft.any() and float(np.mean(dd[aloft])) > 3.0:
+        m_aloft *= 0.5  # a dry nose: sublimation cools the falling snow
+    f = 1.0 - np.exp(-m_aloft / (600.0 * np.exp(0.35 * rng.standard_normal())))
+    g = 1.0 - np.exp(-_melting_potential_k_m(t, z, surface_run)
+                     / (250.0 * np.exp(0.35 * rng.standard_normal())))
+    if f <= 0.1:  # snow reaches the surface layer
+        return "RA" if g > 0.8 else ("RASN" if g > 0.3 else "SN")
+    below = ~aloft & (z < z[np.flatnonzero(aloft)[0]]) if aloft.any() else np.zeros_like(warm)
+    t_cold = float(t[below].min()) if below.any() else 0.0
+    d_cold = float(z[below].max() - z[below].min()) if below.any() else 0.0
+    if f > 0.9:
+        r = _logistic((-t_cold - 7.0) / 1.5) * (1.0 - np.exp(-d_cold / 500.0))
+    else:
+        r = _logistic((-t_cold - 1.0) / 1.0)
+    u = rng.random()
+    frozen = "pellets" if u < r * 0.8 else ("mix" if u < min(1.0, r * 1.2) else "liquid")
+    if not freezing_surface:
+        if frozen == "liquid" or g > 0.8:
+            return "RA"
+        return "RAPL" if (frozen == "mix" or g > 0.3) else "PL"
+    return {"pellets": "PL", "mix": "FZRAPL", "liquid": "FZRA"}[frozen]
 
 
 def write_report(code: str, rng: np.random.Generator) -> str:
@@ -183,6 +199,8 @@ def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     root = Path(argv[0]) if argv else HERE
     rng = np.random.default_rng(SEED)
+    # The observations draw from a stream of their own, so the profiles stay the same.
+    truth_rng = np.random.default_rng(SEED + 1)
     out_dir = root / "profiles"
     out_dir.mkdir(parents=True, exist_ok=True)
     for old in out_dir.glob("case_*.json"):
@@ -197,15 +215,15 @@ def main(argv: list[str] | None = None) -> int:
         doc = {"site": {"id": site.lower().replace(" ", "-"), "name": site},
                "valid_time": valid.strftime("%Y-%m-%dT%H:%MZ"),
                "source": "invented verification demo", **doc}
-        profile = Profile.from_document(doc)
-        code = truth(profile, params["p_top"])
-        if rng.random() < NOISE and code in NEIGHBOURS:
-            code = str(rng.choice(NEIGHBOURS[code]))
+        Profile.from_document(doc)  # the documents must be valid profiles
+        code = truth(doc, params, truth_rng)
+        if truth_rng.random() < NOISE and code in NEIGHBOURS:
+            code = str(truth_rng.choice(NEIGHBOURS[code]))
         counts[code] = counts.get(code, 0) + 1
-        report = write_report(code, rng)
+        report = write_report(code, truth_rng)
         # A handful of reports that cannot be verified, for the exclusion accounting.
         if i % 60 == 17:
-            report = rng.choice(["UP", "-FZUP BR"])
+            report = truth_rng.choice(["UP", "-FZUP BR"])
         elif i % 80 == 41:
             report = "SHGS"
         elif i % 120 == 73:
