@@ -9,10 +9,9 @@ from __future__ import annotations
 from html import escape
 
 import sqlalchemy as sa
-from flask import Blueprint, Response, current_app, request
+from flask import Blueprint, Response, request
 
-from api.page import secure_html
-from api.sites import get_store, now
+from api.plumbing import cap_sender, get_store, now, secure_html
 from ptype.clock import iso
 from ptype.codes import LABELS, Code
 from ptype.constants import CAUTION
@@ -105,7 +104,7 @@ def sites_page():
     sections = []
     with store.read() as s:
         sites = list(s.scalars(sa.select(Site).order_by(Site.id)))
-        sender = str(current_app.config.get("PTYPE_CAP_SENDER") or "ptype@localhost")
+        sender = cap_sender()
         for site in sites:
             timeline = service.site_timeline(s, site, t, hours=hours, step="1h", members=0)
             alerts = service.list_alerts(s, t, sender, include_recent=False, site_id=site.id)

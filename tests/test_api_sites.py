@@ -5,7 +5,7 @@ import os
 import pytest
 from series_helpers import storm_docs
 
-from api.sites import store_for
+from api.plumbing import store_for
 from ptype.clock import parse_time
 from ptype.store import keys
 
