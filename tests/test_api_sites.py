@@ -181,6 +181,16 @@ def test_sites_page_lists_sites_and_links_home(client, auth):
     assert "Test Hill" in html and 'href="/"' in html and "Guidance only" in html
 
 
+def test_sites_page_escapes_what_clients_wrote(client, auth):
+    # OWASP Cross Site Scripting Prevention Cheat Sheet, output encoding for HTML contexts:
+    # & < > " ' of untrusted data are written as character references.
+    name = "<script>alert(1)</script> & 'Ridge' \"Road\""
+    _site(client, auth, name=name)
+    html = client.get("/sites").get_data(as_text=True)
+    assert "<script>" not in html
+    assert "&lt;script&gt;alert(1)&lt;/script&gt; &amp; &#39;Ridge&#39; &#34;Road&#34;" in html
+
+
 def _relative_luminance(hex_colour):
     # WCAG 2.1, definition of relative luminance (sRGB).
     h = hex_colour.lstrip("#")
