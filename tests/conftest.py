@@ -15,7 +15,7 @@ from api import create_app
 
 
 def _dispose(app) -> None:
-    from api.sites import EXTENSION
+    from api.plumbing import EXTENSION
     store = app.extensions.get(EXTENSION)
     if store is not None:
         store.dispose()

@@ -20,7 +20,7 @@ from schemathesis.specs.openapi.checks import (
 )
 
 from api import create_app
-from api.sites import store_for
+from api.plumbing import store_for
 from ptype.store.keys import create_key
 
 APP = create_app({"TESTING": True, "PTYPE_DATA_DIR": tempfile.mkdtemp(prefix="ptype-st-"),
