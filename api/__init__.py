@@ -3,10 +3,10 @@
 ``create_app(config)`` builds the application; each resource is a blueprint in its own
 module listed in :data:`BLUEPRINT_MODULES` (a module exposes ``bp``).  Views only parse
 the request, call the library and serialise the answer; what several views share lives in
-:mod:`api.plumbing` (requests, answers, store, clock, key) and :mod:`api.site_ops` (sites
-and alerts), the wire format in :mod:`api.models`, and each view carries its OpenAPI
-description (:mod:`api.openapi`).  All errors are mapped to JSON
-``{"error": {"code", "message", "field"?}}`` by :mod:`api.errors`.
+:mod:`ptype.api.plumbing` (requests, answers, store, clock, key) and
+:mod:`ptype.api.site_ops` (sites and alerts), the wire format in :mod:`ptype.api.models`,
+and each view carries its OpenAPI description (:mod:`ptype.api.openapi`).  All errors are mapped to JSON
+``{"error": {"code", "message", "field"?}}`` by :mod:`ptype.api.errors`.
 
 The API lives under ``/v1`` (each API blueprint's ``url_prefix``); the pages (``/``,
 ``/sites``, ``/docs``) and ``/openapi.json`` and ``/healthz`` do not.
@@ -24,8 +24,10 @@ from flask import Flask
 
 #: Blueprint modules, registered in this order, which is also the order of the operations
 #: in the OpenAPI document.  Each exposes ``bp`` and may expose ``init_app(app)``.
-BLUEPRINT_MODULES = ["api.diagnose", "api.diagram", "api.demo", "api.health", "api.verify",
-                     "api.sites", "api.alerts", "api.page", "api.docs", "api.sites_page"]
+BLUEPRINT_MODULES = ["ptype.api.diagnose", "ptype.api.diagram", "ptype.api.demo",
+                     "ptype.api.health", "ptype.api.verify", "ptype.api.sites",
+                     "ptype.api.alerts", "ptype.api.page", "ptype.api.docs",
+                     "ptype.api.sites_page"]
 
 DEFAULT_CONFIG: dict[str, Any] = {
     # Largest request body accepted, bytes.
@@ -61,7 +63,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
         Overrides of :data:`DEFAULT_CONFIG` (and any Flask setting).  ``PTYPE_DATA_DIR``
         defaults to the environment variable of that name, else ``./.data``.
     """
-    from api import errors, plumbing, site_ops
+    from ptype.api import errors, plumbing, site_ops
     app = Flask(__name__, static_folder="static", static_url_path="/static")
     app.config.update(DEFAULT_CONFIG)
     app.config["PTYPE_DATA_DIR"] = os.environ.get("PTYPE_DATA_DIR") or str(Path.cwd() / ".data")

@@ -7,12 +7,12 @@ from __future__ import annotations
 import os
 
 from flask import Blueprint, Response, current_app, jsonify, request
+from ptype.api.errors import ApiError
+from ptype.api.models import AlertList, AlertListOptions, EvaluateResult
+from ptype.api.openapi import Operation, text_answer
+from ptype.api.plumbing import cap_sender, get_store, now, require_key
+from ptype.api.site_ops import current_alerts, evaluate_alerts, site_ids
 
-from api.errors import ApiError
-from api.models import AlertList, AlertListOptions, EvaluateResult
-from api.openapi import Operation, text_answer
-from api.plumbing import cap_sender, get_store, now, require_key
-from api.site_ops import current_alerts, evaluate_alerts, site_ids
 from ptype.clock import iso
 from ptype.constants import CAUTION
 from ptype.roads.alerts import service

@@ -14,11 +14,11 @@ import re
 from pathlib import Path
 
 from flask import Blueprint, Flask, Response, current_app, url_for
+from ptype.api.errors import ApiError
+from ptype.api.models import DemoList
+from ptype.api.openapi import Operation
+from ptype.api.plumbing import json_response
 
-from api.errors import ApiError
-from api.models import DemoList
-from api.openapi import Operation
-from api.plumbing import json_response
 from ptype.constants import CAUTION
 from ptype.profile.document import ProfileDocument
 

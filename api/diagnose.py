@@ -10,13 +10,11 @@ from __future__ import annotations
 from typing import Any
 
 from flask import Blueprint, Response, current_app
-
-import ptype
-from api.errors import ApiError, error_body
-from api.examples import EXAMPLE_DOCUMENT, PROFILE_BODIES
-from api.models import BatchRequest, BatchResponse, DiagnoseOptions, Diagnosis
-from api.openapi import Operation
-from api.plumbing import (
+from ptype.api.errors import ApiError, error_body
+from ptype.api.examples import EXAMPLE_DOCUMENT, PROFILE_BODIES
+from ptype.api.models import BatchRequest, BatchResponse, DiagnoseOptions, Diagnosis
+from ptype.api.openapi import Operation
+from ptype.api.plumbing import (
     check_levels,
     check_work,
     diagnose_kwargs,
@@ -28,6 +26,8 @@ from api.plumbing import (
     parse_options,
     profile_from_request,
 )
+
+import ptype
 from ptype.errors import ProfileError
 
 bp = Blueprint("diagnose", __name__, url_prefix="/v1")

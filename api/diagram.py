@@ -8,12 +8,12 @@ default).  Errors are JSON like everywhere else.
 from __future__ import annotations
 
 from flask import Blueprint, Response, request
+from ptype.api.examples import PROFILE_BODIES
+from ptype.api.models import DiagramOptions
+from ptype.api.openapi import Operation
+from ptype.api.plumbing import check_work, diagnose_kwargs, parse_options, profile_from_request
 
 import ptype
-from api.examples import PROFILE_BODIES
-from api.models import DiagramOptions
-from api.openapi import Operation
-from api.plumbing import check_work, diagnose_kwargs, parse_options, profile_from_request
 from ptype.plot.diagram import FORMATS, draw_diagram
 
 bp = Blueprint("diagram", __name__, url_prefix="/v1")

@@ -1,7 +1,7 @@
 """``GET /openapi.json`` (OpenAPI 3.1) and ``GET /docs`` (the API reference page).
 
-The document is built by :mod:`api.openapi` from the operations the views declare and the
-pydantic models of :mod:`api.models`; the reference page is rendered on the server from the
+The document is built by :mod:`ptype.api.openapi` from the operations the views declare and the
+pydantic models of :mod:`ptype.api.models`; the reference page is rendered on the server from the
 same document with our own template and stylesheet, so it works offline.
 """
 
@@ -12,9 +12,9 @@ from typing import Any
 
 from flask import Blueprint, Flask, Response, current_app, make_response, render_template
 from markupsafe import Markup, escape
+from ptype.api.openapi import DocumentedRoute, build_openapi, documented_routes
+from ptype.api.plumbing import json_response, secure_html
 
-from api.openapi import DocumentedRoute, build_openapi, documented_routes
-from api.plumbing import json_response, secure_html
 from ptype.constants import CAUTION
 
 bp = Blueprint("docs", __name__)

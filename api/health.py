@@ -3,10 +3,10 @@
 from __future__ import annotations
 
 from flask import Blueprint, Response, jsonify
+from ptype.api.models import Health
+from ptype.api.openapi import Operation
 
 import ptype
-from api.models import Health
-from api.openapi import Operation
 
 bp = Blueprint("health", __name__)
 

@@ -1,6 +1,6 @@
 """Pydantic models of every HTTP request and response.
 
-They are the single description of the wire format: :mod:`api.openapi` builds the
+They are the single description of the wire format: :mod:`ptype.api.openapi` builds the
 OpenAPI document from them, and the views use the request models to validate query
 options and bodies.  Response bodies come from the library (``Diagnosis.to_dict()``, the
 road-alert service) and are not re-validated on the hot path; the tests check them against

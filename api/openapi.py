@@ -11,7 +11,7 @@ route decorator::
 
 :func:`documented_routes` collects them from the application's own URL map, so the path
 and method of an operation are those the service serves; :func:`build_openapi` turns them
-and the pydantic models of :mod:`api.models` into the document.
+and the pydantic models of :mod:`ptype.api.models` into the document.
 """
 
 from __future__ import annotations
@@ -22,11 +22,11 @@ from dataclasses import dataclass
 from typing import Any, NamedTuple, TypeVar
 
 from flask import Flask
+from ptype.api.models import ErrorResponse
 from pydantic import BaseModel
 from pydantic.json_schema import models_json_schema
 
 import ptype
-from api.models import ErrorResponse
 
 View = TypeVar("View", bound=Callable[..., Any])
 
@@ -74,7 +74,7 @@ class Operation:
         The success answer: a pydantic model (a JSON body), or an OpenAPI response object
         (``{"description", "content"}``) whose ``schema`` values may be models.
     errors
-        Statuses answered with :class:`api.models.ErrorResponse`.
+        Statuses answered with :class:`ptype.api.models.ErrorResponse`.
     query
         A model whose fields are the query parameters.
     body

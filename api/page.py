@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 from flask import Blueprint, Response, make_response, render_template
+from ptype.api.plumbing import secure_html
 
-from api.plumbing import secure_html
 from ptype.constants import CAUTION
 
 bp = Blueprint("page", __name__)

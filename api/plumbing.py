@@ -9,8 +9,8 @@
 * state: :func:`store_for` / :func:`get_store`, :func:`now` (the service clock),
   :func:`require_key` (the bearer API key of a write), :func:`cap_sender`.
 
-Every problem is raised as :class:`api.errors.ApiError` (or a ptype domain error), which
-:mod:`api.errors` turns into a 4xx JSON answer naming the field.
+Every problem is raised as :class:`ptype.api.errors.ApiError` (or a ptype domain error), which
+:mod:`ptype.api.errors` turns into a 4xx JSON answer naming the field.
 """
 
 from __future__ import annotations
@@ -24,11 +24,11 @@ from typing import Any, NoReturn, TypeVar
 
 import sqlalchemy as sa
 from flask import Flask, Response, current_app, request
+from ptype.api.errors import ApiError
+from ptype.api.models import DiagnoseOptions
 from pydantic import BaseModel, ValidationError
 
 import ptype
-from api.errors import ApiError
-from api.models import DiagnoseOptions
 from ptype.clock import utcnow
 from ptype.errors import ReaderError
 from ptype.profile.document import _loc

@@ -15,10 +15,10 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Flask, current_app
+from ptype.api.errors import ApiError
+from ptype.api.plumbing import cap_sender, get_store, now, store_for
 from sqlalchemy.orm import Session
 
-from api.errors import ApiError
-from api.plumbing import cap_sender, get_store, now, store_for
 from ptype.clock import iso, utcnow
 from ptype.errors import OptionError, ProfileError
 from ptype.roads.alerts import service

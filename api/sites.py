@@ -16,11 +16,9 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Blueprint, Response, current_app, jsonify, request
-from sqlalchemy.orm import Session
-
-from api import examples
-from api.errors import ApiError
-from api.models import (
+from ptype.api import examples
+from ptype.api.errors import ApiError
+from ptype.api.models import (
     IngestResult,
     ObservationIn,
     ObservationsIn,
@@ -31,9 +29,11 @@ from api.models import (
     Timeline,
     TimelineOptions,
 )
-from api.openapi import Operation
-from api.plumbing import get_store, now, request_json, require_key, store_for, validate_body
-from api.site_ops import evaluate_after_ingest, site_dict, site_or_404
+from ptype.api.openapi import Operation
+from ptype.api.plumbing import get_store, now, request_json, require_key, store_for, validate_body
+from ptype.api.site_ops import evaluate_after_ingest, site_dict, site_or_404
+from sqlalchemy.orm import Session
+
 from ptype import Profile
 from ptype.clock import iso, parse_time
 from ptype.errors import OptionError, ProfileError

@@ -12,8 +12,8 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Blueprint, Response, make_response, render_template, request
+from ptype.api.plumbing import cap_sender, get_store, now, secure_html
 
-from api.plumbing import cap_sender, get_store, now, secure_html
 from ptype.clock import iso
 from ptype.codes import LABELS, Code
 from ptype.constants import CAUTION

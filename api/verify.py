@@ -16,12 +16,12 @@ from __future__ import annotations
 from typing import Any
 
 from flask import Blueprint, Response, current_app, jsonify
+from ptype.api.errors import ApiError
+from ptype.api.examples import VERIFY_EXAMPLE
+from ptype.api.models import VERIFY_MEMBERS, VerifyReport, VerifyRequest
+from ptype.api.openapi import Operation
+from ptype.api.plumbing import request_json
 
-from api.errors import ApiError
-from api.examples import VERIFY_EXAMPLE
-from api.models import VERIFY_MEMBERS, VerifyReport, VerifyRequest
-from api.openapi import Operation
-from api.plumbing import request_json
 from ptype.verify.manifest import cases_from_entries
 from ptype.verify.report import DEFAULT_SEED, run_verification
 

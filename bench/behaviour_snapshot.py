@@ -153,7 +153,7 @@ def _normalised(body):
 def snap_api() -> dict:
     with tempfile.TemporaryDirectory() as tmp:
         os.environ["PTYPE_DATA_DIR"] = tmp
-        from api import create_app
+        from ptype.api import create_app
         app = create_app({"PTYPE_DATA_DIR": tmp, "TESTING": True, "PTYPE_DEMO": True,
                           "PTYPE_NOW": NOW, "PTYPE_ALERT_MEMBERS": 5})
         client = app.test_client()
@@ -185,7 +185,7 @@ def snap_api() -> dict:
                 lines = sorted(text.splitlines())
                 entry["sha256"] = hashlib.sha256("\n".join(lines).encode()).hexdigest()
             out[f"{i:02d} {method} {url} {demo_file or (body and body[0]) or ''}"] = entry
-        from api.sites import store_for
+        from ptype.api.sites import store_for
         store_for(app).dispose()
     return out
 

@@ -89,8 +89,8 @@ def main(argv=None) -> dict:
     loop = best_of(one_by_one)
 
     # Ingest latency through the app (observation post + alert evaluation).
-    from api import create_app
-    from api.sites import store_for
+    from ptype.api import create_app
+    from ptype.api.sites import store_for
     from ptype.store import keys
     with tempfile.TemporaryDirectory() as d:
         app = create_app({"PTYPE_DATA_DIR": d, "PTYPE_NOW": now.isoformat()})

@@ -215,7 +215,7 @@ def stage_timings(document: dict, repeat: int = 40) -> dict:
     """Mean milliseconds of each stage of one request, measured in this process."""
     sys.path.insert(0, str(ROOT))
     import ptype
-    from api import create_app
+    from ptype.api import create_app
     from ptype.profile.document import parse_document
 
     body = json.dumps(document)

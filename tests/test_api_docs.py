@@ -11,7 +11,7 @@ import pytest
 from schemathesis.specs.openapi.definitions import OPENAPI_31  # the OAS 3.1 meta-schema
 
 import ptype
-from api.openapi import documented_routes
+from ptype.api.openapi import documented_routes
 
 
 @pytest.fixture(scope="module")

@@ -9,10 +9,10 @@ import numpy as np
 import pytest
 from flask import Blueprint, Flask
 
-from api.errors import ApiError
-from api.models import SiteIn
-from api.openapi import Operation, documented_routes
-from api.plumbing import json_kind, json_response, validate_body
+from ptype.api.errors import ApiError
+from ptype.api.models import SiteIn
+from ptype.api.openapi import Operation, documented_routes
+from ptype.api.plumbing import json_kind, json_response, validate_body
 
 
 def test_json_response_is_strict_json(app):

@@ -5,7 +5,7 @@ import os
 import pytest
 from series_helpers import storm_docs
 
-from api.plumbing import store_for
+from ptype.api.plumbing import store_for
 from ptype.clock import parse_time
 from ptype.store import keys
 
@@ -206,7 +206,7 @@ def _relative_luminance(hex_colour):
 def test_sites_page_colours_readable_and_in_stylesheet():
     from pathlib import Path
 
-    from api.sites_page import COLOURS
+    from ptype.api.sites_page import COLOURS
     css = (Path(__file__).parents[1] / "api" / "static" / "sites.css").read_text()
     for code, (bg, fg) in COLOURS.items():
         lo, hi = sorted([_relative_luminance(bg), _relative_luminance(fg)])

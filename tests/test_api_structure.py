@@ -14,30 +14,31 @@ import inspect
 from pathlib import Path
 
 import pytest
+from ptype.api import BLUEPRINT_MODULES
 from pydantic import BaseModel
 
-from api import BLUEPRINT_MODULES
-
 API = Path(__file__).resolve().parents[1] / "api"
-MODULES = sorted("api." + p.stem if p.stem != "__init__" else "api" for p in API.glob("*.py"))
+MODULES = sorted("ptype.api." + p.stem if p.stem != "__init__" else "ptype.api"
+                 for p in API.glob("*.py"))
 
 
 def _imported_api_modules(path: Path) -> set[str]:
     """Modules of the ``api`` package that the file imports anywhere (as module names)."""
     out = set()
     for node in ast.walk(ast.parse(path.read_text())):
-        if isinstance(node, ast.ImportFrom) and node.module and node.module.startswith("api"):
+        if isinstance(node, ast.ImportFrom) and node.module and node.module.startswith("ptype.api"):
             out.add(node.module)
             out.update(f"{node.module}.{a.name}" for a in node.names)
         elif isinstance(node, ast.Import):
-            out.update(a.name for a in node.names if a.name.startswith("api"))
+            out.update(a.name for a in node.names if a.name.startswith("ptype.api"))
     return out
 
 
 @pytest.mark.parametrize("name", BLUEPRINT_MODULES)
 def test_blueprint_imports_no_other_blueprint(name):
-    # Ours: what two views share lives in api.plumbing or api.site_ops, never in a blueprint.
-    path = API / f"{name.split('.')[1]}.py"
+    # Ours: what two views share lives in ptype.api.plumbing or ptype.api.site_ops, never in
+    # a blueprint.
+    path = API / f"{name.split('.')[-1]}.py"
     others = (_imported_api_modules(path) & set(BLUEPRINT_MODULES)) - {name}
     assert not others, f"{name} imports {sorted(others)}"
 
@@ -49,14 +50,15 @@ def test_pydantic_models_live_in_models(name):
     defined_here = [obj.__name__ for obj in vars(module).values()
                     if inspect.isclass(obj) and issubclass(obj, BaseModel)
                     and obj.__module__ == name]
-    assert name == "api.models" or not defined_here, defined_here
+    assert name == "ptype.api.models" or not defined_here, defined_here
 
 
 def test_models_share_one_base_pair():
-    from api import models
-    from api.models import RequestModel, ResponseModel
+    from ptype.api import models
+    from ptype.api.models import RequestModel, ResponseModel
     for obj in vars(models).values():
-        if inspect.isclass(obj) and issubclass(obj, BaseModel) and obj.__module__ == "api.models":
+        if (inspect.isclass(obj) and issubclass(obj, BaseModel)
+                and obj.__module__ == "ptype.api.models"):
             assert issubclass(obj, (RequestModel, ResponseModel)), obj.__name__
     # An unknown field of a request is refused (pydantic: extra="forbid").
     assert RequestModel.model_config["extra"] == "forbid"
@@ -74,7 +76,7 @@ def _public_functions(tree: ast.Module):
 
 @pytest.mark.parametrize("name", MODULES)
 def test_public_functions_documented_and_annotated(name):
-    path = API / ("__init__.py" if name == "api" else f"{name.split('.')[1]}.py")
+    path = API / ("__init__.py" if name == "ptype.api" else f"{name.split('.')[-1]}.py")
     missing = []
     for fn in _public_functions(ast.parse(path.read_text())):
         args = fn.args.posonlyargs + fn.args.args + fn.args.kwonlyargs

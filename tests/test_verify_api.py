@@ -19,7 +19,7 @@ from schemathesis.specs.openapi.checks import (
 )
 
 import ptype
-from api import create_app
+from ptype.api import create_app
 
 DEMO = Path(__file__).resolve().parents[1] / "soundings_demo" / "verification" / "profiles"
 METHODS = ["bourgouin", "cloud_top"]

@@ -1,6 +1,6 @@
 """``ptype serve``: run the HTTP service under gunicorn (a production WSGI server).
 
-The application is ``api:create_app()``; state lives in ``PTYPE_DATA_DIR``
+The application is ``ptype.api:create_app()``; state lives in ``PTYPE_DATA_DIR``
 (default ``./.data``).  ``--demo`` sets ``PTYPE_DEMO=1`` so the application
 loads the demo sites and storm into an empty store on start.
 """
@@ -126,7 +126,7 @@ def run(args) -> int:
             self.cfg.set("when_ready", _announce)
 
         def load(self):
-            from api import create_app
+            from ptype.api import create_app
             app = create_app({"PTYPE_DEMO": bool(args.demo)})
             warm_up()
             return app
