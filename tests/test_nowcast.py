@@ -371,9 +371,9 @@ def test_adjust_for_onset_moves_subcloud_air_toward_psychrolib_wetbulb():
     t = [6.0, 4.0, 2.0, 0.5]
     td = [-1.0, -2.0, 1.9, -6.0]     # saturated (cloud base) at 900 hPa, dry above it
     cols = _step_columns(t, td, p)
-    out, changed = nowcast.adjust_for_onset(cols, _spells([1], [0.5], [1]), np.array([1.0]),
+    out, changed = nowcast.adjust_for_onset(cols, _spells([1], [0.5], [1]), np.array([0.5]),
                                             0.5)
-    frac = 1.0 - math.exp(-1.0)      # (since + step) / 1 h e-folding (ours)
+    frac = 0.5 * (1.0 - math.exp(-1.0))  # (since + step) / 1 h e-folding, times fade (ours)
     for k in (0, 1):                 # below the cloud base: toward the wet-bulb
         # ASHRAE Handbook-Fundamentals (2017) ch. 1 via psychrolib, from the humidity ratio
         # (psychrolib reads a sub-zero dew point as a frost point).
