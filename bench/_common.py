@@ -12,9 +12,11 @@ def code_version() -> dict:
     root = Path(__file__).resolve().parents[1]
     try:
         head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
-                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
+                              capture_output=True, text=True, timeout=10,
+                              check=False).stdout.strip()
         dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
-                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
+                               capture_output=True, text=True, timeout=10,
+                               check=False).stdout.split("\n")
     except (OSError, subprocess.SubprocessError):
         return {"commit": None, "uncommitted_ptype_files": None}
     return {"commit": head or None,

@@ -51,7 +51,8 @@ def profile_document(n_levels: int = 60) -> dict:
         p = math.exp(math.log(1000.0) + (math.log(300.0) - math.log(1000.0)) * i / (n_levels - 1))
         for k in range(len(knots_p) - 1):
             if knots_p[k] >= p >= knots_p[k + 1]:
-                f = (math.log(knots_p[k]) - math.log(p)) / (math.log(knots_p[k]) - math.log(knots_p[k + 1]))
+                f = ((math.log(knots_p[k]) - math.log(p))
+                     / (math.log(knots_p[k]) - math.log(knots_p[k + 1])))
                 t = knots_t[k] + f * (knots_t[k + 1] - knots_t[k])
                 break
         depression = 0.5 if p > 450 else 12.0
@@ -147,7 +148,8 @@ def run_wrk(url: str, path: str, body: bytes | None, connections: int, duration:
             script.write_text('wrk.method = "GET"\n')
         out = subprocess.run(["wrk", "-t", "2", "-c", str(connections), "-d", f"{int(duration)}s",
                               "--timeout", "10s", "--latency", "-s", str(script), url + path],
-                             capture_output=True, text=True, timeout=duration + 60, check=False).stdout
+                             capture_output=True, text=True, timeout=duration + 60,
+                             check=False).stdout
     pct = {m.group(1): _wrk_ms(m.group(2))
            for m in re.finditer(r"^\s+(50|75|90|99)%\s+(\S+)", out, re.MULTILINE)}
     total = int(re.search(r"(\d+) requests in", out).group(1))

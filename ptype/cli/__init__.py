@@ -30,7 +30,8 @@ class _Parser(argparse.ArgumentParser):
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="ptype", description=(
         "Diagnose precipitation type at the ground from vertical profiles. "
-        "Output is guidance only; official warnings, local codes and licensed practice take precedence."))
+        "Output is guidance only; official warnings, local codes and licensed practice take "
+        "precedence."))
     parser.add_argument("--version", action="version", version=f"ptype {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name in COMMAND_MODULES:

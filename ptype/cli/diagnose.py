@@ -14,14 +14,16 @@ BAR_WIDTH = 30
 
 def register(sub) -> None:
     p = sub.add_parser("diagnose", help="diagnose the precipitation type of one or more profiles",
-                       description="Diagnose the precipitation type reaching the ground for each profile "
-                                   "(JSON, CSV, WMO TEMP or NetCDF), with probabilities and the reasoning "
-                                   "of every method.")
+                       description="Diagnose the precipitation type reaching the ground for each "
+                                   "profile (JSON, CSV, WMO TEMP or NetCDF), with probabilities "
+                                   "and the reasoning of every method.")
     p.add_argument("paths", nargs="+", metavar="PATH", help="profile files (- for standard input)")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format")
     p.add_argument("--members", type=int, default=DEFAULT_MEMBERS,
-                   help=f"Monte-Carlo members for the probabilities (default {DEFAULT_MEMBERS}; 0 = none)")
-    p.add_argument("--seed", type=int, default=None, help="random seed for reproducible probabilities")
+                   help=f"Monte-Carlo members for the probabilities (default {DEFAULT_MEMBERS}; "
+                        "0 = none)")
+    p.add_argument("--seed", type=int, default=None,
+                   help="random seed for reproducible probabilities")
     p.add_argument("--methods", default=None, help="comma-separated subset of methods")
     p.add_argument("--wetbulb", choices=("isobaric", "adiabatic"), default="isobaric",
                    help="wet-bulb reported in the profile and wet-bulb layers")
@@ -62,7 +64,8 @@ def render_table(r: dict) -> str:
     lines.append("=" * min(len(title), width))
     head = f"{r['ptype']}  {r['ptype_label']}"
     if r.get("probability") is not None:
-        head += f"   p = {r['probability']:.2f}   {r['confidence']} confidence ({r['members']} members)"
+        head += (f"   p = {r['probability']:.2f}   {r['confidence']} confidence "
+                 f"({r['members']} members)")
     lines.append(head)
     if r["probabilities"]:
         lines.append("")

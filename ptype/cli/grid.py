@@ -110,7 +110,8 @@ def _connect(address: str):
     try:
         from distributed import Client
     except ImportError:  # pragma: no cover - distributed is a declared dependency
-        raise OptionError("--scheduler needs the 'distributed' package", field="scheduler") from None
+        raise OptionError("--scheduler needs the 'distributed' package",
+                          field="scheduler") from None
     try:
         return Client(address, timeout=f"{CONNECT_TIMEOUT_S}s")
     except (OSError, TimeoutError, ValueError) as exc:

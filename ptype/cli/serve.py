@@ -19,13 +19,15 @@ def register(sub) -> None:
     p = sub.add_parser("serve", help="run the HTTP service (JSON API, forecaster page, diagrams)",
                        description="Run the ptype HTTP service under gunicorn. The forecaster page "
                                    "is at /, the API reference at /docs.")
-    p.add_argument("--host", default=DEFAULT_HOST, help=f"address to listen on (default {DEFAULT_HOST})")
+    p.add_argument("--host", default=DEFAULT_HOST,
+                   help=f"address to listen on (default {DEFAULT_HOST})")
     p.add_argument("--port", type=_port, default=DEFAULT_PORT,
                    help=f"TCP port (default {DEFAULT_PORT}; 0 picks a free one)")
     p.add_argument("--workers", type=_positive, default=DEFAULT_WORKERS,
                    help=f"worker processes (default {DEFAULT_WORKERS})")
     p.add_argument("--threads", type=_positive, default=1,
-                   help="threads per worker (default 1; more helps slow clients, not CPU-bound work)")
+                   help="threads per worker (default 1; more helps slow clients, not CPU-bound "
+                        "work)")
     p.add_argument("--timeout", type=_positive, default=60,
                    help="seconds before a stuck worker is restarted (default 60)")
     p.add_argument("--demo", action="store_true",

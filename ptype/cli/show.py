@@ -9,9 +9,11 @@ from ptype.readers import read_profile
 
 
 def register(sub) -> None:
-    p = sub.add_parser("show", help="print a parsed profile with derived columns (height, RH, wet-bulb)",
-                       description="Read one profile (JSON, CSV, WMO TEMP or NetCDF) and print its levels "
-                                   "surface -> top with height, relative humidity and wet-bulb.")
+    p = sub.add_parser("show",
+                       help="print a parsed profile with derived columns (height, RH, wet-bulb)",
+                       description="Read one profile (JSON, CSV, WMO TEMP or NetCDF) and print its "
+                                   "levels surface -> top with height, relative humidity and "
+                                   "wet-bulb.")
     p.add_argument("path", help="profile file, or - for standard input")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format")
     p.add_argument("--input-format", choices=("json", "csv", "temp", "netcdf"), default=None,
@@ -35,7 +37,8 @@ def profile_rows(profile) -> list[dict]:
 
 def run(args) -> int:
     import sys
-    # Standard input as bytes: text formats are decoded as UTF-8, NetCDF is recognised by its signature.
+    # Standard input as bytes: text formats are decoded as UTF-8, NetCDF is recognised by its
+    # signature.
     source = sys.stdin.buffer.read() if args.path == "-" else args.path
     profile = read_profile(source, format=args.input_format)
     rows = profile_rows(profile)

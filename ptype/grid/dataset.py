@@ -154,7 +154,8 @@ def _output_dataset(ds, fields: GridFields, layout: KernelLayout, packed, seed):
         f"({', '.join(names_m)})")
     for m in layout.method_fields:
         out[f"precipitation_type_{m}"] = _type_variable(
-            field(f"m_{m}"), col_dims, extra, f"precipitation type at the surface by the {m} method")
+            field(f"m_{m}"), col_dims, extra,
+            f"precipitation type at the surface by the {m} method")
     for var, (key, units, long_name) in FLOAT_OUTPUTS.items():
         out[var] = field(key).assign_attrs({"long_name": long_name, "units": units, **extra})
     if layout.members:

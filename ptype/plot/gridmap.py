@@ -47,7 +47,8 @@ def plot_types(ds, path, *, time_index: int = 0, title: str | None = None) -> st
     if "precipitation_type" not in ds:
         raise OptionError("plot: the dataset has no precipitation_type variable", field="plot")
     var = ds["precipitation_type"]
-    time_dims = [d for d in var.dims if d in ds.coords and np.issubdtype(ds[d].dtype, np.datetime64)]
+    time_dims = [d for d in var.dims
+                 if d in ds.coords and np.issubdtype(ds[d].dtype, np.datetime64)]
     when = ""
     if time_dims:
         n = var.sizes[time_dims[0]]
@@ -93,7 +94,8 @@ def plot_types(ds, path, *, time_index: int = 0, title: str | None = None) -> st
     handles = []
     for i in present:
         if i == len(codes):
-            handles.append(Patch(facecolor=MISSING_COLOUR, edgecolor="#333333", label="not diagnosed"))
+            handles.append(Patch(facecolor=MISSING_COLOUR, edgecolor="#333333",
+                                 label="not diagnosed"))
         else:
             c = codes[i]
             share = 100.0 * np.count_nonzero(index == i) / index.size

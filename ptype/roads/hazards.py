@@ -97,14 +97,16 @@ def frost_point_c(dewpoint_c):
 
 
 def freezing_on_road(codes, road_surface_temperature_c) -> np.ndarray:
-    """True where a freezing type falls, or a liquid-bearing type falls on a road at or below 0 degC."""
+    """True where a freezing type falls, or a liquid-bearing type falls on a road at or below
+    0 degC."""
     road = np.asarray(road_surface_temperature_c, dtype=np.float64)
     cold_road = np.where(np.isfinite(road), road <= 0.0, False)
     return _isin(codes, FREEZING_CODES) | (_isin(codes, LIQUID_BEARING_CODES) & cold_road)
 
 
 def freezing_on_road_probability(probabilities, road_surface_temperature_c) -> np.ndarray:
-    """Probability of freezing precipitation on the road from per-code probabilities ``(n, len(Code))``.
+    """Probability of freezing precipitation on the road from per-code probabilities
+    ``(n, len(Code))``.
 
     Sum of the freezing codes' probabilities, plus the liquid-bearing codes' where the
     road surface is at or below 0 degC.
@@ -147,7 +149,8 @@ def jones_radial_ice_mm(precipitation_rate_mm_h, wind_speed_m_s, hours=1.0):
 
 
 def flat_glaze_mm(precipitation_rate_mm_h, hours=1.0):
-    """Glaze thickness on a flat horizontal surface, mm: ``P dt rho_w / rho_i`` (all water freezes)."""
+    """Glaze thickness on a flat horizontal surface, mm: ``P dt rho_w / rho_i`` (all water
+    freezes)."""
     p = np.maximum(np.asarray(precipitation_rate_mm_h, dtype=np.float64), 0.0)
     return p * np.asarray(hours, dtype=np.float64) * WATER_DENSITY_G_CM3 / GLAZE_DENSITY_G_CM3
 
@@ -177,7 +180,8 @@ def step_hazards(codes, probabilities, road_surface_temperature_c, dewpoint_c,
         "snow_probability": np.clip(snow_prob, 0.0, 1.0),
         # mm of water x ratio = mm of snow; / 10 for cm.
         "snow_cm": np.where(share > 0, rate * hours * share * SNOW_TO_LIQUID_RATIO / 10.0, 0.0),
-        "ice_accretion_mm": np.where(freezing, jones_radial_ice_mm(rate, wind_speed_m_s, hours), 0.0),
+        "ice_accretion_mm": np.where(freezing, jones_radial_ice_mm(rate, wind_speed_m_s, hours),
+                                     0.0),
         "flat_glaze_mm": np.where(freezing_on_road(codes, road_surface_temperature_c),
                                   flat_glaze_mm(rate, hours), 0.0),
     }

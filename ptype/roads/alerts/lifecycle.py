@@ -36,7 +36,10 @@ class Action:
 
 def decide(active: Sequence[Mapping[str, Any]], candidates: Sequence[Candidate],
            now: datetime) -> list[Action]:
-    """Decide what to do.  ``active``: mappings with id, event, onset, expires, severity, certainty."""
+    """Decide what to do.
+
+    ``active``: mappings with id, event, onset, expires, severity, certainty.
+    """
     actions: list[Action] = []
     by_event = {c.event: c for c in candidates}
     live = {}

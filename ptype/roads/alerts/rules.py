@@ -1,4 +1,4 @@
-"""Alert rules: from a timeline (see :func:`ptype.roads.nowcast.build_timeline`) to alert candidates.
+"""Alert rules: from a timeline (:func:`ptype.roads.nowcast.build_timeline`) to alert candidates.
 
 Default thresholds (per site, overridable; all ours unless noted):
 
@@ -51,7 +51,8 @@ ACCRETION_EXTREME_MM = 12.7
 EVENTS: dict[str, tuple[str, str, str]] = {
     "freezing_precipitation": (
         "Freezing precipitation on roads", "Prepare",
-        "Treat road surfaces before onset and expect glaze ice; check the latest official warnings."),
+        ("Treat road surfaces before onset and expect glaze ice; check the latest official "
+         "warnings.")),
     "ice_accretion": (
         "Ice accretion on exposed structures", "Prepare",
         "Expect glaze on lines, trees, signs and bridges; plan for loads and falling ice."),
@@ -186,7 +187,8 @@ def evaluate_rules(timeline: Mapping[str, Any], now: datetime, site_name: str,
 
     # Freezing precipitation on the road.
     flags = [lead_ok(s, th["freezing_window_hours"]) and s["hazards"]["freezing_probability"]
-             is not None and s["hazards"]["freezing_probability"] >= float(th["freezing_probability"])
+             is not None
+             and s["hazards"]["freezing_probability"] >= float(th["freezing_probability"])
              for s in steps]
     span = _span(steps, flags, step)
     if span:
