@@ -28,6 +28,7 @@ class _Parser(argparse.ArgumentParser):
 
 
 def build_parser() -> argparse.ArgumentParser:
+    """The ``ptype`` parser with every command module that is present registered."""
     parser = _Parser(prog="ptype", description=(
         "Diagnose precipitation type at the ground from vertical profiles. "
         "Output is guidance only; official warnings, local codes and licensed practice take "
@@ -46,6 +47,8 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Run the command line; the exit status (2 for bad input, with one line on
+    stderr)."""
     from ptype.errors import OptionError, ProfileError
     parser = build_parser()
     args = parser.parse_args(argv)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import argparse
 import json
 import shutil
 import sys
@@ -12,7 +13,8 @@ from ptype.engine.probability import DEFAULT_MEMBERS
 BAR_WIDTH = 30
 
 
-def register(sub) -> None:
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``diagnose`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser("diagnose", help="diagnose the precipitation type of one or more profiles",
                        description="Diagnose the precipitation type reaching the ground for each "
                                    "profile (JSON, CSV, WMO TEMP or NetCDF), with probabilities "
@@ -30,7 +32,8 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
-def run(args) -> int:
+def run(args: argparse.Namespace) -> int:
+    """Diagnose every profile named in ``args`` and print the result; exit status."""
     from ptype.engine.diagnosis import diagnose
     out = []
     for path in args.paths:

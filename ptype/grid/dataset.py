@@ -4,6 +4,8 @@ model dataset (``xarray.apply_ufunc``) and labels the results with CF attributes
 from __future__ import annotations
 
 import functools
+from collections.abc import Iterable
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -12,6 +14,9 @@ from ptype.constants import CAUTION
 from ptype.errors import OptionError
 from ptype.grid.fields import GridFields, _std, find_fields, unit_conversions
 from ptype.grid.kernel import KernelLayout, column_kernel
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 #: Missing value of the integer type variables (GRIB2 code table 4.201 "missing").
 TYPE_FILL = 255
@@ -26,8 +31,9 @@ def _label_name(code: Code) -> str:
     return LABELS[code].replace(" ", "_")
 
 
-def diagnose_dataset(ds, members: int = 0, seed=None, methods=None, per_method: bool = False,
-                     fields: GridFields | None = None):
+def diagnose_dataset(ds: xr.Dataset, members: int = 0, seed: int | None = None,
+                     methods: Iterable[str] | str | None = None, per_method: bool = False,
+                     fields: GridFields | None = None) -> xr.Dataset:
     """Diagnose every column of a model dataset; lazy when ``ds`` holds dask arrays.
 
     Parameters

@@ -8,10 +8,14 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Callable, Mapping
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ptype.errors import ReaderError
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 #: Tolerance for "2 m" in the height coordinate of screen-level fields, m.
 SCREEN_HEIGHT_M = (1.0, 3.0)
@@ -163,7 +167,7 @@ def _check_units(ds, fields: GridFields) -> None:
             _lookup(HEIGHT_UNITS, ds[name], name, "a height")
 
 
-def find_fields(ds, source: str = "input") -> GridFields:
+def find_fields(ds: xr.Dataset, source: str = "input") -> GridFields:
     """Identify the fields of a dataset by CF standard name.
 
     The temperature on pressure levels fixes the level, time and horizontal dimensions;
@@ -203,7 +207,7 @@ def find_fields(ds, source: str = "input") -> GridFields:
     return fields
 
 
-def unit_conversions(ds, fields: GridFields) -> dict[str, float]:
+def unit_conversions(ds: xr.Dataset, fields: GridFields) -> dict[str, float]:
     """The constants the column kernel applies to reach degC, hPa, m, % and kg/kg: offsets
     (temperatures) and scales (the rest), keyed as :func:`ptype.grid.kernel.column_kernel`
     reads them; an unknown unit raises :class:`~ptype.errors.ReaderError` naming it."""

@@ -577,7 +577,7 @@ class StepDiagnosis:
 
 
 def diagnose_steps(cols: StepColumns, spells: Spells, members: int, seed: int | None,
-                   methods: Sequence[str] | str | None = None) -> StepDiagnosis:
+                   methods: Iterable[str] | str | None = None) -> StepDiagnosis:
     """Engine stage: all step columns through :func:`ptype.engine.run.run_columns` in one
     vectorised pass (control and Monte-Carlo members); dry steps become NONE."""
     from ptype.engine.run import run_columns
@@ -683,7 +683,7 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
                    hours: float = 12.0, step: str | timedelta = "15min",
                    observations: Iterable[Mapping[str, Any] | SurfaceObservation] | None = None,
                    adjustments: Iterable[str] | None = ADJUSTMENTS, members: int = 30,
-                   seed: int | None = 0, methods: Sequence[str] | str | None = None
+                   seed: int | None = 0, methods: Iterable[str] | str | None = None
                    ) -> dict[str, Any]:
     """Build a timeline from a series of profiles (one forecast issue) and optional observations.
 

@@ -104,10 +104,12 @@ class Store:
 
     @property
     def dialect(self) -> str:
+        """The database kind, ``sqlite`` or ``postgresql``."""
         return self.engine.dialect.name
 
     @contextmanager
     def read(self) -> Iterator[Session]:
+        """A read-only transaction (never committed)."""
         with self._read() as session, session.begin():
             yield session
 
@@ -118,6 +120,7 @@ class Store:
             yield session
 
     def schema_version(self) -> int:
+        """The schema version the database is at (see :mod:`ptype.store.migrations`)."""
         with self.engine.connect() as conn:
             return migrations.current_version(conn)
 
@@ -129,6 +132,7 @@ class Store:
             return str(conn.exec_driver_sql("PRAGMA integrity_check").scalar())
 
     def dispose(self) -> None:
+        """Close every pooled connection."""
         self.engine.dispose()
 
 

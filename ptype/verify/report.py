@@ -23,8 +23,8 @@ import functools
 import io
 import math
 from collections import Counter
-from collections.abc import Sequence
-from typing import Any
+from collections.abc import Iterable, Sequence
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -35,6 +35,9 @@ from ptype.engine.methods import METHOD_NAMES
 from ptype.verify import scores as sc
 from ptype.verify.manifest import Case
 from ptype.verify.observations import parse_observation
+
+if TYPE_CHECKING:
+    from ptype.profile import Profile
 
 ORDER: tuple[Code, ...] = (Code.SN, Code.PL, Code.RASN, Code.FZRAPL, Code.RAPL, Code.FZRA,
                            Code.FZDZ, Code.RA, Code.DZ, Code.NONE)
@@ -136,7 +139,8 @@ def _batch_seed(seed, index: int):
     return None if seed is None else [int(seed), int(index)]
 
 
-def diagnose_cases(profiles: Sequence, *, members: int, seed, methods=None
+def diagnose_cases(profiles: Sequence[Profile], *, members: int, seed: int | None,
+                   methods: Iterable[str] | str | None = None
                    ) -> tuple[dict[str, np.ndarray], np.ndarray | None]:
     """Consensus and method codes for every profile, and member probabilities (or None)."""
     from ptype.engine.columns import Columns
@@ -149,8 +153,10 @@ def diagnose_cases(profiles: Sequence, *, members: int, seed, methods=None
     return codes, run.probabilities
 
 
-def run_verification(cases: Sequence[Case], *, members: int = 50, seed=DEFAULT_SEED,
-                     methods=None, source: str | None = None) -> dict[str, Any]:
+def run_verification(cases: Sequence[Case], *, members: int = 50,
+                     seed: int | None = DEFAULT_SEED,
+                     methods: Iterable[str] | str | None = None,
+                     source: str | None = None) -> dict[str, Any]:
     """Verify the diagnoses of ``cases`` against their observations; the JSON-ready report.
 
     Cases whose observation cannot be verified are listed under ``excluded`` with the

@@ -28,6 +28,8 @@ CHANGE_TOLERANCE = timedelta(minutes=30)
 
 @dataclass
 class Action:
+    """One lifecycle step for an alert: issue, update, cancel or expire it."""
+
     kind: str                      # "new" | "update" | "cancel" | "expire"
     event: str
     alert_id: str | None = None    # None for "new"

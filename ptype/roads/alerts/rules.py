@@ -81,6 +81,7 @@ class Candidate:
     parameters: dict[str, Any] = field(default_factory=dict)
 
     def to_dict(self) -> dict[str, Any]:
+        """JSON-ready form, times as ISO 8601 UTC."""
         from ptype.clock import iso
         return {"event": self.event, "onset": iso(self.onset), "expires": iso(self.expires),
                 "severity": self.severity, "certainty": self.certainty, "urgency": self.urgency,
@@ -89,6 +90,7 @@ class Candidate:
 
 
 def merged_thresholds(site_thresholds: Mapping[str, Any] | None) -> dict[str, Any]:
+    """The default thresholds with a site's own values (known keys, not None) laid over."""
     out = dict(DEFAULT_THRESHOLDS)
     for key, value in (site_thresholds or {}).items():
         if key in out and value is not None:
@@ -97,10 +99,12 @@ def merged_thresholds(site_thresholds: Mapping[str, Any] | None) -> dict[str, An
 
 
 def certainty_word(probability: float) -> str:
+    """CAP ``certainty``: Likely above a probability of 0.5, else Possible (CAP 1.2 3.2.2)."""
     return "Likely" if probability > 0.5 else "Possible"
 
 
 def urgency_word(onset: datetime, now: datetime) -> str:
+    """CAP ``urgency``: Immediate once begun, Expected within the hour, else Future (ours)."""
     if onset <= now:
         return "Immediate"
     if onset - now <= timedelta(hours=1):
