@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import subprocess
 import time
+from collections.abc import Callable
 from pathlib import Path
 
 
@@ -24,7 +25,7 @@ def code_version() -> dict:
                                               if line.strip() and not line.startswith("??"))}
 
 
-def best_of(fn, repeat: int = 3) -> float:
+def best_of(fn: Callable[[], object], repeat: int = 3) -> float:
     """Best wall time of ``repeat`` runs (the machine may be shared: best is least disturbed)."""
     best = float("inf")
     for _ in range(repeat):

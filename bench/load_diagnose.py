@@ -64,12 +64,15 @@ def profile_document(n_levels: int = 60) -> dict:
 
 # -- server ------------------------------------------------------------------------------
 def free_port() -> int:
+    """A TCP port free on the loopback interface now."""
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))
         return s.getsockname()[1]
 
 
-def start_server(workers: int, data_dir: str, threads: int = 1):
+def start_server(workers: int, data_dir: str,
+                 threads: int = 1) -> tuple[subprocess.Popen, str]:
+    """Start ``ptype serve`` in its own process group; the process and its URL."""
     port = free_port()
     ptype_bin = Path(sys.executable).with_name("ptype")
     env = dict(os.environ, PTYPE_DATA_DIR=data_dir)
@@ -93,7 +96,8 @@ def start_server(workers: int, data_dir: str, threads: int = 1):
     raise RuntimeError("server did not answer /healthz within 90 s")
 
 
-def stop_server(proc) -> None:
+def stop_server(proc: subprocess.Popen) -> None:
+    """Stop the server's whole process group."""
     if proc.poll() is None:
         os.killpg(proc.pid, signal.SIGTERM)
         try:
@@ -139,6 +143,7 @@ def _wrk_ms(text: str) -> float:
 
 
 def run_wrk(url: str, path: str, body: bytes | None, connections: int, duration: float) -> dict:
+    """Load ``url + path`` with wrk; throughput and latency percentiles."""
     with tempfile.TemporaryDirectory() as tmp:
         script = Path(tmp) / "req.lua"
         if body is not None:
@@ -162,7 +167,9 @@ def run_wrk(url: str, path: str, body: bytes | None, connections: int, duration:
             "errors": errors, "raw": out.strip().splitlines()}
 
 
-def run_threads(url: str, path: str, body: bytes | None, connections: int, duration: float) -> dict:
+def run_threads(url: str, path: str, body: bytes | None, connections: int,
+                duration: float) -> dict:
+    """Load ``url + path`` from Python threads (when wrk is missing); same summary."""
     import http.client
     from urllib.parse import urlparse
     host = urlparse(url)
@@ -300,7 +307,8 @@ def _engine_hotspots(profile, top: int = 15) -> list[dict]:
 
 
 # -- main ------------------------------------------------------------------------------------
-def main(argv=None) -> int:
+def main(argv: list[str] | None = None) -> int:
+    """Run the load test and write its results; exit status."""
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--duration", type=float, default=15.0, help="seconds per load run")
     parser.add_argument("--connections", type=int, default=16, help="concurrent clients")

@@ -211,7 +211,8 @@ def _noise(key: str, n: int, scale: float) -> np.ndarray:
     return rng.normal(0.0, scale, n)
 
 
-def build_profile(site: dict, prm: dict, key: str, temp_code: bool):
+def build_profile(site: dict, prm: dict, key: str,
+                  temp_code: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Arrays (p, z, t, td) for one profile."""
     p = pressure_levels(prm["p_sfc"], standard_near_ground=temp_code)
     t = temperature_profile(p, prm)
@@ -230,7 +231,8 @@ def build_profile(site: dict, prm: dict, key: str, temp_code: bool):
     return p, np.round(z, 1), t, td
 
 
-def check_physics(name: str, p, z, t, td) -> None:
+def check_physics(name: str, p: np.ndarray, z: np.ndarray, t: np.ndarray,
+                  td: np.ndarray) -> None:
     """Refuse a profile that breaks the physical rules of the demo set."""
     if not 25 <= p.size <= 60:
         raise SystemExit(f"{name}: {p.size} levels; the demo wants 25-60")
@@ -501,6 +503,7 @@ def _stamp(t: datetime) -> str:
 
 def make_document(site: dict, valid: datetime, prm: dict, source: str, key: str,
                   temp_code: bool) -> dict:
+    """The JSON profile document of one designed profile (physics checked)."""
     p, z, t, td = build_profile(site, prm, key, temp_code)
     check_physics(key, p, z, t, td)
     road = round(float(t[0]) + prm["road"], 1)
@@ -613,6 +616,7 @@ def _diagnose(doc: dict) -> str:
 
 
 def format_row(label: str, s: dict, design: str, diag: str) -> str:
+    """One line of the design table printed while generating."""
     design = design.replace(" ", "/")
     def f(x, w=6, d=1):
         return f"{x:{w}.{d}f}" if math.isfinite(x) else " " * (w - 1) + "-"
@@ -667,6 +671,7 @@ def design_type(s: dict, rate_mm_h: float) -> str:
 # --- main ---------------------------------------------------------------------------------
 
 def write_text(path: Path, text: str) -> None:
+    """Write UTF-8 text with LF line ends, creating the folder."""
     path.parent.mkdir(parents=True, exist_ok=True)
     path.write_text(text, encoding="utf-8", newline="\n")
 
@@ -732,6 +737,7 @@ def generate(out: Path, quiet: bool = False, diagnose: bool = False) -> list[str
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Generate the demo tree (see the module docstring); exit status."""
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--out", type=Path, default=HERE, help="output directory (default: here)")
     parser.add_argument("--quiet", action="store_true", help="do not print the design table")

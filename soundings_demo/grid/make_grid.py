@@ -28,8 +28,12 @@ from __future__ import annotations
 
 import argparse
 import os
+from typing import TYPE_CHECKING
 
 import numpy as np
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 G = 9.80665
 RD = 287.04
@@ -176,7 +180,7 @@ def _dataset(fields, plev, x, y, times, dtype):
 
 
 def make_grid(nx: int = 160, ny: int = 120, times: int = 2, levels: int = 20,
-              spacing_km: float = 4.0, dtype=np.float32, seed: int = 7):
+              spacing_km: float = 4.0, dtype: type = np.float32, seed: int = 7) -> xr.Dataset:
     """Build the invented grid as an :class:`xarray.Dataset` (CF-1.13 attributes)."""
     x = np.arange(nx) * spacing_km
     y = np.arange(ny) * spacing_km
@@ -211,7 +215,7 @@ def make_grid(nx: int = 160, ny: int = 120, times: int = 2, levels: int = 20,
     return _dataset(fields, plev, x, y, times, dtype)
 
 
-def write_grid(ds, path: str, compress: bool = True) -> None:
+def write_grid(ds: xr.Dataset, path: str, compress: bool = True) -> None:
     """Write ``ds`` as NetCDF-4 (deflated, two significant decimals, unless ``compress`` is
     False)."""
     enc = {}
