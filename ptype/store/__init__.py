@@ -16,6 +16,8 @@ of failing on a lock upgrade.  Schema versions are handled by
 from __future__ import annotations
 
 import os
+import sqlite3
+import time
 import weakref
 from collections.abc import Iterator, Mapping
 from contextlib import contextmanager
@@ -59,6 +61,24 @@ def database_url(config: Mapping[str, Any] | None = None) -> str:
     return f"sqlite:///{path / DB_FILENAME}"
 
 
+def _enable_wal(cur: sqlite3.Cursor) -> None:
+    """Switch the database to WAL, waiting up to the busy timeout for the lock it needs.
+
+    Several starters on a new file race to convert it, and the conversion can report
+    "database is locked" at once instead of waiting on the busy timeout (seen with four
+    threads opening one new file); so it is retried here until that timeout.
+    """
+    deadline = time.monotonic() + BUSY_TIMEOUT_MS / 1000
+    while True:
+        try:
+            cur.execute("PRAGMA journal_mode = WAL")
+            return
+        except sqlite3.OperationalError as exc:
+            if "locked" not in str(exc) or time.monotonic() > deadline:
+                raise
+            time.sleep(0.01)
+
+
 def _configure_sqlite(engine: sa.Engine) -> None:
     @event.listens_for(engine, "connect")
     def _on_connect(dbapi_conn, _record):
@@ -66,7 +86,7 @@ def _configure_sqlite(engine: sa.Engine) -> None:
         dbapi_conn.isolation_level = None
         cur = dbapi_conn.cursor()
         cur.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
-        cur.execute("PRAGMA journal_mode = WAL")
+        _enable_wal(cur)
         # FULL: a transaction acknowledged to a client survives power loss, not just a crash.
         cur.execute("PRAGMA synchronous = FULL")
         cur.execute("PRAGMA foreign_keys = ON")
