@@ -375,7 +375,7 @@ def test_adjust_for_onset_moves_subcloud_air_toward_psychrolib_wetbulb():
                                             0.5)
     frac = 0.5 * (1.0 - math.exp(-1.0))  # (since + step) / 1 h e-folding, times fade (ours)
     for k in (0, 1):                 # below the cloud base: toward the wet-bulb
-        # ASHRAE Handbook-Fundamentals (2017) ch. 1 via psychrolib, from the humidity ratio
+        # ASHRAE2017 ch. 1 thermodynamic wet-bulb via psychrolib, from the humidity ratio
         # (psychrolib reads a sub-zero dew point as a frost point).
         w = thermo.mixing_ratio_g_kg(p[k], td[k]) / 1000.0
         tw = psychrolib.GetTWetBulbFromHumRatio(t[k], w, p[k] * 100.0)
@@ -400,7 +400,7 @@ def test_adjust_for_melting_energy_balance_against_hydrostatic_mass():
     out, cooled = nowcast.adjust_for_melting(three, _spells([1, 1, 1], [0, 2, 4], [0, 0, 0]),
                                              np.ones(3))
     assert cooled.tolist() == [False, True, True]
-    # Energy balance (Kain et al. 2000): L_f rho_w P dt = c_p M dT, with the layer mass M from
+    # Energy balance (Kain2000): L_f rho_w P dt = c_p M dT, with the layer mass M from
     # hydrostatics, dp / g between the half levels around the warm layer (950|900, 850|800).
     mass = (0.5 * (950 + 900) - 0.5 * (850 + 800)) * 100.0 / 9.80665
     for step, hours in ((1, 2.0), (2, 3.0)):
@@ -456,7 +456,7 @@ def test_step_records_are_json_ready_with_wmo_codes():
     notes = [["onset"] if i == 2 else [] for i in range(clock.n)]
     steps = nowcast.step_records(clock, cols, spells, diag, hz, notes)
     json.dumps(steps, allow_nan=False)
-    # WMO Manual on Codes, GRIB2 code table 4.201 (precipitation type).
+    # GRIB2 code table 4.201, precipitation type (WMO306, Vol. I.2).
     wmo = {"RA": 1, "FZRA": 3, "SN": 5, "RASN": 7, "PL": 8, "DZ": 11, "FZDZ": 12}
     for i, s in enumerate(steps):
         assert s["lead_hours"] == i and s["adjustments"] == notes[i]

@@ -99,7 +99,7 @@ def merged_thresholds(site_thresholds: Mapping[str, Any] | None) -> dict[str, An
 
 
 def certainty_word(probability: float) -> str:
-    """CAP ``certainty``: Likely above a probability of 0.5, else Possible (CAP 1.2 3.2.2)."""
+    """CAP ``certainty``: Likely above a probability of 0.5, else Possible (CAP12, 3.2.2)."""
     return "Likely" if probability > 0.5 else "Possible"
 
 
