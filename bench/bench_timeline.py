@@ -38,6 +38,7 @@ T0 = datetime(2026, 1, 27, tzinfo=UTC)
 
 
 def series() -> list[Profile]:
+    """One demo site's series, or a synthetic 24-hour series without the demo tree."""
     manifest = ROOT / "soundings_demo" / "series" / "manifest.json"
     if manifest.is_file():
         m = json.loads(manifest.read_text())
@@ -55,7 +56,8 @@ def series() -> list[Profile]:
     return out
 
 
-def main(argv=None) -> dict:
+def main(argv: list[str] | None = None) -> dict:
+    """Run the benchmark, write bench/results/timeline.json and return it."""
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--members", type=int, default=20)
     args = ap.parse_args(argv)
