@@ -13,7 +13,7 @@ export PTYPE_DATA_DIR
 
 .PHONY: run test install system-deps bench bench-deps bench-load lint clean demo-grid
 
-$(STAMP): pyproject.toml
+$(STAMP): pyproject.toml setup.py
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install -q --upgrade pip
 	$(PY) -m pip install -q -e '.[dev]'

@@ -1,9 +1,9 @@
 """``GET /v1/demo`` and ``GET /v1/demo/<name>``: the invented demo soundings.
 
 The soundings live in ``soundings_demo/{json,csv,temp}/`` at the project root
-(override with the ``PTYPE_DEMO_DIR`` setting or environment variable).  A sounding's name is its file
-name; the document is returned as stored, with the content type of its format,
-so a client can post it back to ``/v1/diagnose`` unchanged.
+(override with the ``PTYPE_DEMO_DIR`` setting or environment variable).  A sounding's
+name is its file name; the document is returned as stored, with the content type of its
+format, so a client can post it back to ``/v1/diagnose`` unchanged.
 """
 
 from __future__ import annotations
@@ -13,11 +13,14 @@ import os
 import re
 from pathlib import Path
 
-from flask import Blueprint, Response, current_app, url_for
+from flask import Blueprint, Flask, Response, current_app, url_for
+from ptype.api.errors import ApiError
+from ptype.api.models import DemoList
+from ptype.api.openapi import Operation
+from ptype.api.plumbing import json_response
 
-from api.diagnose import json_response
-from api.errors import ApiError
 from ptype.constants import CAUTION
+from ptype.profile.document import ProfileDocument
 
 bp = Blueprint("demo", __name__, url_prefix="/v1")
 
@@ -31,15 +34,18 @@ _NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,120}$")
 
 
 def default_demo_dir() -> Path:
+    """``soundings_demo/`` at the project root."""
     return Path(__file__).resolve().parent.parent / "soundings_demo"
 
 
-def init_app(app) -> None:
+def init_app(app: Flask) -> None:
+    """Default ``PTYPE_DEMO_DIR`` to the environment variable, else the project's folder."""
     app.config.setdefault("PTYPE_DEMO_DIR",
                           os.environ.get("PTYPE_DEMO_DIR") or str(default_demo_dir()))
 
 
 def _catalogue() -> dict[str, tuple[Path, str, str]]:
+    """Name -> (path, format, content type) of every demo sounding."""
     root = Path(current_app.config.get("PTYPE_DEMO_DIR") or default_demo_dir())
     found: dict[str, tuple[Path, str, str]] = {}
     for folder, (fmt, mime, suffixes) in FOLDERS.items():
@@ -53,6 +59,7 @@ def _catalogue() -> dict[str, tuple[Path, str, str]]:
 
 
 def _describe(name: str, path: Path, fmt: str) -> dict:
+    """The list entry of one sounding: its site and time when the file names them."""
     site = valid_time = None
     try:
         text = path.read_text(encoding="utf-8")
@@ -87,13 +94,29 @@ def _describe(name: str, path: Path, fmt: str) -> dict:
 
 
 @bp.get("/demo")
-def demo_list():
+@Operation(id="demo_list", tag="Demo", summary="List the demo soundings (invented data)",
+           description="The demo soundings shipped with the service, from a fictional region.",
+           ok=DemoList)
+def demo_list() -> Response:
+    """Every demo sounding with its title and URL."""
     entries = [_describe(name, path, fmt) for name, (path, fmt, _) in _catalogue().items()]
     return json_response({"soundings": entries, "caution": CAUTION})
 
 
 @bp.get("/demo/<name>")
-def demo_document(name: str):
+@Operation(
+    id="demo_document", tag="Demo", summary="One demo sounding, as stored",
+    description="Returned with the content type of its format (JSON, CSV or WMO TEMP text) "
+                "so that it can be posted to `/v1/diagnose` unchanged.",
+    path_params={"name": "File name from `GET /v1/demo`, e.g. "
+                         "`korrim-pass_20260127T1000.json`."},
+    ok={"description": "The demo sounding.",
+        "content": {"application/json": {"schema": ProfileDocument},
+                    "text/csv": {"schema": {"type": "string"}},
+                    "text/plain": {"schema": {"type": "string"}}}},
+    errors=(404,), curl="curl -s {server}/v1/demo/korrim-pass_20260127T1000.json")
+def demo_document(name: str) -> Response:
+    """The demo sounding ``name`` as stored, with the content type of its format."""
     entry = _catalogue().get(name)
     if entry is None:
         raise ApiError(404, "not_found", f"no demo sounding named {name!r}; "

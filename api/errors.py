@@ -8,18 +8,21 @@ from __future__ import annotations
 
 import logging
 
-from flask import Flask, jsonify
+from flask import Flask, Response, jsonify
 from werkzeug.exceptions import HTTPException
 
 from ptype.errors import OptionError, ProfileError
 
 log = logging.getLogger("ptype.api")
 
+#: What an error handler returns: the JSON body and the status.
+Answer = tuple[Response, int]
+
 
 class ApiError(Exception):
     """An error with an HTTP status, a stable code and a message (and optionally the field)."""
 
-    def __init__(self, status: int, code: str, message: str, field: str | None = None):
+    def __init__(self, status: int, code: str, message: str, field: str | None = None) -> None:
         super().__init__(message)
         self.status = status
         self.code = code
@@ -27,7 +30,8 @@ class ApiError(Exception):
         self.field = field
 
 
-def error_body(code: str, message: str, field: str | None = None) -> dict:
+def error_body(code: str, message: str, field: str | None = None) -> dict[str, dict[str, str]]:
+    """The JSON body of an error: ``{"error": {"code", "message", "field"?}}``."""
     body = {"code": code, "message": message}
     if field:
         body["field"] = field
@@ -35,20 +39,22 @@ def error_body(code: str, message: str, field: str | None = None) -> dict:
 
 
 def init_app(app: Flask) -> None:
+    """Register the one set of error handlers of the service on ``app``."""
+
     @app.errorhandler(ApiError)
-    def _api_error(exc: ApiError):
+    def _api_error(exc: ApiError) -> Answer:
         return jsonify(error_body(exc.code, exc.message, exc.field)), exc.status
 
     @app.errorhandler(ProfileError)
-    def _profile_error(exc: ProfileError):
+    def _profile_error(exc: ProfileError) -> Answer:
         return jsonify(error_body("invalid_profile", str(exc), exc.field)), 422
 
     @app.errorhandler(OptionError)
-    def _option_error(exc: OptionError):
+    def _option_error(exc: OptionError) -> Answer:
         return jsonify(error_body("invalid_option", str(exc), exc.field)), 400
 
     @app.errorhandler(HTTPException)
-    def _http_error(exc: HTTPException):
+    def _http_error(exc: HTTPException) -> Answer:
         code = (exc.name or "error").lower().replace(" ", "_")
         if exc.code == 413:
             limit = app.config.get("MAX_CONTENT_LENGTH")
@@ -58,7 +64,7 @@ def init_app(app: Flask) -> None:
         return jsonify(error_body(code, message)), exc.code
 
     @app.errorhandler(Exception)
-    def _unexpected(exc: Exception):  # pragma: no cover - exercised only by bugs
+    def _unexpected(exc: Exception) -> Answer:  # pragma: no cover - exercised only by bugs
         log.exception("unexpected error")
         return jsonify(error_body("internal_error", "the server failed to handle this request; "
                                   "it has been logged")), 500

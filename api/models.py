@@ -1,19 +1,26 @@
 """Pydantic models of every HTTP request and response.
 
-They are the single description of the wire format: :mod:`api.docs` builds the
-OpenAPI document from them, and the views use the request models to validate
-query options.  Response bodies come from the library (``Diagnosis.to_dict()``)
-and are not re-validated on the hot path; the tests check them against these
-models instead.
+They are the single description of the wire format: :mod:`ptype.api.openapi` builds the
+OpenAPI document from them, and the views use the request models to validate query
+options and bodies.  Response bodies come from the library (``Diagnosis.to_dict()``, the
+road-alert service) and are not re-validated on the hot path; the tests check them against
+these models instead.
+
+Two bases: :class:`RequestModel` refuses unknown fields (the error names the field), and
+:class:`ResponseModel` is open, because an answer may gain fields in a later version and
+clients ignore keys they do not know.  The few answers whose shape is fixed for good (the
+error body, the health check, the batch and demo envelopes) say so with ``extra="forbid"``.
 """
 
 from __future__ import annotations
 
+from datetime import datetime
 from typing import Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import BaseModel, ConfigDict, Field, ValidationInfo, field_validator
 
 from ptype.profile.document import ProfileDocument
+from ptype.verify.report import DEFAULT_SEED
 
 PTYPE_CODES = ("NONE", "RA", "SN", "PL", "FZRA", "FZDZ", "DZ", "RASN", "RAPL", "FZRAPL")
 METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",
@@ -21,43 +28,51 @@ METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "clo
 
 PtypeCode = Literal["NONE", "RA", "SN", "PL", "FZRA", "FZDZ", "DZ", "RASN", "RAPL", "FZRAPL"]
 
+#: Monte-Carlo members per case of ``POST /v1/verify`` when the request names none.
+VERIFY_MEMBERS = 50
 
-class _Model(BaseModel):
+
+class RequestModel(BaseModel):
+    """Base of request bodies and query options: an unknown field is refused, by name."""
+
     model_config = ConfigDict(extra="forbid")
 
 
-class _Open(BaseModel):
-    """A response object that may gain fields in later versions (clients ignore unknown keys)."""
+class ResponseModel(BaseModel):
+    """Base of answers: open, as an answer may gain fields in later versions."""
 
     model_config = ConfigDict(extra="allow")
 
 
 # -- errors -----------------------------------------------------------------------------
-class ErrorDetail(_Model):
-    code: str = Field(..., description="Stable machine-readable error code, e.g. `invalid_profile`.",
-                      examples=["invalid_profile"])
-    message: str = Field(..., description="One sentence naming the problem and what was expected.",
-                         examples=["levels[2].temperature_c = 'warm': expected a number"])
+class ErrorDetail(ResponseModel, extra="forbid"):
+    code: str = Field(
+        ..., description="Stable machine-readable error code, e.g. `invalid_profile`.",
+        examples=["invalid_profile"])
+    message: str = Field(
+        ..., description="One sentence naming the problem and what was expected.",
+        examples=["levels[2].temperature_c = 'warm': expected a number"])
     field: str | None = Field(None, description="Dotted path of the offending field when known.",
                               examples=["levels[2].temperature_c"])
 
 
-class ErrorResponse(_Model):
+class ErrorResponse(ResponseModel, extra="forbid"):
     """Every 4xx/5xx answer has this shape."""
 
     error: ErrorDetail
 
 
 # -- query options ----------------------------------------------------------------------
-class DiagnoseOptions(_Model):
+class DiagnoseOptions(RequestModel, populate_by_name=True):
     """Query options of the diagnosis endpoints."""
 
     methods: str | None = Field(
         None, description="Comma-separated method names to run (default: all). Known: "
                           + ", ".join(METHOD_NAMES) + ".", examples=["bourgouin,ramer"])
     members: int | None = Field(
-        None, ge=0, description="Monte-Carlo members for the probabilities (default 50; "
-                                "0 = the deterministic methods only). Upper limit set by the server.",
+        None, ge=0,
+        description="Monte-Carlo members for the probabilities (default 50; "
+                    "0 = the deterministic methods only). Upper limit set by the server.",
         examples=[50])
     seed: int | None = Field(None, ge=0, le=2**32 - 1,
                              description="Random seed for reproducible probabilities.",
@@ -68,8 +83,6 @@ class DiagnoseOptions(_Model):
         None, alias="input",
         description="Format of a `text/plain` body (default: detected from the content: "
                     "CSV header naming pressure_hpa, or a WMO TEMP message).")
-
-    model_config = ConfigDict(extra="forbid", populate_by_name=True)
 
 
 class DiagramOptions(DiagnoseOptions):
@@ -85,7 +98,7 @@ Number = float | int | None
 Value = float | int | str | bool | None | list[Any] | dict[str, Any]
 
 
-class Step(_Open):
+class Step(ResponseModel):
     """One step of reasoning: the rule that fired with the numbers it compared."""
 
     rule: str = Field(..., description="Short stable identifier of the rule.",
@@ -97,7 +110,7 @@ class Step(_Open):
     source: str = Field("", description="Where the rule or threshold comes from.")
 
 
-class MethodOutcome(_Open):
+class MethodOutcome(ResponseModel):
     ptype: PtypeCode | None = Field(..., description="Type this method diagnosed; null when it "
                                                      "abstains (outside its domain).")
     title: str = Field(..., description="Human-readable method name.")
@@ -107,12 +120,12 @@ class MethodOutcome(_Open):
     steps: list[Step] = Field(default_factory=list)
 
 
-class Consensus(_Open):
+class Consensus(ResponseModel):
     rule: str | None = Field(None, description="The consensus rule that decided.")
     steps: list[Step] = Field(default_factory=list)
 
 
-class Layer(_Open):
+class Layer(ResponseModel):
     """A layer above (warm) or below (cold) 0 degC."""
 
     kind: Literal["warm", "cold"]
@@ -127,7 +140,7 @@ class Layer(_Open):
                                                 "value, degC.")
 
 
-class CloudLayer(_Open):
+class CloudLayer(ResponseModel):
     bottom_hpa: Number = None
     top_hpa: Number = None
     bottom_m: Number = None
@@ -136,7 +149,7 @@ class CloudLayer(_Open):
     min_temperature_c: Number = None
 
 
-class ProfileArrays(_Open):
+class ProfileArrays(ResponseModel):
     """The profile as used, surface -> top, with derived columns."""
 
     pressure_hpa: list[Number]
@@ -147,7 +160,7 @@ class ProfileArrays(_Open):
     wetbulb_c: list[Number] = Field(default_factory=list)
 
 
-class Diagnosis(_Open):
+class Diagnosis(ResponseModel):
     """The diagnosis of one profile: consensus, probabilities, each method's reasoning."""
 
     ptype: PtypeCode = Field(..., description="Consensus type (METAR/WMO abbreviation).",
@@ -183,7 +196,7 @@ class Diagnosis(_Open):
 
 
 # -- batch ------------------------------------------------------------------------------
-class BatchRequest(_Model):
+class BatchRequest(RequestModel):
     """Several profile documents; each is diagnosed on its own."""
 
     profiles: list[ProfileDocument] = Field(
@@ -191,13 +204,13 @@ class BatchRequest(_Model):
                          "answer; the others are still diagnosed.")
 
 
-class BatchResponse(_Model):
+class BatchResponse(ResponseModel, extra="forbid"):
     results: list[Diagnosis | ErrorResponse] = Field(
         ..., description="One entry per profile, in the order given.")
 
 
 # -- demo -------------------------------------------------------------------------------
-class DemoEntry(_Model):
+class DemoEntry(ResponseModel, extra="forbid"):
     name: str = Field(..., description="Identifier to fetch with `GET /v1/demo/{name}`.",
                       examples=["harrowgate_0600"])
     format: Literal["json", "csv", "temp"]
@@ -207,14 +220,195 @@ class DemoEntry(_Model):
     url: str
 
 
-class DemoList(_Model):
+class DemoList(ResponseModel, extra="forbid"):
     soundings: list[DemoEntry]
     caution: str
 
 
-class Health(_Model):
+class Health(ResponseModel, extra="forbid"):
     status: Literal["ok"]
     version: str
 
 
-__all__ = [name for name in dir() if name[0].isupper() and not name.startswith("_")]
+# -- verification ----------------------------------------------------------------------
+class VerifyCase(RequestModel):
+    """One paired case: a profile and the present weather observed with it."""
+
+    profile: ProfileDocument
+    observed: str = Field(..., max_length=200, description=(
+        "Present weather as written in a METAR/SYNOP-style report, e.g. `-FZRA BR`, "
+        "`FZRA PL`, `+SN BLSN`, `NSW` (docs/verification.md has the mapping table)."),
+        examples=["-FZRA BR"])
+    valid_time: str | None = Field(None, description="ISO 8601 time; overrides the profile's.")
+    site: str | None = Field(None, description="Site name shown in the report.")
+
+
+class VerifyRequest(RequestModel):
+    """Cases to verify and the Monte-Carlo settings."""
+
+    cases: list[VerifyCase] = Field(..., min_length=1, description=(
+        "Paired cases; at most the server's case limit (500 by default)."))
+    members: int | None = Field(VERIFY_MEMBERS, ge=0, description=(
+        "Monte-Carlo members per case for the probabilities (0 = none). cases x members is "
+        "limited by the server (50 000 by default)."))
+    seed: int | None = Field(DEFAULT_SEED, ge=0, description="Seed of the members.")
+    methods: list[str] | str | None = Field(None, description="Methods to run (default all).")
+
+
+class VerifyReport(ResponseModel):
+    """The verification report (docs/verification.md describes every field)."""
+
+    n: int = Field(..., description="Verified cases.")
+    n_cases: int = Field(..., description="All cases sent.")
+    members: int
+    seed: int | None
+    order: list[str] = Field(..., description="Category order of the tables, Gerrity and RPS.")
+    excluded: dict[str, Any] = Field(..., description="count, reasons {reason: count}, cases.")
+    cases: list[dict[str, Any]]
+    consensus: dict[str, Any] | None = Field(..., description=(
+        "Scores of the consensus; null when every observation was excluded."))
+    methods: dict[str, dict[str, Any]]
+    caution: str
+
+
+# -- sites: requests ------------------------------------------------------------------
+class RoadThresholds(RequestModel):
+    """Per-site alert thresholds (all optional; defaults in ``ptype.roads.alerts.rules``)."""
+
+    freezing_probability: float | None = Field(None, ge=0, le=1)
+    freezing_window_hours: float | None = Field(None, gt=0, le=48)
+    accretion_mm: float | None = Field(None, gt=0, le=100)
+    frost: bool | None = None
+    frost_window_hours: float | None = Field(None, gt=0, le=48)
+    snow_rate_mm_h: float | None = Field(None, gt=0, le=50)
+    snow_probability: float | None = Field(None, ge=0, le=1)
+    snow_window_hours: float | None = Field(None, gt=0, le=48)
+
+
+class SiteIn(RequestModel):
+    name: str = Field(..., min_length=1, max_length=200)
+    latitude: float = Field(..., ge=-90, le=90)
+    longitude: float = Field(..., ge=-180, le=180)
+    elevation_m: float | None = Field(None, ge=-500, le=9000)
+    code: str | None = Field(None, min_length=1, max_length=100,
+                             description="Your own identifier for the site (unique).")
+    thresholds: RoadThresholds | None = None
+
+
+class ProfilesIn(RequestModel):
+    profiles: list[dict[str, Any]] = Field(..., min_length=1)
+    issued_time: datetime | None = None
+    source: str | None = Field(None, min_length=1, max_length=200)
+
+
+class ObservationIn(RequestModel):
+    time: datetime
+    air_temperature_c: float | None = Field(None, ge=-80, le=60)
+    dewpoint_c: float | None = Field(None, ge=-100, le=60)
+    road_surface_temperature_c: float | None = Field(None, ge=-80, le=90)
+    precipitation_rate_mm_h: float | None = Field(None, ge=0, le=500)
+    wind_speed_m_s: float | None = Field(None, ge=0, le=120)
+    present_weather: str | None = Field(None, max_length=40)
+
+    @field_validator("dewpoint_c")
+    @classmethod
+    def _dewpoint(cls, v: float | None, info: ValidationInfo) -> float | None:
+        # A dew point above the air temperature is a faulty report; the half degree of slack
+        # keeps rounded reports of saturated air (ours).
+        t = info.data.get("air_temperature_c")
+        if v is not None and t is not None and v > t + 0.5:
+            raise ValueError(f"dew point {v} degC is above the air temperature {t} degC")
+        return v
+
+
+class ObservationsIn(RequestModel):
+    observations: list[ObservationIn] = Field(..., min_length=1, max_length=1000)
+
+
+# -- sites: responses and query options ------------------------------------------------
+class SiteOut(ResponseModel):
+    """A stored site."""
+
+    id: int
+    name: str
+    latitude: float
+    longitude: float
+    elevation_m: float | None = None
+    code: str | None = None
+    thresholds: dict[str, Any] | None = None
+
+
+class SiteList(ResponseModel):
+    sites: list[SiteOut]
+
+
+class IngestResult(ResponseModel):
+    """What a write stored and the alert actions it triggered."""
+
+    site_id: int
+    stored: int
+    alerts: list[dict[str, Any]] = Field(default_factory=list,
+                                         description="Alerts created, updated or cancelled.")
+
+
+class TimelineStep(ResponseModel):
+    valid_time: str
+    ptype: str
+    probabilities: dict[str, float]
+    hazards: dict[str, Any]
+
+
+class Timeline(ResponseModel):
+    """Steps, type transitions and hazard totals for one site; guidance only."""
+
+    steps: list[TimelineStep]
+    transitions: list[dict[str, Any]] = Field(
+        ..., description="`{time, from, to}` changes of type.")
+    totals: dict[str, Any]
+    caution: str
+
+
+class TimelineOptions(RequestModel):
+    hours: float | None = Field(12, gt=0, le=72, description="Length of the timeline, hours.")
+    step: str | None = Field("15min", description="Step between times, e.g. `15min`, `1h`.")
+    members: int | None = Field(None, ge=0, description="Monte-Carlo members per step.")
+    adjustments: str | None = Field(None, description=(
+        "Comma list of nowcast adjustments to apply (`observation,onset,melting`), or `none`; "
+        "default all (docs/nowcast.md)."))
+    now: str | None = Field(None, description="ISO 8601 time the timeline starts (default: now).")
+
+
+# -- alerts ----------------------------------------------------------------------------
+class AlertOut(ResponseModel):
+    """One alert and its latest message (CAP vocabulary for severity, certainty, urgency)."""
+
+    id: str
+    status: str = Field(..., description="`active`, `cancelled` or `expired`.")
+    event: str
+    onset: str | None = None
+    expires: str | None = None
+    sent: str
+    site: dict
+    severity: str
+    certainty: str
+    urgency: str
+    msg_type: str = Field(
+        ..., description="CAP msgType of the latest message: Alert, Update, Cancel.")
+    references: list
+
+
+class AlertList(ResponseModel):
+    alerts: list[AlertOut]
+    now: str
+    caution: str
+
+
+class AlertListOptions(RequestModel):
+    site: int | None = Field(None, description="Only this site's alerts.")
+    active: str | None = Field(None, description="`1` for active alerts only (default: active "
+                                                 "and recently ended).")
+
+
+class EvaluateResult(ResponseModel):
+    evaluated_sites: int
+    actions: list

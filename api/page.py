@@ -2,26 +2,15 @@
 
 from __future__ import annotations
 
-from flask import Blueprint, make_response, render_template
+from flask import Blueprint, Response, make_response, render_template
+from ptype.api.plumbing import secure_html
 
 from ptype.constants import CAUTION
 
 bp = Blueprint("page", __name__)
 
-#: The pages load nothing from elsewhere; the policy makes the browser hold them to it.
-CONTENT_SECURITY_POLICY = ("default-src 'self'; img-src 'self' blob: data:; style-src 'self'; "
-                           "script-src 'self'; connect-src 'self'; object-src 'none'; "
-                           "base-uri 'none'; form-action 'self'; frame-ancestors 'none'")
-
-
-def secure_html(response):
-    """Headers for an HTML page of the service."""
-    response.headers["Content-Security-Policy"] = CONTENT_SECURITY_POLICY
-    response.headers["X-Content-Type-Options"] = "nosniff"
-    response.headers["Referrer-Policy"] = "no-referrer"
-    return response
-
 
 @bp.get("/")
-def index():
+def index() -> Response:
+    """The forecaster page; it talks to the API from the browser."""
     return secure_html(make_response(render_template("index.html", caution=CAUTION)))

@@ -15,115 +15,37 @@ from __future__ import annotations
 
 from typing import Any
 
-from flask import Blueprint, current_app, jsonify, request
-from pydantic import Field
+from flask import Blueprint, Response, current_app, jsonify
+from ptype.api.errors import ApiError
+from ptype.api.examples import VERIFY_EXAMPLE
+from ptype.api.models import VERIFY_MEMBERS, VerifyReport, VerifyRequest
+from ptype.api.openapi import Operation
+from ptype.api.plumbing import request_json
 
-from api import models as m
-from api.errors import ApiError
-from ptype.profile.document import ProfileDocument
 from ptype.verify.manifest import cases_from_entries
 from ptype.verify.report import DEFAULT_SEED, run_verification
 
-bp = Blueprint("verify", __name__)
+bp = Blueprint("verify", __name__, url_prefix="/v1")
 
 BODY_FIELDS = ("cases", "members", "seed", "methods")
-DEFAULT_MEMBERS = 50
 
 
-# -- OpenAPI description (api.docs collects OPENAPI_OPERATIONS) -------------------------
-class VerifyCase(m._Model):
-    """One paired case: a profile and the present weather observed with it."""
-
-    profile: ProfileDocument
-    observed: str = Field(..., max_length=200, description=(
-        "Present weather as written in a METAR/SYNOP-style report, e.g. `-FZRA BR`, "
-        "`FZRA PL`, `+SN BLSN`, `NSW` (docs/verification.md has the mapping table)."),
-        examples=["-FZRA BR"])
-    valid_time: str | None = Field(None, description="ISO 8601 time; overrides the profile's.")
-    site: str | None = Field(None, description="Site name shown in the report.")
-
-
-class VerifyRequest(m._Model):
-    """Cases to verify and the Monte-Carlo settings."""
-
-    cases: list[VerifyCase] = Field(..., min_length=1, description=(
-        "Paired cases; at most the server's case limit (500 by default)."))
-    members: int | None = Field(DEFAULT_MEMBERS, ge=0, description=(
-        "Monte-Carlo members per case for the probabilities (0 = none). cases x members is "
-        "limited by the server (50 000 by default)."))
-    seed: int | None = Field(DEFAULT_SEED, ge=0, description="Seed of the members.")
-    methods: list[str] | str | None = Field(None, description="Methods to run (default all).")
-
-
-class VerifyReport(m._Open):
-    """The verification report (docs/verification.md describes every field)."""
-
-    n: int = Field(..., description="Verified cases.")
-    n_cases: int = Field(..., description="All cases sent.")
-    members: int
-    seed: int | None
-    order: list[str] = Field(..., description="Category order of the tables, Gerrity and RPS.")
-    excluded: dict[str, Any] = Field(..., description="count, reasons {reason: count}, cases.")
-    cases: list[dict[str, Any]]
-    consensus: dict[str, Any] | None = Field(..., description=(
-        "Scores of the consensus; null when every observation was excluded."))
-    methods: dict[str, dict[str, Any]]
-    caution: str
-
-
-_EXAMPLE_CASE_PROFILE = {
-    "levels": [
-        {"pressure_hpa": 990, "temperature_c": -2.4, "dewpoint_c": -3.0},
-        {"pressure_hpa": 900, "temperature_c": 1.5, "dewpoint_c": 1.0},
-        {"pressure_hpa": 850, "temperature_c": 4.2, "dewpoint_c": 3.8},
-        {"pressure_hpa": 800, "temperature_c": 1.0, "dewpoint_c": 0.6},
-        {"pressure_hpa": 700, "temperature_c": -6.5, "dewpoint_c": -7.2},
-        {"pressure_hpa": 500, "temperature_c": -23.0, "dewpoint_c": -26.0},
-    ]}
-
-OPENAPI_OPERATIONS = [
-    {"path": "/v1/verify", "method": "post", "id": "verify", "tag": "Verification",
-     "summary": "Score diagnoses against observed present weather",
-     "description": "Send paired cases (an inline profile document and the present weather "
-                    "observed with it). Each profile is diagnosed and the consensus and every "
-                    "method are scored: contingency table, accuracy, Heidke, Peirce and "
-                    "Gerrity scores, POD/FAR/CSI/bias per class and, for the Monte-Carlo "
-                    "probabilities, Brier and ranked probability scores and reliability "
-                    "data. Unverifiable observations are excluded and counted by reason.",
-     "body": {"application/json": {"model": VerifyRequest, "example": {
-         "cases": [{"profile": _EXAMPLE_CASE_PROFILE, "observed": "-FZRA BR"},
-                   {"profile": _EXAMPLE_CASE_PROFILE, "observed": "FZRA PL"}],
-         "members": 20, "seed": 0}}},
-     "ok": ("application/json", VerifyReport), "errors": (400, 413, 422)},
-]
-
-
-def init_app(app) -> None:
-    # Largest number of cases in one request.
-    app.config.setdefault("PTYPE_MAX_VERIFY_CASES", 500)
-    # Largest cases x members product in one request (bounds the work per request).
-    app.config.setdefault("PTYPE_MAX_VERIFY_MEMBER_COLUMNS", 50_000)
-
-
-def _whole(body: dict, name: str, default, low: int, high: int | None):
-    value = body.get(name, default)
-    if value is None and name == "seed":
-        return None
-    if isinstance(value, bool) or not isinstance(value, int):
-        raise ApiError(400, "invalid_field", f"{name}: expected a whole number, got "
-                       f"{type(value).__name__}", name)
-    if value < low or (high is not None and value > high):
-        limit = f"{low} to {high}" if high is not None else f"{low} or more"
-        raise ApiError(400, "invalid_field", f"{name} = {value}: expected {limit}", name)
-    return value
-
-
-@bp.post("/v1/verify")
-def verify():
-    body = request.get_json(silent=True)
-    if body is None:
-        raise ApiError(400, "invalid_json", "request body must be JSON (Content-Type: "
-                       "application/json) holding {\"cases\": [...]}")
+@bp.post("/verify")
+@Operation(
+    id="verify", tag="Verification",
+    summary="Score diagnoses against observed present weather",
+    description="Send paired cases (an inline profile document and the present weather "
+                "observed with it). Each profile is diagnosed and the consensus and every "
+                "method are scored: contingency table, accuracy, Heidke, Peirce and "
+                "Gerrity scores, POD/FAR/CSI/bias per class and, for the Monte-Carlo "
+                "probabilities, Brier and ranked probability scores and reliability "
+                "data. Unverifiable observations are excluded and counted by reason.",
+    body={"application/json": {"schema": VerifyRequest, "example": VERIFY_EXAMPLE}},
+    ok=VerifyReport, errors=(400, 413, 422))
+def verify() -> Response:
+    """Diagnose and score the cases of the body; the answer is the verification report."""
+    body = request_json("invalid_json", "request body must be JSON (Content-Type: "
+                        "application/json) holding {\"cases\": [...]}")
     if not isinstance(body, dict):
         raise ApiError(400, "invalid_body", f"request body must be a JSON object, got "
                        f"{type(body).__name__}")
@@ -131,17 +53,8 @@ def verify():
         if key not in BODY_FIELDS:
             raise ApiError(400, "unknown_field", f"{key}: unknown field; expected "
                            f"{', '.join(BODY_FIELDS)}", key)
-    cases = body.get("cases")
-    if not isinstance(cases, list):
-        raise ApiError(400, "invalid_field", "cases: required, a list of {\"profile\": "
-                       "<profile document>, \"observed\": \"...\"} objects", "cases")
-    max_cases = int(current_app.config["PTYPE_MAX_VERIFY_CASES"])
-    if not cases:
-        raise ApiError(400, "invalid_field", "cases: expected at least one case", "cases")
-    if len(cases) > max_cases:
-        raise ApiError(400, "too_many_cases", f"cases: {len(cases)} cases, more than the limit "
-                       f"of {max_cases} per request", "cases")
-    members = _whole(body, "members", DEFAULT_MEMBERS, 0,
+    cases = _cases(body)
+    members = _whole(body, "members", VERIFY_MEMBERS, 0,
                      int(current_app.config["PTYPE_MAX_MEMBERS"]))
     budget = int(current_app.config["PTYPE_MAX_VERIFY_MEMBER_COLUMNS"])
     if members * len(cases) > budget:
@@ -154,6 +67,48 @@ def verify():
             isinstance(methods, list) and all(isinstance(m, str) for m in methods))):
         raise ApiError(400, "invalid_field", "methods: expected a list of method names",
                        "methods")
+    _check_levels(cases)
+    parsed = cases_from_entries(cases, name="cases", allow_paths=False)
+    report = run_verification(parsed, members=members, seed=seed, methods=methods,
+                              source="request")
+    return jsonify(report)
+
+
+def _cases(body: dict[str, Any]) -> list[Any]:
+    """The ``cases`` list: present, not empty, within ``PTYPE_MAX_VERIFY_CASES``."""
+    cases = body.get("cases")
+    if not isinstance(cases, list):
+        raise ApiError(400, "invalid_field", "cases: required, a list of {\"profile\": "
+                       "<profile document>, \"observed\": \"...\"} objects", "cases")
+    max_cases = int(current_app.config["PTYPE_MAX_VERIFY_CASES"])
+    if not cases:
+        raise ApiError(400, "invalid_field", "cases: expected at least one case", "cases")
+    if len(cases) > max_cases:
+        raise ApiError(400, "too_many_cases", f"cases: {len(cases)} cases, more than the limit "
+                       f"of {max_cases} per request", "cases")
+    return cases
+
+
+def _whole(body: dict[str, Any], name: str, default: int, low: int,
+           high: int | None) -> int | None:
+    """The whole number ``body[name]`` (``default`` when absent) within ``low``..``high``.
+
+    A null ``seed`` stays None (no seed); anything else that is not whole is a 400.
+    """
+    value = body.get(name, default)
+    if value is None and name == "seed":
+        return None
+    if isinstance(value, bool) or not isinstance(value, int):
+        raise ApiError(400, "invalid_field", f"{name}: expected a whole number, got "
+                       f"{type(value).__name__}", name)
+    if value < low or (high is not None and value > high):
+        limit = f"{low} to {high}" if high is not None else f"{low} or more"
+        raise ApiError(400, "invalid_field", f"{name} = {value}: expected {limit}", name)
+    return value
+
+
+def _check_levels(cases: list[Any]) -> None:
+    """Refuse a case whose profile has more levels than ``PTYPE_MAX_LEVELS``."""
     max_levels = int(current_app.config["PTYPE_MAX_LEVELS"])
     for i, case in enumerate(cases):
         profile = case.get("profile") if isinstance(case, dict) else None
@@ -162,7 +117,3 @@ def verify():
             raise ApiError(400, "too_many_levels", f"cases[{i}].profile.levels: {len(levels)} "
                            f"levels, more than the limit of {max_levels}",
                            f"cases[{i}].profile.levels")
-    parsed = cases_from_entries(cases, name="cases", allow_paths=False)
-    report = run_verification(parsed, members=members, seed=seed, methods=methods,
-                              source="request")
-    return jsonify(report)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import subprocess
 import time
+from collections.abc import Callable
 from pathlib import Path
 
 
@@ -12,9 +13,11 @@ def code_version() -> dict:
     root = Path(__file__).resolve().parents[1]
     try:
         head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], cwd=root,
-                              capture_output=True, text=True, timeout=10, check=False).stdout.strip()
+                              capture_output=True, text=True, timeout=10,
+                              check=False).stdout.strip()
         dirty = subprocess.run(["git", "status", "--porcelain", "--", "ptype"], cwd=root,
-                               capture_output=True, text=True, timeout=10, check=False).stdout.split("\n")
+                               capture_output=True, text=True, timeout=10,
+                               check=False).stdout.split("\n")
     except (OSError, subprocess.SubprocessError):
         return {"commit": None, "uncommitted_ptype_files": None}
     return {"commit": head or None,
@@ -22,7 +25,7 @@ def code_version() -> dict:
                                               if line.strip() and not line.startswith("??"))}
 
 
-def best_of(fn, repeat: int = 3) -> float:
+def best_of(fn: Callable[[], object], repeat: int = 3) -> float:
     """Best wall time of ``repeat`` runs (the machine may be shared: best is least disturbed)."""
     best = float("inf")
     for _ in range(repeat):

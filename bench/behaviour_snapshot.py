@@ -60,6 +60,7 @@ def _demo_files() -> list[Path]:
 
 
 def snap_diagnose() -> dict:
+    """``ptype.diagnose`` of every demo sounding, both wet-bulb kinds, 30 members."""
     import ptype
     out = {}
     for path in _demo_files():
@@ -70,6 +71,7 @@ def snap_diagnose() -> dict:
 
 
 def snap_many() -> dict:
+    """``ptype.diagnose_many`` over the demo JSON soundings."""
     import ptype
     paths = [str(p) for p in sorted((DEMO / "json").glob("*.json"))]
     return {str(i): d.to_dict() for i, d in enumerate(ptype.diagnose_many(paths, members=20,
@@ -77,6 +79,7 @@ def snap_many() -> dict:
 
 
 def snap_grid() -> dict:
+    """Every output variable of the diagnosed demo grid, by sha256 of its bytes."""
     from ptype import grid
     ds = grid.open_grid(str(DEMO / "grid" / "demo_grid.nc"))
     out = grid.diagnose_dataset(ds, members=4, seed=1, per_method=True).compute()
@@ -101,6 +104,7 @@ def _nowcast():
 
 
 def snap_timeline() -> dict:
+    """Each demo site's series as a timeline at the demo clock."""
     import ptype
     from ptype.clock import parse_time
     nowcast = _nowcast()
@@ -113,6 +117,7 @@ def snap_timeline() -> dict:
 
 
 def snap_verify() -> dict:
+    """The verification report of the demo cases."""
     from ptype.verify import read_manifest, run_verification
     cases = read_manifest(DEMO / "verification" / "cases.csv")
     result = run_verification(cases, members=10, seed=5)
@@ -151,9 +156,10 @@ def _normalised(body):
 
 
 def snap_api() -> dict:
+    """Status, media type and body of fixed requests to a fresh demo service."""
     with tempfile.TemporaryDirectory() as tmp:
         os.environ["PTYPE_DATA_DIR"] = tmp
-        from api import create_app
+        from ptype.api import create_app
         app = create_app({"PTYPE_DATA_DIR": tmp, "TESTING": True, "PTYPE_DEMO": True,
                           "PTYPE_NOW": NOW, "PTYPE_ALERT_MEMBERS": 5})
         client = app.test_client()
@@ -185,7 +191,7 @@ def snap_api() -> dict:
                 lines = sorted(text.splitlines())
                 entry["sha256"] = hashlib.sha256("\n".join(lines).encode()).hexdigest()
             out[f"{i:02d} {method} {url} {demo_file or (body and body[0]) or ''}"] = entry
-        from api.sites import store_for
+        from ptype.api.sites import store_for
         store_for(app).dispose()
     return out
 
@@ -210,7 +216,8 @@ def _diff(a, b, path="", out=None):
     return out
 
 
-def main(argv=None) -> int:
+def main(argv: list[str] | None = None) -> int:
+    """Take a snapshot, or compare two; exit status 1 when they differ."""
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("paths", nargs="+")
     parser.add_argument("--compare", action="store_true")

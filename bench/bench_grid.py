@@ -150,6 +150,7 @@ def reference_single_profile(path: Path, n: int = 200) -> dict:
 
 
 def profile_kernel(path: Path, columns: int = 32768) -> dict:
+    """Where the time of one kernel call on ``columns`` columns of the grid goes."""
     import xarray as xr
 
     from ptype import grid
@@ -188,7 +189,8 @@ def profile_kernel(path: Path, columns: int = 32768) -> dict:
             "cumulative_s": stages}
 
 
-def main(argv=None) -> dict:
+def main(argv: list[str] | None = None) -> dict:
+    """Run the benchmark, write bench/results/grid.json (grid_quick.json) and return it."""
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true",
                     help="small grids (1/16 of the sizes) for a smoke run")

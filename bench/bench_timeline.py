@@ -38,6 +38,7 @@ T0 = datetime(2026, 1, 27, tzinfo=UTC)
 
 
 def series() -> list[Profile]:
+    """One demo site's series, or a synthetic 24-hour series without the demo tree."""
     manifest = ROOT / "soundings_demo" / "series" / "manifest.json"
     if manifest.is_file():
         m = json.loads(manifest.read_text())
@@ -55,7 +56,8 @@ def series() -> list[Profile]:
     return out
 
 
-def main(argv=None) -> dict:
+def main(argv: list[str] | None = None) -> dict:
+    """Run the benchmark, write bench/results/timeline.json and return it."""
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--members", type=int, default=20)
     args = ap.parse_args(argv)
@@ -89,8 +91,8 @@ def main(argv=None) -> dict:
     loop = best_of(one_by_one)
 
     # Ingest latency through the app (observation post + alert evaluation).
-    from api import create_app
-    from api.sites import store_for
+    from ptype.api import create_app
+    from ptype.api.sites import store_for
     from ptype.store import keys
     with tempfile.TemporaryDirectory() as d:
         app = create_app({"PTYPE_DATA_DIR": d, "PTYPE_NOW": now.isoformat()})

@@ -22,6 +22,7 @@ import os
 import platform
 import time
 import warnings
+from collections.abc import Callable
 from pathlib import Path
 
 import numpy as np
@@ -36,7 +37,8 @@ TARGET_RATIO_METPY = 40_000
 from _common import best_of, code_version  # sibling module of the scripts
 
 
-def population(n: int, seed: int = 0):
+def population(n: int, seed: int = 0) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``n`` random (p hPa, T degC, Td degC) over the range soundings cover."""
     rng = np.random.default_rng(seed)
     p = rng.uniform(300.0, 1050.0, n)
     t = rng.uniform(-40.0, 35.0, n)
@@ -44,14 +46,15 @@ def population(n: int, seed: int = 0):
     return p, t, thermo.dewpoint_from_relative_humidity_c(t, rh)
 
 
-def cpu_seconds(fn) -> float:
+def cpu_seconds(fn: Callable[[], object]) -> float:
     """Process CPU time (all threads) of one run: a load-independent cost measure."""
     c0 = time.process_time()
     fn()
     return time.process_time() - c0
 
 
-def main(argv=None) -> dict:
+def main(argv: list[str] | None = None) -> dict:
+    """Run the benchmark, write bench/results/wetbulb.json and return it."""
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--points", type=int, default=20_000_000)
     ap.add_argument("--metpy-points", type=int, default=300)

@@ -51,7 +51,8 @@ def profile_document(n_levels: int = 60) -> dict:
         p = math.exp(math.log(1000.0) + (math.log(300.0) - math.log(1000.0)) * i / (n_levels - 1))
         for k in range(len(knots_p) - 1):
             if knots_p[k] >= p >= knots_p[k + 1]:
-                f = (math.log(knots_p[k]) - math.log(p)) / (math.log(knots_p[k]) - math.log(knots_p[k + 1]))
+                f = ((math.log(knots_p[k]) - math.log(p))
+                     / (math.log(knots_p[k]) - math.log(knots_p[k + 1])))
                 t = knots_t[k] + f * (knots_t[k + 1] - knots_t[k])
                 break
         depression = 0.5 if p > 450 else 12.0
@@ -63,12 +64,15 @@ def profile_document(n_levels: int = 60) -> dict:
 
 # -- server ------------------------------------------------------------------------------
 def free_port() -> int:
+    """A TCP port free on the loopback interface now."""
     with socket.socket() as s:
         s.bind(("127.0.0.1", 0))
         return s.getsockname()[1]
 
 
-def start_server(workers: int, data_dir: str, threads: int = 1):
+def start_server(workers: int, data_dir: str,
+                 threads: int = 1) -> tuple[subprocess.Popen, str]:
+    """Start ``ptype serve`` in its own process group; the process and its URL."""
     port = free_port()
     ptype_bin = Path(sys.executable).with_name("ptype")
     env = dict(os.environ, PTYPE_DATA_DIR=data_dir)
@@ -92,7 +96,8 @@ def start_server(workers: int, data_dir: str, threads: int = 1):
     raise RuntimeError("server did not answer /healthz within 90 s")
 
 
-def stop_server(proc) -> None:
+def stop_server(proc: subprocess.Popen) -> None:
+    """Stop the server's whole process group."""
     if proc.poll() is None:
         os.killpg(proc.pid, signal.SIGTERM)
         try:
@@ -138,6 +143,7 @@ def _wrk_ms(text: str) -> float:
 
 
 def run_wrk(url: str, path: str, body: bytes | None, connections: int, duration: float) -> dict:
+    """Load ``url + path`` with wrk; throughput and latency percentiles."""
     with tempfile.TemporaryDirectory() as tmp:
         script = Path(tmp) / "req.lua"
         if body is not None:
@@ -147,7 +153,8 @@ def run_wrk(url: str, path: str, body: bytes | None, connections: int, duration:
             script.write_text('wrk.method = "GET"\n')
         out = subprocess.run(["wrk", "-t", "2", "-c", str(connections), "-d", f"{int(duration)}s",
                               "--timeout", "10s", "--latency", "-s", str(script), url + path],
-                             capture_output=True, text=True, timeout=duration + 60, check=False).stdout
+                             capture_output=True, text=True, timeout=duration + 60,
+                             check=False).stdout
     pct = {m.group(1): _wrk_ms(m.group(2))
            for m in re.finditer(r"^\s+(50|75|90|99)%\s+(\S+)", out, re.MULTILINE)}
     total = int(re.search(r"(\d+) requests in", out).group(1))
@@ -160,7 +167,9 @@ def run_wrk(url: str, path: str, body: bytes | None, connections: int, duration:
             "errors": errors, "raw": out.strip().splitlines()}
 
 
-def run_threads(url: str, path: str, body: bytes | None, connections: int, duration: float) -> dict:
+def run_threads(url: str, path: str, body: bytes | None, connections: int,
+                duration: float) -> dict:
+    """Load ``url + path`` from Python threads (when wrk is missing); same summary."""
     import http.client
     from urllib.parse import urlparse
     host = urlparse(url)
@@ -215,7 +224,7 @@ def stage_timings(document: dict, repeat: int = 40) -> dict:
     """Mean milliseconds of each stage of one request, measured in this process."""
     sys.path.insert(0, str(ROOT))
     import ptype
-    from api import create_app
+    from ptype.api import create_app
     from ptype.profile.document import parse_document
 
     body = json.dumps(document)
@@ -298,7 +307,8 @@ def _engine_hotspots(profile, top: int = 15) -> list[dict]:
 
 
 # -- main ------------------------------------------------------------------------------------
-def main(argv=None) -> int:
+def main(argv: list[str] | None = None) -> int:
+    """Run the load test and write its results; exit status."""
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--duration", type=float, default=15.0, help="seconds per load run")
     parser.add_argument("--connections", type=int, default=16, help="concurrent clients")

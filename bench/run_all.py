@@ -19,6 +19,7 @@ HERE = Path(__file__).resolve().parent
 
 
 def scripts(names: list[str] | None = None) -> list[Path]:
+    """The benchmark scripts of this folder (all, or those named)."""
     found = sorted(p for p in HERE.glob("*.py")
                    if p.name != Path(__file__).name and not p.name.startswith("_"))
     if names:
@@ -32,6 +33,7 @@ def scripts(names: list[str] | None = None) -> list[Path]:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Run every benchmark (or those named) and print a summary; exit status."""
     argv = sys.argv[1:] if argv is None else argv
     summary = []
     for path in scripts(argv):

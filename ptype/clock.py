@@ -38,7 +38,8 @@ def parse_time(value: Any, field: str = "time") -> datetime:
 
 
 def utcnow(config: Mapping[str, Any] | None = None) -> datetime:
-    """The current time (aware UTC), or the fixed ``PTYPE_NOW`` from ``config`` or the environment."""
+    """The current time (aware UTC), or the fixed ``PTYPE_NOW`` from ``config`` or the
+    environment."""
     fixed = (config or {}).get("PTYPE_NOW") or os.environ.get("PTYPE_NOW")
     if fixed:
         return parse_time(fixed, "PTYPE_NOW")

@@ -45,7 +45,7 @@ import json
 import math
 import sys
 import zlib
-from datetime import datetime, timedelta, timezone
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
 import numpy as np
@@ -54,9 +54,9 @@ HERE = Path(__file__).resolve().parent
 if str(HERE.parent) not in sys.path:  # allow running from a source checkout
     sys.path.insert(0, str(HERE.parent))
 
-from ptype import thermo  # noqa: E402
-from ptype.engine.layers import analyse_layers, cloud_mask, level_runs  # noqa: E402
-from ptype.readers.temp_format import write_temp  # noqa: E402
+from ptype import thermo
+from ptype.engine.layers import analyse_layers, cloud_mask, level_runs
+from ptype.readers.temp_format import write_temp
 
 # --- the invented region -------------------------------------------------------------------
 
@@ -107,9 +107,9 @@ SITES = [
 ]
 SITE_BY_ID = {s["id"]: s for s in SITES}
 
-STORM_DAY = datetime(2026, 1, 27, tzinfo=timezone.utc)
+STORM_DAY = datetime(2026, 1, 27, tzinfo=UTC)
 ISSUED = STORM_DAY  # the demo model run starts at 00 UTC
-SERIES_HOURS = range(0, 25)
+SERIES_HOURS = range(25)
 CASE_SOURCE = "invented demo profile"
 SERIES_SOURCE = "demo model run"
 
@@ -211,7 +211,8 @@ def _noise(key: str, n: int, scale: float) -> np.ndarray:
     return rng.normal(0.0, scale, n)
 
 
-def build_profile(site: dict, prm: dict, key: str, temp_code: bool):
+def build_profile(site: dict, prm: dict, key: str,
+                  temp_code: bool) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Arrays (p, z, t, td) for one profile."""
     p = pressure_levels(prm["p_sfc"], standard_near_ground=temp_code)
     t = temperature_profile(p, prm)
@@ -230,7 +231,8 @@ def build_profile(site: dict, prm: dict, key: str, temp_code: bool):
     return p, np.round(z, 1), t, td
 
 
-def check_physics(name: str, p, z, t, td) -> None:
+def check_physics(name: str, p: np.ndarray, z: np.ndarray, t: np.ndarray,
+                  td: np.ndarray) -> None:
     """Refuse a profile that breaks the physical rules of the demo set."""
     if not 25 <= p.size <= 60:
         raise SystemExit(f"{name}: {p.size} levels; the demo wants 25-60")
@@ -252,20 +254,21 @@ def check_physics(name: str, p, z, t, td) -> None:
 #: near-isothermal frontal zone above it, hPa; cloud_base/cloud_top: pressure bounds of the
 #: deep cloud; dep_dry: dew-point depression of the dry air.
 ALOFT = {
-    0: dict(p_nose=850.0, t_nose=-8.0, nose_depth=0.0, cloud_base=420.0, cloud_top=150.0,
-            dep_dry=16.0),
-    4: dict(t_nose=-7.5, cloud_top=300.0),
-    6: dict(t_nose=-5.5, cloud_base=640.0, cloud_top=330.0),
-    8: dict(p_nose=845.0, t_nose=-2.5, nose_depth=20.0, cloud_base=1050.0, cloud_top=380.0),
-    10: dict(p_nose=840.0, t_nose=0.8, nose_depth=50.0),
-    12: dict(p_nose=835.0, t_nose=2.4, nose_depth=70.0),
-    14: dict(p_nose=830.0, t_nose=4.2),
-    16: dict(t_nose=5.8),
-    18: dict(t_nose=6.5, cloud_top=400.0),
-    20: dict(cloud_top=620.0, dep_dry=14.0),
-    21: dict(cloud_top=820.0),
-    22: dict(cloud_top=885.0),
-    24: dict(p_nose=845.0, t_nose=6.0, nose_depth=60.0, cloud_top=900.0),
+    0: {"p_nose": 850.0, "t_nose": -8.0, "nose_depth": 0.0, "cloud_base": 420.0, "cloud_top": 150.0,
+        "dep_dry": 16.0},
+    4: {"t_nose": -7.5, "cloud_top": 300.0},
+    6: {"t_nose": -5.5, "cloud_base": 640.0, "cloud_top": 330.0},
+    8: {"p_nose": 845.0, "t_nose": -2.5, "nose_depth": 20.0, "cloud_base": 1050.0,
+        "cloud_top": 380.0},
+    10: {"p_nose": 840.0, "t_nose": 0.8, "nose_depth": 50.0},
+    12: {"p_nose": 835.0, "t_nose": 2.4, "nose_depth": 70.0},
+    14: {"p_nose": 830.0, "t_nose": 4.2},
+    16: {"t_nose": 5.8},
+    18: {"t_nose": 6.5, "cloud_top": 400.0},
+    20: {"cloud_top": 620.0, "dep_dry": 14.0},
+    21: {"cloud_top": 820.0},
+    22: {"cloud_top": 885.0},
+    24: {"p_nose": 845.0, "t_nose": 6.0, "nose_depth": 60.0, "cloud_top": 900.0},
 }
 
 #: Sea-level pressure as the low approaches, hPa.
@@ -278,113 +281,124 @@ MSLP = {0: 1026.0, 6: 1021.0, 12: 1012.0, 18: 1004.0, 24: 1001.0}
 #: ``shift`` delays the regional evolution aloft (hours); ``aloft`` adds site corrections.
 LOW = {
     # The sea keeps the causeway mild: a shallow warm surface layer melts the snow early.
-    "sennet-causeway": dict(shift=-1.5, aloft={}, knots={
-        0: dict(t_sfc=2.6, ib_agl=20.0, t_ib=3.2, dep_sfc=2.0, dep_sub=6.0,
-                rate=0.0, wind=2.0, road=-1.8),
-        5: dict(t_sfc=2.0, ib_agl=20.0, t_ib=2.6, dep_sfc=1.8, rate=0.0, wind=4.0, road=-1.2),
-        6: dict(t_sfc=0.6, ib_agl=40.0, t_ib=-2.0, dep_sfc=1.0, dep_sub=3.0,
-                rate=0.4, wind=7.0, road=-0.2),
-        7: dict(t_sfc=1.8, ib_agl=45.0, t_ib=-0.8, dep_sfc=1.0, dep_sub=1.5,
-                rate=1.2, wind=9.0, road=0.0),
-        9: dict(t_sfc=3.8, ib_agl=35.0, t_ib=1.5, dep_sfc=0.6, rate=2.2, wind=12.0, road=0.3),
-        12: dict(t_sfc=6.0, ib_agl=30.0, t_ib=4.5, dep_sfc=0.5, rate=3.0, wind=15.0),
-        18: dict(t_sfc=7.5, ib_agl=30.0, t_ib=6.0, rate=2.5, wind=16.0),
-        20: dict(rate=1.0, dep_sub=1.0),
-        22: dict(t_sfc=7.2, rate=0.3, wind=13.0),
-        24: dict(t_sfc=7.0, ib_agl=30.0, t_ib=5.5, dep_sfc=0.5, dep_sub=0.8,
-                 rate=0.2, wind=11.0, road=0.3),
-    }),
+    "sennet-causeway": {"shift": -1.5, "aloft": {}, "knots": {
+        0: {"t_sfc": 2.6, "ib_agl": 20.0, "t_ib": 3.2, "dep_sfc": 2.0, "dep_sub": 6.0, "rate": 0.0,
+            "wind": 2.0, "road": -1.8},
+        5: {"t_sfc": 2.0, "ib_agl": 20.0, "t_ib": 2.6, "dep_sfc": 1.8, "rate": 0.0, "wind": 4.0,
+            "road": -1.2},
+        6: {"t_sfc": 0.6, "ib_agl": 40.0, "t_ib": -2.0, "dep_sfc": 1.0, "dep_sub": 3.0, "rate": 0.4,
+            "wind": 7.0, "road": -0.2},
+        7: {"t_sfc": 1.8, "ib_agl": 45.0, "t_ib": -0.8, "dep_sfc": 1.0, "dep_sub": 1.5, "rate": 1.2,
+            "wind": 9.0, "road": 0.0},
+        9: {"t_sfc": 3.8, "ib_agl": 35.0, "t_ib": 1.5, "dep_sfc": 0.6, "rate": 2.2, "wind": 12.0,
+            "road": 0.3},
+        12: {"t_sfc": 6.0, "ib_agl": 30.0, "t_ib": 4.5, "dep_sfc": 0.5, "rate": 3.0, "wind": 15.0},
+        18: {"t_sfc": 7.5, "ib_agl": 30.0, "t_ib": 6.0, "rate": 2.5, "wind": 16.0},
+        20: {"rate": 1.0, "dep_sub": 1.0},
+        22: {"t_sfc": 7.2, "rate": 0.3, "wind": 13.0},
+        24: {"t_sfc": 7.0, "ib_agl": 30.0, "t_ib": 5.5, "dep_sfc": 0.5, "dep_sub": 0.8, "rate": 0.2,
+             "wind": 11.0, "road": 0.3},
+    }},
     # Cold air drains into the enclosed valley and stays: hours of freezing rain, then
     # freezing drizzle from stratus trapped in the cold pool under the dry slot.
-    "mistleby-bridge": dict(shift=0.0, aloft={}, knots={
-        0: dict(t_sfc=-4.5, ib_agl=30.0, t_ib=-1.5, dep_sfc=2.0, dep_sub=8.0,
-                rate=0.0, wind=0.5, road=-3.4),
-        5: dict(t_sfc=-6.0, ib_agl=35.0, t_ib=-2.5, dep_sfc=2.0, rate=0.0, wind=0.5, road=-3.6),
-        7: dict(t_sfc=-5.5, ib_agl=80.0, t_ib=-9.0, dep_sfc=1.5, dep_sub=3.0,
-                rate=0.0, wind=1.5, road=-1.5),
-        8: dict(t_sfc=-5.0, ib_agl=85.0, t_ib=-9.5, dep_sfc=1.0, dep_sub=1.5,
-                rate=0.8, wind=2.0, road=-0.5),
-        12: dict(t_sfc=-4.5, ib_agl=80.0, t_ib=-9.0, rate=1.5, wind=3.0, road=-0.3),
-        14: dict(t_sfc=-3.2, ib_agl=60.0, t_ib=-3.8, rate=2.0),
-        16: dict(t_sfc=-2.4, ib_agl=45.0, t_ib=-2.8, rate=2.4, wind=3.5, road=-0.2),
-        19: dict(t_sfc=-1.6, ib_agl=35.0, t_ib=-1.8, rate=2.0),
-        21: dict(t_sfc=-1.2, ib_agl=30.0, t_ib=-1.4, rate=0.6, dep_sub=0.8),
-        22: dict(rate=0.3),
-        24: dict(t_sfc=-0.8, ib_agl=30.0, t_ib=-1.0, dep_sfc=0.4, dep_sub=0.6,
-                 rate=0.2, wind=3.0, road=-0.1),
-    }),
-    "ulmbrook-cutting": dict(shift=0.0, aloft={}, knots={
-        0: dict(t_sfc=-3.0, ib_agl=25.0, t_ib=-0.8, dep_sfc=1.8, dep_sub=8.0,
-                rate=0.0, wind=1.0, road=-3.0),
-        5: dict(t_sfc=-4.0, ib_agl=30.0, t_ib=-1.5, dep_sfc=1.8, rate=0.0, wind=1.0, road=-3.0),
-        7: dict(t_sfc=-3.8, ib_agl=70.0, t_ib=-8.5, dep_sfc=1.5, dep_sub=3.0,
-                rate=0.0, wind=3.0, road=-1.0),
-        8: dict(t_sfc=-3.6, ib_agl=75.0, t_ib=-8.8, dep_sfc=1.0, dep_sub=1.5,
-                rate=1.0, wind=4.0, road=-0.3),
-        12: dict(t_sfc=-3.0, ib_agl=70.0, t_ib=-8.2, rate=1.8, wind=6.0, road=0.0),
-        14: dict(t_sfc=-1.6, ib_agl=45.0, t_ib=-2.2, rate=2.2, wind=7.0),
-        15: dict(t_sfc=-0.8, ib_agl=35.0, t_ib=-1.2, rate=2.5, wind=8.0, road=0.2),
-        16: dict(t_sfc=1.0, ib_agl=30.0, t_ib=0.6, rate=2.5),
-        18: dict(t_sfc=3.5, ib_agl=30.0, t_ib=3.2, rate=2.0, wind=9.0),
-        20: dict(rate=0.8, dep_sub=0.8),
-        22: dict(t_sfc=4.0, rate=0.3),
-        24: dict(t_sfc=4.2, ib_agl=30.0, t_ib=4.0, dep_sfc=0.5, dep_sub=0.6,
-                 rate=0.2, wind=7.0, road=0.4),
-    }),
-    "tessary-viaduct": dict(shift=0.5, aloft={}, knots={
-        0: dict(t_sfc=-3.5, ib_agl=25.0, t_ib=-1.2, dep_sfc=2.0, dep_sub=9.0,
-                rate=0.0, wind=1.5, road=-3.4),
-        5: dict(t_sfc=-4.5, ib_agl=30.0, t_ib=-2.0, dep_sfc=2.0, rate=0.0, wind=1.5, road=-3.6),
-        7: dict(t_sfc=-4.2, ib_agl=65.0, t_ib=-8.5, dep_sfc=1.5, dep_sub=3.0,
-                rate=0.0, wind=3.0, road=-1.5),
-        8: dict(t_sfc=-4.0, ib_agl=70.0, t_ib=-8.8, dep_sfc=1.0, dep_sub=1.5,
-                rate=0.9, wind=5.0, road=-0.6),
-        12.5: dict(t_sfc=-3.4, ib_agl=65.0, t_ib=-8.4, dep_sfc=0.8, rate=1.8, wind=7.0, road=-0.3),
-        14.5: dict(t_sfc=-1.8, ib_agl=40.0, t_ib=-2.2, rate=2.2, wind=8.0),
-        16: dict(t_sfc=-0.6, ib_agl=30.0, t_ib=-1.0, rate=2.4, wind=9.0, road=-0.1),
-        17: dict(t_sfc=1.2, ib_agl=30.0, t_ib=0.8, rate=2.4),
-        19: dict(t_sfc=3.0, ib_agl=30.0, t_ib=3.0, rate=1.8, wind=10.0, road=0.3),
-        21: dict(rate=0.6, dep_sub=0.8),
-        24: dict(t_sfc=3.5, ib_agl=30.0, t_ib=3.6, dep_sfc=0.5, dep_sub=0.6, rate=0.2, wind=8.0),
-    }),
+    "mistleby-bridge": {"shift": 0.0, "aloft": {}, "knots": {
+        0: {"t_sfc": -4.5, "ib_agl": 30.0, "t_ib": -1.5, "dep_sfc": 2.0, "dep_sub": 8.0,
+            "rate": 0.0, "wind": 0.5, "road": -3.4},
+        5: {"t_sfc": -6.0, "ib_agl": 35.0, "t_ib": -2.5, "dep_sfc": 2.0, "rate": 0.0, "wind": 0.5,
+            "road": -3.6},
+        7: {"t_sfc": -5.5, "ib_agl": 80.0, "t_ib": -9.0, "dep_sfc": 1.5, "dep_sub": 3.0,
+            "rate": 0.0, "wind": 1.5, "road": -1.5},
+        8: {"t_sfc": -5.0, "ib_agl": 85.0, "t_ib": -9.5, "dep_sfc": 1.0, "dep_sub": 1.5,
+            "rate": 0.8, "wind": 2.0, "road": -0.5},
+        12: {"t_sfc": -4.5, "ib_agl": 80.0, "t_ib": -9.0, "rate": 1.5, "wind": 3.0, "road": -0.3},
+        14: {"t_sfc": -3.2, "ib_agl": 60.0, "t_ib": -3.8, "rate": 2.0},
+        16: {"t_sfc": -2.4, "ib_agl": 45.0, "t_ib": -2.8, "rate": 2.4, "wind": 3.5, "road": -0.2},
+        19: {"t_sfc": -1.6, "ib_agl": 35.0, "t_ib": -1.8, "rate": 2.0},
+        21: {"t_sfc": -1.2, "ib_agl": 30.0, "t_ib": -1.4, "rate": 0.6, "dep_sub": 0.8},
+        22: {"rate": 0.3},
+        24: {"t_sfc": -0.8, "ib_agl": 30.0, "t_ib": -1.0, "dep_sfc": 0.4, "dep_sub": 0.6,
+             "rate": 0.2, "wind": 3.0, "road": -0.1},
+    }},
+    "ulmbrook-cutting": {"shift": 0.0, "aloft": {}, "knots": {
+        0: {"t_sfc": -3.0, "ib_agl": 25.0, "t_ib": -0.8, "dep_sfc": 1.8, "dep_sub": 8.0,
+            "rate": 0.0, "wind": 1.0, "road": -3.0},
+        5: {"t_sfc": -4.0, "ib_agl": 30.0, "t_ib": -1.5, "dep_sfc": 1.8, "rate": 0.0, "wind": 1.0,
+            "road": -3.0},
+        7: {"t_sfc": -3.8, "ib_agl": 70.0, "t_ib": -8.5, "dep_sfc": 1.5, "dep_sub": 3.0,
+            "rate": 0.0, "wind": 3.0, "road": -1.0},
+        8: {"t_sfc": -3.6, "ib_agl": 75.0, "t_ib": -8.8, "dep_sfc": 1.0, "dep_sub": 1.5,
+            "rate": 1.0, "wind": 4.0, "road": -0.3},
+        12: {"t_sfc": -3.0, "ib_agl": 70.0, "t_ib": -8.2, "rate": 1.8, "wind": 6.0, "road": 0.0},
+        14: {"t_sfc": -1.6, "ib_agl": 45.0, "t_ib": -2.2, "rate": 2.2, "wind": 7.0},
+        15: {"t_sfc": -0.8, "ib_agl": 35.0, "t_ib": -1.2, "rate": 2.5, "wind": 8.0, "road": 0.2},
+        16: {"t_sfc": 1.0, "ib_agl": 30.0, "t_ib": 0.6, "rate": 2.5},
+        18: {"t_sfc": 3.5, "ib_agl": 30.0, "t_ib": 3.2, "rate": 2.0, "wind": 9.0},
+        20: {"rate": 0.8, "dep_sub": 0.8},
+        22: {"t_sfc": 4.0, "rate": 0.3},
+        24: {"t_sfc": 4.2, "ib_agl": 30.0, "t_ib": 4.0, "dep_sfc": 0.5, "dep_sub": 0.6, "rate": 0.2,
+             "wind": 7.0, "road": 0.4},
+    }},
+    "tessary-viaduct": {"shift": 0.5, "aloft": {}, "knots": {
+        0: {"t_sfc": -3.5, "ib_agl": 25.0, "t_ib": -1.2, "dep_sfc": 2.0, "dep_sub": 9.0,
+            "rate": 0.0, "wind": 1.5, "road": -3.4},
+        5: {"t_sfc": -4.5, "ib_agl": 30.0, "t_ib": -2.0, "dep_sfc": 2.0, "rate": 0.0, "wind": 1.5,
+            "road": -3.6},
+        7: {"t_sfc": -4.2, "ib_agl": 65.0, "t_ib": -8.5, "dep_sfc": 1.5, "dep_sub": 3.0,
+            "rate": 0.0, "wind": 3.0, "road": -1.5},
+        8: {"t_sfc": -4.0, "ib_agl": 70.0, "t_ib": -8.8, "dep_sfc": 1.0, "dep_sub": 1.5,
+            "rate": 0.9, "wind": 5.0, "road": -0.6},
+        12.5: {"t_sfc": -3.4, "ib_agl": 65.0, "t_ib": -8.4, "dep_sfc": 0.8, "rate": 1.8,
+               "wind": 7.0, "road": -0.3},
+        14.5: {"t_sfc": -1.8, "ib_agl": 40.0, "t_ib": -2.2, "rate": 2.2, "wind": 8.0},
+        16: {"t_sfc": -0.6, "ib_agl": 30.0, "t_ib": -1.0, "rate": 2.4, "wind": 9.0, "road": -0.1},
+        17: {"t_sfc": 1.2, "ib_agl": 30.0, "t_ib": 0.8, "rate": 2.4},
+        19: {"t_sfc": 3.0, "ib_agl": 30.0, "t_ib": 3.0, "rate": 1.8, "wind": 10.0, "road": 0.3},
+        21: {"rate": 0.6, "dep_sub": 0.8},
+        24: {"t_sfc": 3.5, "ib_agl": 30.0, "t_ib": 3.6, "dep_sfc": 0.5, "dep_sub": 0.6, "rate": 0.2,
+             "wind": 8.0},
+    }},
     # The open plateau holds a deep, very cold layer under the nose: the longest ice-pellet spell.
-    "drovan-junction": dict(shift=1.0, aloft={}, knots={
-        0: dict(t_sfc=-6.0, ib_agl=20.0, t_ib=-4.0, dep_sfc=2.0, dep_sub=10.0,
-                rate=0.0, wind=2.0, road=-3.0),
-        5: dict(t_sfc=-7.0, ib_agl=25.0, t_ib=-5.0, dep_sfc=2.0, rate=0.0, wind=2.0, road=-3.2),
-        7: dict(t_sfc=-7.0, ib_agl=40.0, t_ib=-9.5, dep_sfc=1.5, dep_sub=3.0,
-                rate=0.0, wind=5.0, road=-1.2),
-        8: dict(t_sfc=-7.0, ib_agl=45.0, t_ib=-10.0, dep_sfc=1.0, dep_sub=1.5,
-                rate=1.0, wind=7.0, road=-0.5),
-        15: dict(t_sfc=-6.0, ib_agl=45.0, t_ib=-9.5, dep_sfc=0.8, rate=1.6, wind=10.0, road=-0.3),
-        17: dict(t_sfc=-2.8, ib_agl=25.0, t_ib=-3.2, rate=2.0, wind=11.0),
-        19.5: dict(t_sfc=-0.8, ib_agl=20.0, t_ib=-1.0, rate=2.0, wind=12.0, road=-0.1),
-        20.5: dict(t_sfc=1.2, ib_agl=20.0, t_ib=1.4, rate=1.5, dep_sub=0.8),
-        22: dict(t_sfc=2.5, t_ib=2.8, rate=0.4),
-        24: dict(t_sfc=3.0, ib_agl=20.0, t_ib=3.2, dep_sfc=0.5, dep_sub=0.6,
-                 rate=0.1, wind=11.0, road=0.3),
-    }),
+    "drovan-junction": {"shift": 1.0, "aloft": {}, "knots": {
+        0: {"t_sfc": -6.0, "ib_agl": 20.0, "t_ib": -4.0, "dep_sfc": 2.0, "dep_sub": 10.0,
+            "rate": 0.0, "wind": 2.0, "road": -3.0},
+        5: {"t_sfc": -7.0, "ib_agl": 25.0, "t_ib": -5.0, "dep_sfc": 2.0, "rate": 0.0, "wind": 2.0,
+            "road": -3.2},
+        7: {"t_sfc": -7.0, "ib_agl": 40.0, "t_ib": -9.5, "dep_sfc": 1.5, "dep_sub": 3.0,
+            "rate": 0.0, "wind": 5.0, "road": -1.2},
+        8: {"t_sfc": -7.0, "ib_agl": 45.0, "t_ib": -10.0, "dep_sfc": 1.0, "dep_sub": 1.5,
+            "rate": 1.0, "wind": 7.0, "road": -0.5},
+        15: {"t_sfc": -6.0, "ib_agl": 45.0, "t_ib": -9.5, "dep_sfc": 0.8, "rate": 1.6, "wind": 10.0,
+             "road": -0.3},
+        17: {"t_sfc": -2.8, "ib_agl": 25.0, "t_ib": -3.2, "rate": 2.0, "wind": 11.0},
+        19.5: {"t_sfc": -0.8, "ib_agl": 20.0, "t_ib": -1.0, "rate": 2.0, "wind": 12.0,
+               "road": -0.1},
+        20.5: {"t_sfc": 1.2, "ib_agl": 20.0, "t_ib": 1.4, "rate": 1.5, "dep_sub": 0.8},
+        22: {"t_sfc": 2.5, "t_ib": 2.8, "rate": 0.4},
+        24: {"t_sfc": 3.0, "ib_agl": 20.0, "t_ib": 3.2, "dep_sfc": 0.5, "dep_sub": 0.6, "rate": 0.1,
+             "wind": 11.0, "road": 0.3},
+    }},
     # The pass sits near 860 hPa.  Upslope flow keeps it cold: the nose arrives later, weaker
     # and higher there, so snow lasts longest and then turns to ice pellets; the deep cloud
     # over the range outlasts the dry slot.
-    "korrim-pass": dict(shift=3.0, aloft={
-        0: dict(dt_nose=0.0, p_nose=800.0, nose_depth=0.0, cloud_top=150.0),
-        6: dict(cloud_top=330.0),
-        9: dict(cloud_top=380.0),
-        10: dict(dt_nose=-2.5, p_nose=790.0),
-        16: dict(dt_nose=-4.0, p_nose=790.0, nose_depth=30.0),
-        24: dict(dt_nose=-4.0, p_nose=790.0, nose_depth=30.0, cloud_top=400.0),
-    }, knots={
-        0: dict(t_sfc=-9.0, ib_agl=15.0, t_ib=-8.0, dep_sfc=2.5, dep_sub=12.0,
-                rate=0.0, wind=6.0, road=-2.0),
-        5: dict(t_sfc=-9.5, ib_agl=15.0, t_ib=-8.5, dep_sfc=2.0, rate=0.0, wind=7.0, road=-2.2),
-        6: dict(t_sfc=-9.0, ib_agl=20.0, t_ib=-9.5, dep_sfc=0.5, dep_sub=1.0,
-                rate=0.6, wind=10.0, road=-0.6),
-        12: dict(t_sfc=-7.5, ib_agl=20.0, t_ib=-8.0, rate=2.0, wind=16.0, road=-0.4),
-        18: dict(t_sfc=-6.5, ib_agl=30.0, t_ib=-8.0, rate=2.2, wind=18.0),
-        24: dict(t_sfc=-5.5, ib_agl=30.0, t_ib=-7.0, dep_sfc=0.5, dep_sub=1.0,
-                 rate=1.0, wind=15.0, road=-0.2),
-    }),
+    "korrim-pass": {"shift": 3.0, "aloft": {
+        0: {"dt_nose": 0.0, "p_nose": 800.0, "nose_depth": 0.0, "cloud_top": 150.0},
+        6: {"cloud_top": 330.0},
+        9: {"cloud_top": 380.0},
+        10: {"dt_nose": -2.5, "p_nose": 790.0},
+        16: {"dt_nose": -4.0, "p_nose": 790.0, "nose_depth": 30.0},
+        24: {"dt_nose": -4.0, "p_nose": 790.0, "nose_depth": 30.0, "cloud_top": 400.0},
+    }, "knots": {
+        0: {"t_sfc": -9.0, "ib_agl": 15.0, "t_ib": -8.0, "dep_sfc": 2.5, "dep_sub": 12.0,
+            "rate": 0.0, "wind": 6.0, "road": -2.0},
+        5: {"t_sfc": -9.5, "ib_agl": 15.0, "t_ib": -8.5, "dep_sfc": 2.0, "rate": 0.0, "wind": 7.0,
+            "road": -2.2},
+        6: {"t_sfc": -9.0, "ib_agl": 20.0, "t_ib": -9.5, "dep_sfc": 0.5, "dep_sub": 1.0,
+            "rate": 0.6, "wind": 10.0, "road": -0.6},
+        12: {"t_sfc": -7.5, "ib_agl": 20.0, "t_ib": -8.0, "rate": 2.0, "wind": 16.0, "road": -0.4},
+        18: {"t_sfc": -6.5, "ib_agl": 30.0, "t_ib": -8.0, "rate": 2.2, "wind": 18.0},
+        24: {"t_sfc": -5.5, "ib_agl": 30.0, "t_ib": -7.0, "dep_sfc": 0.5, "dep_sub": 1.0,
+             "rate": 1.0, "wind": 15.0, "road": -0.2},
+    }},
 }
 
 
@@ -430,47 +444,50 @@ def series_params(site_id: str, hour: float) -> dict:
 #: type the case was drawn to show (two codes for a marginal case: either is defensible);
 #: ``formats`` the copies written besides JSON.  Hour -6 is the evening before the storm.
 CASES = [
-    dict(site="korrim-pass", hour=10, design="SN", formats=("csv", "temp"),
-         note="dry snow: whole column below 0 degC, deep cloud with its top near -40 degC", set={}),
-    dict(site="mistleby-bridge", hour=9, design="SN",
-         note="snow into the valley cold pool before the warm nose arrives", set={}),
-    dict(site="sennet-causeway", hour=12, design="RA",
-         note="rain: mild sea air, 0 degC level well above 1 km", set={}),
-    dict(site="sennet-causeway", hour=7, design="RASN",
-         note="rain and snow: surface +1.8 degC, 0 degC level about 250 m up "
-              "(surface warm area between 5.6 and 13.2 J/kg)", set={}),
-    dict(site="drovan-junction", hour=13, design="PL", formats=("csv", "temp"),
-         note="ice pellets: frontal warm zone near +2 degC (50-150 J/kg) over a deep plateau "
-              "cold layer below -9 degC", set={}),
-    dict(site="mistleby-bridge", hour=16, design="FZRA", formats=("csv", "temp"),
-         note="freezing rain: warm nose near +6 degC over a shallow valley cold pool of -2 degC",
-         set=dict(p_nose=880.0, ib_agl=25.0, t_ib=-2.4)),
-    dict(site="mistleby-bridge", hour=22, design="FZDZ",
-         note="freezing drizzle: dry slot aloft, stratus left in the cold pool, no ice in the "
-              "cloud", set={}),
-    dict(site="ulmbrook-cutting", hour=-6, design="FZDZ",
-         note="freezing drizzle the evening before: stratus topped near -5 degC under a dry "
-              "inversion, no warm layer, no ice",
-         set=dict(t_sfc=-1.8, ib_agl=60.0, t_ib=-5.0, p_nose=914.0, t_nose=-2.0, nose_depth=0.0,
-                  cloud_base=1050.0, cloud_top=936.0, dep_sfc=0.3, dep_sub=0.3, dep_dry=18.0,
-                  rate=0.2, wind=2.0, road=-0.6)),
-    dict(site="ulmbrook-cutting", hour=23, design="DZ",
-         note="drizzle: warm stratus under the dry slot, surface +4 degC", set={}),
-    dict(site="drovan-junction", hour=18, design="FZRA",
-         note="freezing rain on the plateau once the cold layer has thinned", set={}),
-    dict(site="korrim-pass", hour=20, design="SN PL",
-         note="marginal: weak warm nose (under +1 degC) above the pass; snow or ice pellets",
-         set=dict(t_nose=0.7, nose_depth=20.0)),
-    dict(site="tessary-viaduct", hour=13, design="FZRAPL PL",
-         note="marginal: +3 degC nose over a -6 degC cold layer, between the ice-pellet and "
-              "freezing-rain lines", set=dict(t_nose=3.0, t_ib=-5.8, ib_agl=55.0)),
-    dict(site="ulmbrook-cutting", hour=16, design="RA FZRA",
-         note="marginal: surface just above 0 degC under a strong warm nose; rain or freezing rain",
-         set=dict(t_sfc=0.6, t_ib=0.4)),
-    dict(site="tessary-viaduct", hour=17, design="RAPL RA",
-         note="marginal: warm surface layer under a cold layer and a warm nose; rain with ice "
-              "pellets", set=dict(t_sfc=2.0, ib_agl=110.0, t_ib=-5.5, t_nose=2.5, p_nose=820.0,
-                                  nose_depth=40.0)),
+    {"site": "korrim-pass", "hour": 10, "design": "SN", "formats": ("csv", "temp"),
+     "note": "dry snow: whole column below 0 degC, deep cloud with its top near -40 degC",
+     "set": {}},
+    {"site": "mistleby-bridge", "hour": 9, "design": "SN",
+     "note": "snow into the valley cold pool before the warm nose arrives", "set": {}},
+    {"site": "sennet-causeway", "hour": 12, "design": "RA",
+     "note": "rain: mild sea air, 0 degC level well above 1 km", "set": {}},
+    {"site": "sennet-causeway", "hour": 7, "design": "RASN",
+     "note": "rain and snow: surface +1.8 degC, 0 degC level about 250 m up "
+             "(surface warm area between 5.6 and 13.2 J/kg)", "set": {}},
+    {"site": "drovan-junction", "hour": 13, "design": "PL", "formats": ("csv", "temp"),
+     "note": "ice pellets: frontal warm zone near +2 degC (50-150 J/kg) over a deep plateau "
+             "cold layer below -9 degC", "set": {}},
+    {"site": "mistleby-bridge", "hour": 16, "design": "FZRA", "formats": ("csv", "temp"),
+     "note": "freezing rain: warm nose near +6 degC over a shallow valley cold pool of -2 degC",
+     "set": {"p_nose": 880.0, "ib_agl": 25.0, "t_ib": -2.4}},
+    {"site": "mistleby-bridge", "hour": 22, "design": "FZDZ",
+     "note": "freezing drizzle: dry slot aloft, stratus left in the cold pool, no ice in the "
+             "cloud", "set": {}},
+    {"site": "ulmbrook-cutting", "hour": -6, "design": "FZDZ",
+     "note": "freezing drizzle the evening before: stratus topped near -5 degC under a dry "
+             "inversion, no warm layer, no ice",
+     "set": {"t_sfc": -1.8, "ib_agl": 60.0, "t_ib": -5.0, "p_nose": 914.0, "t_nose": -2.0,
+             "nose_depth": 0.0, "cloud_base": 1050.0, "cloud_top": 936.0, "dep_sfc": 0.3,
+             "dep_sub": 0.3, "dep_dry": 18.0, "rate": 0.2, "wind": 2.0, "road": -0.6}},
+    {"site": "ulmbrook-cutting", "hour": 23, "design": "DZ",
+     "note": "drizzle: warm stratus under the dry slot, surface +4 degC", "set": {}},
+    {"site": "drovan-junction", "hour": 18, "design": "FZRA",
+     "note": "freezing rain on the plateau once the cold layer has thinned", "set": {}},
+    {"site": "korrim-pass", "hour": 20, "design": "SN PL",
+     "note": "marginal: weak warm nose (under +1 degC) above the pass; snow or ice pellets",
+     "set": {"t_nose": 0.7, "nose_depth": 20.0}},
+    {"site": "tessary-viaduct", "hour": 13, "design": "FZRAPL PL",
+     "note": "marginal: +3 degC nose over a -6 degC cold layer, between the ice-pellet and "
+             "freezing-rain lines", "set": {"t_nose": 3.0, "t_ib": -5.8, "ib_agl": 55.0}},
+    {"site": "ulmbrook-cutting", "hour": 16, "design": "RA FZRA",
+     "note": "marginal: surface just above 0 degC under a strong warm nose; rain or freezing "
+             "rain",
+     "set": {"t_sfc": 0.6, "t_ib": 0.4}},
+    {"site": "tessary-viaduct", "hour": 17, "design": "RAPL RA",
+     "note": "marginal: warm surface layer under a cold layer and a warm nose; rain with ice "
+             "pellets",
+     "set": {"t_sfc": 2.0, "ib_agl": 110.0, "t_ib": -5.5, "t_nose": 2.5, "p_nose": 820.0,
+             "nose_depth": 40.0}},
 ]
 
 
@@ -486,6 +503,7 @@ def _stamp(t: datetime) -> str:
 
 def make_document(site: dict, valid: datetime, prm: dict, source: str, key: str,
                   temp_code: bool) -> dict:
+    """The JSON profile document of one designed profile (physics checked)."""
     p, z, t, td = build_profile(site, prm, key, temp_code)
     check_physics(key, p, z, t, td)
     road = round(float(t[0]) + prm["road"], 1)
@@ -549,9 +567,9 @@ def design_summary(doc: dict) -> dict:
     t = np.array([[lv["temperature_c"] for lv in doc["levels"]]])
     td = np.array([[lv["dewpoint_c"] for lv in doc["levels"]]])
     lay = analyse_layers(p, z, t)
-    layers = [dict(kind=int(lay.kind[0, k]), area=float(lay.area_j_kg[0, k]),
-                   extreme=float(lay.extreme_c[0, k]), bottom=float(lay.bottom_m[0, k]),
-                   top=float(lay.top_m[0, k])) for k in range(int(lay.count[0]))]
+    layers = [{"kind": int(lay.kind[0, k]), "area": float(lay.area_j_kg[0, k]),
+                   "extreme": float(lay.extreme_c[0, k]), "bottom": float(lay.bottom_m[0, k]),
+                   "top": float(lay.top_m[0, k])} for k in range(int(lay.count[0]))]
     surface_warm = layers[0]["area"] if layers and layers[0]["kind"] > 0 else 0.0
     aloft = [lv for lv in layers[1:] if lv["kind"] > 0]
     warm_aloft = sum(lv["area"] for lv in aloft)
@@ -565,9 +583,9 @@ def design_summary(doc: dict) -> dict:
     n_cloud = int(clouds.count[0])
     top_c = float(clouds.min_temperature_c[0, n_cloud - 1]) if n_cloud else float("nan")
     top_hpa = float(clouds.top_hpa[0, n_cloud - 1]) if n_cloud else float("nan")
-    return dict(t_sfc=float(t[0, 0]), surface_warm=surface_warm, warm_aloft=warm_aloft,
-                nose=nose, cold_below=cold_below, cloud_top_hpa=top_hpa, cloud_min_c=top_c,
-                n_levels=int(p.shape[1]))
+    return {"t_sfc": float(t[0, 0]), "surface_warm": surface_warm, "warm_aloft": warm_aloft,
+            "nose": nose, "cold_below": cold_below, "cloud_top_hpa": top_hpa,
+            "cloud_min_c": top_c, "n_levels": int(p.shape[1])}
 
 
 def available_methods() -> tuple[str, ...] | None:
@@ -598,6 +616,7 @@ def _diagnose(doc: dict) -> str:
 
 
 def format_row(label: str, s: dict, design: str, diag: str) -> str:
+    """One line of the design table printed while generating."""
     design = design.replace(" ", "/")
     def f(x, w=6, d=1):
         return f"{x:{w}.{d}f}" if math.isfinite(x) else " " * (w - 1) + "-"
@@ -652,6 +671,7 @@ def design_type(s: dict, rate_mm_h: float) -> str:
 # --- main ---------------------------------------------------------------------------------
 
 def write_text(path: Path, text: str) -> None:
+    """Write UTF-8 text with LF line ends, creating the folder."""
     path.parent.mkdir(parents=True, exist_ok=True)
     path.write_text(text, encoding="utf-8", newline="\n")
 
@@ -717,6 +737,7 @@ def generate(out: Path, quiet: bool = False, diagnose: bool = False) -> list[str
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Generate the demo tree (see the module docstring); exit status."""
     parser = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     parser.add_argument("--out", type=Path, default=HERE, help="output directory (default: here)")
     parser.add_argument("--quiet", action="store_true", help="do not print the design table")

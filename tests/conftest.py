@@ -11,11 +11,11 @@ from __future__ import annotations
 
 import pytest
 
-from api import create_app
+from ptype.api import create_app
 
 
 def _dispose(app) -> None:
-    from api.sites import EXTENSION
+    from ptype.api.plumbing import EXTENSION
     store = app.extensions.get(EXTENSION)
     if store is not None:
         store.dispose()

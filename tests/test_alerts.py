@@ -1,12 +1,12 @@
-"""Tests of ptype.roads.alerts: rules, lifecycle decisions, and the lifecycle through the service."""
+"""Tests of ptype.roads.alerts: rules, lifecycle decisions and the lifecycle through the service."""
 
 from datetime import timedelta
 
 import pytest
 from series_helpers import T0, profile_doc, storm_docs
 
-from api import create_app
-from api.sites import store_for
+from ptype.api import create_app
+from ptype.api.sites import store_for
 from ptype.roads.alerts.lifecycle import CHANGE_TOLERANCE, decide
 from ptype.roads.alerts.rules import Candidate, certainty_word, evaluate_rules, urgency_word
 from ptype.store import keys
@@ -163,7 +163,8 @@ def test_alert_lifecycle_alert_update_cancel_with_references(tmp_path):
                 headers=h)
     (gone,) = fz()
     assert gone["status"] == "cancelled" and gone["msg_type"] == "Cancel"
-    assert len(gone["references"]) == 2 and gone["references"][0].split(",")[1] == f"{first['id']}.1"
+    assert len(gone["references"]) == 2
+    assert gone["references"][0].split(",")[1] == f"{first['id']}.1"
     cap = client.get(f"/v1/alerts/{gone['id']}.cap").get_data(as_text=True)
     assert "<msgType>Cancel</msgType>" in cap and "<references>" in cap
     active_only = client.get("/v1/alerts?active=1").json["alerts"]

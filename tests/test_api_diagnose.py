@@ -10,8 +10,8 @@ import pytest
 from api_support import document_to_csv, freezing_rain_document, snow_document
 
 import ptype
-from api import create_app
-from api.models import BatchResponse, Diagnosis, ErrorResponse
+from ptype.api import create_app
+from ptype.api.models import BatchResponse, Diagnosis, ErrorResponse
 from ptype.readers.temp_format import write_temp
 
 

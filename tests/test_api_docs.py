@@ -1,5 +1,5 @@
-"""Tests of ``GET /openapi.json``, ``GET /docs`` (api/docs.py) and the forecaster page ``GET /``
-(api/page.py)."""
+"""Tests of ``GET /openapi.json``, ``GET /docs`` (api/docs.py, api/openapi.py) and the
+forecaster page ``GET /`` (api/page.py)."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ import pytest
 from schemathesis.specs.openapi.definitions import OPENAPI_31  # the OAS 3.1 meta-schema
 
 import ptype
-from api.docs import OPERATIONS
+from ptype.api.openapi import documented_routes
 
 
 @pytest.fixture(scope="module")
@@ -27,29 +27,64 @@ def test_openapi_is_valid_openapi_3_1(spec):
     assert errors == []
 
 
+#: Routes that are pages or the document itself, not operations of the API.
+PAGES = ("/", "/docs", "/openapi.json", "/sites")
+
+
 def test_openapi_documents_every_route(app, spec):
     documented = {(path, method) for path, item in spec["paths"].items() for method in item}
     served = set()
     for rule in app.url_map.iter_rules():
-        if rule.endpoint == "static" or rule.rule in ("/", "/docs", "/openapi.json"):
+        if rule.endpoint == "static" or rule.rule in PAGES:
             continue
-        if not (rule.rule.startswith("/v1/diagnose") or rule.rule.startswith("/v1/diagram")
-                or rule.rule.startswith("/v1/demo") or rule.rule == "/healthz"):
-            continue  # other resources document themselves
+        # OpenAPI 3.1.0, Path Templating: a template expression {name} marks a path parameter.
         path = re.sub(r"<(?:\w+:)?(\w+)>", r"{\1}", rule.rule)
         for method in rule.methods - {"HEAD", "OPTIONS"}:
             served.add((path, method.lower()))
-    assert served <= documented
+    assert served == documented
 
 
-def test_openapi_errors_examples_and_refs_resolve(spec):
+def test_openapi_operation_ids_unique_and_tags_declared(spec):
+    # OpenAPI 3.1.0, Operation Object, operationId: "The id MUST be unique among all
+    # operations described in the API."
+    ids = [op["operationId"] for item in spec["paths"].values() for op in item.values()]
+    assert len(ids) == len(set(ids))
+    tags = {t["name"] for t in spec["tags"]}
+    assert {tag for item in spec["paths"].values() for op in item.values()
+            for tag in op["tags"]} == tags
+
+
+def test_openapi_path_parameters_match_the_path(spec):
+    # OpenAPI 3.1.0, Parameter Object: the name of a path parameter MUST correspond to a
+    # template expression of the path, and its `required` MUST be true.
+    for path, item in spec["paths"].items():
+        names = set(re.findall(r"{(\w+)}", path))
+        for op in item.values():
+            params = {p["name"] for p in op.get("parameters", []) if p["in"] == "path"}
+            assert params == names, (path, op["operationId"])
+            assert all(p["required"] for p in op.get("parameters", []) if p["in"] == "path")
+
+
+def test_api_routes_live_under_v1_and_pages_do_not(app):
+    # URL-path versioning of the API (common practice); pages and the liveness check are
+    # outside it so that they never move with a version.
+    for rule in app.url_map.iter_rules():
+        if rule.endpoint == "static":
+            continue
+        unversioned = rule.rule in PAGES or rule.rule == "/healthz"
+        assert rule.rule.startswith("/v1/") != unversioned, rule.rule
+
+
+def test_openapi_errors_examples_and_refs_resolve(app, spec):
     schemas = spec["components"]["schemas"]
     text = str(spec)
     for ref in re.findall(r"#/components/schemas/([A-Za-z0-9_.-]+)", text):
         assert ref in schemas
-    for op in OPERATIONS:
-        operation = spec["paths"][op["path"]][op["method"]]
-        for status in op["errors"]:
+    routes = documented_routes(app)
+    assert routes
+    for route in routes:
+        operation = spec["paths"][route.path][route.method]
+        for status in route.operation.errors:
             response = operation["responses"][str(status)]
             media = response["content"]["application/json"]
             assert media["schema"] == {"$ref": "#/components/schemas/ErrorResponse"}

@@ -5,7 +5,7 @@ import os
 import pytest
 from series_helpers import storm_docs
 
-from api.sites import store_for
+from ptype.api.plumbing import store_for
 from ptype.clock import parse_time
 from ptype.store import keys
 
@@ -181,6 +181,16 @@ def test_sites_page_lists_sites_and_links_home(client, auth):
     assert "Test Hill" in html and 'href="/"' in html and "Guidance only" in html
 
 
+def test_sites_page_escapes_what_clients_wrote(client, auth):
+    # OWASP Cross Site Scripting Prevention Cheat Sheet, output encoding for HTML contexts:
+    # & < > " ' of untrusted data are written as character references.
+    name = "<script>alert(1)</script> & 'Ridge' \"Road\""
+    _site(client, auth, name=name)
+    html = client.get("/sites").get_data(as_text=True)
+    assert "<script>" not in html
+    assert "&lt;script&gt;alert(1)&lt;/script&gt; &amp; &#39;Ridge&#39; &#34;Road&#34;" in html
+
+
 def _relative_luminance(hex_colour):
     # WCAG 2.1, definition of relative luminance (sRGB).
     h = hex_colour.lstrip("#")
@@ -196,7 +206,7 @@ def _relative_luminance(hex_colour):
 def test_sites_page_colours_readable_and_in_stylesheet():
     from pathlib import Path
 
-    from api.sites_page import COLOURS
+    from ptype.api.sites_page import COLOURS
     css = (Path(__file__).parents[1] / "api" / "static" / "sites.css").read_text()
     for code, (bg, fg) in COLOURS.items():
         lo, hi = sorted([_relative_luminance(bg), _relative_luminance(fg)])

@@ -99,8 +99,10 @@ def test_show_netcdf_from_stdin(tmp_path):
     import xarray as xr
     p = np.array([1000.0, 900.0, 800.0, 700.0])
     ds = xr.Dataset(
-        {"ta": ("z", [275.15, 272.15, 268.15, 263.15], {"standard_name": "air_temperature", "units": "K"}),
-         "hur": ("z", [90.0, 85.0, 70.0, 60.0], {"standard_name": "relative_humidity", "units": "%"})},
+        {"ta": ("z", [275.15, 272.15, 268.15, 263.15],
+                {"standard_name": "air_temperature", "units": "K"}),
+         "hur": ("z", [90.0, 85.0, 70.0, 60.0],
+                 {"standard_name": "relative_humidity", "units": "%"})},
         coords={"z": ("z", p, {"standard_name": "air_pressure", "units": "hPa"})})
     path = tmp_path / "p.nc"
     ds.to_netcdf(path)
@@ -113,7 +115,7 @@ def test_show_netcdf_from_stdin(tmp_path):
 
 
 def test_show_binary_garbage_on_stdin_exit_2():
-    out = subprocess.run([str(PTYPE), "show", "-"], input=b"\xff\xfe\x00garbage", capture_output=True,
-                         timeout=120, check=False, cwd=ROOT)
+    out = subprocess.run([str(PTYPE), "show", "-"], input=b"\xff\xfe\x00garbage",
+                         capture_output=True, timeout=120, check=False, cwd=ROOT)
     assert out.returncode == 2 and b"Traceback" not in out.stderr
     assert out.stderr.decode().strip() == "ptype show: error: <text>: not UTF-8 text"

@@ -40,7 +40,8 @@ def _start(data_dir: Path, port: int) -> subprocess.Popen:
     env.pop("PTYPE_DATABASE_URL", None)
     # --preload as "ptype serve" runs it: the app (and the store) is created before the fork.
     proc = subprocess.Popen([str(GUNICORN), "-w", "2", "-b", f"127.0.0.1:{port}",
-                             "--graceful-timeout", "1", "--preload", "api:create_app()"], cwd=ROOT, env=env,
+                             "--graceful-timeout", "1", "--preload", "ptype.api:create_app()"],
+                            cwd=ROOT, env=env,
                             stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
                             start_new_session=True)
     deadline = time.monotonic() + 30

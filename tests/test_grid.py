@@ -85,6 +85,24 @@ def test_find_fields_rejects_unknown_units(small_grid):
         grid.find_fields(ds)
 
 
+@pytest.mark.parametrize("var,units", [("ps", "psi"), ("zg", "ft"), ("tds", "degF"),
+                                       ("hur", "ppm")])
+def test_find_fields_rejects_unknown_units_of_every_chosen_field(small_grid, var, units):
+    # UDUNITS spellings outside our tables: each chosen variable's units are checked up
+    # front, and the error names that variable.
+    ds = small_grid.copy()
+    ds[var] = ds[var].assign_attrs(units=units)
+    with pytest.raises(ReaderError, match=f"'{var}'.*units '{units}'") as e:
+        grid.find_fields(ds)
+    assert e.value.field == var
+
+
+def test_find_fields_optional_fields_are_optional(small_grid):
+    f = grid.find_fields(small_grid.drop_vars(["zg", "ps", "orog", "tas", "tds"]))
+    assert (f.height, f.surface_pressure, f.surface_altitude) == (None, None, None)
+    assert (f.temperature_2m, f.dewpoint_2m) == (None, None)
+
+
 def test_open_grid_not_netcdf_is_a_reader_error(tmp_path):
     bad = tmp_path / "bad.nc"
     bad.write_text("this is not a NetCDF file\n")

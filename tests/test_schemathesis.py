@@ -16,7 +16,7 @@ from schemathesis.specs.openapi.checks import (
     status_code_conformance,
 )
 
-from api import create_app
+from ptype.api import create_app
 
 APP = create_app({"TESTING": True})
 schema = schemathesis.openapi.from_wsgi("/openapi.json", APP)

@@ -19,8 +19,8 @@ from schemathesis.specs.openapi.checks import (
     status_code_conformance,
 )
 
-from api import create_app
-from api.sites import store_for
+from ptype.api import create_app
+from ptype.api.plumbing import store_for
 from ptype.store.keys import create_key
 
 APP = create_app({"TESTING": True, "PTYPE_DATA_DIR": tempfile.mkdtemp(prefix="ptype-st-"),

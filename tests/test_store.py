@@ -22,7 +22,8 @@ def store(tmp_path):
 
 
 def test_database_url_default_is_sqlite_file_in_data_dir(tmp_path):
-    assert database_url({"PTYPE_DATA_DIR": str(tmp_path)}) == f"sqlite:///{tmp_path / 'ptype.sqlite3'}"
+    expected = f"sqlite:///{tmp_path / 'ptype.sqlite3'}"
+    assert database_url({"PTYPE_DATA_DIR": str(tmp_path)}) == expected
     assert database_url({"PTYPE_DATABASE_URL": "postgresql+psycopg://u@h/db"}).startswith("postgresql")
 
 

@@ -19,7 +19,7 @@ from schemathesis.specs.openapi.checks import (
 )
 
 import ptype
-from api import create_app
+from ptype.api import create_app
 
 DEMO = Path(__file__).resolve().parents[1] / "soundings_demo" / "verification" / "profiles"
 METHODS = ["bourgouin", "cloud_top"]
@@ -63,10 +63,10 @@ def test_verify_returns_report(client):
     ({"cases": [], "colour": 1}, 400, "unknown_field", "colour"),
     ({"cases": [{"profile": {}, "observed": "SN"}], "members": "many"}, 400, "invalid_field",
      "members"),
-    ({"cases": [{"profile": {}, "observed": "SN"}], "seed": -1, "members": 0}, 400, "invalid_field", "seed"),
-    ({"cases": [{"profile": {}, "observed": "SN"}], "methods": [1], "members": 0},
-     400, "invalid_field",
-     "methods"),
+    ({"cases": [{"profile": {}, "observed": "SN"}], "seed": -1, "members": 0}, 400,
+     "invalid_field", "seed"),
+    ({"cases": [{"profile": {}, "observed": "SN"}], "methods": [1], "members": 0}, 400,
+     "invalid_field", "methods"),
 ])
 def test_verify_rejects_bad_requests(client, payload, status, code, field):
     r = client.post("/v1/verify", json=payload)

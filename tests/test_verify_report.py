@@ -10,8 +10,11 @@ The demo cases are invented (soundings_demo/verification/README.md).
 
 from __future__ import annotations
 
+import base64
 import csv
 import json
+from html.parser import HTMLParser
+from importlib import resources
 from pathlib import Path
 
 import numpy as np
@@ -167,3 +170,126 @@ def test_run_verification_default_runs_every_method(manifest):
     r = run_verification(read_manifest(manifest)[:8], members=2)
     assert tuple(r["methods"]) == METHOD_NAMES
     assert set(r["cases"][0]["methods"]) == set(METHOD_NAMES)
+
+
+# --- the HTML page (templates/report.html, autoescaped) ----------------------------------------
+
+class _Page(HTMLParser):
+    """The page as a browser's tokenizer reads it (Python's ``html.parser``, which follows the
+    HTML standard's character references): text per table row, image sources, open tags."""
+
+    def __init__(self, page: str):
+        super().__init__(convert_charrefs=True)
+        self.rows: list[list[str]] = []
+        self.hits: list[tuple[int, int]] = []
+        self.images: list[dict[str, str]] = []
+        self.tags: list[str] = []
+        self.paragraphs: list[str] = []
+        self._cell: list[str] | None = None
+        self._para: list[str] | None = None
+        self.feed(page)
+        self.close()
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append(tag)
+        if tag == "tr":
+            self.rows.append([])
+        elif tag in ("td", "th"):
+            self._cell = []
+            if dict(attrs).get("class") == "hit":
+                self.hits.append((len(self.rows) - 1, len(self.rows[-1])))
+        elif tag == "img":
+            self.images.append(dict(attrs))
+        elif tag == "p":
+            self._para = []
+
+    def handle_endtag(self, tag):
+        if tag in ("td", "th") and self._cell is not None:
+            self.rows[-1].append(" ".join("".join(self._cell).split()))
+            self._cell = None
+        elif tag == "p" and self._para is not None:
+            self.paragraphs.append(" ".join("".join(self._para).split()))
+            self._para = None
+
+    def handle_data(self, data):
+        for buffer in (self._cell, self._para):
+            if buffer is not None:
+                buffer.append(data)
+
+
+def _rows_after(page: _Page, header: list[str], n: int) -> list[list[str]]:
+    """The ``n`` rows that follow the row ``header``."""
+    start = page.rows.index(header) + 1
+    return page.rows[start:start + n]
+
+
+def test_render_html_contingency_table_matches_report(report):
+    page = _Page(render_html(report, {}))
+    cats = report["consensus"]["table"]["categories"]
+    counts = np.array(report["consensus"]["table"]["counts"])
+    rows = _rows_after(page, ["", *cats, "total"], len(cats) + 1)
+    assert [r[0] for r in rows] == [*cats, "total"]
+    body = np.array([[int(v) for v in r[1:]] for r in rows])
+    np.testing.assert_array_equal(body[:-1, :-1], counts)
+    # Row and column sums by numpy, not by the template.
+    np.testing.assert_array_equal(body[:-1, -1], counts.sum(axis=1))
+    np.testing.assert_array_equal(body[-1], [*counts.sum(axis=0), counts.sum()])
+    # The diagonal (hits) is the only highlighted part of that table.
+    first = page.rows.index(["", *cats, "total"]) + 1
+    diagonal = [(r - first, c - 1) for r, c in page.hits if first <= r < first + len(cats)]
+    assert diagonal == [(i, i) for i in range(len(cats))]
+
+
+def test_render_html_score_rows_and_missing_values(report):
+    page = _Page(render_html(report, {}))
+    header = ["diagnosis", "n", "abstained", "accuracy", "Heidke", "Peirce", "Gerrity"]
+    rows = {r[0]: r for r in page.rows[page.rows.index(header) + 1:]
+            if len(r) == len(header) and r[0] in ("consensus", *METHODS)}
+    cons = report["consensus"]
+    assert rows["consensus"][1:] == [str(cons["n"]), "0", *(
+        f"{cons[k]:.3f}" for k in ("accuracy", "heidke", "peirce", "gerrity"))]
+    for name in METHODS:
+        block = report["methods"][name]
+        assert rows[name][2] == str(block["abstained"])
+        # A missing score is an en dash (U+2013), three decimals otherwise.
+        assert rows[name][6] == ("\u2013" if block["gerrity"] is None
+                                 else f"{block['gerrity']:.3f}")
+
+
+def test_render_html_escapes_text_from_the_manifest(report):
+    hostile = "<script>alert('x')</script> & \"q\""
+    changed = json.loads(json.dumps(report))
+    changed["source"] = hostile
+    changed["cases"][0]["observed_raw"] = hostile
+    changed["excluded"]["cases"][0]["detail"] = "<b>bold</b>"
+    html_text = render_html(changed, {"skill": b"\x89PNG"}, image_files={"skill": "a'b\".png"})
+    page = _Page(html_text)
+    # Autoescape: the text reads back unchanged and no tag was injected.
+    assert "<script" not in html_text and "<b>" not in html_text
+    assert "script" not in page.tags and "b" not in page.tags
+    assert any(hostile in p for p in page.paragraphs)
+    assert any(row[3:4] == [hostile] for row in page.rows)
+    assert any(row[2:3] and row[2].endswith(": <b>bold</b>") for row in page.rows)
+    assert [img["src"] for img in page.images] == ["a'b\".png"]
+
+
+def test_render_html_embeds_figures_as_data_uris(report):
+    page = _Page(render_html(report, {"skill": b"\x89PNG-a", "reliability": b"\x89PNG-b"}))
+    # RFC 2397 data URIs holding the base64 (RFC 4648) of the bytes given.
+    srcs = [img["src"] for img in page.images]
+    assert srcs == ["data:image/png;base64," + base64.b64encode(b"\x89PNG-a").decode(),
+                    "data:image/png;base64," + base64.b64encode(b"\x89PNG-b").decode()]
+    assert all(img["alt"] for img in page.images)
+
+
+def test_render_html_everything_excluded_keeps_caution_and_says_why(tmp_path):
+    doc = json.loads((DEMO / "profiles" / "case_001.json").read_text())
+    (tmp_path / "m.json").write_text(json.dumps([{"profile": doc, "observed": "UP"}]))
+    page = _Page(render_html(run_verification(read_manifest(tmp_path / "m.json"), members=0)))
+    assert "Nothing to verify: every observation was excluded." in page.paragraphs
+    assert any(ptype.CAUTION in p for p in page.paragraphs) and page.rows == []
+
+
+def test_report_template_ships_inside_the_package():
+    template = resources.files("ptype.verify") / "templates" / "report.html"
+    assert template.is_file() and template.read_text().startswith("<!DOCTYPE html>")

@@ -28,9 +28,11 @@ class _Parser(argparse.ArgumentParser):
 
 
 def build_parser() -> argparse.ArgumentParser:
+    """The ``ptype`` parser with every command module that is present registered."""
     parser = _Parser(prog="ptype", description=(
         "Diagnose precipitation type at the ground from vertical profiles. "
-        "Output is guidance only; official warnings, local codes and licensed practice take precedence."))
+        "Output is guidance only; official warnings, local codes and licensed practice take "
+        "precedence."))
     parser.add_argument("--version", action="version", version=f"ptype {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name in COMMAND_MODULES:
@@ -45,6 +47,8 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Run the command line; the exit status (2 for bad input, with one line on
+    stderr)."""
     from ptype.errors import OptionError, ProfileError
     parser = build_parser()
     args = parser.parse_args(argv)

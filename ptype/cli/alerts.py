@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+import argparse
 import json
 
 
-def register(sub) -> None:
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``alerts`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser("alerts", help="list alerts from the service's database",
                        description="List the alerts stored by the service (PTYPE_DATABASE_URL "
                                    "or PTYPE_DATA_DIR), active ones by default.")
@@ -17,7 +19,8 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
-def run(args) -> int:
+def run(args: argparse.Namespace) -> int:
+    """List (and with ``--evaluate`` first re-evaluate) the stored alerts; exit status."""
     import os
 
     from ptype.clock import utcnow

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import argparse
 import json
 import shutil
 import sys
@@ -12,23 +13,27 @@ from ptype.engine.probability import DEFAULT_MEMBERS
 BAR_WIDTH = 30
 
 
-def register(sub) -> None:
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``diagnose`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser("diagnose", help="diagnose the precipitation type of one or more profiles",
-                       description="Diagnose the precipitation type reaching the ground for each profile "
-                                   "(JSON, CSV, WMO TEMP or NetCDF), with probabilities and the reasoning "
-                                   "of every method.")
+                       description="Diagnose the precipitation type reaching the ground for each "
+                                   "profile (JSON, CSV, WMO TEMP or NetCDF), with probabilities "
+                                   "and the reasoning of every method.")
     p.add_argument("paths", nargs="+", metavar="PATH", help="profile files (- for standard input)")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format")
     p.add_argument("--members", type=int, default=DEFAULT_MEMBERS,
-                   help=f"Monte-Carlo members for the probabilities (default {DEFAULT_MEMBERS}; 0 = none)")
-    p.add_argument("--seed", type=int, default=None, help="random seed for reproducible probabilities")
+                   help=f"Monte-Carlo members for the probabilities (default {DEFAULT_MEMBERS}; "
+                        "0 = none)")
+    p.add_argument("--seed", type=int, default=None,
+                   help="random seed for reproducible probabilities")
     p.add_argument("--methods", default=None, help="comma-separated subset of methods")
     p.add_argument("--wetbulb", choices=("isobaric", "adiabatic"), default="isobaric",
                    help="wet-bulb reported in the profile and wet-bulb layers")
     p.set_defaults(func=run)
 
 
-def run(args) -> int:
+def run(args: argparse.Namespace) -> int:
+    """Diagnose every profile named in ``args`` and print the result; exit status."""
     from ptype.engine.diagnosis import diagnose
     out = []
     for path in args.paths:
@@ -62,7 +67,8 @@ def render_table(r: dict) -> str:
     lines.append("=" * min(len(title), width))
     head = f"{r['ptype']}  {r['ptype_label']}"
     if r.get("probability") is not None:
-        head += f"   p = {r['probability']:.2f}   {r['confidence']} confidence ({r['members']} members)"
+        head += (f"   p = {r['probability']:.2f}   {r['confidence']} confidence "
+                 f"({r['members']} members)")
     lines.append(head)
     if r["probabilities"]:
         lines.append("")

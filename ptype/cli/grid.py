@@ -13,7 +13,8 @@ from ptype.constants import CAUTION
 CONNECT_TIMEOUT_S = 10
 
 
-def register(sub) -> None:
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``grid`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser(
         "grid", help="diagnose every column of CF NetCDF model output on pressure levels",
         description="Read CF NetCDF model output on pressure levels (variables found by CF "
@@ -46,7 +47,8 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
-def run(args) -> int:
+def run(args: argparse.Namespace) -> int:
+    """Diagnose a model grid and write the NetCDF result; exit status."""
     from ptype import grid
     from ptype.errors import OptionError
     from ptype.grid import io as grid_io
@@ -90,7 +92,7 @@ def run(args) -> int:
     return 0
 
 
-def _argv(args) -> list[str]:
+def _argv(args: argparse.Namespace) -> list[str]:
     parts = list(args.inputs) + ["-o", args.output]
     if args.members:
         parts += ["--members", str(args.members)]
@@ -110,7 +112,8 @@ def _connect(address: str):
     try:
         from distributed import Client
     except ImportError:  # pragma: no cover - distributed is a declared dependency
-        raise OptionError("--scheduler needs the 'distributed' package", field="scheduler") from None
+        raise OptionError("--scheduler needs the 'distributed' package",
+                          field="scheduler") from None
     try:
         return Client(address, timeout=f"{CONNECT_TIMEOUT_S}s")
     except (OSError, TimeoutError, ValueError) as exc:

@@ -7,10 +7,12 @@ output; only its salted hash is stored, so it cannot be shown again.
 
 from __future__ import annotations
 
+import argparse
 import json
 
 
-def register(sub) -> None:
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``keys`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser("keys", help="create, list or revoke API keys for the service",
                        description="Manage the API keys that the service's write endpoints "
                                    "require (Authorization: Bearer KEY).")
@@ -32,7 +34,8 @@ def _store():
     return open_store()
 
 
-def run_create(args) -> int:
+def run_create(args: argparse.Namespace) -> int:
+    """Create a key and print it once; exit status."""
     from ptype.clock import utcnow
     from ptype.store import keys
     store = _store()
@@ -47,7 +50,8 @@ def run_create(args) -> int:
     return 0
 
 
-def run_list(args) -> int:
+def run_list(args: argparse.Namespace) -> int:
+    """List the keys (never their secrets); exit status."""
     from ptype.store import keys
     with _store().read() as s:
         rows = [k.to_dict() for k in keys.list_keys(s)]
@@ -60,7 +64,8 @@ def run_list(args) -> int:
     return 0
 
 
-def run_revoke(args) -> int:
+def run_revoke(args: argparse.Namespace) -> int:
+    """Revoke a key by its id or full value; exit status."""
     from ptype.clock import utcnow
     from ptype.errors import OptionError
     from ptype.store import keys

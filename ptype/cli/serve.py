@@ -1,12 +1,13 @@
 """``ptype serve``: run the HTTP service under gunicorn (a production WSGI server).
 
-The application is ``api:create_app()``; state lives in ``PTYPE_DATA_DIR``
+The application is ``ptype.api:create_app()``; state lives in ``PTYPE_DATA_DIR``
 (default ``./.data``).  ``--demo`` sets ``PTYPE_DEMO=1`` so the application
 loads the demo sites and storm into an empty store on start.
 """
 
 from __future__ import annotations
 
+import argparse
 import os
 import sys
 
@@ -15,17 +16,20 @@ DEFAULT_PORT = 8080
 DEFAULT_WORKERS = 2
 
 
-def register(sub) -> None:
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``serve`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser("serve", help="run the HTTP service (JSON API, forecaster page, diagrams)",
                        description="Run the ptype HTTP service under gunicorn. The forecaster page "
                                    "is at /, the API reference at /docs.")
-    p.add_argument("--host", default=DEFAULT_HOST, help=f"address to listen on (default {DEFAULT_HOST})")
+    p.add_argument("--host", default=DEFAULT_HOST,
+                   help=f"address to listen on (default {DEFAULT_HOST})")
     p.add_argument("--port", type=_port, default=DEFAULT_PORT,
                    help=f"TCP port (default {DEFAULT_PORT}; 0 picks a free one)")
     p.add_argument("--workers", type=_positive, default=DEFAULT_WORKERS,
                    help=f"worker processes (default {DEFAULT_WORKERS})")
     p.add_argument("--threads", type=_positive, default=1,
-                   help="threads per worker (default 1; more helps slow clients, not CPU-bound work)")
+                   help="threads per worker (default 1; more helps slow clients, not CPU-bound "
+                        "work)")
     p.add_argument("--timeout", type=_positive, default=60,
                    help="seconds before a stuck worker is restarted (default 60)")
     p.add_argument("--demo", action="store_true",
@@ -63,7 +67,7 @@ def _url(host: str, port: int) -> str:
     return f"http://{shown}:{port}/"
 
 
-def gunicorn_options(args) -> dict:
+def gunicorn_options(args: argparse.Namespace) -> dict:
     """Settings handed to gunicorn (also used by the load benchmark)."""
     bind = f"[{args.host}]:{args.port}" if ":" in args.host else f"{args.host}:{args.port}"
     options = {
@@ -107,7 +111,8 @@ def warm_up() -> None:
         print(f"ptype serve: warm-up skipped ({type(exc).__name__}: {exc})", file=sys.stderr)
 
 
-def run(args) -> int:
+def run(args: argparse.Namespace) -> int:
+    """Start the HTTP service under gunicorn; exit status."""
     if args.demo:
         os.environ["PTYPE_DEMO"] = "1"
     data_dir = os.environ.get("PTYPE_DATA_DIR") or os.path.join(os.getcwd(), ".data")
@@ -126,7 +131,7 @@ def run(args) -> int:
             self.cfg.set("when_ready", _announce)
 
         def load(self):
-            from api import create_app
+            from ptype.api import create_app
             app = create_app({"PTYPE_DEMO": bool(args.demo)})
             warm_up()
             return app

@@ -2,16 +2,21 @@
 
 from __future__ import annotations
 
+import argparse
 import json
 
 from ptype.constants import CAUTION
+from ptype.profile import Profile
 from ptype.readers import read_profile
 
 
-def register(sub) -> None:
-    p = sub.add_parser("show", help="print a parsed profile with derived columns (height, RH, wet-bulb)",
-                       description="Read one profile (JSON, CSV, WMO TEMP or NetCDF) and print its levels "
-                                   "surface -> top with height, relative humidity and wet-bulb.")
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``show`` command to the sub-command parsers ``sub``."""
+    p = sub.add_parser("show",
+                       help="print a parsed profile with derived columns (height, RH, wet-bulb)",
+                       description="Read one profile (JSON, CSV, WMO TEMP or NetCDF) and print its "
+                                   "levels surface -> top with height, relative humidity and "
+                                   "wet-bulb.")
     p.add_argument("path", help="profile file, or - for standard input")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format")
     p.add_argument("--input-format", choices=("json", "csv", "temp", "netcdf"), default=None,
@@ -19,7 +24,9 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
-def profile_rows(profile) -> list[dict]:
+def profile_rows(profile: Profile) -> list[dict]:
+    """One row per level, surface first: pressure, height, T, Td, RH and the
+    isobaric wet-bulb, rounded for display."""
     rh = profile.relative_humidity_pct
     tw = profile.wetbulb_c("isobaric")
     rows = []
@@ -33,9 +40,11 @@ def profile_rows(profile) -> list[dict]:
     return rows
 
 
-def run(args) -> int:
+def run(args: argparse.Namespace) -> int:
+    """Print one profile with its derived columns; exit status."""
     import sys
-    # Standard input as bytes: text formats are decoded as UTF-8, NetCDF is recognised by its signature.
+    # Standard input as bytes: text formats are decoded as UTF-8, NetCDF is recognised by its
+    # signature.
     source = sys.stdin.buffer.read() if args.path == "-" else args.path
     profile = read_profile(source, format=args.input_format)
     rows = profile_rows(profile)

@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+import argparse
 import json
 
 
-def register(sub) -> None:
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``timeline`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser("timeline", help="type, hazards and transitions over a series of profiles",
                        description="Read a series of profiles (each with a valid time), "
                                    "interpolate between them and print the type, its probability "
@@ -23,7 +25,8 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
-def run(args) -> int:
+def run(args: argparse.Namespace) -> int:
+    """Build and print the timeline of a series of profiles; exit status."""
     from ptype.clock import parse_time
     from ptype.constants import CAUTION
     from ptype.errors import ProfileError

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import argparse
 import json
 import sys
 from pathlib import Path
@@ -12,7 +13,8 @@ FORMATS = ("table", "json", "html")
 EXTENSIONS = {"table": "txt", "json": "json", "html": "html"}
 
 
-def register(sub) -> None:
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add the ``verify`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser(
         "verify", help="score diagnoses against observed present weather",
         description="Diagnose every profile of a manifest of paired cases (CSV or JSON with "
@@ -38,7 +40,8 @@ def register(sub) -> None:
     p.set_defaults(func=run)
 
 
-def run(args) -> int:
+def run(args: argparse.Namespace) -> int:
+    """Verify the cases of a manifest and print or write the report; exit status."""
     from ptype.verify.manifest import read_manifest
     from ptype.verify.report import make_figures, render_html, render_table, run_verification
     if args.members < 0:

@@ -4,6 +4,8 @@ model dataset (``xarray.apply_ufunc``) and labels the results with CF attributes
 from __future__ import annotations
 
 import functools
+from collections.abc import Iterable
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -12,6 +14,9 @@ from ptype.constants import CAUTION
 from ptype.errors import OptionError
 from ptype.grid.fields import GridFields, _std, find_fields, unit_conversions
 from ptype.grid.kernel import KernelLayout, column_kernel
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 #: Missing value of the integer type variables (GRIB2 code table 4.201 "missing").
 TYPE_FILL = 255
@@ -26,8 +31,9 @@ def _label_name(code: Code) -> str:
     return LABELS[code].replace(" ", "_")
 
 
-def diagnose_dataset(ds, members: int = 0, seed=None, methods=None, per_method: bool = False,
-                     fields: GridFields | None = None):
+def diagnose_dataset(ds: xr.Dataset, members: int = 0, seed: int | None = None,
+                     methods: Iterable[str] | str | None = None, per_method: bool = False,
+                     fields: GridFields | None = None) -> xr.Dataset:
     """Diagnose every column of a model dataset; lazy when ``ds`` holds dask arrays.
 
     Parameters
@@ -154,7 +160,8 @@ def _output_dataset(ds, fields: GridFields, layout: KernelLayout, packed, seed):
         f"({', '.join(names_m)})")
     for m in layout.method_fields:
         out[f"precipitation_type_{m}"] = _type_variable(
-            field(f"m_{m}"), col_dims, extra, f"precipitation type at the surface by the {m} method")
+            field(f"m_{m}"), col_dims, extra,
+            f"precipitation type at the surface by the {m} method")
     for var, (key, units, long_name) in FLOAT_OUTPUTS.items():
         out[var] = field(key).assign_attrs({"long_name": long_name, "units": units, **extra})
     if layout.members:

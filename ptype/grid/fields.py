@@ -7,11 +7,15 @@ Inputs are recognised by CF ``standard_name`` (CF standard-name table v94); see
 from __future__ import annotations
 
 import dataclasses
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ptype.errors import ReaderError
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 #: Tolerance for "2 m" in the height coordinate of screen-level fields, m.
 SCREEN_HEIGHT_M = (1.0, 3.0)
@@ -97,38 +101,84 @@ def _is_screen_level(ds, var) -> bool:
     return True  # no height coordinate: accepted as the screen level
 
 
-def find_fields(ds, source: str = "input") -> GridFields:
-    """Identify the fields of a dataset by CF standard name.
-
-    Raises :class:`ReaderError` naming what is missing and what was found.
-    """
+def _by_standard_name(ds) -> dict[str, list[str]]:
+    """Data variable names grouped by CF standard name, in dataset order."""
     by_name: dict[str, list[str]] = {}
     for name, var in ds.data_vars.items():
         by_name.setdefault(_std(var), []).append(name)
+    return by_name
 
-    def describe() -> str:
-        found = [f"{n} ({_std(v) or 'no standard_name'})" for n, v in ds.data_vars.items()]
-        return ", ".join(found) if found else "none"
 
-    # The temperature on pressure levels and its vertical dimension.
-    temperature = level_dim = None
-    to_hpa = None
+def _describe(ds) -> str:
+    """The data variables with their standard names, for error messages."""
+    found = [f"{n} ({_std(v) or 'no standard_name'})" for n, v in ds.data_vars.items()]
+    return ", ".join(found) if found else "none"
+
+
+def _find_temperature(ds, by_name: Mapping[str, list[str]],
+                      source: str) -> tuple[str, str, float]:
+    """The first air temperature on pressure levels: its name, its level dimension and the
+    factor from that coordinate to hPa."""
     for name in by_name.get("air_temperature", []):
         for dim in ds[name].dims:
             f = _pressure_coord(ds, dim)
             if f is not None:
-                temperature, level_dim, to_hpa = name, dim, f
-                break
-        if temperature:
-            break
-    if temperature is None:
-        if by_name.get("air_temperature"):
-            raise ReaderError(
-                f"{source}: air_temperature found ({', '.join(by_name['air_temperature'])}) but "
-                "none has a vertical coordinate with standard_name air_pressure or units Pa/hPa",
-                field="air_temperature")
-        raise ReaderError(f"{source}: no variable with standard_name air_temperature on pressure "
-                          f"levels; variables present: {describe()}", field="air_temperature")
+                return name, dim, f
+    if by_name.get("air_temperature"):
+        raise ReaderError(
+            f"{source}: air_temperature found ({', '.join(by_name['air_temperature'])}) but "
+            "none has a vertical coordinate with standard_name air_pressure or units Pa/hPa",
+            field="air_temperature")
+    raise ReaderError(f"{source}: no variable with standard_name air_temperature on pressure "
+                      f"levels; variables present: {_describe(ds)}", field="air_temperature")
+
+
+def _find_humidity(ds, by_name: Mapping[str, list[str]], on_levels: Callable[[str], bool],
+                   source: str) -> tuple[str, str]:
+    """The humidity on the temperature's levels and its kind, in the order of
+    :data:`HUMIDITY_KINDS`."""
+    for kind in HUMIDITY_KINDS:
+        cands = [n for n in by_name.get(kind, []) if on_levels(n)]
+        if cands:
+            return cands[0], kind
+    raise ReaderError(f"{source}: no humidity on pressure levels; expected a variable with "
+                      f"standard_name {', '.join(HUMIDITY_KINDS)}; variables present: "
+                      f"{_describe(ds)}", field="humidity")
+
+
+def _check_units(ds, fields: GridFields) -> None:
+    """Every unit of the chosen variables understood, so a bad file fails before any
+    computing starts."""
+    temperature, humidity, kind = fields.temperature, fields.humidity, fields.humidity_kind
+    _lookup(TEMPERATURE_UNITS, ds[temperature], temperature, "a temperature")
+    screen = (fields.temperature_2m, fields.dewpoint_2m)
+    for name in screen + ((humidity,) if kind == "dew_point_temperature" else ()):
+        if name:
+            _lookup(TEMPERATURE_UNITS, ds[name], name, "a temperature")
+    if kind == "relative_humidity":
+        _lookup(RH_UNITS, ds[humidity], humidity, "a relative humidity")
+    elif kind in ("specific_humidity", "humidity_mixing_ratio"):
+        _lookup(FRACTION_UNITS, ds[humidity], humidity, "a mass fraction")
+    if fields.surface_pressure:
+        _lookup(PRESSURE_UNITS, ds[fields.surface_pressure], fields.surface_pressure,
+                "a pressure")
+    for name in (fields.height, fields.surface_altitude):
+        if name:
+            _lookup(HEIGHT_UNITS, ds[name], name, "a height")
+
+
+def find_fields(ds: xr.Dataset, source: str = "input") -> GridFields:
+    """Identify the fields of a dataset by CF standard name.
+
+    The temperature on pressure levels fixes the level, time and horizontal dimensions;
+    the humidity and geopotential height must share its levels; surface fields (surface
+    pressure and altitude, 2 m temperature and dew point) its other dimensions.
+
+    Raises :class:`ReaderError` naming what is missing and what was found, or the first
+    variable whose units are not understood.
+    """
+    by_name = _by_standard_name(ds)
+    temperature, level_dim, to_hpa = _find_temperature(ds, by_name, source)
     t_dims = ds[temperature].dims
     time_dim = next((d for d in t_dims if d != level_dim and _is_time(ds, d)), None)
     horizontal = tuple(d for d in t_dims if d not in (level_dim, time_dim))
@@ -139,45 +189,25 @@ def find_fields(ds, source: str = "input") -> GridFields:
     def surface(name):
         return level_dim not in ds[name].dims and set(ds[name].dims) <= set(t_dims)
 
-    humidity = kind = None
-    for k in HUMIDITY_KINDS:
-        cands = [n for n in by_name.get(k, []) if on_levels(n)]
-        if cands:
-            humidity, kind = cands[0], k
-            break
-    if humidity is None:
-        raise ReaderError(f"{source}: no humidity on pressure levels; expected a variable with "
-                          f"standard_name {', '.join(HUMIDITY_KINDS)}; variables present: "
-                          f"{describe()}", field="humidity")
-    height = next((n for n in by_name.get("geopotential_height", []) if on_levels(n)), None)
-    psfc = next((n for n in by_name.get("surface_air_pressure", []) if surface(n)), None)
-    zsfc = next((n for n in by_name.get("surface_altitude", []) if surface(n)), None)
-    t2 = next((n for n in by_name.get("air_temperature", [])
-               if surface(n) and _is_screen_level(ds, ds[n])), None)
-    td2 = next((n for n in by_name.get("dew_point_temperature", [])
-                if surface(n) and _is_screen_level(ds, ds[n])), None)
+    def first(standard_name, accept):
+        return next((n for n in by_name.get(standard_name, []) if accept(n)), None)
+
+    def screen(name):
+        return surface(name) and _is_screen_level(ds, ds[name])
+
+    humidity, kind = _find_humidity(ds, by_name, on_levels, source)
     fields = GridFields(temperature=temperature, humidity=humidity, humidity_kind=kind,
                         level_dim=level_dim, level_to_hpa=to_hpa, horizontal_dims=horizontal,
-                        time_dim=time_dim, height=height, surface_pressure=psfc,
-                        surface_altitude=zsfc, temperature_2m=t2, dewpoint_2m=td2)
-    # Check every unit now, so a bad file fails before any computing starts.
-    _lookup(TEMPERATURE_UNITS, ds[temperature], temperature, "a temperature")
-    for name in (t2, td2) + ((humidity,) if kind == "dew_point_temperature" else ()):
-        if name:
-            _lookup(TEMPERATURE_UNITS, ds[name], name, "a temperature")
-    if kind == "relative_humidity":
-        _lookup(RH_UNITS, ds[humidity], humidity, "a relative humidity")
-    elif kind in ("specific_humidity", "humidity_mixing_ratio"):
-        _lookup(FRACTION_UNITS, ds[humidity], humidity, "a mass fraction")
-    if psfc:
-        _lookup(PRESSURE_UNITS, ds[psfc], psfc, "a pressure")
-    for name in (height, zsfc):
-        if name:
-            _lookup(HEIGHT_UNITS, ds[name], name, "a height")
+                        time_dim=time_dim, height=first("geopotential_height", on_levels),
+                        surface_pressure=first("surface_air_pressure", surface),
+                        surface_altitude=first("surface_altitude", surface),
+                        temperature_2m=first("air_temperature", screen),
+                        dewpoint_2m=first("dew_point_temperature", screen))
+    _check_units(ds, fields)
     return fields
 
 
-def unit_conversions(ds, fields: GridFields) -> dict[str, float]:
+def unit_conversions(ds: xr.Dataset, fields: GridFields) -> dict[str, float]:
     """The constants the column kernel applies to reach degC, hPa, m, % and kg/kg: offsets
     (temperatures) and scales (the rest), keyed as :func:`ptype.grid.kernel.column_kernel`
     reads them; an unknown unit raises :class:`~ptype.errors.ReaderError` naming it."""

@@ -8,12 +8,16 @@ import os
 import sys
 from collections.abc import Iterable, Mapping, Sequence
 from datetime import UTC, datetime
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from ptype.errors import OptionError, ReaderError
 from ptype.grid.dataset import TYPE_FILL
 from ptype.grid.fields import GridFields, find_fields
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 #: Column diagnoses per dask chunk when no chunks are given (a chunk of ``c`` columns with
 #: ``m`` members makes ``c (1 + m)``).  Large, so that the whole grid is a few dozen tasks:
@@ -44,7 +48,7 @@ def parse_chunks(text: str | None) -> dict[str, int]:
     return out
 
 
-def default_chunks(ds, fields: GridFields, members: int = 0) -> dict:
+def default_chunks(ds: xr.Dataset, fields: GridFields, members: int = 0) -> dict:
     """Chunks of about ``DEFAULT_CHUNK_WORK / (1 + members)`` columns that follow how the
     temperature is stored: whole multiples of its file chunks when it is chunked, and when it
     is contiguous, whole rows of the inner horizontal dimensions (bands along the outermost),
@@ -72,7 +76,7 @@ def default_chunks(ds, fields: GridFields, members: int = 0) -> dict:
 
 
 def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | None = None,
-              members: int = 0):
+              members: int = 0) -> xr.Dataset:
     """Open one or more NetCDF files as one dask-backed dataset, combined along time.
 
     ``chunks`` maps dimension names to chunk sizes (the level dimension is always whole); the
@@ -170,7 +174,7 @@ def _combine(datasets, fields: GridFields):
 # Writing
 # --------------------------------------------------------------------------------------------
 
-def encoding_for(out, complevel: int = 4) -> dict:
+def encoding_for(out: xr.Dataset, complevel: int = 4) -> dict:
     """zlib-compressed, chunked NetCDF-4 encoding matching the dask chunks."""
     enc = {}
     for name, var in out.data_vars.items():
@@ -226,7 +230,8 @@ def history_line(argv: Iterable[str] | None = None) -> str:
     return f"{now}: ptype grid {' '.join(argv)}".rstrip()
 
 
-def write_grid(out, path, *, progress: bool = False, client=None, argv=None) -> None:
+def write_grid(out: xr.Dataset, path: str | os.PathLike, *, progress: bool = False,
+               client: Any = None, argv: Iterable[str] | None = None) -> None:
     """Compute (with a progress bar when asked) and write a diagnosed dataset to NetCDF-4."""
     line = history_line(argv)
     prior = out.attrs.get("history")
@@ -257,7 +262,7 @@ def write_grid(out, path, *, progress: bool = False, client=None, argv=None) -> 
             os.remove(tmp)
 
 
-def summary(path) -> dict:
+def summary(path: str | os.PathLike) -> dict:
     """Counts of each type in a written file (for the command's closing lines)."""
     import xarray as xr
     # engine named: letting xarray guess imports every installed backend (1.5 s measured).
@@ -278,4 +283,5 @@ def summary(path) -> dict:
 
 
 def format_seconds(s: float) -> str:
+    """A duration for people: ``12.3 s`` under two minutes, else ``4 min 7 s``."""
     return f"{s:.1f} s" if s < 120 else f"{math.floor(s / 60)} min {s % 60:.0f} s"

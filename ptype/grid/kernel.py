@@ -9,12 +9,18 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Mapping
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from ptype import thermo
 from ptype.codes import NO_RESULT, Code
 from ptype.grid.fields import GridFields
+
+if TYPE_CHECKING:
+    from numpy.typing import ArrayLike
+
+    from ptype.engine.columns import Columns
 
 #: Columns the engine diagnoses at once inside a chunk.  Small enough that its (n, L) float64
 #: temporaries (1.3 MB each at 40 levels) are recycled by the allocator instead of being
@@ -33,7 +39,8 @@ def _to_celsius(a, offset):
     return np.asarray(a, dtype=np.float64) - offset
 
 
-def dewpoint_from_humidity_c(kind: str, values, pressure_hpa, temperature_c):
+def dewpoint_from_humidity_c(kind: str, values: ArrayLike, pressure_hpa: ArrayLike,
+                             temperature_c: ArrayLike) -> np.ndarray:
     """Dew point, degC, from any of :data:`HUMIDITY_KINDS` (already in degC, %, kg/kg)."""
     if kind == "dew_point_temperature":
         return np.asarray(values, dtype=np.float64)
@@ -57,18 +64,24 @@ class KernelLayout:
 
     @property
     def method_fields(self) -> tuple[str, ...]:
+        """The methods packed one type each (none without ``per_method``)."""
         return self.methods if self.per_method else ()
 
     @property
     def names(self) -> tuple[str, ...]:
+        """Every packed field: consensus, per-method types, diagnostics, probabilities."""
         probs = tuple(f"p_{c.name}" for c in Code) if self.members else ()
         return (("ptype",) + tuple(f"m_{m}" for m in self.method_fields)
                 + ("warm_area_j_kg", "cold_area_j_kg", "wetbulb_zero_height_m",
                    "freezing_level_m") + probs)
 
 
-def build_columns(pressure_hpa, temperature_c, dewpoint_c, height_m=None, surface_pressure_hpa=None,
-                  surface_altitude_m=None, temperature_2m_c=None, dewpoint_2m_c=None):
+def build_columns(pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
+                  height_m: ArrayLike | None = None,
+                  surface_pressure_hpa: ArrayLike | None = None,
+                  surface_altitude_m: ArrayLike | None = None,
+                  temperature_2m_c: ArrayLike | None = None,
+                  dewpoint_2m_c: ArrayLike | None = None) -> Columns:
     """Model levels (``(n, L)``, any order) plus surface fields (``(n,)``) -> :class:`Columns`.
 
     Levels below the ground are dropped; the screen-level air becomes the lowest level when
@@ -116,7 +129,8 @@ def build_columns(pressure_hpa, temperature_c, dewpoint_c, height_m=None, surfac
                                surface_temperature_c=t2, surface_dewpoint_c=td2)
 
 
-def diagnose_block(columns, layout: KernelLayout, seed=None) -> np.ndarray:
+def diagnose_block(columns: Columns, layout: KernelLayout,
+                   seed: int | None = None) -> np.ndarray:
     """Run the engine on columns; returns ``(n, len(layout.names))`` float32 (NaN = missing)."""
     from ptype.engine.run import consensus_methods, run_columns
     n = columns.n_columns
@@ -154,8 +168,9 @@ def _batch_seed(seed, b: int):
 _LEVEL_INPUTS = ("pressure", "temperature", "humidity", "height")
 
 
-def column_kernel(*arrays, names: tuple[str, ...], consts: Mapping[str, float],
-                  fields: GridFields, layout: KernelLayout, seed=None):
+def column_kernel(*arrays: np.ndarray, names: tuple[str, ...], consts: Mapping[str, float],
+                  fields: GridFields, layout: KernelLayout,
+                  seed: int | None = None) -> np.ndarray:
     """The function mapped over chunks: arrays ``(..., level)`` (level inputs) and ``(...)``
     (surface inputs and the column index), named by ``names``; ``consts`` holds the unit
     conversions; returns ``(..., n_fields)`` float32.  The columns go through the engine in

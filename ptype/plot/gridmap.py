@@ -8,10 +8,16 @@ caution every human-facing output carries is printed under the map.
 
 from __future__ import annotations
 
+import os
+from typing import TYPE_CHECKING
+
 import numpy as np
 
 from ptype.codes import GRIB2_4201_MEANINGS
 from ptype.errors import OptionError
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 #: ptype's palette for GRIB2 4.201 values (ours): liquid in teals, frozen in indigo/violet,
 #: ice pellets and mixed ice in ambers, freezing types in crimson and rose so the most
@@ -34,7 +40,8 @@ def _label(meaning: str) -> str:
     return meaning.replace("_", " ")
 
 
-def plot_types(ds, path, *, time_index: int = 0, title: str | None = None) -> str:
+def plot_types(ds: xr.Dataset, path: str | os.PathLike, *, time_index: int = 0,
+               title: str | None = None) -> str:
     """Draw ``ds.precipitation_type`` (one time) to ``path`` (PNG); returns the path."""
     import matplotlib
     matplotlib.use("Agg")
@@ -47,7 +54,8 @@ def plot_types(ds, path, *, time_index: int = 0, title: str | None = None) -> st
     if "precipitation_type" not in ds:
         raise OptionError("plot: the dataset has no precipitation_type variable", field="plot")
     var = ds["precipitation_type"]
-    time_dims = [d for d in var.dims if d in ds.coords and np.issubdtype(ds[d].dtype, np.datetime64)]
+    time_dims = [d for d in var.dims
+                 if d in ds.coords and np.issubdtype(ds[d].dtype, np.datetime64)]
     when = ""
     if time_dims:
         n = var.sizes[time_dims[0]]
@@ -93,7 +101,8 @@ def plot_types(ds, path, *, time_index: int = 0, title: str | None = None) -> st
     handles = []
     for i in present:
         if i == len(codes):
-            handles.append(Patch(facecolor=MISSING_COLOUR, edgecolor="#333333", label="not diagnosed"))
+            handles.append(Patch(facecolor=MISSING_COLOUR, edgecolor="#333333",
+                                 label="not diagnosed"))
         else:
             c = codes[i]
             share = 100.0 * np.count_nonzero(index == i) / index.size

@@ -53,6 +53,7 @@ recalled values, 0.1039 and 0.039, give ice-to-liquid ratios of about 0.8 and
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import Code
 from ptype.thermo import saturation_vapor_pressure_hpa
@@ -80,7 +81,7 @@ def _isin(codes, members) -> np.ndarray:
     return np.isin(np.asarray(codes), [int(c) for c in members])
 
 
-def frost_point_c(dewpoint_c):
+def frost_point_c(dewpoint_c: ArrayLike) -> np.ndarray:
     """Frost point, degC: the temperature at which the air's vapour pressure saturates over ice.
 
     e = e_w(Td) (Alduchov & Eskridge 1996 over water), then the AERKi over-ice form
@@ -96,15 +97,18 @@ def frost_point_c(dewpoint_c):
     return np.where(td < 0.0, tf, td)
 
 
-def freezing_on_road(codes, road_surface_temperature_c) -> np.ndarray:
-    """True where a freezing type falls, or a liquid-bearing type falls on a road at or below 0 degC."""
+def freezing_on_road(codes: ArrayLike, road_surface_temperature_c: ArrayLike) -> np.ndarray:
+    """True where a freezing type falls, or a liquid-bearing type falls on a road at or below
+    0 degC."""
     road = np.asarray(road_surface_temperature_c, dtype=np.float64)
     cold_road = np.where(np.isfinite(road), road <= 0.0, False)
     return _isin(codes, FREEZING_CODES) | (_isin(codes, LIQUID_BEARING_CODES) & cold_road)
 
 
-def freezing_on_road_probability(probabilities, road_surface_temperature_c) -> np.ndarray:
-    """Probability of freezing precipitation on the road from per-code probabilities ``(n, len(Code))``.
+def freezing_on_road_probability(probabilities: ArrayLike,
+                                 road_surface_temperature_c: ArrayLike) -> np.ndarray:
+    """Probability of freezing precipitation on the road from per-code probabilities
+    ``(n, len(Code))``.
 
     Sum of the freezing codes' probabilities, plus the liquid-bearing codes' where the
     road surface is at or below 0 degC.
@@ -117,7 +121,7 @@ def freezing_on_road_probability(probabilities, road_surface_temperature_c) -> n
     return np.clip(freezing + np.where(cold_road, liquid, 0.0), 0.0, 1.0)
 
 
-def frost_on_road(road_surface_temperature_c, dewpoint_c) -> np.ndarray:
+def frost_on_road(road_surface_temperature_c: ArrayLike, dewpoint_c: ArrayLike) -> np.ndarray:
     """Hoar-frost deposition: road surface <= 0 degC and below the air's frost point."""
     road = np.asarray(road_surface_temperature_c, dtype=np.float64)
     tf = frost_point_c(dewpoint_c)
@@ -126,13 +130,14 @@ def frost_on_road(road_surface_temperature_c, dewpoint_c) -> np.ndarray:
     return np.where(np.isfinite(road) & np.isfinite(tf), out, False)
 
 
-def liquid_water_content_g_m3(precipitation_rate_mm_h):
+def liquid_water_content_g_m3(precipitation_rate_mm_h: ArrayLike) -> np.ndarray:
     """Liquid water content of rain, g m-3: W = 0.067 P**0.846 (Best; as used by Jones 1998)."""
     p = np.asarray(precipitation_rate_mm_h, dtype=np.float64)
     return LWC_COEFFICIENT * np.power(np.maximum(p, 0.0), LWC_EXPONENT)
 
 
-def jones_radial_ice_mm(precipitation_rate_mm_h, wind_speed_m_s, hours=1.0):
+def jones_radial_ice_mm(precipitation_rate_mm_h: ArrayLike, wind_speed_m_s: ArrayLike,
+                        hours: ArrayLike = 1.0) -> np.ndarray:
     """Equivalent uniform radial ice on a horizontal cylinder over ``hours`` (Jones 1996/1998), mm.
 
     ``hours / (rho_i pi) * sqrt((P rho_o)**2 + (3.6 V W)**2)``; an unknown wind is
@@ -146,14 +151,17 @@ def jones_radial_ice_mm(precipitation_rate_mm_h, wind_speed_m_s, hours=1.0):
     return np.asarray(hours, dtype=np.float64) * flux_mm_h / (GLAZE_DENSITY_G_CM3 * np.pi)
 
 
-def flat_glaze_mm(precipitation_rate_mm_h, hours=1.0):
-    """Glaze thickness on a flat horizontal surface, mm: ``P dt rho_w / rho_i`` (all water freezes)."""
+def flat_glaze_mm(precipitation_rate_mm_h: ArrayLike, hours: ArrayLike = 1.0) -> np.ndarray:
+    """Glaze thickness on a flat horizontal surface, mm: ``P dt rho_w / rho_i`` (all water
+    freezes)."""
     p = np.maximum(np.asarray(precipitation_rate_mm_h, dtype=np.float64), 0.0)
     return p * np.asarray(hours, dtype=np.float64) * WATER_DENSITY_G_CM3 / GLAZE_DENSITY_G_CM3
 
 
-def step_hazards(codes, probabilities, road_surface_temperature_c, dewpoint_c,
-                 precipitation_rate_mm_h, wind_speed_m_s, hours) -> dict[str, np.ndarray]:
+def step_hazards(codes: ArrayLike, probabilities: ArrayLike,
+                 road_surface_temperature_c: ArrayLike, dewpoint_c: ArrayLike,
+                 precipitation_rate_mm_h: ArrayLike, wind_speed_m_s: ArrayLike,
+                 hours: ArrayLike) -> dict[str, np.ndarray]:
     """All hazards for ``n`` steps, each lasting ``hours`` (scalar or ``(n,)``).
 
     Returns ``(n,)`` arrays: ``freezing_on_road`` (bool), ``freezing_probability``,
@@ -177,7 +185,8 @@ def step_hazards(codes, probabilities, road_surface_temperature_c, dewpoint_c,
         "snow_probability": np.clip(snow_prob, 0.0, 1.0),
         # mm of water x ratio = mm of snow; / 10 for cm.
         "snow_cm": np.where(share > 0, rate * hours * share * SNOW_TO_LIQUID_RATIO / 10.0, 0.0),
-        "ice_accretion_mm": np.where(freezing, jones_radial_ice_mm(rate, wind_speed_m_s, hours), 0.0),
+        "ice_accretion_mm": np.where(freezing, jones_radial_ice_mm(rate, wind_speed_m_s, hours),
+                                     0.0),
         "flat_glaze_mm": np.where(freezing_on_road(codes, road_surface_temperature_c),
                                   flat_glaze_mm(rate, hours), 0.0),
     }

@@ -1,14 +1,19 @@
-"""Timelines: a series of forecast profiles turned into a step-by-step type, hazard and alert basis.
+"""Timelines: a series of forecast profiles turned into step-by-step types, hazards and totals.
 
-Pipeline (all steps in one vectorised pass; see ``docs/nowcast.md`` for the equations)::
+Pipeline (all steps in one vectorised pass; see ``docs/nowcast.md`` for the equations), one
+function per stage, composed by :func:`build_timeline`::
 
-    profiles of one issue (sorted by valid time)
-      -> common terrain-following grid s = ln(p / p_sfc), linear in time level by level
-      -> nowcast adjustments  (a) surface observation blended in, decaying with height and lead
-                              (b) onset cooling of dry sub-cloud air toward its wet-bulb
-                              (c) melting-layer cooling by heavy precipitation (Kain et al. 2000)
-      -> Columns -> ptype.engine.run.run_columns (control and members)
-      -> ptype.roads.hazards.step_hazards -> steps, transitions, totals
+    validate_series        profiles of one issue, sorted by valid time; options checked
+    step_times             the time grid now + k step inside the profiles' span
+    interpolate_to_steps   common terrain-following grid s = ln(p / p_sfc), linear in time
+                           level by level
+    adjust_for_observation (a) surface observation blended in, decaying with height and lead
+    adjust_for_onset       (b) onset cooling of dry sub-cloud air toward its wet-bulb
+    adjust_for_melting     (c) melting-layer cooling by heavy precipitation (Kain et al. 2000)
+    diagnose_steps         Columns -> ptype.engine.run.run_columns (control and members)
+    hazards_at_steps       ptype.roads.hazards.step_hazards
+    step_records           one JSON-ready record per step
+    transitions, timeline_totals
 
 The adjustment constants are our own choices (labelled so), not published values.
 """
@@ -19,11 +24,12 @@ import itertools
 import math
 import re
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import UTC, datetime, timedelta
 from typing import Any
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype import thermo
 from ptype.codes import GRIB2_4201, LABELS, Code
@@ -70,6 +76,7 @@ class SurfaceObservation:
 
     @classmethod
     def from_mapping(cls, m: Mapping[str, Any]) -> SurfaceObservation:
+        """From a mapping with the field names; missing keys are None, others ignored."""
         return cls(**{k: m.get(k) for k in cls.__dataclass_fields__})
 
 
@@ -173,15 +180,17 @@ def _lerp_partial(values: np.ndarray, k: np.ndarray, w: np.ndarray) -> np.ndarra
 # Nowcast adjustments (pure array functions, documented in docs/nowcast.md)
 # ----------------------------------------------------------------------------------------
 
-def observation_weight(height_agl_m, lead_h, efold_height_m=OBS_EFOLD_HEIGHT_M,
-                       efold_lead_h=OBS_EFOLD_LEAD_H):
+def observation_weight(height_agl_m: ArrayLike, lead_h: ArrayLike,
+                       efold_height_m: float = OBS_EFOLD_HEIGHT_M,
+                       efold_lead_h: float = OBS_EFOLD_LEAD_H) -> np.ndarray:
     """Weight of the observation increment: ``exp(-h / H) exp(-lead / tau)`` (our choice)."""
     h = np.maximum(np.asarray(height_agl_m, dtype=np.float64), 0.0)
     lead = np.maximum(np.asarray(lead_h, dtype=np.float64), 0.0)
     return np.exp(-h / efold_height_m) * np.exp(-lead / efold_lead_h)
 
 
-def onset_cooling(temperature_c, dewpoint_c, wetbulb_c, fraction):
+def onset_cooling(temperature_c: np.ndarray, dewpoint_c: np.ndarray, wetbulb_c: np.ndarray,
+                  fraction: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Move T and Td toward the wet-bulb by ``fraction`` (0..1): evaporation conserves Tw.
 
     At fraction 1 the layer is saturated at its wet-bulb temperature, the limit of
@@ -193,7 +202,8 @@ def onset_cooling(temperature_c, dewpoint_c, wetbulb_c, fraction):
     return t, np.minimum(td, t)
 
 
-def melting_cooling_k(precipitation_rate_mm_h, hours, layer_mass_kg_m2):
+def melting_cooling_k(precipitation_rate_mm_h: ArrayLike, hours: ArrayLike,
+                      layer_mass_kg_m2: ArrayLike) -> np.ndarray:
     """Cooling of a layer by melting the snow falling into it, K (uniform over its mass).
 
     Energy balance: melting the liquid-equivalent flux rho_w P for a time dt takes
@@ -207,7 +217,8 @@ def melting_cooling_k(precipitation_rate_mm_h, hours, layer_mass_kg_m2):
     p_m_s = np.maximum(np.asarray(precipitation_rate_mm_h, dtype=np.float64), 0.0) / 3.6e6
     seconds = np.asarray(hours, dtype=np.float64) * 3600.0
     with np.errstate(divide="ignore", invalid="ignore"):
-        return Lf * rho_w * p_m_s * seconds / (Cp_d * np.asarray(layer_mass_kg_m2, dtype=np.float64))
+        mass = np.asarray(layer_mass_kg_m2, dtype=np.float64)
+        return Lf * rho_w * p_m_s * seconds / (Cp_d * mass)
 
 
 def _run_ids(mask: np.ndarray) -> np.ndarray:
@@ -216,7 +227,9 @@ def _run_ids(mask: np.ndarray) -> np.ndarray:
     return np.where(mask, np.cumsum(start, axis=1), 0)
 
 
-def apply_melting_cooling(pressure_hpa, height_m, temperature_c, rate_mm_h, hours):
+def apply_melting_cooling(pressure_hpa: np.ndarray, height_m: np.ndarray,
+                          temperature_c: np.ndarray, rate_mm_h: ArrayLike,
+                          hours: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Cool each melting layer (T > 0 with sub-zero air above it) by :func:`melting_cooling_k`,
     never below 0 degC.  Returns the new temperatures and the per-column largest cooling, K."""
     t = temperature_c
@@ -265,7 +278,7 @@ def _spells(precipitating: np.ndarray, hours_step: float, ongoing_at_start: bool
 
 
 # ----------------------------------------------------------------------------------------
-# Timeline
+# Timeline, stage by stage
 # ----------------------------------------------------------------------------------------
 
 def _select_observation(observations, now: datetime) -> SurfaceObservation | None:
@@ -288,9 +301,44 @@ def _r(x, nd=2):
     return None if not math.isfinite(x) else round(x, nd)
 
 
+def validate_series(profiles: Iterable[Profile], hours: float, step: str | timedelta | float,
+                    adjustments: Iterable[str] | None
+                    ) -> tuple[list[Profile], timedelta, tuple[str, ...]]:
+    """Validation stage: the profiles sorted by valid time, the step and the adjustments.
+
+    Raises :class:`~ptype.errors.ProfileError` (no profile, a missing ``valid_time``, two
+    profiles at one time) or :class:`~ptype.errors.OptionError` (``hours`` outside
+    (0, 240], a bad step, an unknown adjustment), each naming the field.
+    """
+    profiles = list(profiles)
+    if not profiles:
+        raise ProfileError("profiles: none given; expected at least one profile with a valid_time",
+                           field="profiles")
+    for i, pr in enumerate(profiles):
+        if pr.valid_time is None:
+            raise ProfileError(f"profiles[{i}].valid_time: required for a timeline",
+                               field=f"profiles[{i}].valid_time")
+    profiles.sort(key=lambda pr: pr.valid_time)
+    times = [pr.valid_time for pr in profiles]
+    if len(set(times)) != len(times):
+        dup = next(t for t in times if times.count(t) > 1)
+        raise ProfileError(f"profiles: two profiles are valid at {_iso(dup)}; "
+                           "expected one per time", field="profiles")
+    if not (0 < hours <= 240):
+        raise OptionError(f"hours = {hours}: expected more than 0 and at most 240", field="hours")
+    step_td = parse_step(step)
+    chosen = tuple(adjustments or ())
+    unknown = [a for a in chosen if a not in ADJUSTMENTS]
+    if unknown:
+        raise OptionError(f"adjustments: unknown {unknown[0]!r}; expected some of "
+                          f"{', '.join(ADJUSTMENTS)}", field="adjustments")
+    return profiles, step_td, chosen
+
+
 def step_times(first: datetime, last: datetime, now: datetime, hours: float,
                step: timedelta) -> list[datetime]:
-    """Steps ``now + k step`` within ``[now, now + hours]`` and the profiles' span."""
+    """Time-grid stage: steps ``now + k step`` within ``[now, now + hours]`` and the
+    profiles' span ``[first, last]``."""
     end = min(now + timedelta(hours=hours), last)
     k0 = 0 if now >= first else math.ceil((first - now) / step)
     out = []
@@ -307,11 +355,336 @@ def step_times(first: datetime, last: datetime, now: datetime, hours: float,
     return out
 
 
+@dataclass(frozen=True)
+class StepClock:
+    """The time grid of a timeline: the step times, ``now`` and the step length."""
+
+    times: tuple[datetime, ...]
+    now: datetime
+    step: timedelta
+
+    @property
+    def n(self) -> int:
+        """Number of steps."""
+        return len(self.times)
+
+    @property
+    def seconds(self) -> np.ndarray:
+        """Step times as POSIX seconds, ``(n,)``."""
+        return _seconds(self.times)
+
+    @property
+    def hours_step(self) -> float:
+        """Step length, h."""
+        return self.step.total_seconds() / 3600.0
+
+    @property
+    def lead_h(self) -> np.ndarray:
+        """Lead time of every step after ``now``, h, ``(n,)``."""
+        return (self.seconds - self.now.timestamp()) / 3600.0
+
+
+@dataclass(frozen=True)
+class StepColumns:
+    """Columns and surface values at every step: ``(n, G)`` profiles on the common grid
+    (surface first) and ``(n,)`` surface series (NaN where unknown)."""
+
+    pressure_hpa: np.ndarray
+    temperature_c: np.ndarray
+    dewpoint_c: np.ndarray
+    height_m: np.ndarray
+    temperature_2m_c: np.ndarray
+    dewpoint_2m_c: np.ndarray
+    road_surface_temperature_c: np.ndarray
+    precipitation_rate_mm_h: np.ndarray
+    wind_speed_m_s: np.ndarray
+
+
+def interpolate_to_steps(profiles: Sequence[Profile], clock: StepClock) -> StepColumns:
+    """Interpolation stage: every profile on the common terrain-following grid
+    ``s = ln(p / p_sfc)``, then linear in time between the bracketing profiles, level by
+    level; ln p_sfc linear in time; surface series with gaps take the nearest known value.
+
+    ``profiles`` are sorted by valid time (:func:`validate_series`).
+    """
+    k, w = _bracket(clock.seconds, _seconds([pr.valid_time for pr in profiles]))
+    grid = _common_grid(profiles)
+    on = _on_grid(profiles, grid)
+    sfc = _surface_series(profiles)
+    return StepColumns(
+        pressure_hpa=np.exp(_lerp(on["ln_psfc"], k, w)[:, None] + grid[None, :]),
+        temperature_c=_lerp(on["t"], k, w), dewpoint_c=_lerp(on["td"], k, w),
+        height_m=_lerp(on["z"], k, w),
+        temperature_2m_c=_lerp_partial(sfc["t2m"], k, w),
+        dewpoint_2m_c=_lerp_partial(sfc["td2m"], k, w),
+        road_surface_temperature_c=_lerp_partial(sfc["road"], k, w),
+        precipitation_rate_mm_h=_lerp_partial(sfc["rate"], k, w),
+        wind_speed_m_s=_lerp_partial(sfc["wind"], k, w))
+
+
+def _blend_series(current: np.ndarray, value: float, w_lead: np.ndarray,
+                  lead_h: np.ndarray) -> np.ndarray:
+    """Observed ``value`` blended into a non-negative series (rate, wind) with weight
+    ``w_lead``; where the forecast has no value the observation persists for one e-folding
+    lead time (our choice)."""
+    blended = np.where(np.isfinite(current), w_lead * value + (1 - w_lead) * current,
+                       np.where(lead_h <= OBS_EFOLD_LEAD_H, value, np.nan))
+    return np.maximum(blended, 0.0)
+
+
+def adjust_for_observation(cols: StepColumns, obs: SurfaceObservation,
+                           profiles: Sequence[Profile], clock: StepClock) -> StepColumns:
+    """Observation-blending stage (a): the observed-minus-forecast increment at the
+    observation time, weighted by :func:`observation_weight` (height above ground and lead
+    after the observation), added to T and Td aloft and at the screen; road temperature,
+    precipitation rate and wind blended at the surface.  Td stays at or below T.
+    """
+    sfc = _surface_series(profiles)
+    ko, wo = _bracket(np.array([obs.time.timestamp()]),
+                      _seconds([pr.valid_time for pr in profiles]))
+    lead_h = (clock.seconds - obs.time.timestamp()) / 3600.0
+    w_lead = observation_weight(0.0, lead_h)
+    w_lvl = observation_weight(cols.height_m - cols.height_m[:, :1], lead_h[:, None])
+    T, Td = cols.temperature_c, cols.dewpoint_c
+    t2m, td2m = cols.temperature_2m_c, cols.dewpoint_2m_c
+    road, rate, wind = (cols.road_surface_temperature_c, cols.precipitation_rate_mm_h,
+                        cols.wind_speed_m_s)
+    if obs.air_temperature_c is not None:
+        d = obs.air_temperature_c - _lerp_partial(sfc["t2m"], ko, wo)[0]
+        T = T + w_lvl * d
+        t2m = t2m + w_lead * d
+    if obs.dewpoint_c is not None:
+        d = obs.dewpoint_c - _lerp_partial(sfc["td2m"], ko, wo)[0]
+        Td = Td + w_lvl * d
+        td2m = td2m + w_lead * d
+    Td = np.minimum(Td, T)
+    td2m = np.minimum(td2m, t2m)
+    if obs.road_surface_temperature_c is not None:
+        model_road = _lerp_partial(sfc["road"], ko, wo)[0]
+        if math.isfinite(model_road):
+            road = road + w_lead * (obs.road_surface_temperature_c - model_road)
+        else:
+            # No forecast road temperature: persist the observed one, following the
+            # forecast screen-temperature trend (our choice).
+            road = obs.road_surface_temperature_c + (t2m - t2m[0])
+    if obs.precipitation_rate_mm_h is not None:
+        rate = _blend_series(rate, obs.precipitation_rate_mm_h, w_lead, lead_h)
+    if obs.wind_speed_m_s is not None:
+        wind = _blend_series(wind, obs.wind_speed_m_s, w_lead, lead_h)
+    return replace(cols, temperature_c=T, dewpoint_c=Td, temperature_2m_c=t2m,
+                   dewpoint_2m_c=td2m, road_surface_temperature_c=road,
+                   precipitation_rate_mm_h=rate, wind_speed_m_s=wind)
+
+
+@dataclass(frozen=True)
+class Spells:
+    """Precipitation at every step, ``(n,)``: rate known, precipitating, hours since the
+    current spell began, and whether that spell began inside the timeline."""
+
+    known: np.ndarray
+    precipitating: np.ndarray
+    since_h: np.ndarray
+    onset_inside: np.ndarray
+
+
+def precipitation_spells(rate_mm_h: np.ndarray, hours_step: float) -> Spells:
+    """Spells of precipitation (rate at or above :data:`PRECIP_THRESHOLD_MM_H`).
+
+    A spell already under way at the first step is in the forecast (and the observation)
+    already: only onsets inside the timeline count for the onset adjustment.
+    """
+    known = np.isfinite(rate_mm_h)
+    precipitating = known & (rate_mm_h >= PRECIP_THRESHOLD_MM_H)
+    since_h, onset_inside = _spells(precipitating, hours_step, bool(precipitating[0]))
+    return Spells(known, precipitating, since_h, onset_inside)
+
+
+def lead_fade(clock: StepClock) -> np.ndarray:
+    """Weight of the onset and melting adjustments at every step, ``(n,)``.
+
+    Both correct what a forecast profile tends to miss near the start; at longer leads the
+    forecast's own evolution (which carries some of this cooling) stands, so both fade with
+    lead time like the observation increment (same e-folding, our choice).
+    """
+    return observation_weight(0.0, clock.lead_h)
+
+
+def adjust_for_onset(cols: StepColumns, spells: Spells, fade: np.ndarray,
+                     hours_step: float) -> tuple[StepColumns, np.ndarray]:
+    """Onset-cooling stage (b): after an onset inside the timeline, the sub-cloud levels
+    (below the first level with RH >= :data:`CLOUD_BASE_RH_PCT`) and the screen move toward
+    their wet-bulb temperature by ``(1 - exp(-(t + step) / tau)) * fade`` (:func:`onset_cooling`).
+
+    Returns the new columns and the steps cooled by more than 0.05 K, ``(n,)``.
+    """
+    if not spells.onset_inside.any():
+        return cols, np.zeros(spells.onset_inside.shape, bool)
+    P, T, Td = cols.pressure_hpa, cols.temperature_c, cols.dewpoint_c
+    t2m, td2m = cols.temperature_2m_c, cols.dewpoint_2m_c
+    rh = thermo.relative_humidity_pct(T, Td)
+    cloudy = rh >= CLOUD_BASE_RH_PCT
+    first_cloud = np.where(cloudy.any(axis=1), np.argmax(cloudy, axis=1), T.shape[1])
+    sub_cloud = np.arange(T.shape[1])[None, :] < first_cloud[:, None]
+    frac = np.where(spells.onset_inside,
+                    1.0 - np.exp(-(spells.since_h + hours_step) / ONSET_EFOLD_H), 0.0)
+    frac = frac * fade
+    tw = thermo.wet_bulb_temperature(P, T, Td)
+    T_new, Td_new = onset_cooling(T, Td, tw, np.where(sub_cloud, frac[:, None], 0.0))
+    changed = np.nanmax(np.abs(T_new - T), axis=1, initial=0.0) > 0.05
+    t2m_new, td2m_new = onset_cooling(t2m, td2m, thermo.wet_bulb_temperature(
+        P[:, 0], t2m, td2m), np.where(sub_cloud[:, 0], frac, 0.0))
+    return replace(cols, temperature_c=T_new, dewpoint_c=Td_new, temperature_2m_c=t2m_new,
+                   dewpoint_2m_c=td2m_new), changed
+
+
+def adjust_for_melting(cols: StepColumns, spells: Spells,
+                       fade: np.ndarray) -> tuple[StepColumns, np.ndarray]:
+    """Melting-cooling stage (c): every melting layer of a precipitating step is cooled by
+    :func:`apply_melting_cooling` for the hours the column has been precipitating since the
+    spell began or since now, whichever is later, capped at :data:`MELTING_MAX_HOURS` and
+    multiplied by ``fade``.  Td stays at or below T.
+
+    Returns the new columns and the steps cooled by more than 0.05 K, ``(n,)``.
+    """
+    precipitating = spells.precipitating
+    if not precipitating.any():
+        return cols, np.zeros(precipitating.shape, bool)
+    dt_h = np.where(precipitating, np.minimum(spells.since_h, MELTING_MAX_HOURS), 0.0) * fade
+    rate = np.where(precipitating, cols.precipitation_rate_mm_h, 0.0)
+    T, cooled = apply_melting_cooling(cols.pressure_hpa, cols.height_m, cols.temperature_c,
+                                      rate, dt_h)
+    return replace(cols, temperature_c=T, dewpoint_c=np.minimum(cols.dewpoint_c, T)), \
+        cooled > 0.05
+
+
+@dataclass(frozen=True)
+class StepDiagnosis:
+    """What the engine says at every step.
+
+    ``codes`` is the type reaching the ground (NONE where the rate is known to be below
+    :data:`PRECIP_THRESHOLD_MM_H`), ``codes_if_precipitating`` the engine's type whatever
+    the rate; ``probabilities`` the engine's per-code probabilities ``(n, len(Code))``
+    (one-hot without members) and ``effective_probabilities`` those with dry steps set to
+    NONE; ``fields`` the engine's diagnostic fields; ``columns`` what the engine ran on.
+    """
+
+    columns: Columns
+    codes: np.ndarray
+    codes_if_precipitating: np.ndarray
+    probabilities: np.ndarray
+    effective_probabilities: np.ndarray
+    fields: Mapping[str, np.ndarray]
+
+
+def diagnose_steps(cols: StepColumns, spells: Spells, members: int, seed: int | None,
+                   methods: Iterable[str] | str | None = None) -> StepDiagnosis:
+    """Engine stage: all step columns through :func:`ptype.engine.run.run_columns` in one
+    vectorised pass (control and Monte-Carlo members); dry steps become NONE."""
+    from ptype.engine.run import run_columns
+
+    columns = Columns.from_arrays(
+        cols.pressure_hpa, cols.temperature_c, cols.dewpoint_c, cols.height_m,
+        surface_height_m=cols.height_m[:, 0], surface_temperature_c=cols.temperature_2m_c,
+        surface_dewpoint_c=cols.dewpoint_2m_c,
+        road_surface_temperature_c=cols.road_surface_temperature_c,
+        precipitation_rate_mm_h=cols.precipitation_rate_mm_h,
+        wind_speed_m_s=cols.wind_speed_m_s)
+    run = run_columns(columns, members, seed, methods)
+    codes_wet = np.asarray(run.codes, dtype=int)
+    probs = run.probabilities if members else np.eye(len(Code))[codes_wet]
+    dry = spells.known & ~spells.precipitating
+    codes = np.where(dry, int(Code.NONE), codes_wet)
+    probs_eff = np.where(dry[:, None], 0.0, probs)
+    probs_eff[:, int(Code.NONE)] = np.where(dry, 1.0, probs_eff[:, int(Code.NONE)])
+    return StepDiagnosis(columns, codes, codes_wet, probs, probs_eff, run.fields)
+
+
+def hazards_at_steps(diagnosis: StepDiagnosis, cols: StepColumns, spells: Spells,
+                     hours_step: float) -> dict[str, np.ndarray]:
+    """Hazard stage: :func:`ptype.roads.hazards.step_hazards` at every step.
+
+    Hoar frost is a dry-weather deposit; while precipitation falls its hazard is the
+    precipitation's own (freezing on the road, snow), so frost is cleared there.
+    """
+    hz = hazards.step_hazards(diagnosis.codes, diagnosis.effective_probabilities,
+                              cols.road_surface_temperature_c,
+                              diagnosis.columns.surface_dewpoint_c,
+                              cols.precipitation_rate_mm_h, cols.wind_speed_m_s, hours_step)
+    hz["frost"] = hz["frost"] & ~spells.precipitating
+    return hz
+
+
+def adjustment_notes(applied: Sequence[tuple[str, np.ndarray]], n: int) -> list[list[str]]:
+    """Per step, the names of the adjustments that changed it, in the order applied."""
+    return [[name for name, mask in applied if mask[i]] for i in range(n)]
+
+
+def _step_hazards_record(hz: Mapping[str, np.ndarray], i: int) -> dict[str, Any]:
+    return {
+        "freezing_on_road": bool(hz["freezing_on_road"][i]),
+        "freezing_probability": _r(hz["freezing_probability"][i], 3),
+        "frost": bool(hz["frost"][i]),
+        "snow": bool(hz["snow"][i]),
+        "snow_probability": _r(hz["snow_probability"][i], 3),
+        "snow_cm": _r(hz["snow_cm"][i], 3),
+        "ice_accretion_mm": _r(hz["ice_accretion_mm"][i], 3),
+        "flat_glaze_mm": _r(hz["flat_glaze_mm"][i], 3),
+    }
+
+
+def step_records(clock: StepClock, cols: StepColumns, spells: Spells,
+                 diagnosis: StepDiagnosis, hz: Mapping[str, np.ndarray],
+                 notes: Sequence[Sequence[str]]) -> list[dict[str, Any]]:
+    """Step-record stage: one JSON-ready dict per step (type, label, GRIB2 code 4.201,
+    probabilities, hazards, surface values, layer areas, adjustments applied)."""
+    lead_h = clock.lead_h
+    probs = diagnosis.probabilities
+    td2m = diagnosis.columns.surface_dewpoint_c
+    fields = diagnosis.fields
+    steps = []
+    for i in range(clock.n):
+        code = Code(int(diagnosis.codes[i]))
+        steps.append({
+            "valid_time": _iso(clock.times[i]),
+            "lead_hours": round(lead_h[i], 3),
+            "ptype": code.name, "ptype_label": LABELS[code], "grib2_code": GRIB2_4201[code],
+            "ptype_if_precipitating": Code(int(diagnosis.codes_if_precipitating[i])).name,
+            "precipitating": None if not spells.known[i] else bool(spells.precipitating[i]),
+            "probabilities": {c.name: round(float(probs[i, c]), 3) for c in Code
+                              if np.isfinite(probs[i, c]) and probs[i, c] > 0},
+            "hazards": _step_hazards_record(hz, i),
+            "surface": {
+                "temperature_2m_c": _r(cols.temperature_2m_c[i]), "dewpoint_2m_c": _r(td2m[i]),
+                "frost_point_c": _r(hazards.frost_point_c(td2m[i])),
+                "road_surface_temperature_c": _r(cols.road_surface_temperature_c[i]),
+                "precipitation_rate_mm_h": _r(cols.precipitation_rate_mm_h[i]),
+                "wind_speed_m_s": _r(cols.wind_speed_m_s[i]),
+            },
+            "warm_area_j_kg": _r(fields["warm_area_j_kg"][i], 1),
+            "cold_area_j_kg": _r(fields["cold_area_j_kg"][i], 1),
+            "wetbulb_zero_height_m": _r(fields["wetbulb_zero_height_m"][i], 0),
+            "adjustments": list(notes[i]),
+        })
+    return steps
+
+
+def _timeline_header(now: datetime, step: timedelta, hours: float, times: Sequence[datetime],
+                     adjustments: Sequence[str],
+                     obs: SurfaceObservation | None) -> dict[str, Any]:
+    """The inputs a timeline reports with its steps, and the caution."""
+    return {"now": _iso(now), "step_minutes": step.total_seconds() / 60, "hours": hours,
+            "issued_profiles": [_iso(t) for t in times], "adjustments": list(adjustments),
+            "caution": CAUTION,
+            "observation": None if obs is None else {
+                k: (_iso(v) if isinstance(v, datetime) else v) for k, v in obs.__dict__.items()}}
+
+
 def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
                    hours: float = 12.0, step: str | timedelta = "15min",
                    observations: Iterable[Mapping[str, Any] | SurfaceObservation] | None = None,
                    adjustments: Iterable[str] | None = ADJUSTMENTS, members: int = 30,
-                   seed: int | None = 0, methods=None) -> dict[str, Any]:
+                   seed: int | None = 0, methods: Iterable[str] | str | None = None
+                   ) -> dict[str, Any]:
     """Build a timeline from a series of profiles (one forecast issue) and optional observations.
 
     Parameters
@@ -326,196 +699,43 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
 
     Returns a JSON-ready dict: ``steps``, ``transitions``, ``totals``, ``caution`` and the
     inputs used (``issued_profiles``, ``observation``, ``adjustments``).
-    """
-    from ptype.engine.run import run_columns
 
-    profiles = list(profiles)
-    if not profiles:
-        raise ProfileError("profiles: none given; expected at least one profile with a valid_time",
-                           field="profiles")
-    for i, pr in enumerate(profiles):
-        if pr.valid_time is None:
-            raise ProfileError(f"profiles[{i}].valid_time: required for a timeline",
-                               field=f"profiles[{i}].valid_time")
-    profiles.sort(key=lambda pr: pr.valid_time)
+    The stages, in order: :func:`validate_series`, :func:`step_times`,
+    :func:`interpolate_to_steps`, :func:`adjust_for_observation`, :func:`adjust_for_onset`,
+    :func:`adjust_for_melting`, :func:`diagnose_steps`, :func:`hazards_at_steps`,
+    :func:`step_records`, :func:`transitions` and :func:`timeline_totals`.
+    """
+    profiles, step_td, adjustments = validate_series(profiles, hours, step, adjustments)
     times = [pr.valid_time for pr in profiles]
-    if len(set(times)) != len(times):
-        dup = next(t for t in times if times.count(t) > 1)
-        raise ProfileError(f"profiles: two profiles are valid at {_iso(dup)}; expected one per time",
-                           field="profiles")
-    if not (0 < hours <= 240):
-        raise OptionError(f"hours = {hours}: expected more than 0 and at most 240", field="hours")
-    step_td = parse_step(step)
-    adjustments = tuple(adjustments or ())
-    unknown = [a for a in adjustments if a not in ADJUSTMENTS]
-    if unknown:
-        raise OptionError(f"adjustments: unknown {unknown[0]!r}; expected some of "
-                          f"{', '.join(ADJUSTMENTS)}", field="adjustments")
     now = now or times[0]
-    when = step_times(times[0], times[-1], now, hours, step_td)
-    base = {"now": _iso(now), "step_minutes": step_td.total_seconds() / 60, "hours": hours,
-            "issued_profiles": [_iso(t) for t in times], "adjustments": list(adjustments),
-            "caution": CAUTION}
+    clock = StepClock(tuple(step_times(times[0], times[-1], now, hours, step_td)), now, step_td)
     obs = _select_observation(observations, now) if "observation" in adjustments else None
-    base["observation"] = None if obs is None else {
-        k: (_iso(v) if isinstance(v, datetime) else v) for k, v in obs.__dict__.items()}
-    if not when:
-        base.update(steps=[], transitions=[], totals=_totals([], step_td),
+    base = _timeline_header(now, step_td, hours, times, adjustments, obs)
+    if not clock.n:
+        base.update(steps=[], transitions=[], totals=timeline_totals([], step_td),
                     message=f"no profile covers {_iso(now)} to "
                             f"{_iso(now + timedelta(hours=hours))}")
         return base
 
-    n = len(when)
-    h_step = step_td.total_seconds() / 3600.0
-    t_steps = _seconds(when)
-    t_prof = _seconds(times)
-    k, w = _bracket(t_steps, t_prof)
-    grid = _common_grid(profiles)
-    on = _on_grid(profiles, grid)
-    T = _lerp(on["t"], k, w)
-    Td = _lerp(on["td"], k, w)
-    Z = _lerp(on["z"], k, w)
-    P = np.exp(_lerp(on["ln_psfc"], k, w)[:, None] + grid[None, :])
-    sfc = _surface_series(profiles)
-    t2m = _lerp_partial(sfc["t2m"], k, w)
-    td2m = _lerp_partial(sfc["td2m"], k, w)
-    road = _lerp_partial(sfc["road"], k, w)
-    rate = _lerp_partial(sfc["rate"], k, w)
-    wind = _lerp_partial(sfc["wind"], k, w)
-    notes: list[list[str]] = [[] for _ in range(n)]
-    hagl = Z - Z[:, :1]
-
-    # (a) observation increments.
+    cols = interpolate_to_steps(profiles, clock)
+    applied: list[tuple[str, np.ndarray]] = []
     if obs is not None:
-        ko, wo = _bracket(np.array([obs.time.timestamp()]), t_prof)
-        lead_h = (t_steps - obs.time.timestamp()) / 3600.0
-        w_lead = observation_weight(0.0, lead_h)
-        w_lvl = observation_weight(hagl, lead_h[:, None])
-        model_t2m = _lerp_partial(sfc["t2m"], ko, wo)[0]
-        model_td2m = _lerp_partial(sfc["td2m"], ko, wo)[0]
-        if obs.air_temperature_c is not None:
-            d = obs.air_temperature_c - model_t2m
-            T = T + w_lvl * d
-            t2m = t2m + w_lead * d
-        if obs.dewpoint_c is not None:
-            d = obs.dewpoint_c - model_td2m
-            Td = Td + w_lvl * d
-            td2m = td2m + w_lead * d
-        Td = np.minimum(Td, T)
-        td2m = np.minimum(td2m, t2m)
-        if obs.road_surface_temperature_c is not None:
-            model_road = _lerp_partial(sfc["road"], ko, wo)[0]
-            if math.isfinite(model_road):
-                road = road + w_lead * (obs.road_surface_temperature_c - model_road)
-            else:
-                # No forecast road temperature: persist the observed one, following the
-                # forecast screen-temperature trend (our choice).
-                road = obs.road_surface_temperature_c + (t2m - t2m[0])
-        for attr, series in (("precipitation_rate_mm_h", "rate"), ("wind_speed_m_s", "wind")):
-            value = getattr(obs, attr)
-            if value is None:
-                continue
-            cur = rate if series == "rate" else wind
-            blended = np.where(np.isfinite(cur), w_lead * value + (1 - w_lead) * cur,
-                               np.where(lead_h <= OBS_EFOLD_LEAD_H, value, np.nan))
-            if series == "rate":
-                rate = np.maximum(blended, 0.0)
-            else:
-                wind = np.maximum(blended, 0.0)
-        for i in range(n):
-            notes[i].append("observation")
+        cols = adjust_for_observation(cols, obs, profiles, clock)
+        applied.append(("observation", np.ones(clock.n, bool)))
+    spells = precipitation_spells(cols.precipitation_rate_mm_h, clock.hours_step)
+    fade = lead_fade(clock)
+    if "onset" in adjustments:
+        cols, changed = adjust_for_onset(cols, spells, fade, clock.hours_step)
+        applied.append(("onset", changed))
+    if "melting" in adjustments:
+        cols, changed = adjust_for_melting(cols, spells, fade)
+        applied.append(("melting", changed))
 
-    known = np.isfinite(rate)
-    precipitating = known & (rate >= PRECIP_THRESHOLD_MM_H)
-    # A spell already under way at the first step is in the forecast (and the observation)
-    # already: only onsets inside the timeline are adjusted.
-    ongoing = bool(precipitating[0])
-    since_h, onset_inside = _spells(precipitating, h_step, ongoing)
-    # (b) and (c) correct what a forecast profile tends to miss near the start; at longer
-    # leads the forecast's own evolution (which carries some of this cooling) stands, so both
-    # fade with lead time like the observation increment (same e-folding, our choice).
-    lead_weight = observation_weight(0.0, (t_steps - now.timestamp()) / 3600.0)
-
-    # (b) onset cooling of the dry sub-cloud layer.
-    if "onset" in adjustments and onset_inside.any():
-        rh = thermo.relative_humidity_pct(T, Td)
-        cloudy = rh >= CLOUD_BASE_RH_PCT
-        first_cloud = np.where(cloudy.any(axis=1), np.argmax(cloudy, axis=1), T.shape[1])
-        sub_cloud = np.arange(T.shape[1])[None, :] < first_cloud[:, None]
-        frac = np.where(onset_inside, 1.0 - np.exp(-(since_h + h_step) / ONSET_EFOLD_H), 0.0)
-        frac = frac * lead_weight
-        tw = thermo.wet_bulb_temperature(P, T, Td)
-        f = np.where(sub_cloud, frac[:, None], 0.0)
-        T_new, Td_new = onset_cooling(T, Td, tw, f)
-        changed = np.nanmax(np.abs(T_new - T), axis=1, initial=0.0) > 0.05
-        T, Td = T_new, Td_new
-        t2m_new, td2m_new = onset_cooling(t2m, td2m, thermo.wet_bulb_temperature(
-            P[:, 0], t2m, td2m), np.where(sub_cloud[:, 0], frac, 0.0))
-        t2m, td2m = t2m_new, td2m_new
-        for i in np.nonzero(changed)[0]:
-            notes[i].append("onset")
-
-    # (c) melting-layer cooling.
-    if "melting" in adjustments and precipitating.any():
-        # Time the column has been precipitating since the spell began or since now,
-        # whichever is later (since_h counts from the first precipitating step of the spell
-        # inside the timeline), capped, then faded with lead time.
-        dt_h = np.where(precipitating, np.minimum(since_h, MELTING_MAX_HOURS), 0.0) * lead_weight
-        T_new, cooled = apply_melting_cooling(P, Z, T, np.where(precipitating, rate, 0.0), dt_h)
-        T = T_new
-        Td = np.minimum(Td, T)
-        for i in np.nonzero(cooled > 0.05)[0]:
-            notes[i].append("melting")
-
-    columns = Columns.from_arrays(P, T, Td, Z, surface_height_m=Z[:, 0],
-                                  surface_temperature_c=t2m, surface_dewpoint_c=td2m,
-                                  road_surface_temperature_c=road, precipitation_rate_mm_h=rate,
-                                  wind_speed_m_s=wind)
-    run = run_columns(columns, members, seed, methods)
-    codes_wet = np.asarray(run.codes, dtype=int)
-    probs = run.probabilities if members else np.eye(len(Code))[codes_wet]
-    dry = known & ~precipitating
-    codes = np.where(dry, int(Code.NONE), codes_wet)
-    probs_eff = np.where(dry[:, None], 0.0, probs)
-    probs_eff[:, int(Code.NONE)] = np.where(dry, 1.0, probs_eff[:, int(Code.NONE)])
-    hz = hazards.step_hazards(codes, probs_eff, road, columns.surface_dewpoint_c,
-                              rate, wind, h_step)
-    # Hoar frost is a dry-weather deposit; while precipitation falls its hazard is the
-    # precipitation's own (freezing on the road, snow).
-    hz["frost"] = hz["frost"] & ~precipitating
-    steps = []
-    for i in range(n):
-        code = Code(int(codes[i]))
-        steps.append({
-            "valid_time": _iso(when[i]),
-            "lead_hours": round((t_steps[i] - now.timestamp()) / 3600.0, 3),
-            "ptype": code.name, "ptype_label": LABELS[code], "grib2_code": GRIB2_4201[code],
-            "ptype_if_precipitating": Code(int(codes_wet[i])).name,
-            "precipitating": None if not known[i] else bool(precipitating[i]),
-            "probabilities": {c.name: round(float(probs[i, c]), 3) for c in Code
-                              if np.isfinite(probs[i, c]) and probs[i, c] > 0},
-            "hazards": {
-                "freezing_on_road": bool(hz["freezing_on_road"][i]),
-                "freezing_probability": _r(hz["freezing_probability"][i], 3),
-                "frost": bool(hz["frost"][i]),
-                "snow": bool(hz["snow"][i]),
-                "snow_probability": _r(hz["snow_probability"][i], 3),
-                "snow_cm": _r(hz["snow_cm"][i], 3),
-                "ice_accretion_mm": _r(hz["ice_accretion_mm"][i], 3),
-                "flat_glaze_mm": _r(hz["flat_glaze_mm"][i], 3),
-            },
-            "surface": {
-                "temperature_2m_c": _r(t2m[i]), "dewpoint_2m_c": _r(columns.surface_dewpoint_c[i]),
-                "frost_point_c": _r(hazards.frost_point_c(columns.surface_dewpoint_c[i])),
-                "road_surface_temperature_c": _r(road[i]),
-                "precipitation_rate_mm_h": _r(rate[i]), "wind_speed_m_s": _r(wind[i]),
-            },
-            "warm_area_j_kg": _r(run.fields["warm_area_j_kg"][i], 1),
-            "cold_area_j_kg": _r(run.fields["cold_area_j_kg"][i], 1),
-            "wetbulb_zero_height_m": _r(run.fields["wetbulb_zero_height_m"][i], 0),
-            "adjustments": notes[i],
-        })
-    base.update(steps=steps, transitions=transitions(steps), totals=_totals(steps, step_td))
+    diagnosis = diagnose_steps(cols, spells, members, seed, methods)
+    hz = hazards_at_steps(diagnosis, cols, spells, clock.hours_step)
+    steps = step_records(clock, cols, spells, diagnosis, hz, adjustment_notes(applied, clock.n))
+    base.update(steps=steps, transitions=transitions(steps),
+                totals=timeline_totals(steps, step_td))
     return base
 
 
@@ -528,7 +748,10 @@ def transitions(steps: Sequence[Mapping[str, Any]]) -> list[dict[str, str]]:
     return out
 
 
-def _totals(steps: Sequence[Mapping[str, Any]], step: timedelta) -> dict[str, Any]:
+def timeline_totals(steps: Sequence[Mapping[str, Any]], step: timedelta) -> dict[str, Any]:
+    """Totals over the steps: amounts (ice accretion, flat glaze, snow; ``amounts_complete``
+    is False when a step's amount is unknown), hours of each hazard and of each type, and
+    the largest freezing probability."""
     h = step.total_seconds() / 3600.0
 
     def total(key):
@@ -542,12 +765,17 @@ def _totals(steps: Sequence[Mapping[str, Any]], step: timedelta) -> dict[str, An
     acc = total("ice_accretion_mm")
     glaze = total("flat_glaze_mm")
     snow = total("snow_cm")
+
+    def hazard_hours(key):
+        return round(h * sum(s["hazards"][key] for s in steps), 3)
+
     return {
-        "ice_accretion_mm": acc["value"], "flat_glaze_mm": glaze["value"], "snow_cm": snow["value"],
+        "ice_accretion_mm": acc["value"], "flat_glaze_mm": glaze["value"],
+        "snow_cm": snow["value"],
         "amounts_complete": acc["complete"] and glaze["complete"] and snow["complete"],
-        "freezing_on_road_hours": round(h * sum(s["hazards"]["freezing_on_road"] for s in steps), 3),
-        "frost_hours": round(h * sum(s["hazards"]["frost"] for s in steps), 3),
-        "snow_hours": round(h * sum(s["hazards"]["snow"] for s in steps), 3),
+        "freezing_on_road_hours": hazard_hours("freezing_on_road"),
+        "frost_hours": hazard_hours("frost"),
+        "snow_hours": hazard_hours("snow"),
         "max_freezing_probability": max((s["hazards"]["freezing_probability"] or 0.0
                                          for s in steps), default=0.0),
         "hours_by_type": hours_by_type,

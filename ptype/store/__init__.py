@@ -16,6 +16,8 @@ of failing on a lock upgrade.  Schema versions are handled by
 from __future__ import annotations
 
 import os
+import sqlite3
+import time
 import weakref
 from collections.abc import Iterator, Mapping
 from contextlib import contextmanager
@@ -59,6 +61,24 @@ def database_url(config: Mapping[str, Any] | None = None) -> str:
     return f"sqlite:///{path / DB_FILENAME}"
 
 
+def _enable_wal(cur: sqlite3.Cursor) -> None:
+    """Switch the database to WAL, waiting up to the busy timeout for the lock it needs.
+
+    Several starters on a new file race to convert it, and the conversion can report
+    "database is locked" at once instead of waiting on the busy timeout (seen with four
+    threads opening one new file); so it is retried here until that timeout.
+    """
+    deadline = time.monotonic() + BUSY_TIMEOUT_MS / 1000
+    while True:
+        try:
+            cur.execute("PRAGMA journal_mode = WAL")
+            return
+        except sqlite3.OperationalError as exc:
+            if "locked" not in str(exc) or time.monotonic() > deadline:
+                raise
+            time.sleep(0.01)
+
+
 def _configure_sqlite(engine: sa.Engine) -> None:
     @event.listens_for(engine, "connect")
     def _on_connect(dbapi_conn, _record):
@@ -66,7 +86,7 @@ def _configure_sqlite(engine: sa.Engine) -> None:
         dbapi_conn.isolation_level = None
         cur = dbapi_conn.cursor()
         cur.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
-        cur.execute("PRAGMA journal_mode = WAL")
+        _enable_wal(cur)
         # FULL: a transaction acknowledged to a client survives power loss, not just a crash.
         cur.execute("PRAGMA synchronous = FULL")
         cur.execute("PRAGMA foreign_keys = ON")
@@ -104,10 +124,12 @@ class Store:
 
     @property
     def dialect(self) -> str:
+        """The database kind, ``sqlite`` or ``postgresql``."""
         return self.engine.dialect.name
 
     @contextmanager
     def read(self) -> Iterator[Session]:
+        """A read-only transaction (never committed)."""
         with self._read() as session, session.begin():
             yield session
 
@@ -118,6 +140,7 @@ class Store:
             yield session
 
     def schema_version(self) -> int:
+        """The schema version the database is at (see :mod:`ptype.store.migrations`)."""
         with self.engine.connect() as conn:
             return migrations.current_version(conn)
 
@@ -129,6 +152,7 @@ class Store:
             return str(conn.exec_driver_sql("PRAGMA integrity_check").scalar())
 
     def dispose(self) -> None:
+        """Close every pooled connection."""
         self.engine.dispose()
 
 

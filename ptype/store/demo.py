@@ -23,10 +23,12 @@ from ptype.store.models import ProfileRecord, Site
 
 
 def default_demo_dir() -> Path:
+    """The ``soundings_demo`` folder of a source checkout."""
     return Path(__file__).resolve().parents[2] / "soundings_demo"
 
 
 def demo_issued_time(demo_dir: Path) -> datetime | None:
+    """Issue time of the demo series (its manifest), or None when there is no series."""
     manifest = demo_dir / "series" / "manifest.json"
     if not manifest.is_file():
         return None

@@ -37,6 +37,8 @@ def _parse_kdf(kdf: str) -> tuple[int, int, int]:
 
 
 def hash_secret(secret: str, salt: bytes, kdf: str = KDF_NAME) -> bytes:
+    """The scrypt hash (RFC 7914) of ``secret`` with ``salt`` and the parameters named by
+    ``kdf``, 32 bytes."""
     n, r, p = _parse_kdf(kdf)
     return hashlib.scrypt(secret.encode("utf-8"), salt=salt, n=n, r=r, p=p,
                           maxmem=256 * 1024 * 1024, dklen=32)
@@ -44,12 +46,15 @@ def hash_secret(secret: str, salt: bytes, kdf: str = KDF_NAME) -> bytes:
 
 @dataclass(frozen=True)
 class KeyInfo:
+    """What may be shown about a key: id, name, times; never the secret."""
+
     key_id: str
     name: str
     created_at: datetime
     revoked_at: datetime | None
 
     def to_dict(self) -> dict:
+        """JSON-ready form with the status (active or revoked)."""
         from ptype.clock import iso
         return {"key_id": self.key_id, "name": self.name, "created_at": iso(self.created_at),
                 "revoked_at": iso(self.revoked_at),
@@ -76,6 +81,7 @@ def create_key(session: Session, name: str, now: datetime) -> tuple[str, KeyInfo
 
 
 def list_keys(session: Session) -> list[KeyInfo]:
+    """Every key, oldest first."""
     return [_info(r) for r in session.scalars(sa.select(ApiKey).order_by(ApiKey.id))]
 
 

@@ -22,21 +22,24 @@ class UTCDateTime(sa.types.TypeDecorator):
     impl = sa.DateTime
     cache_ok = True
 
-    def process_bind_param(self, value, dialect):
+    def process_bind_param(self, value: datetime | None, dialect: sa.Dialect) -> datetime | None:
+        """To the database: naive UTC (a naive input is taken as UTC)."""
         if value is None:
             return None
         if value.tzinfo is None:
             value = value.replace(tzinfo=UTC)
         return value.astimezone(UTC).replace(tzinfo=None)
 
-    def process_result_value(self, value, dialect):
+    def process_result_value(self, value: datetime | None,
+                             dialect: sa.Dialect) -> datetime | None:
+        """From the database: aware UTC."""
         if value is None:
             return None
         return value.replace(tzinfo=UTC)
 
 
 class Base(DeclarativeBase):
-    pass
+    """The declarative base of every table."""
 
 
 class ApiKey(Base):
@@ -54,6 +57,8 @@ class ApiKey(Base):
 
 
 class Site(Base):
+    """A road-weather site: name, position and its own alert thresholds."""
+
     __tablename__ = "sites"
     id: Mapped[int] = mapped_column(primary_key=True)
     code: Mapped[str | None] = mapped_column(sa.String(100), unique=True, nullable=True)

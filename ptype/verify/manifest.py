@@ -26,12 +26,15 @@ import csv
 import dataclasses
 import io
 import json
-from collections.abc import Iterable, Mapping
+from collections.abc import Iterable, Iterator, Mapping
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ptype.errors import ProfileError, ReaderError
+
+if TYPE_CHECKING:
+    from ptype.profile import Profile
 
 FIELDS = ("profile", "observed", "valid_time", "site")
 REQUIRED = ("profile", "observed")
@@ -57,7 +60,7 @@ class Case:
     def _field(self, name: str) -> str:
         return f"{self.field_prefix}.{name}" if self.field_prefix else name
 
-    def load_profile(self):
+    def load_profile(self) -> Profile:
         """Read and validate the profile; errors name the manifest entry and the field."""
         from ptype.profile import Profile
         from ptype.readers import read_profile
@@ -229,7 +232,7 @@ def read_manifest(path: str | Path) -> list[Case]:
     return cases
 
 
-def iter_profiles(cases: Iterable[Case]):
+def iter_profiles(cases: Iterable[Case]) -> Iterator[Profile]:
     """Load each case's profile (errors name the entry)."""
     for case in cases:
         yield case.load_profile()

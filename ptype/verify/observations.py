@@ -43,6 +43,7 @@ from __future__ import annotations
 
 import dataclasses
 import re
+from collections.abc import Iterable
 
 from ptype.codes import Code
 
@@ -86,9 +87,11 @@ class Observation:
 
     @property
     def excluded(self) -> bool:
+        """True when the report cannot be verified (no class)."""
         return self.code is None
 
     def to_dict(self) -> dict:
+        """JSON-ready form: raw text, class name, and intensity or reason when known."""
         out = {"raw": self.raw, "code": None if self.code is None else self.code.name}
         if self.intensity is not None:
             out["intensity"] = self.intensity
@@ -148,6 +151,53 @@ def _split_group(group: str) -> _Group:
     return _Group(intensity, vicinity, descriptors, phenomena)
 
 
+@dataclasses.dataclass
+class _Present:
+    """What the groups of one report say is falling at the station, in report order."""
+
+    #: (element, freezing) of the precipitation at the station.
+    elements: list[tuple[str, bool]] = dataclasses.field(default_factory=list)
+    intensity: str | None = None
+    unidentified: bool = False
+    hail: bool = False
+    crystals: bool = False
+    only_recent: bool = True
+
+    def add(self, g: _Group) -> None:
+        """Record the precipitation of one present-weather group."""
+        if g.vicinity:
+            return  # near, not at, the station
+        if "BL" in g.descriptors or "DR" in g.descriptors:
+            return  # snow, sand or dust lifted by the wind, not falling
+        freezing = "FZ" in g.descriptors
+        precip = [p for p in g.phenomena if p in PRECIPITATION]
+        if precip and self.intensity is None:
+            self.intensity = INTENSITY[g.intensity]
+        for p in precip:
+            if p == "UP":
+                self.unidentified = True
+            elif p in ("GR", "GS"):
+                self.hail = True
+            elif p == "IC":
+                self.crystals = True
+            else:
+                self.elements.append(("SN" if p == "SG" else p, freezing and p in ("RA", "DZ")))
+
+    def verdict(self, raw: str) -> Observation:
+        """The class of the report, or why it cannot be verified."""
+        if self.only_recent:
+            return Observation(raw, None, REASON_RECENT)
+        if self.unidentified:
+            return Observation(raw, None, REASON_UNIDENTIFIED, intensity=self.intensity)
+        if not self.elements:
+            if self.hail:
+                return Observation(raw, None, REASON_HAIL, intensity=self.intensity)
+            if self.crystals:
+                return Observation(raw, None, REASON_CRYSTALS, intensity=self.intensity)
+            return Observation(raw, Code.NONE)
+        return Observation(raw, _classify(self.elements), intensity=self.intensity)
+
+
 def parse_observation(text: str | None) -> Observation:
     """Map one present-weather report to a :class:`ptype.codes.Code` (or an exclusion).
 
@@ -169,49 +219,18 @@ def parse_observation(text: str | None) -> Observation:
         return Observation(raw, None, REASON_EMPTY)
     if len(groups) == 1 and groups[0] in NO_WEATHER:
         return Observation(raw, Code.NONE)
-    # Ordered list of (element, freezing) of precipitation at the station.
-    elements: list[tuple[str, bool]] = []
-    intensity: str | None = None
-    unidentified = dropped_hail = dropped_crystals = False
-    only_recent = True
+    present = _Present()
     for group in groups:
         if set(group) <= {"/"}:
             return Observation(raw, None, REASON_MISSING, group)
         if group.startswith("RE") and len(group) > 2:
             continue  # recent weather: not present weather
-        only_recent = False
+        present.only_recent = False
         try:
-            g = _split_group(group)
+            present.add(_split_group(group))
         except _Unparseable as exc:
             return Observation(raw, None, REASON_UNPARSEABLE, f"{exc.group}: {exc.why}")
-        if g.vicinity:
-            continue  # near, not at, the station
-        if "BL" in g.descriptors or "DR" in g.descriptors:
-            continue  # snow, sand or dust lifted by the wind, not falling
-        freezing = "FZ" in g.descriptors
-        precip = [p for p in g.phenomena if p in PRECIPITATION]
-        if precip and intensity is None:
-            intensity = INTENSITY[g.intensity]
-        for p in precip:
-            if p == "UP":
-                unidentified = True
-            elif p in ("GR", "GS"):
-                dropped_hail = True
-            elif p == "IC":
-                dropped_crystals = True
-            else:
-                elements.append(("SN" if p == "SG" else p, freezing and p in ("RA", "DZ")))
-    if only_recent:
-        return Observation(raw, None, REASON_RECENT)
-    if unidentified:
-        return Observation(raw, None, REASON_UNIDENTIFIED, intensity=intensity)
-    if not elements:
-        if dropped_hail:
-            return Observation(raw, None, REASON_HAIL, intensity=intensity)
-        if dropped_crystals:
-            return Observation(raw, None, REASON_CRYSTALS, intensity=intensity)
-        return Observation(raw, Code.NONE)
-    return Observation(raw, _classify(elements), intensity=intensity)
+    return present.verdict(raw)
 
 
 def _classify(elements: list[tuple[str, bool]]) -> Code:
@@ -238,6 +257,6 @@ def _classify(elements: list[tuple[str, bool]]) -> Code:
     return Code.RAPL if first_ice == "PL" else Code.RASN
 
 
-def parse_many(texts) -> list[Observation]:
+def parse_many(texts: Iterable[str | None]) -> list[Observation]:
     """:func:`parse_observation` over an iterable."""
     return [parse_observation(t) for t in texts]

@@ -2,8 +2,9 @@
 
 :func:`run_verification` parses the observations, diagnoses every profile in one
 vectorised pass (:func:`ptype.engine.run.run_columns` on stacked
-:class:`~ptype.engine.columns.Columns`, with the Monte-Carlo members) and scores the consensus and every
-method with :mod:`ptype.verify.scores`.  The renderers only format that dict.
+:class:`~ptype.engine.columns.Columns`, with the Monte-Carlo members) and scores the consensus
+and every method with :mod:`ptype.verify.scores`.  The renderers only format that dict; the
+HTML page comes from the Jinja2 template ``templates/report.html`` with autoescape on.
 
 Category order
 --------------
@@ -18,12 +19,12 @@ before drizzle) - and NONE last, next to drizzle, the lightest precipitation.
 from __future__ import annotations
 
 import base64
-import html
+import functools
 import io
 import math
 from collections import Counter
-from collections.abc import Sequence
-from typing import Any
+from collections.abc import Iterable, Sequence
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -34,6 +35,9 @@ from ptype.engine.methods import METHOD_NAMES
 from ptype.verify import scores as sc
 from ptype.verify.manifest import Case
 from ptype.verify.observations import parse_observation
+
+if TYPE_CHECKING:
+    from ptype.profile import Profile
 
 ORDER: tuple[Code, ...] = (Code.SN, Code.PL, Code.RASN, Code.FZRAPL, Code.RAPL, Code.FZRA,
                            Code.FZDZ, Code.RA, Code.DZ, Code.NONE)
@@ -135,7 +139,8 @@ def _batch_seed(seed, index: int):
     return None if seed is None else [int(seed), int(index)]
 
 
-def diagnose_cases(profiles: Sequence, *, members: int, seed, methods=None
+def diagnose_cases(profiles: Sequence[Profile], *, members: int, seed: int | None,
+                   methods: Iterable[str] | str | None = None
                    ) -> tuple[dict[str, np.ndarray], np.ndarray | None]:
     """Consensus and method codes for every profile, and member probabilities (or None)."""
     from ptype.engine.columns import Columns
@@ -148,8 +153,10 @@ def diagnose_cases(profiles: Sequence, *, members: int, seed, methods=None
     return codes, run.probabilities
 
 
-def run_verification(cases: Sequence[Case], *, members: int = 50, seed=DEFAULT_SEED,
-                     methods=None, source: str | None = None) -> dict[str, Any]:
+def run_verification(cases: Sequence[Case], *, members: int = 50,
+                     seed: int | None = DEFAULT_SEED,
+                     methods: Iterable[str] | str | None = None,
+                     source: str | None = None) -> dict[str, Any]:
     """Verify the diagnoses of ``cases`` against their observations; the JSON-ready report.
 
     Cases whose observation cannot be verified are listed under ``excluded`` with the
@@ -348,127 +355,72 @@ def make_figures(report: dict) -> dict[str, bytes]:
     return figures
 
 
-_CSS = """
-body{font-family:system-ui,-apple-system,'Segoe UI',sans-serif;color:#1f2933;max-width:1000px;
-margin:2em auto;padding:0 1em;line-height:1.4}
-h1{font-size:1.5em;margin-bottom:.2em}h2{font-size:1.15em;margin-top:1.6em;border-bottom:1px solid
-#d9e2ec;padding-bottom:.2em}
-.caution{background:#fff4e5;border-left:4px solid #d97706;padding:.6em 1em;margin:1em 0}
-table{border-collapse:collapse;font-size:.85em;margin:.5em 0}
-td,th{border:1px solid #d9e2ec;padding:.25em .5em;text-align:right}
-th{background:#f0f4f8}td.l,th.l{text-align:left}td.hit{background:#e3f2e8;font-weight:600}
-.muted{color:#7b8794}img{max-width:100%}
-"""
+#: Folder of the page templates inside the package (shipped as package data).
+TEMPLATE_FOLDER = "templates"
+#: The verification report page (Jinja2, autoescaped).
+REPORT_TEMPLATE = "report.html"
 
 
-def _cell(x) -> str:
-    return "&ndash;" if x is None else (f"{x:.3f}" if isinstance(x, float) else html.escape(str(x)))
+def _cell(x: Any) -> str:
+    """A table cell: an en dash for a missing value, three decimals for a float."""
+    from markupsafe import Markup
+    if x is None:
+        return Markup("&ndash;")
+    return f"{x:.3f}" if isinstance(x, float) else str(x)
+
+
+@functools.cache
+def _environment():
+    """The Jinja2 environment of the report pages, with autoescape on for every template."""
+    import jinja2
+    env = jinja2.Environment(loader=jinja2.PackageLoader("ptype.verify", TEMPLATE_FOLDER),
+                             autoescape=True, trim_blocks=True, lstrip_blocks=True,
+                             undefined=jinja2.StrictUndefined)
+    env.filters["cell"] = _cell
+    return env
+
+
+def figure_sources(figures: dict[str, bytes],
+                   image_files: dict[str, str] | None = None) -> dict[str, str]:
+    """``src`` of every figure: the file name from ``image_files`` when given, else the PNG
+    bytes as a ``data:`` URI (RFC 2397) so the page stands alone."""
+    sources = {name: "data:image/png;base64," + base64.b64encode(png).decode("ascii")
+               for name, png in figures.items()}
+    sources.update(image_files or {})
+    return sources
+
+
+def html_context(report: dict, figures: dict[str, bytes],
+                 image_files: dict[str, str] | None = None) -> dict[str, Any]:
+    """What the report template reads: the report itself plus the rows and totals it lays out
+    (computed here so the template only places values)."""
+    cons = report["consensus"]
+    context: dict[str, Any] = {
+        "report": report, "excluded": report["excluded"], "cons": cons, "caution": CAUTION,
+        "images": figure_sources(figures, image_files),
+        "labels": {c.name: LABELS[c] for c in Code},
+    }
+    if cons is None:
+        return context
+    counts = cons["table"]["counts"]
+    context.update(
+        categories=cons["table"]["categories"],
+        contingency_rows=list(zip(cons["table"]["categories"], counts)),
+        column_totals=[int(v) for v in np.sum(counts, axis=0)],
+        score_rows=[("consensus", cons, 0)] + [(k, v, v["abstained"])
+                                               for k, v in report["methods"].items()],
+        brier=cons.get("brier"))
+    return context
 
 
 def render_html(report: dict, figures: dict[str, bytes] | None = None,
                 image_files: dict[str, str] | None = None) -> str:
     """Self-contained HTML: tables, figures embedded as PNG data URIs (or linked to
-    ``image_files`` names when given), and the caution."""
-    e = html.escape
+    ``image_files`` names when given), and the caution.
+
+    Rendered from ``templates/report.html`` with autoescape, so text from a manifest
+    (profile names, raw observations, reasons) can never become markup.
+    """
     figures = make_figures(report) if figures is None else figures
-    parts = ["<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>",
-             "<title>ptype verification</title>", f"<style>{_CSS}</style></head><body>",
-             "<h1>Precipitation-type verification</h1>",
-             f"<p class='caution'><strong>Caution.</strong> {e(CAUTION)}</p>",
-             f"<p>{report['n']} verified cases of {report['n_cases']}"
-             + (f" from <code>{e(report['source'])}</code>" if report.get("source") else "")
-             + f"; {report['members']} Monte-Carlo members, seed {e(str(report['seed']))}; "
-             f"ptype {e(report['ptype_version'])}.</p>"]
-    ex = report["excluded"]
-    if ex["count"]:
-        parts.append(f"<p>{ex['count']} cases excluded: "
-                     + "; ".join(f"{e(r)} ({n})" for r, n in ex["reasons"].items()) + ".</p>")
-    cons = report["consensus"]
-    if cons is None:
-        parts.append("<p>Nothing to verify: every observation was excluded.</p></body></html>")
-        return "".join(parts)
-
-    def img(name, alt):
-        if name not in figures and not (image_files and name in image_files):
-            return ""
-        if image_files and name in image_files:
-            src = e(image_files[name])
-        else:
-            src = "data:image/png;base64," + base64.b64encode(figures[name]).decode("ascii")
-        return f"<p><img src='{src}' alt='{e(alt)}'></p>"
-
-    parts.append("<h2>Scores</h2><table><tr><th class='l'>diagnosis</th><th>n</th>"
-                 "<th>abstained</th><th>accuracy</th><th>Heidke</th><th>Peirce</th>"
-                 "<th>Gerrity</th></tr>")
-    rows = [("consensus", cons, 0)] + [(k, v, v["abstained"])
-                                        for k, v in report["methods"].items()]
-    for name, s, abst in rows:
-        parts.append(f"<tr><td class='l'>{e(name)}</td><td>{s['n']}</td><td>{abst}</td>"
-                     f"<td>{_cell(s['accuracy'])}</td><td>{_cell(s['heidke'])}</td>"
-                     f"<td>{_cell(s['peirce'])}</td><td>{_cell(s['gerrity'])}</td></tr>")
-    parts.append("</table>")
-    parts.append(img("skill", "bar chart of accuracy, Heidke, Peirce and Gerrity scores"))
-
-    cats = cons["table"]["categories"]
-    parts.append("<h2>Consensus contingency table</h2><p class='muted'>Rows: predicted; "
-                 "columns: observed. Categories in the documented order.</p><table><tr><th></th>"
-                 + "".join(f"<th>{e(c)}</th>" for c in cats) + "<th>total</th></tr>")
-    for i, (c, row) in enumerate(zip(cats, cons["table"]["counts"])):
-        cells = "".join(f"<td class='hit'>{v}</td>" if j == i else f"<td>{v}</td>"
-                        for j, v in enumerate(row))
-        parts.append(f"<tr><th class='l' title='{e(LABELS[Code[c]])}'>{e(c)}</th>{cells}"
-                     f"<td>{sum(row)}</td></tr>")
-    totals = np.sum(cons["table"]["counts"], axis=0)
-    parts.append("<tr><th class='l'>total</th>" + "".join(f"<td>{int(v)}</td>" for v in totals)
-                 + f"<td>{int(totals.sum())}</td></tr></table>")
-
-    parts.append("<h2>Per class (consensus)</h2><table><tr><th class='l'>class</th>"
-                 "<th>observed</th><th>predicted</th><th>POD</th><th>FAR</th><th>CSI</th>"
-                 "<th>bias</th>" + ("<th>Brier</th><th>BSS</th>" if "brier" in cons else "")
-                 + "</tr>")
-    for c in cats:
-        s = cons["classes"][c]
-        b = cons.get("brier", {}).get(c)
-        extra = ""
-        if "brier" in cons:
-            extra = (f"<td>{_cell(b['brier'])}</td><td>{_cell(b['brier_skill'])}</td>" if b
-                     else "<td>&ndash;</td><td>&ndash;</td>")
-        parts.append(f"<tr><td class='l'>{e(c)} <span class='muted'>{e(LABELS[Code[c]])}"
-                     f"</span></td><td>{s['n_observed']}</td><td>{s['n_forecast']}</td>"
-                     f"<td>{_cell(s['pod'])}</td><td>{_cell(s['far'])}</td>"
-                     f"<td>{_cell(s['csi'])}</td><td>{_cell(s['bias'])}</td>{extra}</tr>")
-    parts.append("</table>")
-    if "rps" in cons:
-        parts.append(f"<h2>Probabilities</h2><p>Ranked probability score {_cell(cons['rps'])} "
-                     f"(skill against the sample climatology {_cell(cons['rps_skill'])}) over "
-                     f"the ordered categories {e(', '.join(cons['rps_order']))}.</p>")
-        parts.append(img("reliability", "reliability diagram with counts per bin"))
-
-    parts.append("<h2>Methods by class (POD / FAR)</h2><table><tr><th class='l'>method</th>"
-                 + "".join(f"<th>{e(c)}</th>" for c in cats) + "</tr>")
-    for name, s in report["methods"].items():
-        cells = "".join(f"<td>{_cell(s['classes'][c]['pod'])} / {_cell(s['classes'][c]['far'])}"
-                        "</td>" for c in cats)
-        parts.append(f"<tr><td class='l'>{e(name)}</td>{cells}</tr>")
-    parts.append("</table>")
-
-    parts.append("<h2>Cases</h2><table><tr><th class='l'>profile</th><th class='l'>site</th>"
-                 "<th class='l'>valid time</th><th class='l'>observed (as reported)</th>"
-                 "<th>observed</th><th>predicted</th></tr>")
-    for c in report["cases"]:
-        mark = " class='hit'" if c["correct"] else ""
-        parts.append(f"<tr><td class='l'>{e(c['profile'])}</td><td class='l'>"
-                     f"{e(c['site'] or '')}</td><td class='l'>{e(c['valid_time'] or '')}</td>"
-                     f"<td class='l'><code>{e(c['observed_raw'])}</code></td>"
-                     f"<td>{e(c['observed'])}</td><td{mark}>{e(c['predicted'])}</td></tr>")
-    parts.append("</table>")
-    if ex["count"]:
-        parts.append("<h2>Excluded observations</h2><table><tr><th class='l'>entry</th>"
-                     "<th class='l'>observed</th><th class='l'>reason</th></tr>")
-        for c in ex["cases"]:
-            parts.append(f"<tr><td class='l'>{e(c['where'])}</td><td class='l'><code>"
-                         f"{e(c['observed_raw'])}</code></td><td class='l'>{e(c['reason'])}"
-                         + (f": {e(c['detail'])}" if c.get("detail") else "") + "</td></tr>")
-        parts.append("</table>")
-    parts.append(f"<p class='caution'>{e(CAUTION)}</p></body></html>")
-    return "".join(parts)
+    template = _environment().get_template(REPORT_TEMPLATE)
+    return template.render(html_context(report, figures, image_files))

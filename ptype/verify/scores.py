@@ -36,11 +36,13 @@ layer turns them into JSON ``null``.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 # --------------------------------------------------------------------------- tables
 
 
-def contingency_table(forecast_idx, observed_idx, n_categories: int) -> np.ndarray:
+def contingency_table(forecast_idx: ArrayLike, observed_idx: ArrayLike,
+                      n_categories: int) -> np.ndarray:
     """Multi-category contingency table, rows forecast, columns observed.
 
     Parameters
@@ -77,13 +79,13 @@ def _ratio(num: float, den: float) -> float:
     return float(num / den) if den != 0 and np.isfinite(den) else float("nan")
 
 
-def accuracy(table) -> float:
+def accuracy(table: ArrayLike) -> float:
     """Proportion correct ``PC = sum_i p_ii`` (Wilks 2011, ch. 8)."""
     p, _, _, n = _joint(table)
     return float(np.trace(p)) if n > 0 else float("nan")
 
 
-def heidke_skill_score(table) -> float:
+def heidke_skill_score(table: ArrayLike) -> float:
     """Heidke (1926) skill score for a K-category table (Wilks 2011, ch. 8, multicategory HSS).
 
     ``HSS = (PC - E) / (1 - E)`` with ``E = sum_i p_i. p_.i`` the proportion correct
@@ -97,7 +99,7 @@ def heidke_skill_score(table) -> float:
     return _ratio(float(np.trace(p)) - e, 1.0 - e)
 
 
-def peirce_skill_score(table) -> float:
+def peirce_skill_score(table: ArrayLike) -> float:
     """Peirce (1884) / Hanssen-Kuipers (1965) skill score for a K-category table.
 
     ``PSS = (PC - sum_i p_i. p_.i) / (1 - sum_i p_.i^2)`` (Wilks 2011, ch. 8): the reference
@@ -112,7 +114,7 @@ def peirce_skill_score(table) -> float:
     return _ratio(float(np.trace(p)) - float(np.sum(pf * po)), 1.0 - float(np.sum(po * po)))
 
 
-def gerrity_weights(observed_probabilities) -> np.ndarray:
+def gerrity_weights(observed_probabilities: ArrayLike) -> np.ndarray:
     """Gerrity (1992) scoring matrix for K ordered categories.
 
     With the observed relative frequencies ``p_r`` and their cumulative sums ``D_r``,
@@ -145,7 +147,7 @@ def gerrity_weights(observed_probabilities) -> np.ndarray:
     return (inv_cum[lo] - (hi - lo) + a_tail[hi]) / (k - 1)
 
 
-def gerrity_score(table) -> float:
+def gerrity_score(table: ArrayLike) -> float:
     """Gerrity (1992) score ``GS = sum_ij p_ij s_ij`` of a table whose categories are ordered.
 
     nan if fewer than two categories are observed or a category is never observed (use
@@ -157,7 +159,7 @@ def gerrity_score(table) -> float:
     return float(np.sum(p * gerrity_weights(po)))
 
 
-def collapse_unobserved(table) -> tuple[np.ndarray, np.ndarray]:
+def collapse_unobserved(table: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Merge each never-observed category into the nearest observed one in the order.
 
     The Gerrity weights are infinite for a category with no observations, so ptype
@@ -183,7 +185,7 @@ def collapse_unobserved(table) -> tuple[np.ndarray, np.ndarray]:
     return out, kept
 
 
-def class_scores(table) -> dict[str, np.ndarray]:
+def class_scores(table: ArrayLike) -> dict[str, np.ndarray]:
     """Per-class 2x2 scores of a K-category table, each class against the rest.
 
     Returns arrays of shape (K,): ``hits``, ``misses``, ``false_alarms``,
@@ -221,14 +223,15 @@ def _check_probabilities(prob, observed_idx) -> tuple[np.ndarray, np.ndarray]:
     return p, o
 
 
-def one_hot(observed_idx, n_categories: int) -> np.ndarray:
+def one_hot(observed_idx: ArrayLike, n_categories: int) -> np.ndarray:
+    """``(n, n_categories)`` indicator rows: 1 in each observed category, 0 elsewhere."""
     o = np.asarray(observed_idx, dtype=np.int64).ravel()
     out = np.zeros((o.size, int(n_categories)))
     out[np.arange(o.size), o] = 1.0
     return out
 
 
-def brier_scores(prob, observed_idx) -> np.ndarray:
+def brier_scores(prob: ArrayLike, observed_idx: ArrayLike) -> np.ndarray:
     """Brier (1950) score of each class, one against the rest: ``mean_i (p_ik - o_ik)^2``.
 
     Returns shape (K,); nan if there are no cases.  (Wilks 2011, ch. 8, Brier score.)
@@ -239,7 +242,7 @@ def brier_scores(prob, observed_idx) -> np.ndarray:
     return np.mean((p - one_hot(o, p.shape[1])) ** 2, axis=0)
 
 
-def brier_skill_scores(prob, observed_idx) -> np.ndarray:
+def brier_skill_scores(prob: ArrayLike, observed_idx: ArrayLike) -> np.ndarray:
     """Brier skill score per class against the sample climatology:
     ``BSS = 1 - BS / (obar (1 - obar))``; nan for a class always or never observed."""
     p, o = _check_probabilities(prob, observed_idx)
@@ -250,7 +253,7 @@ def brier_skill_scores(prob, observed_idx) -> np.ndarray:
         return np.where(unc > 0, 1.0 - bs / unc, np.nan)
 
 
-def ranked_probability_score(prob, observed_idx) -> float:
+def ranked_probability_score(prob: ArrayLike, observed_idx: ArrayLike) -> float:
     """Mean ranked probability score over ordered categories (columns of ``prob`` in order).
 
     ``RPS_i = sum_{m=1}^{K} (P_im - O_im)^2`` with ``P_im``/``O_im`` the cumulative forecast
@@ -266,7 +269,7 @@ def ranked_probability_score(prob, observed_idx) -> float:
     return float(np.mean(np.sum((cp - co) ** 2, axis=1)))
 
 
-def ranked_probability_skill_score(prob, observed_idx) -> float:
+def ranked_probability_skill_score(prob: ArrayLike, observed_idx: ArrayLike) -> float:
     """RPSS against the sample climatology (each case forecast with the observed frequencies)."""
     p, o = _check_probabilities(prob, observed_idx)
     if o.size == 0:
@@ -276,7 +279,8 @@ def ranked_probability_skill_score(prob, observed_idx) -> float:
     return _ratio(ref - ranked_probability_score(p, o), ref)
 
 
-def reliability(forecast_probability, outcome, n_bins: int = 10) -> dict[str, np.ndarray | float]:
+def reliability(forecast_probability: ArrayLike, outcome: ArrayLike,
+                n_bins: int = 10) -> dict[str, np.ndarray | float]:
     """Reliability-diagram data for binary outcomes (Wilks 2011, ch. 8, reliability diagram).
 
     Bins are ``[k/n_bins, (k+1)/n_bins)`` with 1.0 in the last bin.

@@ -28,8 +28,12 @@ from __future__ import annotations
 
 import argparse
 import os
+from typing import TYPE_CHECKING
 
 import numpy as np
+
+if TYPE_CHECKING:
+    import xarray as xr
 
 G = 9.80665
 RD = 287.04
@@ -93,90 +97,67 @@ def _interp_at(a, idx, f):
     return lo * (1.0 - f) + hi * f
 
 
-def make_grid(nx: int = 160, ny: int = 120, times: int = 2, levels: int = 20,
-              spacing_km: float = 4.0, dtype=np.float32, seed: int = 7):
-    """Build the invented grid as an :class:`xarray.Dataset` (CF-1.13 attributes)."""
+def _hydrostatic_ln_p(t, z_fine):
+    """ln p (hPa) on the fine heights: hydrostatic from 1008 hPa at sea level (virtual
+    temperature neglected)."""
+    tk = t + 273.15
+    dz = np.diff(z_fine)
+    return np.log(1008.0) - np.concatenate(
+        [np.zeros(tk.shape[:2] + (1,)),
+         np.cumsum(G * dz / (RD * 0.5 * (tk[..., 1:] + tk[..., :-1])), axis=-1)], axis=-1)
+
+
+def _on_level(ln_p, t, rh, z_fine, p):
+    """Height (m), temperature (degC) and RH (%) where the fine column crosses ``p`` hPa."""
+    idx = np.argmax(ln_p < np.log(p), axis=-1)  # first fine level above p
+    idx = np.clip(idx, 1, z_fine.size - 1)
+    lo = np.take_along_axis(ln_p, idx[..., None] - 1, -1)[..., 0]
+    hi = np.take_along_axis(ln_p, idx[..., None], -1)[..., 0]
+    f = (lo - np.log(p)) / (lo - hi)
+    zk = z_fine[idx - 1] + f * 50.0
+    tk = np.take_along_axis(t, idx[..., None] - 1, -1)[..., 0] * (1 - f) + \
+        np.take_along_axis(t, idx[..., None], -1)[..., 0] * f
+    rhk = np.take_along_axis(rh, idx[..., None] - 1, -1)[..., 0] * (1 - f) + \
+        np.take_along_axis(rh, idx[..., None], -1)[..., 0] * f
+    return zk, tk, rhk
+
+
+def _at_surface(ln_p, t, rh, z_fine, zs):
+    """Surface pressure (Pa), 2 m temperature and dew point (K) at the terrain height ``zs``."""
+    i_s = np.clip((zs // 50.0).astype(int), 0, z_fine.size - 2)
+    f = (zs - z_fine[i_s]) / 50.0
+    ts = _interp_at(t, i_s, f)
+    rs = _interp_at(rh, i_s, f)
+    b, c = 17.625, 243.04   # Alduchov & Eskridge (1996), as ptype.thermo
+    gam = np.log(rs / 100.0) + b * ts / (c + ts)
+    return np.exp(_interp_at(ln_p, i_s, f)) * 100.0, ts + 273.15, c * gam / (b - gam) + 273.15
+
+
+def _dataset(fields, plev, x, y, times, dtype):
+    """The fields as a CF-1.13 :class:`xarray.Dataset`."""
     import pandas as pd
     import xarray as xr
-
-    x = np.arange(nx) * spacing_km
-    y = np.arange(ny) * spacing_km
-    xx, yy = np.meshgrid(x, y)
-    # Brannock hills: a ridge in the east, up to 1100 m, reaching into the freezing-rain
-    # zone: their tops stand in the warm air above the shallow cold dome.
-    zsfc = 1100.0 * np.exp(-(((xx - 0.74 * x.max()) / (0.07 * x.max() + 1)) ** 2
-                             + ((yy - 0.33 * y.max()) / (0.16 * y.max() + 1)) ** 2))
-    plev = pressure_levels(levels)
-    z_fine = np.arange(0.0, 12500.0, 50.0)
-    shape = (times, levels, ny, nx)
-    out = {k: np.empty(shape, dtype=dtype) for k in ("t", "rh", "z")}
-    psfc = np.empty((times, ny, nx), dtype=dtype)
-    t2 = np.empty((times, ny, nx), dtype=dtype)
-    td2 = np.empty((times, ny, nx), dtype=dtype)
-    for it in range(times):
-        hour = 3.0 * it
-        # Rows in blocks to keep memory small for large grids.
-        step = max(1, int(2_000_000 // (nx * z_fine.size)))
-        for j0 in range(0, ny, step):
-            sl = slice(j0, min(ny, j0 + step))
-            t, rh = _profiles(xx[sl], yy[sl], hour, z_fine)
-            # Hydrostatic pressure from 1008 hPa at sea level (virtual temperature neglected).
-            tk = t + 273.15
-            dz = np.diff(z_fine)
-            ln_p = np.log(1008.0) - np.concatenate(
-                [np.zeros(tk.shape[:2] + (1,)),
-                 np.cumsum(G * dz / (RD * 0.5 * (tk[..., 1:] + tk[..., :-1])), axis=-1)], axis=-1)
-            # Sample each pressure level (ln p decreasing with height: flip for interp).
-            for k, p in enumerate(plev):
-                idx = np.argmax(ln_p < np.log(p), axis=-1)  # first fine level above p
-                idx = np.clip(idx, 1, z_fine.size - 1)
-                lo = np.take_along_axis(ln_p, idx[..., None] - 1, -1)[..., 0]
-                hi = np.take_along_axis(ln_p, idx[..., None], -1)[..., 0]
-                f = (lo - np.log(p)) / (lo - hi)
-                zk = z_fine[idx - 1] + f * 50.0
-                tk_ = np.take_along_axis(t, idx[..., None] - 1, -1)[..., 0] * (1 - f) + \
-                    np.take_along_axis(t, idx[..., None], -1)[..., 0] * f
-                rhk = np.take_along_axis(rh, idx[..., None] - 1, -1)[..., 0] * (1 - f) + \
-                    np.take_along_axis(rh, idx[..., None], -1)[..., 0] * f
-                out["z"][it, k, sl] = zk
-                out["t"][it, k, sl] = tk_ + 273.15
-                out["rh"][it, k, sl] = rhk
-            # Surface values at the terrain height.
-            zs = zsfc[sl]
-            i_s = np.clip((zs // 50.0).astype(int), 0, z_fine.size - 2)
-            f = (zs - z_fine[i_s]) / 50.0
-            psfc[it, sl] = np.exp(_interp_at(ln_p, i_s, f)) * 100.0
-            ts = _interp_at(t, i_s, f)
-            rs = _interp_at(rh, i_s, f)
-            b, c = 17.625, 243.04   # Alduchov & Eskridge (1996), as ptype.thermo
-            gam = np.log(rs / 100.0) + b * ts / (c + ts)
-            t2[it, sl] = ts + 273.15
-            td2[it, sl] = c * gam / (b - gam) + 273.15
-    rng = np.random.default_rng(seed)
-    out["t"] += rng.normal(0.0, 0.15, shape).astype(dtype)  # a little model-like texture
 
     time = pd.date_range("2031-01-14T06:00", periods=times, freq="3h")
     level_attrs = {"standard_name": "air_pressure", "long_name": "pressure level", "units": "hPa",
                    "positive": "down", "axis": "Z"}
+    on_levels = ("time", "plev", "y", "x")
+    kelvin = {"units": "K", "units_metadata": "temperature: on_scale"}
     ds = xr.Dataset(
         {
-            "ta": (("time", "plev", "y", "x"), out["t"],
-                   {"standard_name": "air_temperature", "units": "K",
-                    "units_metadata": "temperature: on_scale"}),
-            "hur": (("time", "plev", "y", "x"), np.clip(out["rh"], 1.0, 100.0).astype(dtype),
+            "ta": (on_levels, fields["t"], {"standard_name": "air_temperature", **kelvin}),
+            "hur": (on_levels, np.clip(fields["rh"], 1.0, 100.0).astype(dtype),
                     {"standard_name": "relative_humidity", "units": "%"}),
-            "zg": (("time", "plev", "y", "x"), out["z"],
+            "zg": (on_levels, fields["z"],
                    {"standard_name": "geopotential_height", "units": "m"}),
-            "ps": (("time", "y", "x"), psfc,
+            "ps": (("time", "y", "x"), fields["ps"],
                    {"standard_name": "surface_air_pressure", "units": "Pa"}),
-            "orog": (("y", "x"), zsfc.astype(dtype),
+            "orog": (("y", "x"), fields["orog"].astype(dtype),
                      {"standard_name": "surface_altitude", "units": "m"}),
-            "tas": (("time", "y", "x"), t2,
-                    {"standard_name": "air_temperature", "units": "K",
-                     "units_metadata": "temperature: on_scale", "coordinates": "height"}),
-            "tds": (("time", "y", "x"), td2,
-                    {"standard_name": "dew_point_temperature", "units": "K",
-                     "units_metadata": "temperature: on_scale"}),
+            "tas": (("time", "y", "x"), fields["tas"],
+                    {"standard_name": "air_temperature", **kelvin, "coordinates": "height"}),
+            "tds": (("time", "y", "x"), fields["tds"],
+                    {"standard_name": "dew_point_temperature", **kelvin}),
         },
         coords={
             "time": ("time", time, {"standard_name": "time", "axis": "T"}),
@@ -198,7 +179,45 @@ def make_grid(nx: int = 160, ny: int = 120, times: int = 2, levels: int = 20,
     return ds
 
 
-def write_grid(ds, path: str, compress: bool = True) -> None:
+def make_grid(nx: int = 160, ny: int = 120, times: int = 2, levels: int = 20,
+              spacing_km: float = 4.0, dtype: type = np.float32, seed: int = 7) -> xr.Dataset:
+    """Build the invented grid as an :class:`xarray.Dataset` (CF-1.13 attributes)."""
+    x = np.arange(nx) * spacing_km
+    y = np.arange(ny) * spacing_km
+    xx, yy = np.meshgrid(x, y)
+    # Brannock hills: a ridge in the east, up to 1100 m, reaching into the freezing-rain
+    # zone: their tops stand in the warm air above the shallow cold dome.
+    zsfc = 1100.0 * np.exp(-(((xx - 0.74 * x.max()) / (0.07 * x.max() + 1)) ** 2
+                             + ((yy - 0.33 * y.max()) / (0.16 * y.max() + 1)) ** 2))
+    plev = pressure_levels(levels)
+    z_fine = np.arange(0.0, 12500.0, 50.0)
+    shape = (times, levels, ny, nx)
+    fields = {k: np.empty(shape, dtype=dtype) for k in ("t", "rh", "z")}
+    fields.update({k: np.empty((times, ny, nx), dtype=dtype) for k in ("ps", "tas", "tds")})
+    fields["orog"] = zsfc
+    for it in range(times):
+        hour = 3.0 * it
+        # Rows in blocks to keep memory small for large grids.
+        step = max(1, int(2_000_000 // (nx * z_fine.size)))
+        for j0 in range(0, ny, step):
+            sl = slice(j0, min(ny, j0 + step))
+            t, rh = _profiles(xx[sl], yy[sl], hour, z_fine)
+            ln_p = _hydrostatic_ln_p(t, z_fine)
+            for k, p in enumerate(plev):
+                zk, tk, rhk = _on_level(ln_p, t, rh, z_fine, p)
+                fields["z"][it, k, sl] = zk
+                fields["t"][it, k, sl] = tk + 273.15
+                fields["rh"][it, k, sl] = rhk
+            ps, t2, td2 = _at_surface(ln_p, t, rh, z_fine, zsfc[sl])
+            fields["ps"][it, sl], fields["tas"][it, sl], fields["tds"][it, sl] = ps, t2, td2
+    rng = np.random.default_rng(seed)
+    fields["t"] += rng.normal(0.0, 0.15, shape).astype(dtype)  # a little model-like texture
+    return _dataset(fields, plev, x, y, times, dtype)
+
+
+def write_grid(ds: xr.Dataset, path: str, compress: bool = True) -> None:
+    """Write ``ds`` as NetCDF-4 (deflated, two significant decimals, unless ``compress`` is
+    False)."""
     enc = {}
     for name in ds.data_vars:
         e = {"_FillValue": None}
@@ -209,7 +228,8 @@ def write_grid(ds, path: str, compress: bool = True) -> None:
     ds.to_netcdf(path, format="NETCDF4", encoding=enc)
 
 
-def main(argv=None) -> int:
+def main(argv: list[str] | None = None) -> int:
+    """Command line: write the demo grid (see the module docstring)."""
     here = os.path.dirname(os.path.abspath(__file__))
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("-o", "--output", default=os.path.join(here, "demo_grid.nc"))

@@ -12,9 +12,9 @@ performs on real weather.
 Profiles
 --------
 Levels every 25 hPa from the surface (975-1015 hPa) to 300 hPa.  Temperature is a
-6.5 K/km environment from the surface temperature (-7 to +5 degC), plus (in about 60 % of cases) a warm
-nose: a raised-cosine bump centred between 900 and 760 hPa, 40-160 hPa deep, whose peak
-temperature is drawn from 0 to +8 degC.  Moisture: saturated (dew-point depression
+6.5 K/km environment from the surface temperature (-7 to +5 degC), plus (in about 60 % of
+cases) a warm nose: a raised-cosine bump centred between 900 and 760 hPa, 40-160 hPa deep,
+whose peak temperature is drawn from 0 to +8 degC.  Moisture: saturated (dew-point depression
 0.2-1.2 K) from the surface, or from the top of a dry sub-cloud layer, up to the cloud
 top (drawn from 720 to 420 hPa; in one case in eight a shallow cloud, 880 to 760 hPa),
 dry above it (depression 12-25 K).

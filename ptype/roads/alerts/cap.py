@@ -45,6 +45,7 @@ def cap_time(dt: datetime) -> str:
 
 
 def reference(sender: str, identifier: str, sent: datetime) -> str:
+    """A CAP ``references`` entry: ``sender,identifier,sent`` (CAP12, section 3.2.1)."""
     return f"{sender},{identifier},{cap_time(sent)}"
 
 

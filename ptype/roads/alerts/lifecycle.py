@@ -28,6 +28,8 @@ CHANGE_TOLERANCE = timedelta(minutes=30)
 
 @dataclass
 class Action:
+    """One lifecycle step for an alert: issue, update, cancel or expire it."""
+
     kind: str                      # "new" | "update" | "cancel" | "expire"
     event: str
     alert_id: str | None = None    # None for "new"
@@ -36,7 +38,10 @@ class Action:
 
 def decide(active: Sequence[Mapping[str, Any]], candidates: Sequence[Candidate],
            now: datetime) -> list[Action]:
-    """Decide what to do.  ``active``: mappings with id, event, onset, expires, severity, certainty."""
+    """Decide what to do.
+
+    ``active``: mappings with id, event, onset, expires, severity, certainty.
+    """
     actions: list[Action] = []
     by_event = {c.event: c for c in candidates}
     live = {}

@@ -1,4 +1,4 @@
-"""Alert rules: from a timeline (see :func:`ptype.roads.nowcast.build_timeline`) to alert candidates.
+"""Alert rules: from a timeline (:func:`ptype.roads.nowcast.build_timeline`) to alert candidates.
 
 Default thresholds (per site, overridable; all ours unless noted):
 
@@ -51,7 +51,8 @@ ACCRETION_EXTREME_MM = 12.7
 EVENTS: dict[str, tuple[str, str, str]] = {
     "freezing_precipitation": (
         "Freezing precipitation on roads", "Prepare",
-        "Treat road surfaces before onset and expect glaze ice; check the latest official warnings."),
+        ("Treat road surfaces before onset and expect glaze ice; check the latest official "
+         "warnings.")),
     "ice_accretion": (
         "Ice accretion on exposed structures", "Prepare",
         "Expect glaze on lines, trees, signs and bridges; plan for loads and falling ice."),
@@ -80,6 +81,7 @@ class Candidate:
     parameters: dict[str, Any] = field(default_factory=dict)
 
     def to_dict(self) -> dict[str, Any]:
+        """JSON-ready form, times as ISO 8601 UTC."""
         from ptype.clock import iso
         return {"event": self.event, "onset": iso(self.onset), "expires": iso(self.expires),
                 "severity": self.severity, "certainty": self.certainty, "urgency": self.urgency,
@@ -88,6 +90,7 @@ class Candidate:
 
 
 def merged_thresholds(site_thresholds: Mapping[str, Any] | None) -> dict[str, Any]:
+    """The default thresholds with a site's own values (known keys, not None) laid over."""
     out = dict(DEFAULT_THRESHOLDS)
     for key, value in (site_thresholds or {}).items():
         if key in out and value is not None:
@@ -96,10 +99,12 @@ def merged_thresholds(site_thresholds: Mapping[str, Any] | None) -> dict[str, An
 
 
 def certainty_word(probability: float) -> str:
+    """CAP ``certainty``: Likely above a probability of 0.5, else Possible (CAP12, 3.2.2)."""
     return "Likely" if probability > 0.5 else "Possible"
 
 
 def urgency_word(onset: datetime, now: datetime) -> str:
+    """CAP ``urgency``: Immediate once begun, Expected within the hour, else Future (ours)."""
     if onset <= now:
         return "Immediate"
     if onset - now <= timedelta(hours=1):
@@ -186,7 +191,8 @@ def evaluate_rules(timeline: Mapping[str, Any], now: datetime, site_name: str,
 
     # Freezing precipitation on the road.
     flags = [lead_ok(s, th["freezing_window_hours"]) and s["hazards"]["freezing_probability"]
-             is not None and s["hazards"]["freezing_probability"] >= float(th["freezing_probability"])
+             is not None
+             and s["hazards"]["freezing_probability"] >= float(th["freezing_probability"])
              for s in steps]
     span = _span(steps, flags, step)
     if span:

@@ -9,7 +9,7 @@ always has its alerts evaluated.
 from __future__ import annotations
 
 import uuid
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping, Sequence
 from datetime import datetime, timedelta
 from typing import Any
 
@@ -19,7 +19,7 @@ from sqlalchemy.orm import Session
 from ptype.clock import iso
 from ptype.profile import Profile
 from ptype.roads.alerts.lifecycle import decide
-from ptype.roads.alerts.rules import evaluate_rules
+from ptype.roads.alerts.rules import Candidate, evaluate_rules
 from ptype.store.models import Alert, AlertMessage, Observation, ProfileRecord, Site
 
 #: Alerts that ended less than this long ago are still listed (ours).
@@ -48,6 +48,7 @@ def latest_issue(session: Session, site_id: int) -> list[ProfileRecord]:
 
 
 def recent_observations(session: Session, site_id: int, now: datetime) -> list[dict]:
+    """The site's last 12 observations of the 6 hours up to ``now``, newest first."""
     rows = session.scalars(
         sa.select(Observation).where(Observation.site_id == site_id, Observation.time <= now,
                                      Observation.time >= now - timedelta(hours=6))
@@ -56,6 +57,7 @@ def recent_observations(session: Session, site_id: int, now: datetime) -> list[d
 
 
 def observation_dict(o: Observation) -> dict:
+    """A stored observation as the mapping the timeline reads."""
     return {"time": o.time, "air_temperature_c": o.air_temperature_c, "dewpoint_c": o.dewpoint_c,
             "road_surface_temperature_c": o.road_surface_temperature_c,
             "precipitation_rate_mm_h": o.precipitation_rate_mm_h,
@@ -64,7 +66,7 @@ def observation_dict(o: Observation) -> dict:
 
 def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
                   step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
-                  adjustments=None) -> dict[str, Any]:
+                  adjustments: Iterable[str] | None = None) -> dict[str, Any]:
     """The site's timeline from its latest issue of profiles and its recent observations."""
     from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
     records = latest_issue(session, site.id)
@@ -84,6 +86,7 @@ def site_timeline(session: Session, site: Site, now: datetime, *, hours: float =
 
 
 def site_summary(site: Site) -> dict:
+    """Id, name and position of a site, as alerts carry it."""
     return {"id": site.id, "name": site.name, "latitude": site.latitude,
             "longitude": site.longitude, "elevation_m": site.elevation_m}
 
@@ -125,8 +128,8 @@ def evaluate_site(session: Session, site: Site, now: datetime, *,
                             now, cap_status=cap_status)
 
 
-def apply_candidates(session: Session, site: Site, candidates, now: datetime, *,
-                     cap_status: str | None = None) -> list[dict]:
+def apply_candidates(session: Session, site: Site, candidates: Sequence[Candidate] | None,
+                     now: datetime, *, cap_status: str | None = None) -> list[dict]:
     """Apply the lifecycle to fresh state (call inside a write transaction).
 
     ``cap_status`` (CAP ``status``: Actual, Exercise...) is recorded with each message so that
@@ -182,6 +185,7 @@ def expire_due(session: Session, now: datetime) -> int:
 
 
 def alert_dict(alert: Alert, sender: str) -> dict:
+    """JSON-ready form of a stored alert with its latest message and CAP references."""
     from ptype.roads.alerts.cap import reference
     last = alert.messages[-1]
     earlier = alert.messages[:-1]
@@ -202,6 +206,7 @@ def alert_dict(alert: Alert, sender: str) -> dict:
 
 def list_alerts(session: Session, now: datetime, sender: str, *, include_recent: bool = True,
                 site_id: int | None = None) -> list[dict]:
+    """Active alerts (and, with ``include_recent``, those ended recently), by onset."""
     q = sa.select(Alert)
     if include_recent:
         q = q.where(sa.or_(Alert.status == "active", Alert.ended_at >= now - RECENT))
@@ -226,12 +231,14 @@ def cap_for(alert: Alert, sender: str, status: str | None, radius_km: float) -> 
 
 def evaluate_all(session: Session, now: datetime, *, members: int = ALERT_MEMBERS,
                  cap_status: str | None = None) -> list[dict]:
+    """Evaluate every site's alerts now; the actions taken, site by site."""
     out = []
     for site in session.scalars(sa.select(Site).order_by(Site.id)):
         out.extend(evaluate_site(session, site, now, members=members, cap_status=cap_status))
     return out
 
 
-def config_value(config: Mapping[str, Any] | None, key: str, default):
+def config_value(config: Mapping[str, Any] | None, key: str, default: Any) -> Any:
+    """``key`` from ``config``, else from the environment, else ``default``."""
     import os
     return (config or {}).get(key) or os.environ.get(key) or default
