@@ -17,7 +17,8 @@ import sys
 from ptype import __version__
 
 #: Command modules, in the order ``ptype --help`` lists them.
-COMMAND_MODULES = ["show", "diagnose", "serve", "timeline", "alerts", "keys", "grid", "verify"]
+COMMAND_MODULES = ["show", "diagnose", "serve", "timeline", "alerts", "keys", "grid", "verify",
+                   "calibrate"]
 
 EXIT_BAD_INPUT = 2
 

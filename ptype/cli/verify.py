@@ -37,6 +37,8 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help="seed of the Monte-Carlo members (default: 0, so reports repeat)")
     p.add_argument("--methods", default=None, metavar="NAMES",
                    help="comma-separated methods to run (default: all)")
+    p.add_argument("--calibration", default=None, metavar="FILE",
+                   help="calibrate the probabilities with FILE (from ptype calibrate)")
     p.set_defaults(func=run)
 
 
@@ -46,9 +48,14 @@ def run(args: argparse.Namespace) -> int:
     from ptype.verify.report import make_figures, render_html, render_table, run_verification
     if args.members < 0:
         raise OptionError(f"--members {args.members}: expected 0 or more", field="members")
+    calibration = None
+    if args.calibration:
+        from ptype.engine.calibration import Calibration
+        calibration = Calibration.load(args.calibration)
     cases = read_manifest(args.manifest)
     report = run_verification(cases, members=args.members, seed=args.seed,
-                              methods=args.methods, source=str(args.manifest))
+                              methods=args.methods, source=str(args.manifest),
+                              calibration=calibration)
     out_dir = Path(args.out) if args.out else None
     if out_dir is not None:
         if out_dir.exists() and not out_dir.is_dir():

@@ -140,15 +140,17 @@ def _batch_seed(seed, index: int):
 
 
 def diagnose_cases(profiles: Sequence[Profile], *, members: int, seed: int | None,
-                   methods: Iterable[str] | str | None = None
+                   methods: Iterable[str] | str | None = None, calibration=None
                    ) -> tuple[dict[str, np.ndarray], np.ndarray | None]:
-    """Consensus and method codes for every profile, and member probabilities (or None)."""
+    """Consensus and method codes for every profile (with the other engine fields), and
+    member probabilities (calibrated when a calibration is given; or None)."""
     from ptype.engine.columns import Columns
     from ptype.engine.run import run_columns
     columns = Columns.from_profiles(list(profiles))
     run = run_columns(columns, members, seed, methods,
                       batch_columns=max(1, MEMBER_BATCH_COLUMNS // max(members, 1)),
-                      batch_seed=lambda k, start: _batch_seed(seed, k))
+                      batch_seed=lambda k, start: _batch_seed(seed, k),
+                      calibration=calibration)
     codes = {k: np.asarray(v) for k, v in run.fields.items()}
     return codes, run.probabilities
 
@@ -156,12 +158,19 @@ def diagnose_cases(profiles: Sequence[Profile], *, members: int, seed: int | Non
 def run_verification(cases: Sequence[Case], *, members: int = 50,
                      seed: int | None = DEFAULT_SEED,
                      methods: Iterable[str] | str | None = None,
-                     source: str | None = None) -> dict[str, Any]:
+                     source: str | None = None, calibration=None,
+                     held_out: bool = True) -> dict[str, Any]:
     """Verify the diagnoses of ``cases`` against their observations; the JSON-ready report.
 
     Cases whose observation cannot be verified are listed under ``excluded`` with the
     reason; profile errors raise :class:`ptype.errors.ProfileError` naming the entry.
+    With ``calibration`` the probabilities are calibrated (the report says so); with
+    ``held_out`` (and members) the report also scores, on the same cases, the raw member
+    frequencies against calibrations fitted by cross-validation on the other cases
+    (:mod:`ptype.verify.calibration`), so the effect of calibrating shows on cases it never
+    saw.
     """
+    from ptype.engine.calibration import UNCALIBRATED
     parsed = [parse_observation(c.observed) for c in cases]
     kept = [i for i, ob in enumerate(parsed) if not ob.excluded]
     reasons = Counter(parsed[i].reason for i in range(len(cases)) if parsed[i].excluded)
@@ -178,11 +187,14 @@ def run_verification(cases: Sequence[Case], *, members: int = 50,
         "n_cases": len(cases), "members": int(members), "seed": seed,
         "excluded": excluded, "order": [c.name for c in ORDER], "cases": [],
         "consensus": None, "methods": {}, "caution": CAUTION,
+        "calibration": (calibration.summary() | {"calibrated": True}
+                        if calibration is not None and members else UNCALIBRATED),
     }
     if not kept:
         return report
     profiles = [cases[i].load_profile() for i in kept]
-    codes, prob = diagnose_cases(profiles, members=members, seed=seed, methods=methods)
+    codes, prob = diagnose_cases(profiles, members=members, seed=seed, methods=methods,
+                                 calibration=calibration)
     observed = np.array([int(parsed[i].code) for i in kept], dtype=np.int64)
     predicted = codes["ptype"].astype(np.int64)
     method_names = [k for k in METHOD_NAMES if k in codes]
@@ -199,6 +211,7 @@ def run_verification(cases: Sequence[Case], *, members: int = 50,
                  "valid_time": vt.isoformat().replace("+00:00", "Z") if vt else None,
                  "observed_raw": case.observed, "observed": parsed[i].code.name,
                  "predicted": Code(int(predicted[row])).name,
+                 "control": Code(int(codes["control_ptype"][row])).name,
                  "correct": bool(predicted[row] == observed[row])}
         if prob is not None:
             entry["probabilities"] = {Code(k).name: round(float(p), 4)
@@ -211,6 +224,8 @@ def run_verification(cases: Sequence[Case], *, members: int = 50,
     consensus = categorical_scores(predicted, observed, categories)
     if prob is not None:
         consensus.update(probabilistic_scores(prob, observed))
+        if held_out:
+            report["held_out_calibration"] = _held_out(codes, prob, observed, seed)
     report["consensus"] = consensus
     for name in method_names:
         m = codes[name].astype(np.int64)
@@ -219,6 +234,25 @@ def run_verification(cases: Sequence[Case], *, members: int = 50,
         block["abstained"] = int((~ok).sum())
         report["methods"][name] = block
     return report
+
+
+def ranked_score(prob: np.ndarray, observed: np.ndarray) -> float:
+    """Ranked probability score of ``(n, len(Code))`` probabilities over :data:`ORDER`."""
+    return float(sc.ranked_probability_score(prob[:, [int(c) for c in ORDER]],
+                                             _POS[np.asarray(observed, dtype=np.int64)]))
+
+
+def _held_out(codes: dict, prob: np.ndarray, observed: np.ndarray, seed) -> dict | None:
+    """Raw against cross-validated calibrated probabilities on the same cases, or None when
+    there are too few cases (or observed types) to fit."""
+    from ptype.engine.calibration import features
+    from ptype.verify import calibration as cv
+    raw = codes.get("member_frequencies", prob)
+    if len(observed) < cv.MIN_CASES * cv.FOLDS / (cv.FOLDS - 1) or len(set(observed)) < 2:
+        return None
+    x = features(codes, raw)
+    held = cv.cross_validated(x, observed, codes["possible"], seed=0 if seed is None else seed)
+    return cv.held_out_summary(raw, held, observed)
 
 
 # --------------------------------------------------------------------------- text table
@@ -271,9 +305,26 @@ def render_table(report: dict) -> str:
         for c, s in cons["brier"].items():
             out.append(f"{c:<{w}} {_fmt(s['brier'])} {_fmt(s['brier_skill'])} "
                        f"{_fmt(s['observed_frequency'])}")
+        out.extend(_calibration_lines(report))
     out.append("")
     out.append(CAUTION)
     return "\n".join(out) + "\n"
+
+
+def _calibration_lines(report: dict) -> list[str]:
+    cal = report.get("calibration") or {}
+    lines = [""]
+    if cal.get("calibrated"):
+        lines.append(f"Probabilities calibrated ({cal['n_cases']} cases from {cal['source']}, "
+                     f"fitted {cal['fitted']}).")
+    else:
+        lines.append("Probabilities uncalibrated: member frequencies.")
+    held = report.get("held_out_calibration")
+    if held:
+        lines.append(f"Held-out calibration ({held['folds']}-fold, {held['n']} cases): RPS "
+                     f"{_fmt(held['raw']['rps'], 0)} raw -> "
+                     f"{_fmt(held['calibrated']['rps'], 0)} calibrated (lower is better).")
+    return lines
 
 
 # --------------------------------------------------------------------------- figures + HTML
@@ -333,6 +384,9 @@ def make_figures(report: dict) -> dict[str, bytes]:
         axn.set_xlabel("forecast probability")
         axn.grid(alpha=0.3)
         figures["reliability"] = _png(fig)
+    held = report.get("held_out_calibration")
+    if held:
+        figures["calibration"] = _calibration_figure(held)
     names = ["consensus"] + list(report["methods"])
     blocks = [cons] + [report["methods"][k] for k in report["methods"]]
     fig = Figure(figsize=(7.2, 3.6))
@@ -353,6 +407,33 @@ def make_figures(report: dict) -> dict[str, bytes]:
     ax.grid(axis="y", alpha=0.3)
     figures["skill"] = _png(fig)
     return figures
+
+
+def _calibration_figure(held: dict) -> bytes:
+    """Pooled reliability of the raw member frequencies and of the held-out calibrated
+    probabilities on the same cases, with the caution."""
+    from matplotlib.figure import Figure
+    fig = Figure(figsize=(6.4, 5.2))
+    ax = fig.subplots()
+    ax.plot([0, 1], [0, 1], color=_MUTED, lw=1, ls="--", label="perfect reliability")
+    for key, colour, label in (("raw", _MUTED, "member frequencies (raw)"),
+                               ("calibrated", _INK, "calibrated, held out")):
+        block = held[key]
+        pts = [(b["mean_forecast"], b["observed_frequency"])
+               for b in block["reliability"]["all"]["bins"] if b["count"] >= 5]
+        if pts:
+            ax.plot(*zip(*pts), marker="o", color=colour, lw=2,
+                    label=f"{label}: RPS {block['rps']:.3f}")
+    ax.set_xlim(0, 1)
+    ax.set_ylim(0, 1)
+    ax.set_xlabel("forecast probability")
+    ax.set_ylabel("observed relative frequency")
+    ax.set_title(f"Reliability before and after calibration ({held['folds']}-fold "
+                 f"cross-validation, {held['n']} cases; bins of 5+)", fontsize=9)
+    ax.legend(fontsize=8, frameon=False, loc="upper left")
+    ax.grid(alpha=0.3)
+    fig.text(0.01, 0.005, CAUTION, fontsize=6, color=_MUTED)
+    return _png(fig)
 
 
 #: Folder of the page templates inside the package (shipped as package data).
