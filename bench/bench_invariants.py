@@ -31,13 +31,13 @@ from _common import code_version  # sibling module of the scripts
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT / "tests"))
 
-from winter_soundings import build_columns, draw_parameters  # noqa: E402
+from winter_soundings import build_columns, draw_parameters
 
-from ptype import thermo  # noqa: E402
-from ptype.codes import Code  # noqa: E402
-from ptype.engine.columns import Columns  # noqa: E402
-from ptype.engine.probability import MIN_SUPPORT  # noqa: E402
-from ptype.engine.run import diagnose_columns, run_columns  # noqa: E402
+from ptype import thermo
+from ptype.codes import Code
+from ptype.engine.columns import Columns
+from ptype.engine.probability import MIN_SUPPORT
+from ptype.engine.run import diagnose_columns, run_columns
 
 ICE = {Code.SN: 2, Code.PL: 2, Code.RASN: 1, Code.RAPL: 1, Code.FZRAPL: 1}
 ICE_OF_CODE = np.array([ICE.get(Code(k), 0) for k in range(len(Code))])

@@ -1,4 +1,4 @@
-"""``ptype calibrate MANIFEST -o CALIBRATION.json``: fit calibrated probabilities on paired cases."""
+"""``ptype calibrate MANIFEST -o FILE``: fit calibrated probabilities on paired cases."""
 
 from __future__ import annotations
 
