@@ -15,13 +15,15 @@ NOW = T0
 
 
 def _step(minutes, *, ptype="RA", fz=0.0, acc=0.0, frost=False, snow_p=0.0, rate=1.0,
-          road=1.0, snow_cm=0.0, glaze=0.0):
+          road=1.0, snow_cm=0.0, glaze=0.0, pl_p=0.0, pl_cm=0.0):
     t = NOW + timedelta(minutes=minutes)
     return {"valid_time": t.strftime("%Y-%m-%dT%H:%M:%SZ"), "lead_hours": minutes / 60,
             "ptype": ptype,
             "hazards": {"freezing_probability": fz, "ice_accretion_mm": acc, "frost": frost,
                         "snow_probability": snow_p, "snow_cm": snow_cm, "flat_glaze_mm": glaze,
-                        "freezing_on_road": fz >= 0.5, "snow": snow_p >= 0.5},
+                        "freezing_on_road": fz >= 0.5, "snow": snow_p >= 0.5,
+                        "ice_pellets": pl_p >= 0.5, "ice_pellets_probability": pl_p,
+                        "ice_pellets_cm": pl_cm},
             "surface": {"precipitation_rate_mm_h": rate, "road_surface_temperature_c": road}}
 
 
@@ -73,6 +75,24 @@ def test_evaluate_rules_frost_and_heavy_snow():
     assert events["frost"].parameters["grib2_code"] == 0
     assert not [c for c in evaluate_rules(_timeline(steps), NOW, "X", {"frost": False})
                 if c.event == "frost"]
+
+
+def test_evaluate_rules_ice_pellets_alert_and_severity():
+    # Ice pellets make untreated roads slippery: an alert of their own, severity by the depth
+    # over the period (ours: Minor < 0.5 cm <= Moderate < 2.5 cm <= Severe).
+    steps = [_step(60 * h, ptype="PL", pl_p=0.7, pl_cm=0.3) for h in range(3)]
+    (cand,) = [c for c in evaluate_rules(_timeline(steps), NOW, "Test Hill")
+               if c.event == "ice_pellets"]
+    assert cand.severity == "Moderate" and cand.parameters["ice_pellets_cm"] == 0.9
+    assert cand.certainty == "Likely" and "Ice pellets on roads" in cand.headline
+    deep = [_step(60 * h, ptype="PL", pl_p=0.7, pl_cm=1.0) for h in range(3)]
+    assert [c.severity for c in evaluate_rules(_timeline(deep), NOW, "T")
+            if c.event == "ice_pellets"] == ["Severe"]
+    unlikely = [_step(60 * h, ptype="RA", pl_p=0.2, pl_cm=0.0) for h in range(3)]
+    assert not [c for c in evaluate_rules(_timeline(unlikely), NOW, "T")
+                if c.event == "ice_pellets"]
+    late = [_step(60 * h, ptype="PL", pl_p=0.9, pl_cm=0.5) for h in (7, 8)]
+    assert not [c for c in evaluate_rules(_timeline(late), NOW, "T") if c.event == "ice_pellets"]
 
 
 def test_certainty_and_urgency_words():

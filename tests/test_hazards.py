@@ -138,3 +138,21 @@ def test_step_hazards_amounts_only_for_their_types():
     assert out["snow_cm"].tolist()[:3] == pytest.approx([0.0, 0.5, 0.0])
     assert out["freezing_on_road"].tolist() == [True, False, False, True]
     assert out["snow"].tolist() == [False, True, False, False]
+
+
+def test_step_hazards_ice_pellets_depth_and_probability():
+    # 1 mm/h of melted water for one hour: 2.5 mm of pellets at the 2.5:1 pellet-to-liquid
+    # ratio (from memory: pellets pack at about 2:1 to 3:1), half of it for the mixes (ours).
+    codes = np.array([Code.PL, Code.RAPL, Code.FZRAPL, Code.SN, Code.RA])
+    probs = np.zeros((5, len(Code)))
+    probs[:, Code.PL] = 0.4
+    probs[:, Code.RAPL] = 0.2
+    probs[:, Code.FZRAPL] = 0.2
+    probs[:, Code.RA] = 0.2
+    hz = hazards.step_hazards(codes, probs, np.full(5, -1.0), np.full(5, -3.0),
+                              np.full(5, 1.0), np.full(5, 2.0), 1.0)
+    assert hz["ice_pellets"].tolist() == [True, True, True, False, False]
+    np.testing.assert_allclose(hz["ice_pellets_cm"], [0.25, 0.125, 0.125, 0.0, 0.0])
+    np.testing.assert_allclose(hz["ice_pellets_probability"], 0.4 + 0.5 * 0.2 + 0.5 * 0.2)
+    unknown = hazards.step_hazards(codes[:1], probs[:1], [-1.0], [-3.0], [np.nan], [2.0], 1.0)
+    assert np.isnan(unknown["ice_pellets_cm"][0])

@@ -474,9 +474,11 @@ def test_adjustment_notes_keep_the_order_applied():
         ["observation"], ["observation", "onset", "melting"], ["observation", "melting"]]
 
 
-def _hazards(fz=False, prob=None, frost=False, snow=False, cm=0.0, ice=0.0, glaze=0.0):
+def _hazards(fz=False, prob=None, frost=False, snow=False, cm=0.0, ice=0.0, glaze=0.0,
+             pellets_cm=0.0):
     return {"freezing_on_road": fz, "freezing_probability": prob, "frost": frost, "snow": snow,
-            "snow_cm": cm, "ice_accretion_mm": ice, "flat_glaze_mm": glaze}
+            "snow_cm": cm, "ice_accretion_mm": ice, "flat_glaze_mm": glaze,
+            "ice_pellets": pellets_cm > 0, "ice_pellets_cm": pellets_cm}
 
 
 def test_transitions_and_timeline_totals_by_hand():
@@ -485,11 +487,14 @@ def test_transitions_and_timeline_totals_by_hand():
               "hazards": _hazards(fz=True, prob=0.7, ice=0.3, glaze=0.5)},
              {"valid_time": "t2", "ptype": "FZRA",
               "hazards": _hazards(fz=True, prob=0.9, ice=None, glaze=0.25)},
-             {"valid_time": "t3", "ptype": "NONE", "hazards": _hazards(frost=True)}]
+             {"valid_time": "t3", "ptype": "PL", "hazards": _hazards(pellets_cm=0.2)},
+             {"valid_time": "t4", "ptype": "NONE", "hazards": _hazards(frost=True)}]
     assert nowcast.transitions(steps) == [{"time": "t1", "from": "SN", "to": "FZRA"},
-                                          {"time": "t3", "from": "FZRA", "to": "NONE"}]
+                                          {"time": "t3", "from": "FZRA", "to": "PL"},
+                                          {"time": "t4", "from": "PL", "to": "NONE"}]
     totals = nowcast.timeline_totals(steps, timedelta(minutes=30))
-    assert totals["hours_by_type"] == {"SN": 0.5, "FZRA": 1.0, "NONE": 0.5}
+    assert totals["hours_by_type"] == {"SN": 0.5, "FZRA": 1.0, "PL": 0.5, "NONE": 0.5}
+    assert totals["ice_pellets_cm"] == 0.2 and totals["ice_pellets_hours"] == 0.5
     assert totals["ice_accretion_mm"] == 0.3 and totals["flat_glaze_mm"] == 0.75
     assert totals["snow_cm"] == 0.4 and totals["amounts_complete"] is False
     assert totals["freezing_on_road_hours"] == 1.0 and totals["frost_hours"] == 0.5

@@ -22,6 +22,10 @@ Hazards
 * **Snow** — SN, or a mix containing snow (RASN); depth from the
   liquid-equivalent rate with a 10:1 snow-to-liquid ratio (common practice,
   from memory; real ratios range roughly 5:1 to 20:1).
+* **Ice pellets** — PL, or a mix containing pellets (RAPL, FZRAPL): a layer of
+  loose ice grains that makes untreated roads slippery and is ploughed like
+  snow; depth from the liquid-equivalent rate with a 2.5:1 pellet-to-liquid
+  ratio (pellets pack densely, roughly 2:1 to 3:1; from memory).
 
 Ice accretion (Jones simple flux model)
 ----------------------------------------
@@ -75,6 +79,12 @@ LIQUID_BEARING_CODES = (Code.RA, Code.DZ, Code.RASN, Code.RAPL)
 SNOW_CODES = (Code.SN, Code.RASN)
 #: Share of a mixed type's precipitation that is snow (for snow depth); ours: half for RASN.
 SNOW_SHARE = {Code.SN: 1.0, Code.RASN: 0.5}
+#: Codes that carry ice pellets, and the share of their precipitation that is pellets (ours:
+#: half for the mixes).
+PELLET_SHARE = {Code.PL: 1.0, Code.RAPL: 0.5, Code.FZRAPL: 0.5}
+#: Ice-pellet depth per depth of melted water (from memory: pellets pack densely, about 2:1
+#: to 3:1, far denser than snow).
+PELLETS_TO_LIQUID_RATIO = 2.5
 
 
 def _isin(codes, members) -> np.ndarray:
@@ -165,9 +175,10 @@ def step_hazards(codes: ArrayLike, probabilities: ArrayLike,
     """All hazards for ``n`` steps, each lasting ``hours`` (scalar or ``(n,)``).
 
     Returns ``(n,)`` arrays: ``freezing_on_road`` (bool), ``freezing_probability``,
-    ``frost`` (bool), ``snow`` (bool), ``snow_probability``, ``snow_cm``,
-    ``ice_accretion_mm`` (Jones radial), ``flat_glaze_mm``; amounts are NaN where the
-    precipitation rate is unknown and 0 where the type does not produce them.
+    ``frost`` (bool), ``snow`` (bool), ``snow_probability``, ``snow_cm``, ``ice_pellets``
+    (bool), ``ice_pellets_probability``, ``ice_pellets_cm``, ``ice_accretion_mm`` (Jones
+    radial), ``flat_glaze_mm``; amounts are NaN where the precipitation rate is unknown and
+    0 where the type does not produce them.
     """
     codes = np.asarray(codes)
     rate = np.asarray(precipitation_rate_mm_h, dtype=np.float64)
@@ -175,8 +186,12 @@ def step_hazards(codes: ArrayLike, probabilities: ArrayLike,
     share = np.zeros(codes.shape)
     for code, s in SNOW_SHARE.items():
         share = np.where(codes == int(code), s, share)
+    pellets = np.zeros(codes.shape)
+    for code, s in PELLET_SHARE.items():
+        pellets = np.where(codes == int(code), s, pellets)
     prob = np.asarray(probabilities, dtype=np.float64)
     snow_prob = (prob[:, int(Code.SN)] + SNOW_SHARE[Code.RASN] * prob[:, int(Code.RASN)])
+    pellet_prob = sum(share_k * prob[:, int(code)] for code, share_k in PELLET_SHARE.items())
     return {
         "freezing_on_road": freezing_on_road(codes, road_surface_temperature_c),
         "freezing_probability": freezing_on_road_probability(prob, road_surface_temperature_c),
@@ -185,6 +200,10 @@ def step_hazards(codes: ArrayLike, probabilities: ArrayLike,
         "snow_probability": np.clip(snow_prob, 0.0, 1.0),
         # mm of water x ratio = mm of snow; / 10 for cm.
         "snow_cm": np.where(share > 0, rate * hours * share * SNOW_TO_LIQUID_RATIO / 10.0, 0.0),
+        "ice_pellets": pellets > 0,
+        "ice_pellets_probability": np.clip(pellet_prob, 0.0, 1.0),
+        "ice_pellets_cm": np.where(pellets > 0,
+                                   rate * hours * pellets * PELLETS_TO_LIQUID_RATIO / 10.0, 0.0),
         "ice_accretion_mm": np.where(freezing, jones_radial_ice_mm(rate, wind_speed_m_s, hours),
                                      0.0),
         "flat_glaze_mm": np.where(freezing_on_road(codes, road_surface_temperature_c),

@@ -627,6 +627,9 @@ def _step_hazards_record(hz: Mapping[str, np.ndarray], i: int) -> dict[str, Any]
         "snow": bool(hz["snow"][i]),
         "snow_probability": _r(hz["snow_probability"][i], 3),
         "snow_cm": _r(hz["snow_cm"][i], 3),
+        "ice_pellets": bool(hz["ice_pellets"][i]),
+        "ice_pellets_probability": _r(hz["ice_pellets_probability"][i], 3),
+        "ice_pellets_cm": _r(hz["ice_pellets_cm"][i], 3),
         "ice_accretion_mm": _r(hz["ice_accretion_mm"][i], 3),
         "flat_glaze_mm": _r(hz["flat_glaze_mm"][i], 3),
     }
@@ -765,17 +768,20 @@ def timeline_totals(steps: Sequence[Mapping[str, Any]], step: timedelta) -> dict
     acc = total("ice_accretion_mm")
     glaze = total("flat_glaze_mm")
     snow = total("snow_cm")
+    pellets = total("ice_pellets_cm")
 
     def hazard_hours(key):
         return round(h * sum(s["hazards"][key] for s in steps), 3)
 
     return {
         "ice_accretion_mm": acc["value"], "flat_glaze_mm": glaze["value"],
-        "snow_cm": snow["value"],
-        "amounts_complete": acc["complete"] and glaze["complete"] and snow["complete"],
+        "snow_cm": snow["value"], "ice_pellets_cm": pellets["value"],
+        "amounts_complete": (acc["complete"] and glaze["complete"] and snow["complete"]
+                             and pellets["complete"]),
         "freezing_on_road_hours": hazard_hours("freezing_on_road"),
         "frost_hours": hazard_hours("frost"),
         "snow_hours": hazard_hours("snow"),
+        "ice_pellets_hours": hazard_hours("ice_pellets"),
         "max_freezing_probability": max((s["hazards"]["freezing_probability"] or 0.0
                                          for s in steps), default=0.0),
         "hours_by_type": hours_by_type,

@@ -14,7 +14,14 @@ snow_rate_mm_h               1.0       liquid-equivalent rate for "heavy" snow (
                                        at 10:1, common practice, from memory) ...
 snow_probability             0.5       ... when snow is at least this likely
 snow_window_hours            12
+ice_pellets_probability      0.4       ice pellets (PL, or half of RAPL/FZRAPL) at least this
+                                       likely ...
+ice_pellets_window_hours     6         ... within this many hours
 ==========================  ========  ==========================================================
+
+Severity of ice pellets, by the accumulated depth over the alert period (ours; pellets make
+untreated roads slippery even in small amounts): Minor below 0.5 cm, Moderate from 0.5 cm,
+Severe from 2.5 cm.
 
 Severity of ice accretion: 6.35 mm (0.25 in) Severe and 12.7 mm (0.5 in) Extreme, the
 quarter- and half-inch radial-ice levels common in ice-storm warning practice (from
@@ -42,7 +49,13 @@ DEFAULT_THRESHOLDS: dict[str, Any] = {
     "snow_rate_mm_h": 1.0,
     "snow_probability": 0.5,
     "snow_window_hours": 12.0,
+    "ice_pellets_probability": 0.4,
+    "ice_pellets_window_hours": 6.0,
 }
+
+#: Ice-pellet depths (cm) from which the alert is Moderate, and Severe (ours).
+PELLETS_MODERATE_CM = 0.5
+PELLETS_SEVERE_CM = 2.5
 
 ACCRETION_SEVERE_MM = 6.35
 ACCRETION_EXTREME_MM = 12.7
@@ -62,6 +75,10 @@ EVENTS: dict[str, tuple[str, str, str]] = {
     "heavy_snow": (
         "Heavy snow", "Prepare",
         "Expect snow-covered roads; plan ploughing and treatment."),
+    "ice_pellets": (
+        "Ice pellets on roads", "Prepare",
+        ("Expect ice pellets (sleet) settling on untreated roads and making them slippery; "
+         "treat and plough as for snow.")),
 }
 
 
@@ -117,6 +134,7 @@ OBSERVED_CONFIRMS = {
     "freezing_precipitation": ("FZRA", "FZDZ", "FZUP", "FZRAPL"),
     "ice_accretion": ("FZRA", "FZDZ", "FZUP", "FZRAPL"),
     "heavy_snow": ("+SN", "+SHSN"),
+    "ice_pellets": ("PL", "SHPL", "FZRAPL", "RAPL"),
 }
 
 
@@ -229,6 +247,21 @@ def evaluate_rules(timeline: Mapping[str, Any], now: datetime, site_name: str,
                  f"Road surface at or below 0 degC and below the frost point of the air "
                  f"(lowest road temperature {road:.1f} degC): hoar frost deposition.",
                  {"min_road_surface_temperature_c": road})
+
+    # Ice pellets.
+    flags = [lead_ok(s, th["ice_pellets_window_hours"])
+             and (s["hazards"].get("ice_pellets_probability") or 0.0)
+             >= float(th["ice_pellets_probability"]) for s in steps]
+    span = _span(steps, flags, step)
+    if span:
+        idx, onset, expires = span
+        depth = sum(steps[i]["hazards"]["ice_pellets_cm"] or 0.0 for i in idx)
+        p = max(steps[i]["hazards"]["ice_pellets_probability"] for i in idx)
+        severity = ("Severe" if depth >= PELLETS_SEVERE_CM else
+                    "Moderate" if depth >= PELLETS_MODERATE_CM else "Minor")
+        make("ice_pellets", idx, onset, expires, severity, p,
+             f"Ice pellets are forecast with a probability up to {p:.0%}, about {depth:.1f} cm "
+             f"(at a 2.5:1 pellet-to-liquid ratio).", {"ice_pellets_cm": round(depth, 2)})
 
     # Heavy snow.
     flags = [lead_ok(s, th["snow_window_hours"]) and (s["hazards"]["snow_probability"] or 0.0)
