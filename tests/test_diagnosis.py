@@ -56,8 +56,9 @@ def test_explanation_sentences_carry_numbers():
     out = ptype.diagnose(document(FZRA_P, FZRA_T, FZRA_TD), seed=1, members=10).to_dict()
     warm = next(x for x in out["layers"] if x["kind"] == "warm")
     text = " ".join(out["explanation"])
-    assert f"{warm['area_j_kg']:.0f} J/kg" in text
-    assert f"{warm['extreme_c']:+.1f} °C" in text
+    # Energies with at most one decimal, temperatures signed with one (ptype.engine.wording).
+    assert f"{warm['area_j_kg']:.1f}".rstrip("0").rstrip(".") + " J/kg" in text
+    assert f"{warm['extreme_c']:+.1f} °C".replace("-", "\u2212") in text
 
 
 def test_level_order_invariance():

@@ -174,7 +174,8 @@ class Columns:
             for part in parts:
                 a = getattr(part, f.name)
                 if a.ndim == 2 and a.shape[1] < width:
-                    a = np.concatenate([a, np.full((a.shape[0], width - a.shape[1]), np.nan)], axis=1)
+                    pad = np.full((a.shape[0], width - a.shape[1]), np.nan)
+                    a = np.concatenate([a, pad], axis=1)
                 arrays.append(a)
             fields[f.name] = np.concatenate(arrays, axis=0)
         return Columns(**fields)
@@ -267,7 +268,7 @@ def _per_column(value, n: int, default: float = np.nan) -> np.ndarray:
 
 
 def interpolate_at_pressure(columns_p: np.ndarray, values: np.ndarray, target_hpa) -> np.ndarray:
-    """Linear-in-ln-p interpolation of ``values`` (n, L) at pressure(s) ``target_hpa`` (n,) or scalar.
+    """Linear-in-ln-p interpolation of ``values`` (n, L) at ``target_hpa``, (n,) or a scalar.
 
     NaN where the target lies outside a column's valid pressure range.
     """
@@ -289,7 +290,8 @@ def interpolate_at_pressure(columns_p: np.ndarray, values: np.ndarray, target_hp
     out = y0 + w * (y1 - y0)
     exact = np.isfinite(p[rows, k_lo]) & (p[rows, k_lo] == target)
     out = np.where(exact, y0, out)
-    inside = (k >= 1) & (k < np.sum(np.isfinite(p), axis=1) + (exact.astype(int))) & np.isfinite(out)
+    n_valid = np.sum(np.isfinite(p), axis=1)
+    inside = (k >= 1) & (k < n_valid + (exact.astype(int))) & np.isfinite(out)
     inside |= exact
     return np.where(inside, out, np.nan)
 

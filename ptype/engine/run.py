@@ -7,9 +7,10 @@ probabilities out.
 
 1. the **control**: the methods on the columns as given, then their consensus
    (:func:`diagnose_columns`), and
-2. the **members**: Monte-Carlo perturbations of the columns (:func:`ptype.engine.probability.perturb`)
-   through the methods the consensus reads, in batches that bound memory; the probability of
-   a type is the fraction of a column's members that give it.
+2. the **members**: Monte-Carlo perturbations of the columns
+   (:func:`ptype.engine.probability.perturb`) through the methods the consensus reads, in
+   batches that bound memory; the probability of a type is the fraction of a column's members
+   that give it.
 
 Everything is vectorised over columns; nothing here loops per column.
 """

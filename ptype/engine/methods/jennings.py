@@ -24,6 +24,7 @@ from __future__ import annotations
 import numpy as np
 
 from ptype.codes import Code
+from ptype.engine import wording as w
 from ptype.engine.methods.base import Context, MethodResult, Step
 
 NAME = "jennings"
@@ -78,6 +79,8 @@ RULES = ("snow", "rain")
 
 
 def run(ctx: Context) -> MethodResult:
+    """Jennings et al. (2018) at the surface of every column of ``ctx``, with the Ding et al.
+    (2014) class as a cross-check in the values."""
     c = ctx.columns
     p = snow_probability(c.surface_temperature_c, c.surface_relative_humidity_pct)
     snow = p >= SNOW_PROBABILITY_THRESHOLD
@@ -89,27 +92,32 @@ def run(ctx: Context) -> MethodResult:
               "surface_relative_humidity_pct": c.surface_relative_humidity_pct,
               "surface_wetbulb_c": c.surface_wetbulb_c, "elevation_m": elev,
               "ding_t_min_c": t_min, "ding_t_max_c": t_max,
-              "ding_code": ding_category(c.surface_wetbulb_c, c.surface_relative_humidity_pct, elev)}
+              "ding_code": ding_category(c.surface_wetbulb_c, c.surface_relative_humidity_pct,
+                                         elev)}
     return MethodResult(NAME, code, rule, values, explain)
 
 
 def explain(result: MethodResult, i: int) -> list[Step]:
+    """The Ding et al. (2014) cross-check, then the Jennings et al. (2018) rule that decided."""
     v = {k: float(a[i]) for k, a in result.values.items()}
     rule = RULES[int(result.rule[i])]
     word = "snow" if rule == "snow" else "rain"
     ding = Code(int(v["ding_code"])).label
+    t_sfc = v["surface_temperature_c"]
+    rh_sfc = v["surface_relative_humidity_pct"]
     # The cross-check comes first so that the last step is always the rule that decided.
     return [
-        Step("ding_check", f"Cross-check (Ding et al. 2014): surface wet-bulb {v['surface_wetbulb_c']:+.1f} °C "
-                           f"against {v['ding_t_min_c']:+.1f}/{v['ding_t_max_c']:+.1f} °C at "
-                           f"{v['elevation_m']:.0f} m gives {ding}.",
+        Step("ding_check", f"Cross-check (Ding et al. 2014): surface wet-bulb "
+             f"{w.temperature(v['surface_wetbulb_c'])} against "
+             f"{w.temperature(v['ding_t_min_c'])} and {w.temperature(v['ding_t_max_c'])} at "
+             f"{w.height(v['elevation_m'])} gives {ding}.",
              {"surface_wetbulb_c": v["surface_wetbulb_c"], "elevation_m": v["elevation_m"]},
              {"t_min_c": v["ding_t_min_c"], "t_max_c": v["ding_t_max_c"]}, SOURCE_DING),
-        Step(rule, f"Surface air {v['surface_temperature_c']:+.1f} °C at {v['surface_relative_humidity_pct']:.0f} % "
-                   f"relative humidity gives a snow probability of {v['snow_probability']:.2f} "
-                   f"(snow at {SNOW_PROBABILITY_THRESHOLD} or more): {word}. This looks at the surface only.",
-             {"snow_probability": v["snow_probability"], "surface_temperature_c": v["surface_temperature_c"],
-              "surface_relative_humidity_pct": v["surface_relative_humidity_pct"]},
+        Step(rule, f"Surface air {w.temperature(t_sfc)} at {w.percent(rh_sfc)} relative "
+             f"humidity gives a snow probability of {w.fraction(v['snow_probability'])} (snow at "
+             f"{SNOW_PROBABILITY_THRESHOLD} or more): {word}. This looks at the surface only.",
+             {"snow_probability": v["snow_probability"], "surface_temperature_c": t_sfc,
+              "surface_relative_humidity_pct": rh_sfc},
              {"snow_probability_threshold": SNOW_PROBABILITY_THRESHOLD,
               "alpha": ALPHA, "beta": BETA, "gamma": GAMMA}, SOURCE),
     ]
