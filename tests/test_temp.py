@@ -471,6 +471,30 @@ SOUNDING = {"site": {"id": "TEST", "elevation_m": 180.0}, "levels": [
 ]}
 
 
+#: Invented Part B (station 99901): levels numbered 00, 11, ... 44, then level 55 at
+#: 555 hPa, whose group 55555 is also the regional section indicator (WMO-No. 306, FM 35:
+#: levels numbered 00, 11, ... 99 in order; regional groups 51515 ... 59595).
+PART_B_LEVEL_55 = ("TTBB 1512/ 99901 00990 01000 11950 02300 22900 04500 33800 00557 "
+                   "44700 07156 55555 19762 66500 21566 21212 00990 27010 44700 28015 "
+                   "55555 29020=")
+
+
+def test_read_temp_document_55555_after_level_44_is_a_level():
+    doc = read_temp_document(PART_B_LEVEL_55)
+    pressures = [lvl["pressure_hpa"] for lvl in doc["levels"]]
+    assert pressures == [990.0, 950.0, 900.0, 800.0, 700.0, 555.0, 500.0]
+    # 197 -> -19.7 degC (odd tenths: below zero, code table 3931), DD 62 -> 12 degC.
+    level = doc["levels"][5]
+    assert level["temperature_c"] == -19.7 and level["dewpoint_c"] == pytest.approx(-31.7)
+
+
+def test_read_temp_document_55555_elsewhere_ends_the_levels():
+    # After level 33 the next level is 44, so 55555 is the regional indicator: the levels end.
+    text = "TTBB 1512/ 99901 00990 01000 11950 02300 22900 04500 33800 00557 55555 10164="
+    doc = read_temp_document(text)
+    assert [lvl["pressure_hpa"] for lvl in doc["levels"]] == [990.0, 950.0, 900.0, 800.0]
+
+
 def test_write_temp_layout():
     text = write_temp(SOUNDING, station="99901", day=7, hour=0)
     parts = [p.split() for p in text.split("=") if p.strip()]
