@@ -10,6 +10,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ptype import thermo
+from ptype.errors import OptionError
 from ptype.thermo import wetbulb
 
 # --- saturation vapour pressure -----------------------------------------------------------
@@ -196,14 +197,35 @@ def test_wet_bulb_nan_propagates_and_shape_kept():
     assert np.isnan(out[0, 1]) and np.isfinite(out[1]).all()
 
 
-def test_wet_bulb_unknown_kind_raises():
-    with pytest.raises(ValueError, match="kind"):
-        thermo.wet_bulb_temperature(1000.0, 10.0, 5.0, kind="frosty")
+@pytest.mark.parametrize("values", [(1000.0, 10.0, 5.0), (np.nan, np.nan, np.nan),
+                                    (np.zeros(0), np.zeros(0), np.zeros(0))])
+def test_wet_bulb_unknown_kind_raises_option_error(values):
+    # Refused whatever the data, even when no point would be solved.
+    with pytest.raises(OptionError) as info:
+        thermo.wet_bulb_temperature(*values, kind="frosty")
+    assert str(info.value) == "kind = 'frosty': expected one of isobaric, adiabatic"
+    assert info.value.field == "kind" and isinstance(info.value, ValueError)
+
+
+def test_wet_bulb_kinds_named_once():
+    assert thermo.WET_BULB_KINDS == ("isobaric", "adiabatic")
+    for kind in thermo.WET_BULB_KINDS:
+        assert np.isfinite(thermo.wet_bulb_temperature(900.0, 2.0, -1.0, kind=kind))
+        assert thermo.check_wet_bulb_kind(kind) == kind
+    with pytest.raises(OptionError, match="^wetbulb = 'wet'"):
+        thermo.check_wet_bulb_kind("wet", field="wetbulb")
+
+
+def test_saturation_vapor_pressure_unknown_phase_raises_option_error():
+    with pytest.raises(OptionError, match="^phase = 'slush': expected 'water' or 'ice'"):
+        thermo.saturation_vapor_pressure_hpa(0.0, phase="slush")
+    with pytest.raises(OptionError, match="^phase = 'slush'"):
+        thermo.saturation_vapor_pressure_murphy_koop_hpa(0.0, phase="slush")
 
 
 @settings(max_examples=300, deadline=None)
 @given(p=st.floats(200.0, 1100.0), t=st.floats(-90.0, 55.0), dep=st.floats(0.0, 60.0),
-       kind=st.sampled_from(["isobaric", "adiabatic"]))
+       kind=st.sampled_from(thermo.WET_BULB_KINDS))
 def test_wet_bulb_between_dewpoint_and_temperature(p, t, dep, kind):
     # Physical bound (AMS Glossary, "wet-bulb temperature"): Td <= Tw <= T, always finite.
     td = t - dep

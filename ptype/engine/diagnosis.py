@@ -31,7 +31,7 @@ from ptype.engine.probability import DEFAULT_MEMBERS, check_members, confidence_
 from ptype.engine.run import EngineRun, method_names, run_columns
 from ptype.errors import OptionError
 from ptype.profile import Profile
-from ptype.thermo import WET_BULB_KINDS
+from ptype.thermo import check_wet_bulb_kind
 
 
 def _to_profile(source) -> Profile:
@@ -166,9 +166,7 @@ def _rule_name(module, result: MethodResult, i: int):
 
 
 def _check_options(members, seed, wetbulb: str) -> int:
-    if wetbulb not in WET_BULB_KINDS:
-        raise OptionError(f"wetbulb = {wetbulb!r}: expected one of {', '.join(WET_BULB_KINDS)}",
-                          field="wetbulb")
+    check_wet_bulb_kind(wetbulb, field="wetbulb")
     members = check_members(members)
     if seed is not None and (isinstance(seed, bool) or not isinstance(seed, (int, np.integer))
                              or seed < 0):

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ptype.errors import OptionError
 from ptype.thermo.constants import T0, epsilon
 
 # Alduchov & Eskridge (1996) Magnus constants (their AERK / AERKi), e in hPa, T in degC.
@@ -50,7 +51,7 @@ def _phase_constants(phase: str):
         return _AE_WATER
     if phase == "ice":
         return _AE_ICE
-    raise ValueError(f"phase must be 'water' or 'ice', got {phase!r}")
+    raise OptionError(f"phase = {phase!r}: expected 'water' or 'ice'", field="phase")
 
 
 def saturation_vapor_pressure_murphy_koop_hpa(temperature_c, phase: str = "water"):
@@ -69,7 +70,7 @@ def saturation_vapor_pressure_murphy_koop_hpa(temperature_c, phase: str = "water
     elif phase == "ice":
         ln_e = 9.550426 - 5723.265 / t + 3.53068 * np.log(t) - 0.00728332 * t
     else:
-        raise ValueError(f"phase must be 'water' or 'ice', got {phase!r}")
+        raise OptionError(f"phase = {phase!r}: expected 'water' or 'ice'", field="phase")
     return np.exp(ln_e) / 100.0
 
 

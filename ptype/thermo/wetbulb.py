@@ -15,6 +15,7 @@ from __future__ import annotations
 import numpy as np
 
 from ptype.thermo.constants import epsilon
+from ptype.thermo.kinds import check_wet_bulb_kind
 from ptype.thermo.parcel import equivalent_potential_temperature_k
 from ptype.thermo.saturation import _AE_WATER, _as_float
 
@@ -108,7 +109,6 @@ def _adiabatic_secant(p, t, td, tolerance_k, max_iter):
     return np.clip(x, td, t)
 
 
-WET_BULB_KINDS = ("isobaric", "adiabatic")
 #: Arrays of at least this many valid points use the compiled solver of ptype.thermo.fast.
 #: Since the compiled solvers are vectorised they are the cheaper path for any size (a
 #: 60-level control column: ~0.3 ms in numpy, a few microseconds compiled); the numpy
@@ -132,27 +132,33 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     pressure_hpa, temperature_c, dewpoint_c : array_like
         Pressure (hPa), air temperature (degC) and dew point (degC, over water).
     kind : {"isobaric", "adiabatic"}
-        ``"isobaric"`` (default): the thermodynamic (psychrometric) wet-bulb over
+        One of :data:`ptype.thermo.WET_BULB_KINDS`.  ``"isobaric"`` (default): the thermodynamic (psychrometric) wet-bulb over
         liquid water, the temperature an air parcel reaches by evaporating water
         into itself at constant pressure (ASHRAE 2017 ch. 1 eq. 35; AMS Glossary
         "wet-bulb temperature").  Ramer (1993) uses this one.
         ``"adiabatic"``: the pseudo-adiabatic wet-bulb of Normand's rule (lift to
         the LCL, descend along the pseudo-adiabat; Knox et al. 2017), which
         Baldwin et al. (1994) use.  It is typically a few tenths of a kelvin
-        below the isobaric value (the brief's figure, from memory; the test
-        suite measures it against MetPy).
+        below the isobaric value (from memory; the test suite measures it
+        against MetPy).
 
     Returns
     -------
     numpy.ndarray
         Wet-bulb temperature, degC, with ``Td <= Tw <= T`` wherever the inputs
         are finite; NaN where any input is NaN.
+
+    Raises
+    ------
+    ptype.errors.OptionError
+        For a ``kind`` not in :data:`ptype.thermo.WET_BULB_KINDS`.
     """
+    check_wet_bulb_kind(kind)
     p, t, td = np.broadcast_arrays(_as_float(pressure_hpa), _as_float(temperature_c),
                                    _as_float(dewpoint_c))
     valid = np.isfinite(p) & np.isfinite(t) & np.isfinite(td) & (p > 0)
     n_valid = np.count_nonzero(valid)
-    if kind in WET_BULB_KINDS and n_valid >= _FAST_MIN_SIZE and _fast_available():
+    if n_valid >= _FAST_MIN_SIZE and _fast_available():
         # Large arrays: the compiled per-point solver (same equations; ptype.thermo.fast),
         # which itself gives NaN where an input is missing, so no gather and scatter.
         from ptype.thermo import fast
@@ -163,10 +169,8 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     pv, tv, tdv = p[valid], t[valid], td[valid]
     if kind == "isobaric":
         out[valid] = _isobaric_wet_bulb_c(pv, tv, tdv)
-    elif kind == "adiabatic":
-        out[valid] = _adiabatic_wet_bulb_c(pv, tv, tdv)
     else:
-        raise ValueError(f"kind must be one of {WET_BULB_KINDS}, got {kind!r}")
+        out[valid] = _adiabatic_wet_bulb_c(pv, tv, tdv)
     return out if out.ndim else out[()]
 
 
