@@ -114,7 +114,7 @@ def _fake(name, codes):
 
 
 def test_vote_ties_go_to_the_more_hazardous_type():
-    # Operational multi-algorithm practice (brief section 11): ties to FZRA > SN > IP > RA.
+    # Operational multi-algorithm practice (common practice): ties to FZRA > SN > IP > RA.
     p = np.array([[1000.0, 850.0, 700.0, 500.0]] * 3)
     t = np.array([[1.0, 3.0, -5.0, -20.0]] * 3)
     cols = Columns.from_arrays(p, t, t - 20.0)  # dry: no cloud, so no ice check, no humidity check

@@ -30,8 +30,9 @@ def dense_area(p, t):
 
 
 def test_isothermal_plus3_850_800_is_52_j_kg():
-    # Brief section 1 (computed there): an isothermal +3 degC layer from 850 to 800 hPa ~ 52 J/kg;
-    # R_d * 3 * ln(850/800) = 52.2 J/kg.  (c_p with d ln p would give ~183: a 3.5x error.)
+    # Bourgouin (2000) area R_d * integral (T - T0) d ln p, evaluated by hand for an isothermal
+    # +3 degC layer from 850 to 800 hPa: 287.04 * 3 * ln(850/800) = 52.2 J/kg.  (c_p with
+    # d ln p would give ~183: a 3.5x error.)
     assert layer_area_j_kg(850.0, 800.0, 3.0) == pytest.approx(52.2, abs=0.05)
     p = np.array([[900.0, 850.001, 850.0, 800.0, 799.999, 700.0]])
     t = np.array([[-2.0, -2.0, 3.0, 3.0, -3.0, -8.0]])
@@ -69,7 +70,8 @@ def test_crossing_interpolated_linearly_in_ln_p():
 
 
 def test_warm_layer_above_250_hpa_ignored():
-    # Stratospheric warmth is not a melting layer (brief section 1, operational practice).
+    # Stratospheric warmth is not a melting layer (common practice in operational
+    # post-processing).
     p = np.array([[1000.0, 700.0, 400.0, 260.0, 200.0, 150.0]])
     t = np.array([[-2.0, -10.0, -30.0, -50.0, 5.0, 5.0]])
     z = np.array([[0.0, 3000.0, 7000.0, 10000.0, 11500.0, 13500.0]])

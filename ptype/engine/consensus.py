@@ -9,10 +9,10 @@ The flow (documented with its reasons in ``docs/consensus.md``):
    assume snow falls from above.
 2. **The melting/refreezing methods vote** (:data:`VOTERS`), one vote each,
    abstentions not counted.  The most frequent code wins; a tie goes to the
-   more hazardous code in :data:`ptype.codes.HAZARD_ORDER` (FZRA first), the
-   operational multi-algorithm practice (brief section 11).  The surface-only
-   methods (Jennings) and the thickness rules of thumb do not vote: they cannot
-   see the layers the others measure directly.
+   more hazardous code in :data:`ptype.codes.HAZARD_ORDER` (FZRA first), as
+   operational multi-algorithm post-processing does (common practice).  The
+   surface-only methods (Jennings) and the thickness rules of thumb do not vote:
+   they cannot see the layers the others measure directly.
 3. **Surface humidity check.**  When the vote says rain (or rain and snow) but
    the surface wet-bulb is below 0 degC, evaporation into the dry surface air
    can keep snow frozen: Jennings et al. (2018) then decides between snow

@@ -15,8 +15,8 @@ isothermal +3 degC layer from 850 to 800 hPa gives
 ``R_d`` with ``d ln p`` overstates it by ``c_p/R_d ~ 3.5``.)
 
 Warm layers above 250 hPa are stratospheric warmth, not melting layers: the
-analysis stops at :data:`TOP_LIMIT_HPA` (levels above it are ignored, as in
-operational practice since 2008, brief section 1).
+analysis stops at :data:`TOP_LIMIT_HPA` (levels above it are ignored; common practice
+in operational post-processing of Bourgouin2000).
 """
 
 from __future__ import annotations

