@@ -312,7 +312,8 @@ def test_series_site_variations():
     valley = "".join("F" if c == "FZRA" else "." for c in codes["mistleby-bridge"])
     assert "FFFF" in valley
     # The coast turns to rain first; the pass keeps snow longest.
-    first_rain = {s: next((i for i, c in enumerate(cs) if c == "RA"), 99) for s, cs in codes.items()}
+    first_rain = {s: next((i for i, c in enumerate(cs) if c == "RA"), 99)
+                  for s, cs in codes.items()}
     assert first_rain["sennet-causeway"] < min(v for s, v in first_rain.items()
                                                if s != "sennet-causeway")
     last_snow = {s: max(i for i, c in enumerate(cs) if c == "SN") for s, cs in codes.items()}
@@ -331,7 +332,8 @@ def test_series_frost_before_the_storm():
         for f in files[:6]:
             s = ptype.read_profile(DEMO / "series" / f).surface
             assert s.precipitation_rate_mm_h == 0.0 and s.wind_speed_m_s <= 7.0
-            if s.road_surface_temperature_c <= 0.0 and s.road_surface_temperature_c < s.dewpoint_2m_c:
+            road = s.road_surface_temperature_c
+            if road <= 0.0 and road < s.dewpoint_2m_c:
                 frost += 1
         assert frost >= 2, site_id
 

@@ -373,7 +373,8 @@ def test_correlated_noise_compiled_matches_numpy(member_columns):
     fast = probability.correlated_noise(z, np.random.default_rng(3))
     rng = np.random.default_rng(3)
     white = rng.standard_normal(z.shape)
-    r = np.exp(-np.abs(np.nan_to_num(np.diff(z, axis=1), nan=np.inf)) / probability.CORRELATION_LENGTH_M)
+    dz = np.nan_to_num(np.diff(z, axis=1), nan=np.inf)
+    r = np.exp(-np.abs(dz) / probability.CORRELATION_LENGTH_M)
     slow = probability._ar1_numpy(r, np.sqrt(1.0 - r * r), white)
     np.testing.assert_array_equal(fast, slow)
 

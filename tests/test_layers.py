@@ -66,7 +66,8 @@ def test_crossing_interpolated_linearly_in_ln_p():
     lay = analyse_layers(p, z, t)
     # Half way in ln p between 1000 and 800 hPa: sqrt(1000 * 800).
     assert lay.top_hpa[0, 0] == pytest.approx(np.sqrt(1000.0 * 800.0))
-    assert lay.area_j_kg[0, 0] == pytest.approx(Rd * 2.0 / 2.0 * np.log(1000.0 / np.sqrt(8e5)), rel=1e-9)
+    expected = Rd * 2.0 / 2.0 * np.log(1000.0 / np.sqrt(8e5))
+    assert lay.area_j_kg[0, 0] == pytest.approx(expected, rel=1e-9)
 
 
 def test_warm_layer_above_250_hpa_ignored():
@@ -111,7 +112,8 @@ def test_areas_match_dense_integration(temps):
 
 def test_cloud_mask_water_and_ice_criteria():
     t = np.array([[5.0, -20.0, -20.0, -20.0]])
-    # Saturated over water; RH_w 90 % exactly-ish; at -20 degC a dew point of -21.5 is ~ 100 % over ice.
+    # Saturated over water; RH_w 90 % exactly-ish; at -20 degC a dew point of -21.5 is ~ 100 %
+    # over ice.
     td = np.array([[5.0, -21.5, -30.0, -20.0]])
     m = cloud_mask(t, td)
     assert m[0, 0] and m[0, 1] and not m[0, 2] and m[0, 3]

@@ -105,7 +105,8 @@ def test_vectorised_equals_single():
     def pad(a):
         return a + [np.nan] * (width - len(a))
 
-    cols = Columns.from_arrays(np.array([pad(c[0]) for c in cases]), np.array([pad(c[1]) for c in cases]),
+    cols = Columns.from_arrays(np.array([pad(c[0]) for c in cases]),
+                               np.array([pad(c[1]) for c in cases]),
                                np.array([pad(c[2]) for c in cases]))
     res = cloud_top.run(Context(cols))
     for i, c in enumerate(cases):

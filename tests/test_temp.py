@@ -143,7 +143,8 @@ def test_read_temp_document_merge_prefers_level_with_height():
 
 def test_read_temp_document_line_breaks_anywhere():
     one_per_line = "\n".join(WORKED_EXAMPLE.split())
-    assert read_temp_document(one_per_line)["levels"] == read_temp_document(WORKED_EXAMPLE)["levels"]
+    expected = read_temp_document(WORKED_EXAMPLE)["levels"]
+    assert read_temp_document(one_per_line)["levels"] == expected
     one_line = " ".join(WORKED_EXAMPLE.split())
     assert read_temp_document(one_line)["levels"] == read_temp_document(WORKED_EXAMPLE)["levels"]
     crlf = WORKED_EXAMPLE.replace("\n", "\r\n")
@@ -345,7 +346,8 @@ def test_read_temp_document_no_tropopause_66_max_wind_without_shear():
 
 def test_read_temp_document_junk_after_max_wind_refused():
     body = "99990 01000 ///// 85450 03000 88999 77999 12345"
-    with pytest.raises(ReaderError, match=r"group 11 '12345': unexpected group after the tropopause"):
+    with pytest.raises(ReaderError,
+                       match=r"group 11 '12345': unexpected group after the tropopause"):
         read_temp_document(_part_a(body, date="1512/"))
 
 

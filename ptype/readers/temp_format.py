@@ -200,7 +200,8 @@ class _Groups:
             where = f"group {k + 2} '{self.groups[k]}'"
         else:
             where = f"after group {len(self.groups) + 1} (end of message)"
-        return ReaderError(f"{self.name}: message {self.message_no} Part {self.part}: {where}: {problem}")
+        return ReaderError(f"{self.name}: message {self.message_no} Part {self.part}: {where}: "
+                           f"{problem}")
 
     def peek(self, ahead: int = 0) -> str | None:
         k = self.i + ahead
@@ -245,7 +246,8 @@ def _parse_identification(g: _Groups, part: str) -> tuple[int, int, bool, str, s
     knots = yy > 50  # day + 50: wind speeds in knots (from memory, unverified)
     day = yy - 50 if knots else yy
     if not 1 <= day <= 31:
-        raise g.error(f"day of month {day} (YY={yy:02d}); expected 01-31, or 51-81 with winds in knots",
+        raise g.error(f"day of month {day} (YY={yy:02d}); expected 01-31, or 51-81 with winds "
+                      "in knots",
                       g.i - 1)
     if not 0 <= gg <= 23:
         raise g.error(f"hour {gg:02d}; expected 00-23 UTC", g.i - 1)

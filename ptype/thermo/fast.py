@@ -52,7 +52,8 @@ ISOBARIC_STEP_K = 1e-2
 ADIABATIC_STEP_K = 1e-3
 MAX_ITER = 60
 
-# Alduchov & Eskridge (1996) AERK constants, e in hPa, T in degC (as ptype.thermo.saturation._AE_WATER).
+# Alduchov & Eskridge (1996) AERK constants, e in hPa, T in degC (as
+# ptype.thermo.saturation._AE_WATER).
 _A, _B, _C = 6.1094, 17.625, 243.04
 _BC = _B * _C
 _T0 = 273.15
@@ -135,7 +136,8 @@ def _isobaric_solve(p, t, td, es_d, inv_cd):
 
 @_jit
 def _isobaric_point(p, t, td_in):
-    """Thermodynamic wet-bulb of one point (see :func:`ptype.thermo.wetbulb._isobaric_wet_bulb_c`)."""
+    """Thermodynamic wet-bulb of one point (see
+    :func:`ptype.thermo.wetbulb._isobaric_wet_bulb_c`)."""
     if not (math.isfinite(p) and math.isfinite(t) and math.isfinite(td_in) and p > 0.0):
         return math.nan
     td = min(td_in, t)

@@ -12,7 +12,8 @@ from ptype.thermo.saturation import _as_float, mixing_ratio_g_kg
 
 
 def virtual_temperature_c(pressure_hpa, temperature_c, dewpoint_c):
-    """Virtual temperature, degC: ``Tv = T (1 + w/epsilon) / (1 + w)`` (Wallace & Hobbs 2006 eq. 3.60 exact form)."""
+    """Virtual temperature, degC: ``Tv = T (1 + w/epsilon) / (1 + w)`` (Wallace & Hobbs 2006
+    eq. 3.60 exact form)."""
     w = mixing_ratio_g_kg(pressure_hpa, dewpoint_c) / 1000.0
     t_k = _as_float(temperature_c) + T0
     return t_k * (1.0 + w / epsilon) / (1.0 + w) - T0

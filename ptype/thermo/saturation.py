@@ -88,7 +88,8 @@ def dewpoint_from_vapor_pressure_c(vapor_pressure_hpa):
 
 
 def mixing_ratio_g_kg(pressure_hpa, dewpoint_c):
-    """Water-vapour mixing ratio, g/kg: ``w = epsilon e / (p - e)`` (e.g. Wallace & Hobbs 2006 eq. 3.59)."""
+    """Water-vapour mixing ratio, g/kg: ``w = epsilon e / (p - e)`` (e.g. Wallace & Hobbs 2006
+    eq. 3.59)."""
     e = vapor_pressure_from_dewpoint_hpa(dewpoint_c)
     return 1000.0 * epsilon * e / (_as_float(pressure_hpa) - e)
 
@@ -106,7 +107,8 @@ def dewpoint_from_mixing_ratio_c(pressure_hpa, mixing_ratio_g_kg_):
 
 
 def relative_humidity_pct(temperature_c, dewpoint_c):
-    """Relative humidity with respect to liquid water, %, ``100 e(Td) / e_s(T)`` (WMO-No. 8 convention)."""
+    """Relative humidity with respect to liquid water, %, ``100 e(Td) / e_s(T)`` (WMO-No. 8
+    convention)."""
     return 100.0 * (vapor_pressure_from_dewpoint_hpa(dewpoint_c)
                     / saturation_vapor_pressure_hpa(temperature_c, "water"))
 

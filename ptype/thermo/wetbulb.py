@@ -61,7 +61,8 @@ def _isobaric_wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, step_tolerance
         num = (2501.0 - 2.326 * x) * wsat - 1.006 * (t - x)
         den = a_t - 4.186 * x
         f = num / den - w
-        df = ((-2.326 * wsat + (2501.0 - 2.326 * x) * dwsat + 1.006) * den + 4.186 * num) / (den * den)
+        df = (((-2.326 * wsat + (2501.0 - 2.326 * x) * dwsat + 1.006) * den + 4.186 * num)
+              / (den * den))
         # f increases with t*: a positive residual means the root lies below x.
         positive = f > 0
         hi = np.where(positive, x, hi)
@@ -132,10 +133,10 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     pressure_hpa, temperature_c, dewpoint_c : array_like
         Pressure (hPa), air temperature (degC) and dew point (degC, over water).
     kind : {"isobaric", "adiabatic"}
-        One of :data:`ptype.thermo.WET_BULB_KINDS`.  ``"isobaric"`` (default): the thermodynamic (psychrometric) wet-bulb over
-        liquid water, the temperature an air parcel reaches by evaporating water
-        into itself at constant pressure (ASHRAE 2017 ch. 1 eq. 35; AMS Glossary
-        "wet-bulb temperature").  Ramer (1993) uses this one.
+        One of :data:`ptype.thermo.WET_BULB_KINDS`.  ``"isobaric"`` (default): the
+        thermodynamic (psychrometric) wet-bulb over liquid water, the temperature an air
+        parcel reaches by evaporating water into itself at constant pressure (ASHRAE 2017
+        ch. 1 eq. 35; AMS Glossary "wet-bulb temperature").  Ramer (1993) uses this one.
         ``"adiabatic"``: the pseudo-adiabatic wet-bulb of Normand's rule (lift to
         the LCL, descend along the pseudo-adiabat; Knox et al. 2017), which
         Baldwin et al. (1994) use.  It is typically a few tenths of a kelvin
