@@ -49,10 +49,12 @@ class Code(IntEnum):
 
     @property
     def abbrev(self) -> str:
+        """The METAR-style abbreviation (``"FZRA"``)."""
         return self.name
 
     @property
     def label(self) -> str:
+        """The type in words (``"freezing rain"``)."""
         return LABELS[self]
 
 

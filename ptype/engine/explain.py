@@ -8,15 +8,34 @@ the structured trace in ``Diagnosis.to_dict()``.  Numbers are written by
 
 from __future__ import annotations
 
+from typing import Protocol
+
 import numpy as np
 
 from ptype.codes import Code
 from ptype.engine import wording as w
+from ptype.engine.columns import Columns
 from ptype.engine.layers import TOP_LIMIT_HPA
 from ptype.engine.methods import bourgouin, cloud_top
-from ptype.engine.methods.base import MethodResult
+from ptype.engine.methods.base import Context, MethodResult
+from ptype.profile import Profile
 
 _ZERO = w.temperature(0.0, trim=True)
+
+
+class Explained(Protocol):
+    """What the narrative reads of a diagnosis (a :class:`ptype.engine.diagnosis.Diagnosis`)."""
+
+    profile: Profile
+    results: dict[str, MethodResult]
+    context: Context
+    columns: Columns
+    row: int
+    consensus_result: MethodResult
+    code: Code
+    members: int
+    probability: float
+    confidence: str
 
 
 def _melting_verdict(area: float) -> str:
@@ -32,7 +51,7 @@ def _melting_verdict(area: float) -> str:
     return f"negligible (under {w.energy(bourgouin.MIN_ALOFT_J_KG)})"
 
 
-def narrative(diagnosis) -> list[str]:
+def narrative(diagnosis: Explained) -> list[str]:
     """Short sentences explaining ``diagnosis`` (a :class:`ptype.engine.diagnosis.Diagnosis`).
 
     In order: no precipitation reported, the cloud and its ice, the warm layers, the
@@ -118,7 +137,7 @@ def _refreezing_sentences(result: MethodResult, i: int, layers: list[dict]) -> l
              f"{w.temperature(coldest)}, with {w.energy(na)} of refreezing energy, {verdict}.")]
 
 
-def _surface_sentence(columns, i: int) -> str:
+def _surface_sentence(columns: Columns, i: int) -> str:
     """The surface air and wet-bulb, and whether evaporation can cool it below freezing."""
     t_s = float(columns.surface_temperature_c[i])
     tw_s = float(columns.surface_wetbulb_c[i])
@@ -140,7 +159,7 @@ def _ice_fraction_sentences(result: MethodResult, i: int) -> list[str]:
              "liquid).")]
 
 
-def _consensus_sentences(diagnosis) -> list[str]:
+def _consensus_sentences(diagnosis: Explained) -> list[str]:
     """The vote tally, the consensus steps a reader needs, and the consensus with its
     probability."""
     out = []

@@ -32,6 +32,7 @@ import math
 import threading
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.thermo.constants import epsilon
 from ptype.thermo.kinds import check_wet_bulb_kind
@@ -539,7 +540,7 @@ def _adiabatic(p, t, td, iso, parallel: bool) -> np.ndarray:
     return out
 
 
-def wet_bulbs_c(pressure_hpa, temperature_c, dewpoint_c,
+def wet_bulbs_c(pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
                 parallel: bool | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Isobaric and pseudo-adiabatic wet-bulb, degC, in one pass (the isobaric value starts the
     adiabatic iteration); each equal to :func:`wet_bulb_c` of its kind.  NaN where an input is
@@ -549,8 +550,8 @@ def wet_bulbs_c(pressure_hpa, temperature_c, dewpoint_c,
     return iso.reshape(shape), _adiabatic(p, t, td, iso, parallel).reshape(shape)
 
 
-def wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, kind: str = "isobaric",
-               parallel: bool | None = None) -> np.ndarray:
+def wet_bulb_c(pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
+               kind: str = "isobaric", parallel: bool | None = None) -> np.ndarray:
     """Wet-bulb temperature, degC, compiled path; same contract as
     :func:`ptype.thermo.wetbulb.wet_bulb_temperature` (broadcasting, NaN where an input is missing).
 

@@ -13,6 +13,7 @@ The numpy solvers here serve installs without numba and check the compiled ones 
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.thermo.constants import epsilon
 from ptype.thermo.kinds import check_wet_bulb_kind
@@ -125,7 +126,8 @@ def _fast_available() -> bool:
     return fast.AVAILABLE
 
 
-def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "isobaric"):
+def wet_bulb_temperature(pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
+                         kind: str = "isobaric") -> np.ndarray:
     """Wet-bulb temperature, degC, broadcasting over any shape.
 
     Parameters
@@ -175,7 +177,8 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     return out if out.ndim else out[()]
 
 
-def wet_bulb_temperatures(pressure_hpa, temperature_c, dewpoint_c) -> tuple[np.ndarray, np.ndarray]:
+def wet_bulb_temperatures(pressure_hpa: ArrayLike, temperature_c: ArrayLike,
+                          dewpoint_c: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Isobaric and pseudo-adiabatic wet-bulb together, degC: the same values as
     ``wet_bulb_temperature(..., kind="isobaric")`` and ``kind="adiabatic"``, in one compiled
     pass on large arrays (:func:`ptype.thermo.fast.wet_bulbs_c`)."""

@@ -43,10 +43,11 @@ written to reduce its FZRA/PL bias.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import NO_RESULT, Code
 from ptype.engine import wording as w
-from ptype.engine.columns import interpolate_at_pressure
+from ptype.engine.columns import Columns, interpolate_at_pressure
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
 from ptype.engine.methods.base import Context, MethodResult, Step, select_first
@@ -109,7 +110,8 @@ def _integrand(height_m, value_c):
     return za, zb, va, ok, slope
 
 
-def area_k_m(height_m, value_c, bottom_m, top_m, part: str = "net", *, integrand=None):
+def area_k_m(height_m: ArrayLike, value_c: ArrayLike, bottom_m: ArrayLike, top_m: ArrayLike,
+             part: str = "net", *, integrand: tuple | None = None) -> np.ndarray:
     """Integral of ``value_c`` over height between ``bottom_m`` and ``top_m``, K m.
 
     ``value_c`` (n, L) is taken linear in height between levels (NaN-padded trailing levels
@@ -204,7 +206,7 @@ if _COMPILED:  # the helper is inlined into the compiled parts loop
 _parts_compiled = compiled(_parts_loop, numpy_errors=True)
 
 
-def saturated_levels(columns):
+def saturated_levels(columns: Columns) -> tuple[np.ndarray, np.ndarray]:
     """Baldwin's saturated levels.
 
     Returns ``(mask (n, L), depression_k (n,))``: the levels found with the first dew-point

@@ -73,6 +73,7 @@ RULES = (
 
 
 def run(ctx: Context) -> MethodResult:
+    """Bourgouin (2000) for every column of ``ctx`` (the cases of the module docstring)."""
     lay = ctx.air_layers
     c = ctx.columns
     _, K = lay.kind.shape

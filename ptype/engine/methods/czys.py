@@ -55,6 +55,7 @@ Choices (ours, documented in ``docs/methods.md``):
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import NO_RESULT, Code
 from ptype.engine import wording as w
@@ -118,18 +119,19 @@ def _check_radius(radius_m):
     return r
 
 
-def air_density_kg_m3(pressure_hpa, temperature_c):
+def air_density_kg_m3(pressure_hpa: ArrayLike, temperature_c: ArrayLike) -> np.ndarray:
     """Dry-air density, ``p / (R_d T)``, kg m-3."""
     return np.asarray(pressure_hpa) * 100.0 / (Rd * (np.asarray(temperature_c) + T0))
 
 
-def air_viscosity_pa_s(temperature_c):
+def air_viscosity_pa_s(temperature_c: ArrayLike) -> np.ndarray:
     """Dynamic viscosity of air, Pa s (Sutherland's law, U.S. Standard Atmosphere 1976)."""
     t = np.asarray(temperature_c, dtype=np.float64) + T0
     return 1.458e-6 * t ** 1.5 / (t + 110.4)
 
 
-def terminal_velocity_m_s(diameter_m, air_density=FALL_SPEED_REFERENCE_DENSITY):
+def terminal_velocity_m_s(diameter_m: ArrayLike,
+                          air_density: ArrayLike = FALL_SPEED_REFERENCE_DENSITY) -> np.ndarray:
     """Fall speed of a raindrop, m/s: Atlas et al. (1973) fit to Gunn & Kinzer (1949),
     ``9.65 - 10.3 exp(-0.6 D[mm])``, times ``(1.204 / rho_air)^0.4`` (Foote & du Toit 1969).
     Constants from memory, unverified."""
@@ -138,7 +140,7 @@ def terminal_velocity_m_s(diameter_m, air_density=FALL_SPEED_REFERENCE_DENSITY):
                                                    / np.asarray(air_density)) ** 0.4
 
 
-def ventilation_factor(reynolds_number):
+def ventilation_factor(reynolds_number: ArrayLike) -> np.ndarray:
     """Mean ventilation factor of a falling sphere (Pruppacher & Klett 1997, from memory,
     unverified): ``X = Sc^(1/3) Re^(1/2)``; ``1 + 0.108 X^2`` for X < 1.4, else
     ``0.78 + 0.308 X``."""
@@ -146,20 +148,22 @@ def ventilation_factor(reynolds_number):
     return np.where(x < 1.4, 1.0 + 0.108 * x * x, 0.78 + 0.308 * x)
 
 
-def vapour_diffusivity_m2_s(pressure_hpa, temperature_c):
+def vapour_diffusivity_m2_s(pressure_hpa: ArrayLike, temperature_c: ArrayLike) -> np.ndarray:
     """``D_v = 2.11e-5 (T/T0)^1.94 (1013.25/p)`` m2/s (Pruppacher & Klett 1997, from memory)."""
     t = np.asarray(temperature_c, dtype=np.float64) + T0
     return VAPOUR_DIFFUSIVITY_M2_S * (t / T0) ** 1.94 * (1013.25 / np.asarray(pressure_hpa))
 
 
-def vapour_density_excess_kg_m3(vapour_pressure_hpa, temperature_c):
+def vapour_density_excess_kg_m3(vapour_pressure_hpa: ArrayLike,
+                                temperature_c: ArrayLike) -> np.ndarray:
     """Ambient vapour density minus the saturation vapour density over water at 0 degC, kg m-3."""
     e = np.asarray(vapour_pressure_hpa, dtype=np.float64) * 100.0
     es0 = float(saturation_vapor_pressure_hpa(0.0)) * 100.0
     return e / (Rv * (np.asarray(temperature_c) + T0)) - es0 / (Rv * T0)
 
 
-def fall_state(radius_m, pressure_hpa, mean_excess_c):
+def fall_state(radius_m: ArrayLike, pressure_hpa: ArrayLike,
+               mean_excess_c: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Fall speed (m/s) and ventilation factor of the particle in the warm layer."""
     r = _check_radius(radius_m)
     rho = air_density_kg_m3(pressure_hpa, mean_excess_c)
@@ -168,8 +172,9 @@ def fall_state(radius_m, pressure_hpa, mean_excess_c):
     return v, ventilation_factor(reynolds)
 
 
-def melting_time_s(radius_m, mean_excess_c, *, pressure_hpa=850.0,
-                   vapour_density_excess_kg_m3_=0.0, ventilation=None):
+def melting_time_s(radius_m: ArrayLike, mean_excess_c: ArrayLike, *,
+                   pressure_hpa: ArrayLike = 850.0, vapour_density_excess_kg_m3_: ArrayLike = 0.0,
+                   ventilation: ArrayLike | None = None) -> np.ndarray:
     """Time to melt an ice sphere of radius ``radius_m`` completely, s.
 
     ``t_m = rho_i L_f r0^2 / (2 f [K_a dT + L_v D_v d_rho_v])`` (Mason 1971; Pruppacher &
@@ -188,8 +193,9 @@ def melting_time_s(radius_m, mean_excess_c, *, pressure_hpa=850.0,
         return np.where(heat > 0.0, rho_i * Lf * r * r / (2.0 * ventilation * heat), np.inf)
 
 
-def tau(depth_m, mean_excess_c, *, radius_m=PARTICLE_RADIUS_M, pressure_hpa=850.0,
-        vapour_density_excess_kg_m3_=0.0):
+def tau(depth_m: ArrayLike, mean_excess_c: ArrayLike, *, radius_m: ArrayLike = PARTICLE_RADIUS_M,
+        pressure_hpa: ArrayLike = 850.0,
+        vapour_density_excess_kg_m3_: ArrayLike = 0.0) -> np.ndarray:
     """Czys et al. (1996) ``tau = t_r / t_m`` for a warm layer ``depth_m`` deep whose mean
     excess over 0 degC is ``mean_excess_c`` (``t_r = depth / fall speed``)."""
     v, f = fall_state(radius_m, pressure_hpa, mean_excess_c)

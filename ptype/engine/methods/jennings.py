@@ -22,6 +22,7 @@ Neither looks aloft: they cannot see a warm nose, so they can only say rain or s
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import Code
 from ptype.engine import wording as w
@@ -38,14 +39,15 @@ SOURCE = "Jennings et al. (2018), Nat. Commun. 9, 1148, Suppl. Table 2"
 SOURCE_DING = "Ding et al. (2014), J. Hydrol. 513, 154-163 (dT, dS from memory)"
 
 
-def snow_probability(temperature_c, relative_humidity_pct):
+def snow_probability(temperature_c: ArrayLike, relative_humidity_pct: ArrayLike) -> np.ndarray:
     """Jennings et al. (2018) bivariate logistic probability of snow."""
     t = np.asarray(temperature_c, dtype=np.float64)
     rh = np.asarray(relative_humidity_pct, dtype=np.float64)
     return 1.0 / (1.0 + np.exp(ALPHA + BETA * t + GAMMA * rh))
 
 
-def ding_thresholds_c(relative_humidity_pct, elevation_m):
+def ding_thresholds_c(relative_humidity_pct: ArrayLike,
+                      elevation_m: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Ding et al. (2014) wet-bulb thresholds ``(t_min, t_max)`` in degC.
 
     ``T0 = -5.87 - 0.1042 Z + 0.0885 Z**2 + 16.06 RH - 9.614 RH**2`` (Z in km, RH a
@@ -68,7 +70,8 @@ def ding_thresholds_c(relative_humidity_pct, elevation_m):
     return t_min, t_max
 
 
-def ding_category(wetbulb_c, relative_humidity_pct, elevation_m):
+def ding_category(wetbulb_c: ArrayLike, relative_humidity_pct: ArrayLike,
+                  elevation_m: ArrayLike) -> np.ndarray:
     """Ding et al. (2014) class: Code.SN, Code.RASN (their 'sleet' = rain-snow mix) or Code.RA."""
     t_min, t_max = ding_thresholds_c(relative_humidity_pct, elevation_m)
     tw = np.asarray(wetbulb_c, dtype=np.float64)

@@ -48,6 +48,7 @@ RH = 1 gives ``dI = ln(875/825) * (-2) / 0.045 = -2.6``: it melts completely.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import NO_RESULT, Code
 from ptype.engine import wording as w
@@ -105,8 +106,9 @@ _RULE = {name: k for k, name in enumerate(RULES)}
 SOURCE = "Ramer (1993); constants as used operationally"
 
 
-def ice_fraction_change(pressure_bottom_hpa, pressure_top_hpa, mean_wetbulb_c,
-                        mean_relative_humidity_fraction):
+def ice_fraction_change(pressure_bottom_hpa: ArrayLike, pressure_top_hpa: ArrayLike,
+                        mean_wetbulb_c: ArrayLike,
+                        mean_relative_humidity_fraction: ArrayLike) -> np.ndarray:
     """Ramer's (1993) change of ice fraction across a layer.
 
     ``dI = ln(p_b / p_t) * (T0 - Tw) / (E * RH^efac)`` with the layer-mean wet-bulb and RH;
@@ -117,7 +119,8 @@ def ice_fraction_change(pressure_bottom_hpa, pressure_top_hpa, mean_wetbulb_c,
         mean_wetbulb_c, mean_relative_humidity_fraction)
 
 
-def ice_fraction_change_ln(log_pressure_ratio, mean_wetbulb_c, mean_relative_humidity_fraction):
+def ice_fraction_change_ln(log_pressure_ratio: ArrayLike, mean_wetbulb_c: ArrayLike,
+                           mean_relative_humidity_fraction: ArrayLike) -> np.ndarray:
     """:func:`ice_fraction_change` from ``ln(p_b / p_t)`` directly (the march works in ln p, so
     its pieces give the difference of their ln p bounds without an ``exp`` and a ``log``)."""
     rh = np.maximum(np.asarray(mean_relative_humidity_fraction, dtype=np.float64),
@@ -127,7 +130,8 @@ def ice_fraction_change_ln(log_pressure_ratio, mean_wetbulb_c, mean_relative_hum
             / (MELT_COEFFICIENT * rh ** RH_EXPONENT))
 
 
-def generation_layer(pressure_hpa, relative_humidity_pct, wetbulb_c=None):
+def generation_layer(pressure_hpa: ArrayLike, relative_humidity_pct: ArrayLike,
+                     wetbulb_c: ArrayLike | None = None) -> tuple[np.ndarray, ...]:
     """The highest generating layer of each column.
 
     Returns ``(top_hpa, bottom_hpa)``, each ``(n,)``, NaN where a column has none, and, when
