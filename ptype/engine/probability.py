@@ -22,6 +22,8 @@ give probabilities.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 
 from ptype import thermo
@@ -30,6 +32,10 @@ from ptype.engine.columns import Columns
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
 from ptype.errors import OptionError
+
+#: A seed of the members' random draws: a whole number, a sequence of them (one stream per
+#: batch, ``[seed, k]``) or None (fresh entropy); as ``numpy.random.default_rng`` takes it.
+SeedLike = int | Sequence[int] | None
 
 DEFAULT_MEMBERS = 50
 TEMPERATURE_SIGMA_K = 0.7
@@ -60,7 +66,8 @@ def correlated_noise(height_m: np.ndarray, rng: np.random.Generator,
     return _ar1(r, s, rng.standard_normal(np.shape(height_m)))
 
 
-def ar1_coefficients(height_m: np.ndarray, length_m: float = CORRELATION_LENGTH_M):
+def ar1_coefficients(height_m: np.ndarray,
+                     length_m: float = CORRELATION_LENGTH_M) -> tuple[np.ndarray, np.ndarray]:
     """The ``r_k`` and ``sqrt(1 - r_k^2)`` of :func:`correlated_noise`, ``(n, L-1)`` each."""
     dz = np.diff(height_m, axis=1)
     r = np.exp(-np.abs(np.nan_to_num(dz, nan=np.inf)) / length_m)
@@ -101,7 +108,7 @@ def _ar1_loop(r, s, white, out):
 _ar1_compiled = compiled(_ar1_loop)
 
 
-def perturb(columns: Columns, members: int, seed=None, *,
+def perturb(columns: Columns, members: int, seed: SeedLike = None, *,
             temperature_sigma_k: float = TEMPERATURE_SIGMA_K,
             relative_humidity_sigma_pct: float = RELATIVE_HUMIDITY_SIGMA_PCT,
             correlation_length_m: float = CORRELATION_LENGTH_M) -> Columns:
@@ -122,7 +129,14 @@ def perturb(columns: Columns, members: int, seed=None, *,
     return base.with_profile(t, td)
 
 
-def check_members(members) -> int:
+def check_members(members: object) -> int:
+    """``members`` as an int when it is a whole number from 0 to :data:`MAX_MEMBERS`.
+
+    Raises
+    ------
+    ptype.errors.OptionError
+        Naming the field ``members``, the value and the range expected.
+    """
     if isinstance(members, bool) or not isinstance(members, (int, np.integer)):
         raise OptionError(f"members = {members!r}: expected a whole number", field="members")
     if not 0 <= members <= MAX_MEMBERS:
