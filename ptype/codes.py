@@ -49,10 +49,12 @@ class Code(IntEnum):
 
     @property
     def abbrev(self) -> str:
+        """The METAR-style abbreviation (``"FZRA"``)."""
         return self.name
 
     @property
     def label(self) -> str:
+        """The type in words (``"freezing rain"``)."""
         return LABELS[self]
 
 
@@ -84,7 +86,7 @@ GRIB2_4201_MEANINGS = {
 }
 
 #: Tie-break order, most hazardous first.  Operational multi-algorithm practice breaks
-#: ties as FZRA > SN > IP > RA (brief, section 11); we slot the other codes in by the
+#: ties as FZRA > SN > IP > RA (common practice); we slot the other codes in by the
 #: hazard they pose to roads and lines: freezing types first, then frozen, then liquid.
 HAZARD_ORDER = (Code.FZRA, Code.FZRAPL, Code.FZDZ, Code.SN, Code.PL, Code.RAPL, Code.RASN,
                 Code.RA, Code.DZ, Code.NONE)

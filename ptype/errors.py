@@ -24,6 +24,7 @@ class ProfileError(ValueError):
 
     @property
     def message(self) -> str:
+        """The message without the exception's class name."""
         return str(self.args[0]) if self.args else ""
 
 

@@ -167,7 +167,7 @@ def _layers(stem: str):
 
 def _bourgouin_area_j_kg(p, t, lo_hpa, hi_hpa, sign):
     """R_d * integral of max(sign*(T - T0), 0) d ln p between two pressures, on a dense
-    ln p grid (Bourgouin 2000 area; brief check value 52 J/kg for +3 degC, 850-800 hPa)."""
+    ln p grid (Bourgouin 2000 area; 52.2 J/kg for +3 degC from 850 to 800 hPa by hand)."""
     grid = np.linspace(np.log(hi_hpa), np.log(lo_hpa), 4001)
     tt = np.interp(grid, np.log(p[::-1]), t[::-1])
     return Rd * np.trapezoid(np.maximum(sign * tt, 0.0), grid)
@@ -184,7 +184,7 @@ def test_design_ice_pellets_case():
     assert 50.0 <= pa <= 150.0
     na = _bourgouin_area_j_kg(p, t, p[0], nose["bottom_hpa"], -1)
     assert layers[0]["extreme_c"] < -8.0
-    # Bourgouin (2000): NA > 66 + 0.66 PA -> ice pellets (brief section 1).
+    # Bourgouin (2000): NA > 66 + 0.66 PA -> ice pellets.
     assert na > 66.0 + 0.66 * pa
 
 
@@ -219,7 +219,7 @@ def test_design_rain_and_snow_cases():
         assert len(layers) == 1 and layers[0]["kind"] == "cold"  # whole column below 0 degC
         clouds = level_runs(cloud_mask(t[None], td[None]), p[None], z[None], t[None])
         # Deep cloud with a cold top: ice nucleation certain below about -15 degC
-        # (NWS guidance quoted in the methods brief, section 6).
+        # (NWS ice-nucleation guidance, common practice).
         assert clouds.min_temperature_c[0, int(clouds.count[0]) - 1] <= -25.0
         assert clouds.top_m[0, int(clouds.count[0]) - 1] - z[0] > 3000.0
 
@@ -230,7 +230,7 @@ def test_design_freezing_drizzle_case():
     clouds = level_runs(cloud_mask(t[None], td[None]), p[None], z[None], t[None])
     assert int(clouds.count[0]) == 1
     # Shallow saturated layer from the ground, top warmer than -8 degC (no ice: Huffman &
-    # Norman 1988 tops 0 to -10 degC, quoted in the methods brief section 6) ...
+    # Norman 1988: tops 0 to -10 degC) ...
     assert clouds.bottom_hpa[0, 0] == p[0] and clouds.min_temperature_c[0, 0] > -8.0
     assert clouds.top_m[0, 0] - z[0] < 1000.0
     # ... with dry air right above it.
@@ -312,7 +312,8 @@ def test_series_site_variations():
     valley = "".join("F" if c == "FZRA" else "." for c in codes["mistleby-bridge"])
     assert "FFFF" in valley
     # The coast turns to rain first; the pass keeps snow longest.
-    first_rain = {s: next((i for i, c in enumerate(cs) if c == "RA"), 99) for s, cs in codes.items()}
+    first_rain = {s: next((i for i, c in enumerate(cs) if c == "RA"), 99)
+                  for s, cs in codes.items()}
     assert first_rain["sennet-causeway"] < min(v for s, v in first_rain.items()
                                                if s != "sennet-causeway")
     last_snow = {s: max(i for i, c in enumerate(cs) if c == "SN") for s, cs in codes.items()}
@@ -331,7 +332,8 @@ def test_series_frost_before_the_storm():
         for f in files[:6]:
             s = ptype.read_profile(DEMO / "series" / f).surface
             assert s.precipitation_rate_mm_h == 0.0 and s.wind_speed_m_s <= 7.0
-            if s.road_surface_temperature_c <= 0.0 and s.road_surface_temperature_c < s.dewpoint_2m_c:
+            road = s.road_surface_temperature_c
+            if road <= 0.0 and road < s.dewpoint_2m_c:
                 frost += 1
         assert frost >= 2, site_id
 

@@ -30,8 +30,9 @@ def dense_area(p, t):
 
 
 def test_isothermal_plus3_850_800_is_52_j_kg():
-    # Brief section 1 (computed there): an isothermal +3 degC layer from 850 to 800 hPa ~ 52 J/kg;
-    # R_d * 3 * ln(850/800) = 52.2 J/kg.  (c_p with d ln p would give ~183: a 3.5x error.)
+    # Bourgouin (2000) area R_d * integral (T - T0) d ln p, evaluated by hand for an isothermal
+    # +3 degC layer from 850 to 800 hPa: 287.04 * 3 * ln(850/800) = 52.2 J/kg.  (c_p with
+    # d ln p would give ~183: a 3.5x error.)
     assert layer_area_j_kg(850.0, 800.0, 3.0) == pytest.approx(52.2, abs=0.05)
     p = np.array([[900.0, 850.001, 850.0, 800.0, 799.999, 700.0]])
     t = np.array([[-2.0, -2.0, 3.0, 3.0, -3.0, -8.0]])
@@ -65,11 +66,13 @@ def test_crossing_interpolated_linearly_in_ln_p():
     lay = analyse_layers(p, z, t)
     # Half way in ln p between 1000 and 800 hPa: sqrt(1000 * 800).
     assert lay.top_hpa[0, 0] == pytest.approx(np.sqrt(1000.0 * 800.0))
-    assert lay.area_j_kg[0, 0] == pytest.approx(Rd * 2.0 / 2.0 * np.log(1000.0 / np.sqrt(8e5)), rel=1e-9)
+    expected = Rd * 2.0 / 2.0 * np.log(1000.0 / np.sqrt(8e5))
+    assert lay.area_j_kg[0, 0] == pytest.approx(expected, rel=1e-9)
 
 
 def test_warm_layer_above_250_hpa_ignored():
-    # Stratospheric warmth is not a melting layer (brief section 1, operational practice).
+    # Stratospheric warmth is not a melting layer (common practice in operational
+    # post-processing).
     p = np.array([[1000.0, 700.0, 400.0, 260.0, 200.0, 150.0]])
     t = np.array([[-2.0, -10.0, -30.0, -50.0, 5.0, 5.0]])
     z = np.array([[0.0, 3000.0, 7000.0, 10000.0, 11500.0, 13500.0]])
@@ -109,7 +112,8 @@ def test_areas_match_dense_integration(temps):
 
 def test_cloud_mask_water_and_ice_criteria():
     t = np.array([[5.0, -20.0, -20.0, -20.0]])
-    # Saturated over water; RH_w 90 % exactly-ish; at -20 degC a dew point of -21.5 is ~ 100 % over ice.
+    # Saturated over water; RH_w 90 % exactly-ish; at -20 degC a dew point of -21.5 is ~ 100 %
+    # over ice.
     td = np.array([[5.0, -21.5, -30.0, -20.0]])
     m = cloud_mask(t, td)
     assert m[0, 0] and m[0, 1] and not m[0, 2] and m[0, 3]

@@ -1,6 +1,7 @@
 """Tests of ptype.engine.methods.baldwin and baldwin_revised against Baldwin et al. (1994) and its
-2005 revision (thresholds as used in operational post-processing, docs/methods.md): saturation 2/4/6 K between p_sfc - 70 hPa and 500 hPa, the -4 degC no-ice
-branch, AREAP4 < 3000 K m and (revision) AREAP0 < 350 K m -> SN, SURFC < -3000 K m or
+2005 revision (thresholds as used in operational post-processing, docs/methods.md):
+saturation 2/4/6 K between p_sfc - 70 hPa and 500 hPa, the -4 degC no-ice branch,
+AREAP4 < 3000 K m and (revision) AREAP0 < 350 K m -> SN, SURFC < -3000 K m or
 (AREAS8 < -3000 K m and SURFW < 50 K m) -> PL.
 
 Profiles are given with explicit heights and saturated levels (Td = T), so the wet-bulb

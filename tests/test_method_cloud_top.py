@@ -1,7 +1,7 @@
 """Cloud-top (top-down) reasoning: ice or no ice, seeding, melting and refreezing limits.
 
-Sources: ice nucleation likely at or below about -10 degC (NWS guidance quoted in the
-brief, section 6: heterogeneous freezing likeliest below -10 degC); Stewart & King (1987)
+Sources: ice nucleation likely at or below about -10 degC (NWS ice-nucleation guidance,
+common practice: heterogeneous freezing likeliest below -10 degC); Stewart & King (1987)
 wet-bulb limits 1 and 3 degC for partial/complete melting; refreezing of fully melted
 drops needs a cold layer below about -8 degC (WPC training guidance); freezing drizzle
 from clouds too warm for ice over a sub-freezing surface (Huffman & Norman 1988).
@@ -105,7 +105,8 @@ def test_vectorised_equals_single():
     def pad(a):
         return a + [np.nan] * (width - len(a))
 
-    cols = Columns.from_arrays(np.array([pad(c[0]) for c in cases]), np.array([pad(c[1]) for c in cases]),
+    cols = Columns.from_arrays(np.array([pad(c[0]) for c in cases]),
+                               np.array([pad(c[1]) for c in cases]),
                                np.array([pad(c[2]) for c in cases]))
     res = cloud_top.run(Context(cols))
     for i, c in enumerate(cases):

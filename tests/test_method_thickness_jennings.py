@@ -19,8 +19,8 @@ def column_with_thickness(low_m, mid_m, t_sfc=1.0, td_dep=0.5):
     return Columns.from_arrays(p, t, t - td_dep, z)
 
 
-# Cortinas et al. thickness algorithm (thresholds from Keeter & Cline 1991 and Zerr 1997),
-# as quoted in the brief, section 7: 850-700 <= 1540 -> SN; 1000-850 > 1310 or 850-700 > 1560
+# Cortinas et al. thickness algorithm (Cortinas2002; thresholds from Keeter & Cline 1991 and
+# Zerr 1997; details from memory): 850-700 <= 1540 -> SN; 1000-850 > 1310 or 850-700 > 1560
 # -> RA/FZRA by surface wet-bulb; 1540 < 850-700 <= 1560 -> PL.
 @pytest.mark.parametrize("low,mid,t_sfc,expected", [
     (1290.0, 1539.0, 1.0, Code.SN),
@@ -45,8 +45,9 @@ def test_thickness_needs_1000_hpa():
 
 
 def test_jennings_published_check_values():
-    # Jennings et al. (2018) Suppl. Table 2 coefficients; brief section 8 check values:
-    # T = 1 degC, RH = 90 % -> p_snow ~ 0.63; T = 2 degC, RH = 70 % -> ~ 0.72.
+    # Jennings et al. (2018) Suppl. Table 2 coefficients, evaluated by hand:
+    # T = 1 degC, RH = 90 %: 1 / (1 + exp(-10.04 + 1.41 + 8.1)) = 0.629;
+    # T = 2 degC, RH = 70 %: 1 / (1 + exp(-10.04 + 2.82 + 6.3)) = 0.715.
     assert jennings.snow_probability(1.0, 90.0) == pytest.approx(0.63, abs=0.005)
     assert jennings.snow_probability(2.0, 70.0) == pytest.approx(0.72, abs=0.01)
     # Drier air favours snow at the same temperature (their finding: RH the strongest control).
@@ -62,14 +63,16 @@ def test_jennings_fifty_percent_near_one_degree_at_typical_humidity():
 
 
 def test_ding_sea_level_saturated_t0():
-    # Ding et al. (2014) T0 at sea level with RH = 1: -5.87 + 16.06 - 9.614 = +0.58 degC (brief).
+    # Ding et al. (2014) T0 at sea level with RH = 1: -5.87 + 16.06 - 9.614 = +0.576 degC
+    # (their equation, evaluated by hand).
     t_min, t_max = jennings.ding_thresholds_c(100.0, 0.0)
     assert (t_min + t_max) / 2.0 == pytest.approx(0.576, abs=0.01)
 
 
 def test_ding_polynomial_form_agrees():
-    # Brief section 8: a public polynomial T_min = T0 + 11.756 - 23.1 RH + 10.289 RH^2 (RH > 0.78)
-    # agrees with the exponential form to 0.01 K for RH 0.8-1.0.
+    # A polynomial T_min = T0 + 11.756 - 23.1 RH + 10.289 RH^2 (RH > 0.78) in public use for
+    # Ding et al. (2014) (common practice) agrees with the exponential form to 0.01 K for
+    # RH 0.8-1.0: the check on the dT and dS recalled from memory.
     for rh in np.linspace(0.8, 1.0, 9):
         t_min, _ = jennings.ding_thresholds_c(rh * 100.0, 0.0)
         t0 = -5.87 + 16.06 * rh - 9.614 * rh ** 2

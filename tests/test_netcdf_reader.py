@@ -33,7 +33,8 @@ def _dataset(pressure_as_coordinate=True, humidity="dewpoint", pressure_units="P
     t = T_C + 273.15 if temperature_units == "K" else T_C
     data = {"ta": ("level", t, {"standard_name": "air_temperature", "units": temperature_units})}
     if humidity == "dewpoint":
-        data["tdew"] = ("level", TD_C + 273.15, {"standard_name": "dew_point_temperature", "units": "K"})
+        data["tdew"] = ("level", TD_C + 273.15,
+                        {"standard_name": "dew_point_temperature", "units": "K"})
     elif humidity in ("1", "%"):
         from ptype import thermo
         rh = thermo.relative_humidity_pct(T_C, TD_C) / (100.0 if humidity == "1" else 1.0)
@@ -120,7 +121,8 @@ def test_read_netcdf_document_site_and_time(tmp_path):
     ds["station"] = ((), "KESTREL", {"cf_role": "profile_id"})
     ds["time"] = ((), np.datetime64("2026-01-15T12:00:00", "ns"), {"standard_name": "time"})
     doc = read_netcdf_document(_write(ds, tmp_path))
-    assert doc["site"] == {"id": "KESTREL", "latitude": 46.5, "longitude": 7.25, "elevation_m": 310.0}
+    assert doc["site"] == {"id": "KESTREL", "latitude": 46.5, "longitude": 7.25,
+                           "elevation_m": 310.0}
     assert doc["valid_time"] == "2026-01-15T12:00:00Z"
 
 

@@ -129,7 +129,8 @@ def test_read_csv_document_surface_metadata_and_plain_comments():
 
 
 def test_read_csv_document_empty_cells_are_missing():
-    text = "pressure_hpa,height_m,temperature_c,dewpoint_c\n1000,110,1.0,0.5\n900,,2.0,\n800,,-3.0,-5\n"
+    text = ("pressure_hpa,height_m,temperature_c,dewpoint_c\n1000,110,1.0,0.5\n900,,2.0,\n"
+            "800,,-3.0,-5\n")
     doc = read_csv_document(text)
     assert doc["levels"][1] == {"pressure_hpa": 900.0, "temperature_c": 2.0}
 
@@ -137,13 +138,17 @@ def test_read_csv_document_empty_cells_are_missing():
 @pytest.mark.parametrize("text, expected", [
     ("# elevation_m: high\npressure_hpa,temperature_c,dewpoint_c\n",
      "line 1: column elevation_m: 'high' is not a number"),
-    ("# station: X\npressure_hpa,temperature_c,dewpoint_c\n", "line 1: unknown metadata key 'station'"),
+    ("# station: X\npressure_hpa,temperature_c,dewpoint_c\n",
+     "line 1: unknown metadata key 'station'"),
     ("# only comments\n", "no header line found"),
     ("pressure_hpa,temp,dewpoint_c\n1000,1,0\n", "line 1: unknown column 'temp'"),
     ("pressure_hpa,temperature_c,temperature_c\n", "line 1: a column name is repeated"),
-    ("height_m,temperature_c,dewpoint_c\n100,1,0\n", "line 1: the header has no pressure_hpa column"),
-    ("pressure_hpa,temperature_c,dewpoint_c\n1000,1,0\n900,x,0\n", "line 3: column temperature_c: 'x' is not a number"),
-    ("pressure_hpa,temperature_c,dewpoint_c\n1000,1,0\n\n900,1\n", "line 4: 2 value(s) for 3 columns"),
+    ("height_m,temperature_c,dewpoint_c\n100,1,0\n",
+     "line 1: the header has no pressure_hpa column"),
+    ("pressure_hpa,temperature_c,dewpoint_c\n1000,1,0\n900,x,0\n",
+     "line 3: column temperature_c: 'x' is not a number"),
+    ("pressure_hpa,temperature_c,dewpoint_c\n1000,1,0\n\n900,1\n",
+     "line 4: 2 value(s) for 3 columns"),
 ])
 def test_read_csv_document_broken_input_names_line(text, expected):
     with pytest.raises(ReaderError) as info:
@@ -221,7 +226,8 @@ def test_read_profile_docs_examples():
 
 _CSV_PIECES = st.sampled_from(["pressure_hpa", "temperature_c", "dewpoint_c", "height_m", ",", "\n",
                                "# ", "site_id: A", "elevation_m: x", "1000", "900", "-5.5", "",
-                               "nan", "inf", "\"", "1e999", "surface.wind_speed_m_s: 3", "{", "TTAA"])
+                               "nan", "inf", "\"", "1e999", "surface.wind_speed_m_s: 3", "{",
+                               "TTAA"])
 
 
 @settings(max_examples=300, deadline=None)
@@ -241,6 +247,7 @@ def test_read_profile_fuzz_only_profile_errors(pieces):
 def test_diagnose_same_category_from_every_format():
     # TEMP's 0.1 degC precision must not change the diagnosis of a clear-cut sounding.
     import ptype
-    codes = {fmt: ptype.diagnose(read_profile(DATA / f"warm_nose_sounding.{fmt}"), seed=3).to_dict()["ptype"]
+    codes = {fmt: ptype.diagnose(read_profile(DATA / f"warm_nose_sounding.{fmt}"),
+                                 seed=3).to_dict()["ptype"]
              for fmt in ("json", "csv", "temp")}
     assert len(set(codes.values())) == 1, codes

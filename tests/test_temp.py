@@ -1,9 +1,8 @@
 """WMO FM 35 TEMP decoder and encoder (ptype/readers/temp_format.py).
 
-Sources: WMO-No. 306 Manual on Codes Vol. I.1, FM 35, as summarised in the US Navy
-Aerographer's Mate training manual NAVEDTRA 14270 ch. 1 ("NAVEDTRA") and in our
-standards brief (/work/shared/reference/standards.md section 1).  Rules that brief
-tags as unverified are tested under "from memory" and say so.  The station numbers
+Sources: WMO-No. 306 Manual on Codes Vol. I.1, FM 35 (WMO306), as summarised in the US
+Navy Aerographer's Mate training manual NAVEDTRA 14270 ch. 1 ("NAVEDTRA").  Rules not
+checked against either are tested under "from memory" and say so.  The station numbers
 used here (07999, 07998, 99901) are fictitious.
 """
 
@@ -31,8 +30,8 @@ from ptype.readers.temp_format import (
     write_temp,
 )
 
-#: Worked example of standards.md section 1.10 (invented station 07999, invented
-#: freezing-rain profile), an official-style decoded example with its decoded table.
+#: An invented worked example (invented station 07999, invented freezing-rain profile) in
+#: the FM 35 layout, with its table decoded by hand.
 WORKED_EXAMPLE = """\
 TTAA 65127 07999 99985 01508 05010 00130 ///// ///// 92755 00705 14025
 85415 03410 21540 70962 04330 23055 50554 19962 40717 29565 30916 43170
@@ -54,7 +53,7 @@ def _part_b(body: str, date: str = "15128", station: str = "07999") -> str:
     return f"TTBB {date} {station} {body}="
 
 
-# --- the worked example (standards.md 1.10 decoded table) -----------------------------------
+# --- the worked example (table decoded by hand) ---------------------------------------------
 
 def test_read_temp_document_worked_example_levels():
     doc = read_temp_document(WORKED_EXAMPLE)
@@ -110,7 +109,7 @@ def test_read_temp_document_worked_example_valid_time_with_year_month():
 
 @pytest.mark.parametrize("date", ["65127", "15127"])
 def test_read_temp_document_day_with_and_without_knots_offset_from_memory(date):
-    # From memory (standards.md 1.3, unverified): YY + 50 flags wind speeds in knots; the day
+    # From memory (unverified): YY + 50 flags wind speeds in knots; the day
     # is the same either way (65 -> 15 kt, 15 -> 15 m/s).
     doc = read_temp_document(WORKED_EXAMPLE.replace("65127", date).replace("65128", date[:4] + "8"))
     assert "day 15 12 UTC" in doc["source"]
@@ -144,7 +143,8 @@ def test_read_temp_document_merge_prefers_level_with_height():
 
 def test_read_temp_document_line_breaks_anywhere():
     one_per_line = "\n".join(WORKED_EXAMPLE.split())
-    assert read_temp_document(one_per_line)["levels"] == read_temp_document(WORKED_EXAMPLE)["levels"]
+    expected = read_temp_document(WORKED_EXAMPLE)["levels"]
+    assert read_temp_document(one_per_line)["levels"] == expected
     one_line = " ".join(WORKED_EXAMPLE.split())
     assert read_temp_document(one_line)["levels"] == read_temp_document(WORKED_EXAMPLE)["levels"]
     crlf = WORKED_EXAMPLE.replace("\n", "\r\n")
@@ -168,7 +168,7 @@ def test_read_temp_document_bulletin_heading_ignored():
     ("300", 30.0), ("///", None)])
 def test_decode_temperature_c_parity_rule(figures, value):
     # From memory (WMO-No. 306 Code table 3931, unverified): tenths digit even = 0 degC or
-    # above, odd = below; examples 157 -> -15.7 and 104 -> +10.4 from standards.md 1.5.
+    # above, odd = below; examples 157 -> -15.7 and 104 -> +10.4.
     assert decode_temperature_c(figures) == value
 
 
@@ -207,7 +207,7 @@ def test_encode_depression_round_trip_within_code_precision():
         assert abs(back - dep) <= tolerance + 1e-9, dep
 
 
-# --- standard-surface heights (standards.md 1.4) ---------------------------------------------
+# --- standard-surface heights (WMO-No. 306 FM 35; NAVEDTRA 14270 ch. 1) -----------------------
 
 def _height_of(code_group: str, pressure: float, surface: str = "99990 01000 /////") -> float:
     body = f"{surface} {code_group} 01000"
@@ -220,7 +220,7 @@ def _height_of(code_group: str, pressure: float, surface: str = "99990 01000 ///
     ("85457", 850.0, 1457.0),    # metres, leading 1 dropped (NAVEDTRA)
     ("70962", 700.0, 2962.0),    # leading 2 dropped (hhh >= 500)
     ("70010", 700.0, 3010.0),    # leading 3 dropped (hhh < 500, heuristic)
-    ("50572", 500.0, 5720.0),    # decametres (standards.md 1.4)
+    ("50572", 500.0, 5720.0),    # decametres (NAVEDTRA 14270 ch. 1)
     ("40717", 400.0, 7170.0),
     ("30935", 300.0, 9350.0),    # decametres
     ("30050", 300.0, 10500.0),   # < 300 dam: + 1000 dam (heuristic)
@@ -235,7 +235,7 @@ def test_read_temp_document_standard_surface_heights(group, pressure, height):
 
 
 def test_read_temp_document_1000_hpa_below_sea_level_from_memory():
-    # From memory (standards.md 1.4, unverified): a 1000 hPa height below MSL is coded 500+|h|.
+    # From memory (unverified): a 1000 hPa height below MSL is coded 500+|h|.
     # Surface 1040 hPa (station below sea level), so 1000 hPa is above ground and kept.
     doc = read_temp_document(_part_a("99040 01000 ///// 00530 00800", date="1512/"))
     assert _by_pressure(doc)[1000.0]["height_m"] == -30.0
@@ -244,7 +244,7 @@ def test_read_temp_document_1000_hpa_below_sea_level_from_memory():
 
 
 def test_read_temp_document_surface_pressure_thousands_dropped():
-    # 99PPP: whole hPa with the thousands dropped: 030 -> 1030, 992 -> 992 (standards.md 1.4).
+    # 99PPP: whole hPa with the thousands dropped: 030 -> 1030, 992 -> 992 (NAVEDTRA ch. 1).
     doc = read_temp_document(_part_a("99030 01000 /////", date="1512/") + _part_b("00992 02000"))
     assert sorted(_by_pressure(doc)) == [992.0, 1030.0]
 
@@ -256,7 +256,7 @@ def test_read_temp_document_standard_levels_below_ground_skipped():
     assert sorted(_by_pressure(doc), reverse=True) == [902.0, 850.0, 700.0]
 
 
-# --- Id and wind groups (standards.md 1.3, 1.6) ---------------------------------------------
+# --- Id and wind groups (WMO-No. 306 FM 35; code table 1734 from memory) --------------------
 
 _A_LEVELS = [("00", "110"), ("92", "770"), ("85", "460"), ("70", "010"), ("50", "560"),
              ("40", "720"), ("30", "920"), ("25", "040"), ("20", "180"), ("15", "360"),
@@ -327,7 +327,7 @@ def test_read_temp_document_wind_group_form_checked():
         read_temp_document(_part_a(body, date="1512/"))
 
 
-# --- tropopause and maximum wind (standards.md 1.7) ---------------------------------------
+# --- tropopause and maximum wind (NAVEDTRA 14270 ch. 1) -----------------------------------
 
 def test_read_temp_document_tropopause_two_groups_and_max_wind_with_shear():
     body = ("99990 01000 ///// 85450 03000 70010 04330 50560 19962 "
@@ -346,11 +346,12 @@ def test_read_temp_document_no_tropopause_66_max_wind_without_shear():
 
 def test_read_temp_document_junk_after_max_wind_refused():
     body = "99990 01000 ///// 85450 03000 88999 77999 12345"
-    with pytest.raises(ReaderError, match=r"group 11 '12345': unexpected group after the tropopause"):
+    with pytest.raises(ReaderError,
+                       match=r"group 11 '12345': unexpected group after the tropopause"):
         read_temp_document(_part_a(body, date="1512/"))
 
 
-# --- Part B sections (standards.md 1.8) ----------------------------------------------------
+# --- Part B sections (NAVEDTRA 14270 ch. 1) -------------------------------------------------
 
 def test_read_temp_document_part_b_sections():
     body = ("00990 01000 11950 00103 22900 00206 33850 03407 44800 00115 "
@@ -469,6 +470,30 @@ SOUNDING = {"site": {"id": "TEST", "elevation_m": 180.0}, "levels": [
     {"pressure_hpa": 300.0, "temperature_c": -46.5, "dewpoint_c": -60.0},
     {"pressure_hpa": 180.0, "temperature_c": -58.0, "dewpoint_c": -80.0},
 ]}
+
+
+#: Invented Part B (station 99901): levels numbered 00, 11, ... 44, then level 55 at
+#: 555 hPa, whose group 55555 is also the regional section indicator (WMO-No. 306, FM 35:
+#: levels numbered 00, 11, ... 99 in order; regional groups 51515 ... 59595).
+PART_B_LEVEL_55 = ("TTBB 1512/ 99901 00990 01000 11950 02300 22900 04500 33800 00557 "
+                   "44700 07156 55555 19762 66500 21566 21212 00990 27010 44700 28015 "
+                   "55555 29020=")
+
+
+def test_read_temp_document_55555_after_level_44_is_a_level():
+    doc = read_temp_document(PART_B_LEVEL_55)
+    pressures = [lvl["pressure_hpa"] for lvl in doc["levels"]]
+    assert pressures == [990.0, 950.0, 900.0, 800.0, 700.0, 555.0, 500.0]
+    # 197 -> -19.7 degC (odd tenths: below zero, code table 3931), DD 62 -> 12 degC.
+    level = doc["levels"][5]
+    assert level["temperature_c"] == -19.7 and level["dewpoint_c"] == pytest.approx(-31.7)
+
+
+def test_read_temp_document_55555_elsewhere_ends_the_levels():
+    # After level 33 the next level is 44, so 55555 is the regional indicator: the levels end.
+    text = "TTBB 1512/ 99901 00990 01000 11950 02300 22900 04500 33800 00557 55555 10164="
+    doc = read_temp_document(text)
+    assert [lvl["pressure_hpa"] for lvl in doc["levels"]] == [990.0, 950.0, 900.0, 800.0]
 
 
 def test_write_temp_layout():

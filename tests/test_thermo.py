@@ -10,6 +10,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from ptype import thermo
+from ptype.errors import OptionError
 from ptype.thermo import wetbulb
 
 # --- saturation vapour pressure -----------------------------------------------------------
@@ -17,8 +18,9 @@ from ptype.thermo import wetbulb
 def test_saturation_vapor_pressure_triple_point():
     # IAPWS (Wagner & Pruss 2002; Wagner et al. 2011): triple point of water 273.16 K,
     # 611.657 Pa, where the water and ice curves meet.
-    assert thermo.saturation_vapor_pressure_murphy_koop_hpa(0.01, "water") == pytest.approx(6.11657, rel=2e-4)
-    assert thermo.saturation_vapor_pressure_murphy_koop_hpa(0.01, "ice") == pytest.approx(6.11657, rel=2e-4)
+    mk = thermo.saturation_vapor_pressure_murphy_koop_hpa
+    assert mk(0.01, "water") == pytest.approx(6.11657, rel=2e-4)
+    assert mk(0.01, "ice") == pytest.approx(6.11657, rel=2e-4)
     # Alduchov & Eskridge (1996) forms: within their stated accuracy (well under 0.1 % here).
     assert thermo.saturation_vapor_pressure_hpa(0.01, "water") == pytest.approx(6.11657, rel=1e-3)
     assert thermo.saturation_vapor_pressure_hpa(0.01, "ice") == pytest.approx(6.11657, rel=1e-3)
@@ -32,7 +34,8 @@ def test_saturation_vapor_pressure_boiling_point():
     import psychrolib
     psychrolib.SetUnitSystem(psychrolib.SI)
     ref_hpa = psychrolib.GetSatVapPres(60.0) / 100.0
-    assert thermo.saturation_vapor_pressure_murphy_koop_hpa(60.0) == pytest.approx(ref_hpa, rel=1e-3)
+    mk = thermo.saturation_vapor_pressure_murphy_koop_hpa
+    assert mk(60.0) == pytest.approx(ref_hpa, rel=1e-3)
 
 
 @pytest.mark.parametrize("phase,lo,hi", [("water", -40.0, 50.0), ("ice", -80.0, 0.0)])
@@ -89,8 +92,8 @@ def test_virtual_temperature_against_metpy():
     p = np.array([1000.0, 850.0])
     t = np.array([25.0, 5.0])
     td = np.array([20.0, 0.0])
-    w = mpcalc.mixing_ratio_from_relative_humidity(
-        p * units.hPa, t * units.degC, mpcalc.relative_humidity_from_dewpoint(t * units.degC, td * units.degC))
+    rh = mpcalc.relative_humidity_from_dewpoint(t * units.degC, td * units.degC)
+    w = mpcalc.mixing_ratio_from_relative_humidity(p * units.hPa, t * units.degC, rh)
     ref = mpcalc.virtual_temperature(t * units.degC, w).to("degC").m
     assert np.allclose(thermo.virtual_temperature_c(p, t, td), ref, atol=0.03)
 
@@ -103,10 +106,11 @@ def test_hypsometric_thickness_against_metpy():
     t = np.array([10.0, 6.0, 2.0, -8.0, -25.0])
     td = t - 3.0
     z = thermo.hypsometric_heights_m(p, t, td, 0.0)
-    w = mpcalc.mixing_ratio_from_relative_humidity(
-        p * units.hPa, t * units.degC, mpcalc.relative_humidity_from_dewpoint(t * units.degC, td * units.degC))
+    rh = mpcalc.relative_humidity_from_dewpoint(t * units.degC, td * units.degC)
+    w = mpcalc.mixing_ratio_from_relative_humidity(p * units.hPa, t * units.degC, rh)
     ref = mpcalc.thickness_hydrostatic(p * units.hPa, t * units.degC, mixing_ratio=w).to("m").m
-    # MetPy integrates the log-pressure-weighted mean Tv; we use the layer trapezoid: < 3 m in 5.5 km.
+    # MetPy integrates the log-pressure-weighted mean Tv; we use the layer trapezoid: < 3 m in
+    # 5.5 km.
     assert z[-1] == pytest.approx(ref, abs=3.0)
 
 
@@ -154,7 +158,8 @@ def test_wet_bulb_against_metpy_pseudo_adiabatic():
     td = t - rng.uniform(0.0, 20.0, n)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        ref = mpcalc.wet_bulb_temperature(p * units.hPa, t * units.degC, td * units.degC).to("degC").m
+        ref = mpcalc.wet_bulb_temperature(p * units.hPa, t * units.degC,
+                                          td * units.degC).to("degC").m
     adi = thermo.wet_bulb_temperature(p, t, td, kind="adiabatic")
     iso = thermo.wet_bulb_temperature(p, t, td, kind="isobaric")
     assert np.max(np.abs(adi - ref)) < 0.3
@@ -180,8 +185,8 @@ def test_wet_bulb_stull_2011_error_band():
     # His MAE (0.28 degC) is over his own table's points; a uniform grid weights the hot/dry and
     # cold corners more, so we allow 0.4 degC.
     assert np.mean(np.abs(err)) < 0.4
-    assert thermo.wet_bulb_temperature(1013.25, 20.0, thermo.dewpoint_from_relative_humidity_c(20.0, 50.0)) \
-        == pytest.approx(13.7, abs=0.3)
+    td_20_50 = thermo.dewpoint_from_relative_humidity_c(20.0, 50.0)
+    assert thermo.wet_bulb_temperature(1013.25, 20.0, td_20_50) == pytest.approx(13.7, abs=0.3)
 
 
 def test_wet_bulb_saturated_equals_temperature():
@@ -191,19 +196,41 @@ def test_wet_bulb_saturated_equals_temperature():
 
 
 def test_wet_bulb_nan_propagates_and_shape_kept():
-    out = thermo.wet_bulb_temperature(np.full((2, 3), 850.0), [[1.0, np.nan, 3.0], [0.0, 1.0, 2.0]], -5.0)
+    out = thermo.wet_bulb_temperature(np.full((2, 3), 850.0),
+                                      [[1.0, np.nan, 3.0], [0.0, 1.0, 2.0]], -5.0)
     assert out.shape == (2, 3)
     assert np.isnan(out[0, 1]) and np.isfinite(out[1]).all()
 
 
-def test_wet_bulb_unknown_kind_raises():
-    with pytest.raises(ValueError, match="kind"):
-        thermo.wet_bulb_temperature(1000.0, 10.0, 5.0, kind="frosty")
+@pytest.mark.parametrize("values", [(1000.0, 10.0, 5.0), (np.nan, np.nan, np.nan),
+                                    (np.zeros(0), np.zeros(0), np.zeros(0))])
+def test_wet_bulb_unknown_kind_raises_option_error(values):
+    # Refused whatever the data, even when no point would be solved.
+    with pytest.raises(OptionError) as info:
+        thermo.wet_bulb_temperature(*values, kind="frosty")
+    assert str(info.value) == "kind = 'frosty': expected one of isobaric, adiabatic"
+    assert info.value.field == "kind" and isinstance(info.value, ValueError)
+
+
+def test_wet_bulb_kinds_named_once():
+    assert thermo.WET_BULB_KINDS == ("isobaric", "adiabatic")
+    for kind in thermo.WET_BULB_KINDS:
+        assert np.isfinite(thermo.wet_bulb_temperature(900.0, 2.0, -1.0, kind=kind))
+        assert thermo.check_wet_bulb_kind(kind) == kind
+    with pytest.raises(OptionError, match="^wetbulb = 'wet'"):
+        thermo.check_wet_bulb_kind("wet", field="wetbulb")
+
+
+def test_saturation_vapor_pressure_unknown_phase_raises_option_error():
+    with pytest.raises(OptionError, match="^phase = 'slush': expected 'water' or 'ice'"):
+        thermo.saturation_vapor_pressure_hpa(0.0, phase="slush")
+    with pytest.raises(OptionError, match="^phase = 'slush'"):
+        thermo.saturation_vapor_pressure_murphy_koop_hpa(0.0, phase="slush")
 
 
 @settings(max_examples=300, deadline=None)
 @given(p=st.floats(200.0, 1100.0), t=st.floats(-90.0, 55.0), dep=st.floats(0.0, 60.0),
-       kind=st.sampled_from(["isobaric", "adiabatic"]))
+       kind=st.sampled_from(thermo.WET_BULB_KINDS))
 def test_wet_bulb_between_dewpoint_and_temperature(p, t, dep, kind):
     # Physical bound (AMS Glossary, "wet-bulb temperature"): Td <= Tw <= T, always finite.
     td = t - dep

@@ -35,10 +35,11 @@ def register(sub: argparse._SubParsersAction) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """Fit the calibration and write it; a one-line summary on stderr."""
-    from ptype.verify.calibration import cross_validated, engine_features, fit_calibration
+    from ptype.engine.calibration import features
+    from ptype.verify.calibration import FOLDS, cross_validated, fit_calibration
     from ptype.verify.manifest import read_manifest
     from ptype.verify.observations import parse_observation
-    from ptype.verify.report import ranked_score
+    from ptype.verify.report import diagnose_cases, ranked_score
     if args.members < 1:
         raise OptionError(f"--members {args.members}: a calibration needs 1 or more",
                           field="members")
@@ -50,10 +51,11 @@ def run(args: argparse.Namespace) -> int:
     parsed = [parse_observation(c.observed) for c in cases]
     kept = [i for i, ob in enumerate(parsed) if not ob.excluded]
     profiles = [cases[i].load_profile() for i in kept]
-    x, raw, codes = engine_features(profiles, members=args.members, seed=args.seed)
+    codes, raw = diagnose_cases(profiles, members=args.members, seed=args.seed)
+    x = features(codes, raw)
     observed = np.asarray([int(parsed[i].code) for i in kept], dtype=np.int64)
     held = cross_validated(x, observed, codes["possible"], seed=args.seed)
-    cv = {"folds": 5, "rps_raw": ranked_score(raw, observed),
+    cv = {"folds": FOLDS, "rps_raw": ranked_score(raw, observed),
           "rps_calibrated": ranked_score(held, observed)}
     cal = fit_calibration(x, observed, source=Path(args.manifest).name,
                           extra={"members": args.members, "seed": args.seed, "cv": cv})

@@ -14,6 +14,7 @@ import math
 from collections.abc import Sequence
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype import thermo
 from ptype.engine.compiled import AVAILABLE as _COMPILED
@@ -57,6 +58,7 @@ class Columns:
 
     @property
     def n_columns(self) -> int:
+        """Number of columns (rows)."""
         return int(self.pressure_hpa.shape[0])
 
     @property
@@ -66,10 +68,13 @@ class Columns:
 
     # -- construction ------------------------------------------------------------------
     @classmethod
-    def from_arrays(cls, pressure_hpa, temperature_c, dewpoint_c, height_m=None, *,
-                    surface_height_m=None, surface_temperature_c=None, surface_dewpoint_c=None,
-                    road_surface_temperature_c=None, precipitation_rate_mm_h=None,
-                    wind_speed_m_s=None, sort: bool = True) -> Columns:
+    def from_arrays(cls, pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
+                    height_m: ArrayLike | None = None, *, surface_height_m: ArrayLike | None = None,
+                    surface_temperature_c: ArrayLike | None = None,
+                    surface_dewpoint_c: ArrayLike | None = None,
+                    road_surface_temperature_c: ArrayLike | None = None,
+                    precipitation_rate_mm_h: ArrayLike | None = None,
+                    wind_speed_m_s: ArrayLike | None = None, sort: bool = True) -> Columns:
         """Build from ``(n, L)`` arrays in any level order; NaN marks a missing level.
 
         A level is dropped (moved to the padding) when its pressure, temperature or
@@ -151,7 +156,7 @@ class Columns:
             wind_speed_m_s=_per_column(wind, n),
         )
 
-    def with_profile(self, temperature_c, dewpoint_c) -> Columns:
+    def with_profile(self, temperature_c: np.ndarray, dewpoint_c: np.ndarray) -> Columns:
         """New columns with the same pressures, heights and surface extras but new T and Td
         (used by the Monte-Carlo members).  Surface T/Td shift with the lowest level."""
         t = np.where(self.valid, temperature_c, np.nan)
@@ -174,12 +179,13 @@ class Columns:
             for part in parts:
                 a = getattr(part, f.name)
                 if a.ndim == 2 and a.shape[1] < width:
-                    a = np.concatenate([a, np.full((a.shape[0], width - a.shape[1]), np.nan)], axis=1)
+                    pad = np.full((a.shape[0], width - a.shape[1]), np.nan)
+                    a = np.concatenate([a, pad], axis=1)
                 arrays.append(a)
             fields[f.name] = np.concatenate(arrays, axis=0)
         return Columns(**fields)
 
-    def take(self, index) -> Columns:
+    def take(self, index: np.ndarray | slice | Sequence[int]) -> Columns:
         """Subset of columns (rows) by integer index or boolean mask."""
         return Columns(**{f.name: getattr(self, f.name)[index] for f in dataclasses.fields(self)})
 
@@ -266,8 +272,9 @@ def _per_column(value, n: int, default: float = np.nan) -> np.ndarray:
     return np.broadcast_to(np.asarray(value, dtype=np.float64), (n,)).copy()
 
 
-def interpolate_at_pressure(columns_p: np.ndarray, values: np.ndarray, target_hpa) -> np.ndarray:
-    """Linear-in-ln-p interpolation of ``values`` (n, L) at pressure(s) ``target_hpa`` (n,) or scalar.
+def interpolate_at_pressure(columns_p: np.ndarray, values: np.ndarray,
+                            target_hpa: ArrayLike) -> np.ndarray:
+    """Linear-in-ln-p interpolation of ``values`` (n, L) at ``target_hpa``, (n,) or a scalar.
 
     NaN where the target lies outside a column's valid pressure range.
     """
@@ -289,12 +296,14 @@ def interpolate_at_pressure(columns_p: np.ndarray, values: np.ndarray, target_hp
     out = y0 + w * (y1 - y0)
     exact = np.isfinite(p[rows, k_lo]) & (p[rows, k_lo] == target)
     out = np.where(exact, y0, out)
-    inside = (k >= 1) & (k < np.sum(np.isfinite(p), axis=1) + (exact.astype(int))) & np.isfinite(out)
+    n_valid = np.sum(np.isfinite(p), axis=1)
+    inside = (k >= 1) & (k < n_valid + (exact.astype(int))) & np.isfinite(out)
     inside |= exact
     return np.where(inside, out, np.nan)
 
 
-def interpolate_at_pressures(columns_p: np.ndarray, values: np.ndarray, targets_hpa) -> np.ndarray:
+def interpolate_at_pressures(columns_p: np.ndarray, values: np.ndarray,
+                             targets_hpa: ArrayLike) -> np.ndarray:
     """:func:`interpolate_at_pressure` at several fixed pressures at once, ``(n, m)`` for ``m``
     targets (the same arithmetic per target; ln p and the level counts are shared)."""
     p = columns_p

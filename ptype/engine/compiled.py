@@ -8,6 +8,8 @@ numbers: installs without numba use it, and the tests compare the two
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 try:
     from numba import njit as _njit
     AVAILABLE = True
@@ -16,7 +18,8 @@ except ImportError:  # pragma: no cover - exercised only on installs without num
     AVAILABLE = False
 
 
-def compiled(func, *, numpy_errors: bool = False, inline: bool = False):
+def compiled(func: Callable, *, numpy_errors: bool = False,
+             inline: bool = False) -> Callable | None:
     """``func`` compiled with numba (cached on disk, releasing the GIL), or None without numba.
 
     ``numpy_errors`` selects ``error_model="numpy"``: ``x / 0`` gives inf or NaN as in numpy

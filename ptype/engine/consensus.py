@@ -34,6 +34,7 @@ import numpy as np
 
 from ptype.codes import HAZARD_RANK, Code
 from ptype.engine import phase
+from ptype.engine import wording as w
 from ptype.engine.methods import cloud_top, jennings
 from ptype.engine.methods.base import Context, MethodResult, Step, select_first
 
@@ -219,8 +220,8 @@ def explain(result: MethodResult, i: int) -> list[Step]:
     tally = _tally(counts)
     if rule == "no_ice_drizzle":
         return [Step(rule, f"The cloud makes no ice, so the melting-layer methods do not apply: "
-                           f"{code.label} ({code.name}) at a surface temperature of "
-                           f"{float(v['surface_temperature_c'][i]):+.1f} °C.",
+                           f"{w.code(code)} at a surface temperature of "
+                           f"{w.temperature(float(v['surface_temperature_c'][i]))}.",
                      {"surface_temperature_c": float(v["surface_temperature_c"][i]),
                       "votes": tally},
                      {"freezing_surface_c": cloud_top.FREEZING_SURFACE_C,
@@ -228,7 +229,7 @@ def explain(result: MethodResult, i: int) -> list[Step]:
                      "Top-down reasoning (Baumgardt 2000); see docs/consensus.md")]
     if rule == "no_votes_surface":
         return [Step(rule, "No melting/refreezing method reached a decision; the surface "
-                           f"temperature and humidity alone give {code.label} ({code.name}).",
+                           f"temperature and humidity alone give {w.code(code)}.",
                      {"snow_probability": float(v["snow_probability"][i])},
                      {"snow_probability_threshold": jennings.SNOW_PROBABILITY_THRESHOLD},
                      jennings.SOURCE)]
@@ -237,11 +238,12 @@ def explain(result: MethodResult, i: int) -> list[Step]:
         steps.append(_phase_step(v, i, rule, code, counts))
     if rule in ("surface_humidity_snow", "surface_humidity_mix"):
         winner = Code(int(v["winner"][i]))
-        steps.append(Step(rule, f"The surface wet-bulb is {float(v['surface_wetbulb_c'][i]):+.1f} "
-                                "°C, below freezing, and the snow did not melt completely aloft: "
+        steps.append(Step(rule, f"The surface wet-bulb is "
+                                f"{w.temperature(float(v['surface_wetbulb_c'][i]))}, below "
+                                "freezing, and the snow reached the surface layer unmelted: "
                                 "evaporation into the dry surface air can keep flakes frozen. "
-                                f"The snow probability {float(v['snow_probability'][i]):.2f} turns "
-                                f"{winner.name} into {code.name} ({code.label}).",
+                                f"The snow probability {w.fraction(float(v['snow_probability'][i]))}"
+                                f" turns {winner.name} into {w.code(code)}.",
                           {"surface_wetbulb_c": float(v["surface_wetbulb_c"][i]),
                            "snow_probability": float(v["snow_probability"][i])},
                           {"surface_wetbulb_c": 0.0,
@@ -269,11 +271,11 @@ def _vote_step(v: dict, i: int, counts: np.ndarray, tally: dict) -> Step:
         text += f", {weight} of them for it"
     if ph in ("liquid", "drizzle", "liquid_pellets"):
         sfc = float(v["surface_temperature_c"][i])
-        text += (f"; on a surface at {sfc:+.1f} °C the liquid "
+        text += (f"; on a surface at {w.temperature(sfc)} the liquid "
                  f"{'freezes on contact' if sfc <= cloud_top.FREEZING_SURFACE_C else 'stays liquid'}")
     if v["tie"][i]:
         text += "; equal votes within that phase go to the more hazardous type"
-    text += f": {vote.name} ({vote.label})"
+    text += f": {w.code(vote)}"
     rule = "vote_tie_hazard" if (v["tie"][i] or v["split"][i]) else "vote"
     return Step(rule, text + ".", {"votes": tally},
                 {"rule": TIE_TEXT, "voter_weights": dict(VOTER_WEIGHTS)},
@@ -287,24 +289,26 @@ def _phase_step(v: dict, i: int, rule: str, code: Code, counts: np.ndarray) -> S
     surface = float(v["melt_surface_j_kg"][i])
     why = {
         "phase_melted_aloft": (
-            f"the warm layer aloft holds {aloft:.0f} J/kg of melting energy on the wet-bulb "
-            f"(complete melting from {phase.COMPLETE_MELT_J_KG} J/kg): melted drops cannot "
-            "become snow again"),
+            f"the warm layer aloft holds {w.energy(aloft)} of melting energy on the wet-bulb "
+            f"(complete melting from {w.energy(phase.COMPLETE_MELT_J_KG)}): melted drops "
+            "cannot become snow again"),
         "phase_melted_at_surface": (
-            f"the surface warm layer holds {surface:.0f} J/kg of melting energy on the wet-bulb "
-            f"(more than {phase.COMPLETE_MELT_J_KG} J/kg): it melts any snow or ice pellets "
-            "before they land"),
-        "phase_no_ice": ("the cloud makes no ice, so there is no snow to begin with"),
+            f"the surface warm layer holds {w.energy(surface)} of melting energy on the "
+            f"wet-bulb (more than {w.energy(phase.COMPLETE_MELT_J_KG)}): it melts any snow or "
+            "ice pellets before they land"),
+        "phase_no_ice": ("the cloud makes no ice, so there is no snow or ice to begin with, "
+                         "only supercooled drops"),
         "phase_nothing_melts": (
-            f"the cloud makes ice and nothing melts it (melting energy {aloft:.1f} J/kg aloft, "
-            f"under {phase.MIN_MELT_ALOFT_J_KG}, and {surface:.1f} J/kg at the surface, under "
-            f"{phase.PARTIAL_MELT_J_KG}): only snow can reach the ground"),
+            f"the cloud makes ice and nothing melts it (melting energy {w.energy(aloft)} aloft, "
+            f"under {w.energy(phase.MIN_MELT_ALOFT_J_KG)}, and {w.energy(surface)} at the "
+            f"surface, under {w.energy(phase.PARTIAL_MELT_J_KG)}): only snow can reach the "
+            "ground"),
     }[rule]
     if counts[code] > 0:
-        then = f"the vote among the possible types gives {code.name} ({code.label})"
+        then = f"the vote among the possible types gives {w.code(code)}"
     else:
-        then = (f"no method voted a possible type, so the answer is {code.label} ({code.name}) "
-                f"on a surface at {float(v['surface_temperature_c'][i]):+.1f} °C")
+        then = (f"no method voted a possible type, so the answer is {w.code(code)} on a "
+                f"surface at {w.temperature(float(v['surface_temperature_c'][i]))}")
     return Step(rule, f"{vote.name} is not possible: {why}; {then}.",
                 {"melt_aloft_j_kg": aloft, "melt_surface_j_kg": surface},
                 {"complete_melt_j_kg": phase.COMPLETE_MELT_J_KG,

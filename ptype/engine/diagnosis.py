@@ -29,13 +29,16 @@ from ptype.engine.layers import analyse_layers, zero_height_m
 from ptype.engine.methods import get_method
 from ptype.engine.methods.base import Context, MethodResult
 from ptype.engine.probability import DEFAULT_MEMBERS, check_members, confidence_word
-from ptype.engine.run import EngineRun, method_names, run_columns
+from ptype.engine.run import EngineRun, MethodsLike, method_names, run_columns
 from ptype.errors import OptionError
 from ptype.profile import Profile
-from ptype.thermo import WET_BULB_KINDS
+from ptype.thermo import check_wet_bulb_kind
+
+#: What :func:`diagnose` reads: a profile, a profile document, or a file path, text or bytes.
+ProfileSource = Profile | Mapping[str, Any] | str | os.PathLike | bytes
 
 
-def _to_profile(source) -> Profile:
+def _to_profile(source: ProfileSource) -> Profile:
     if isinstance(source, Profile):
         return source
     if isinstance(source, Mapping):
@@ -78,6 +81,7 @@ class Diagnosis:
 
     @property
     def ptype(self) -> str:
+        """The consensus type as its METAR abbreviation (``"FZRA"``)."""
         return self.code.name
 
     def to_dict(self) -> dict:
@@ -182,9 +186,7 @@ def _rule_name(module, result: MethodResult, i: int):
 
 
 def _check_options(members, seed, wetbulb: str) -> int:
-    if wetbulb not in WET_BULB_KINDS:
-        raise OptionError(f"wetbulb = {wetbulb!r}: expected one of {', '.join(WET_BULB_KINDS)}",
-                          field="wetbulb")
+    check_wet_bulb_kind(wetbulb, field="wetbulb")
     members = check_members(members)
     if seed is not None and (isinstance(seed, bool) or not isinstance(seed, (int, np.integer))
                              or seed < 0):
@@ -201,7 +203,7 @@ def _use_adiabatic_wetbulb_layers(run: EngineRun, columns: Columns) -> None:
     run.fields["wetbulb_zero_height_m"] = zero_height_m(ctx.wetbulb_layers)[:columns.n_columns]
 
 
-def _calibration(calibration) -> Calibration | None:
+def _calibration(calibration: Calibration | str | os.PathLike | None) -> Calibration | None:
     if calibration is None or isinstance(calibration, Calibration):
         return calibration
     if isinstance(calibration, (str, os.PathLike)):
@@ -210,8 +212,9 @@ def _calibration(calibration) -> Calibration | None:
                       f"{type(calibration).__name__}", field="calibration")
 
 
-def diagnose(source, *, members: int = DEFAULT_MEMBERS, seed=None, methods=None,
-             wetbulb: str = "isobaric", calibration=None) -> Diagnosis:
+def diagnose(source: ProfileSource, *, members: int = DEFAULT_MEMBERS, seed: int | None = None,
+             methods: MethodsLike = None, wetbulb: str = "isobaric",
+             calibration: Calibration | str | os.PathLike | None = None) -> Diagnosis:
     """Diagnose the precipitation type at the ground for one profile.
 
     Parameters
@@ -253,8 +256,10 @@ def diagnose(source, *, members: int = DEFAULT_MEMBERS, seed=None, methods=None,
 MANY_MEMBER_BATCH = 64
 
 
-def diagnose_many(sources: Iterable, *, members: int = DEFAULT_MEMBERS, seed=None,
-                  methods=None, wetbulb: str = "isobaric", calibration=None) -> list[Diagnosis]:
+def diagnose_many(sources: Iterable, *, members: int = DEFAULT_MEMBERS, seed: int | None = None,
+                  methods: MethodsLike = None, wetbulb: str = "isobaric",
+                  calibration: Calibration | str | os.PathLike | None = None
+                  ) -> list[Diagnosis]:
     """Diagnose several profiles; each result as :func:`diagnose` gives it.
 
     ``sources`` are what :func:`diagnose` accepts (profiles, documents, paths).  The control

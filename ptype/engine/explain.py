@@ -2,100 +2,170 @@
 
 Every sentence is built from numbers already in the diagnosis (layers, method
 values, consensus votes, probabilities), so a reader can trace each claim to
-the structured trace in ``Diagnosis.to_dict()``.
+the structured trace in ``Diagnosis.to_dict()``.  Numbers are written by
+:mod:`ptype.engine.wording`, as in the methods' steps.
 """
 
 from __future__ import annotations
 
+from typing import Protocol
+
 import numpy as np
 
 from ptype.codes import HAZARD_RANK, Code
+from ptype.engine import wording as w
+from ptype.engine.columns import Columns
 from ptype.engine.consensus import _tally
+from ptype.engine.layers import TOP_LIMIT_HPA
 from ptype.engine.methods import bourgouin, cloud_top
+from ptype.engine.methods.base import Context, MethodResult
+from ptype.profile import Profile
+
+_ZERO = w.temperature(0.0, trim=True)
+
+
+class Explained(Protocol):
+    """What the narrative reads of a diagnosis (a :class:`ptype.engine.diagnosis.Diagnosis`)."""
+
+    profile: Profile
+    results: dict[str, MethodResult]
+    context: Context
+    columns: Columns
+    row: int
+    consensus_result: MethodResult
+    code: Code
+    members: int
+    probability: float
+    confidence: str
 
 
 def _melting_verdict(area: float) -> str:
     # Bourgouin (2000) surface-layer thresholds, used here as a scale of melting.
+    snow, rain = w.energy(bourgouin.SURFACE_SNOW_J_KG), w.energy(bourgouin.SURFACE_RAIN_J_KG)
     if area > bourgouin.SURFACE_RAIN_J_KG:
-        return f"enough to melt snow completely (more than {bourgouin.SURFACE_RAIN_J_KG} J/kg)"
+        return f"enough to melt snow completely (more than {rain})"
     if area >= bourgouin.SURFACE_SNOW_J_KG:
-        return (f"enough to melt snow partly ({bourgouin.SURFACE_SNOW_J_KG}-"
-                f"{bourgouin.SURFACE_RAIN_J_KG} J/kg)")
+        span = w.energy_range(bourgouin.SURFACE_SNOW_J_KG, bourgouin.SURFACE_RAIN_J_KG)
+        return f"enough to melt snow partly ({span})"
     if area >= bourgouin.MIN_ALOFT_J_KG:
-        return f"too little to melt much snow (under {bourgouin.SURFACE_SNOW_J_KG} J/kg)"
-    return f"negligible (under {bourgouin.MIN_ALOFT_J_KG} J/kg)"
+        return f"too little to melt much snow (under {snow})"
+    return f"negligible (under {w.energy(bourgouin.MIN_ALOFT_J_KG)})"
 
 
-def narrative(diagnosis) -> list[str]:
-    """Short sentences explaining ``diagnosis`` (a :class:`ptype.engine.diagnosis.Diagnosis`)."""
+def narrative(diagnosis: Explained) -> list[str]:
+    """Short sentences explaining ``diagnosis`` (a :class:`ptype.engine.diagnosis.Diagnosis`).
+
+    In order: no precipitation reported, the cloud and its ice, the warm layers, the
+    refreezing layer below them, the surface air, Ramer's ice fraction, the votes, the
+    consensus notes and the consensus itself.
+    """
     out: list[str] = []
     surface = diagnosis.profile.surface
     if surface is not None and surface.precipitation_rate_mm_h == 0:
-        out.append("The surface readings report no precipitation (0 mm/h): what follows is the type "
-                   "precipitation would take if it fell now.")
+        out.append("The surface readings report no precipitation (0 mm/h): what follows is the "
+                   "type precipitation would take if it fell now.")
     results = diagnosis.results
-    ctx = diagnosis.context
-    cols = diagnosis.columns
     i = diagnosis.row
-
     if "cloud_top" in results:
-        v = {k: a[i] for k, a in results["cloud_top"].values.items()}
-        if not v["has_cloud"]:
-            out.append("No layer of the profile is saturated, so where the precipitation forms is not "
-                       "visible in it.")
-        elif v["ice"] and v["seeded"]:
-            out.append(f"The low cloud is too warm to make ice (coldest {v['lowest_cloud_min_c']:.1f} °C) but "
-                       f"ice falls into it from a higher cloud topping at {v['top_cloud_top_hpa']:.0f} hPa "
-                       f"({v['top_cloud_min_c']:.1f} °C).")
-        elif v["ice"]:
-            out.append(f"The cloud tops at {v['top_cloud_top_hpa']:.0f} hPa and reaches "
-                       f"{v['top_cloud_min_c']:.1f} °C, cold enough to make ice "
-                       f"(at or below {cloud_top.ICE_NUCLEATION_C:.0f} °C).")
-        else:
-            out.append(f"The cloud tops at {v['lowest_cloud_top_hpa']:.0f} hPa and is no colder than "
-                       f"{v['lowest_cloud_min_c']:.1f} °C, too warm to make ice "
-                       f"(ice needs about {cloud_top.ICE_NUCLEATION_C:.0f} °C): drops grow as drizzle.")
+        out.append(_cloud_sentence(results["cloud_top"], i))
+    layers = diagnosis.context.air_layers.column(i)
+    out.extend(_warm_layer_sentences(layers))
+    if "bourgouin" in results:
+        out.extend(_refreezing_sentences(results["bourgouin"], i, layers))
+    out.append(_surface_sentence(diagnosis.columns, i))
+    if "ramer" in results:
+        out.extend(_ice_fraction_sentences(results["ramer"], i))
+    out.extend(_consensus_sentences(diagnosis))
+    return out
 
-    layers = ctx.air_layers.column(i)
+
+def _cloud_sentence(result: MethodResult, i: int) -> str:
+    """Where the precipitation forms and whether its cloud makes ice (cloud-top method)."""
+    v = {k: a[i] for k, a in result.values.items()}
+    nucleation = w.temperature(cloud_top.ICE_NUCLEATION_C, trim=True)
+    if not v["has_cloud"]:
+        return ("No layer of the profile is saturated, so where the precipitation forms is not "
+                "visible in it.")
+    if v["ice"] and v["seeded"]:
+        return (f"The low cloud is too warm to make ice (coldest "
+                f"{w.temperature(v['lowest_cloud_min_c'])}) but ice falls into it from a higher "
+                f"cloud topping at {w.pressure(v['top_cloud_top_hpa'])} "
+                f"({w.temperature(v['top_cloud_min_c'])}).")
+    if v["ice"]:
+        return (f"The cloud tops at {w.pressure(v['top_cloud_top_hpa'])} and reaches "
+                f"{w.temperature(v['top_cloud_min_c'])}, cold enough to make ice (at or below "
+                f"{nucleation}).")
+    return (f"The cloud tops at {w.pressure(v['lowest_cloud_top_hpa'])} and is no colder than "
+            f"{w.temperature(v['lowest_cloud_min_c'])}, too warm to make ice (ice needs about "
+            f"{nucleation}): drops grow as drizzle.")
+
+
+def _warm_layer_sentences(layers: list[dict]) -> list[str]:
+    """One sentence per layer above 0 degC, with its area on Bourgouin's (2000) scale."""
     warm = [lay for lay in layers if lay["kind"] == "warm"]
+    if not warm:
+        return [(f"The whole column up to {w.pressure(TOP_LIMIT_HPA)} is below {_ZERO}: "
+                 "nothing melts on the way down.")]
+    out = []
     for lay in warm:
         where = "at the surface" if lay["bottom_hpa"] == layers[0]["bottom_hpa"] else "aloft"
-        out.append(f"The air is above 0 °C {where} from {lay['bottom_hpa']:.0f} to {lay['top_hpa']:.0f} hPa "
-                   f"({lay['bottom_m']:.0f}-{lay['top_m']:.0f} m), peaking at {lay['extreme_c']:+.1f} °C with "
-                   f"{lay['area_j_kg']:.0f} J/kg: {_melting_verdict(lay['area_j_kg'])}.")
-    if not warm:
-        out.append("The whole column up to 250 hPa is below 0 °C: nothing melts on the way down.")
+        out.append(f"The air is above {_ZERO} {where} in the layer "
+                   f"{w.pressure_range(lay['bottom_hpa'], lay['top_hpa'])} "
+                   f"({w.height_range(lay['bottom_m'], lay['top_m'])}), peaking at "
+                   f"{w.temperature(lay['extreme_c'])} with {w.energy(lay['area_j_kg'])}: "
+                   f"{_melting_verdict(lay['area_j_kg'])}.")
+    return out
 
-    if "bourgouin" in results:
-        b = {k: float(a[i]) for k, a in results["bourgouin"].values.items()}
-        if int(b["case"]) in (2, 3):
-            cold_below = [lay for lay in layers if lay["kind"] == "cold"
-                          and lay["top_hpa"] >= min(w["bottom_hpa"] for w in warm if w is not layers[0])]
-            coldest = min((lay["extreme_c"] for lay in cold_below), default=float("nan"))
-            if b["na_j_kg"] > b["line_ice_j_kg"]:
-                verdict = (f"more than the {b['line_ice_j_kg']:.0f} J/kg that refreezes drops "
-                           "to ice pellets")
-            elif b["na_j_kg"] < b["line_liquid_j_kg"]:
-                verdict = (f"less than the {b['line_liquid_j_kg']:.0f} J/kg needed to refreeze them, so "
-                           "drops stay liquid")
-            else:
-                verdict = (f"between {b['line_liquid_j_kg']:.0f} and {b['line_ice_j_kg']:.0f} J/kg: "
-                           "some drops refreeze")
-            out.append(f"Below the warm layer the air is below 0 °C, down to {coldest:+.1f} °C, with "
-                       f"{b['na_j_kg']:.0f} J/kg of refreezing energy, {verdict}.")
 
-    t_s = float(cols.surface_temperature_c[i])
-    tw_s = float(cols.surface_wetbulb_c[i])
-    sentence = f"At the surface the air is {t_s:+.1f} °C with a wet-bulb of {tw_s:+.1f} °C"
+def _refreezing_sentences(result: MethodResult, i: int, layers: list[dict]) -> list[str]:
+    """Bourgouin's (2000) refreezing area under a warm layer aloft (cases A and B)."""
+    b = {k: float(a[i]) for k, a in result.values.items()}
+    if int(b["case"]) not in (2, 3):
+        return []
+    warm_aloft = [lay for lay in layers if lay["kind"] == "warm" and lay is not layers[0]]
+    lowest_aloft_hpa = min(lay["bottom_hpa"] for lay in warm_aloft)
+    cold_below = [lay for lay in layers if lay["kind"] == "cold"
+                  and lay["top_hpa"] >= lowest_aloft_hpa]
+    coldest = min((lay["extreme_c"] for lay in cold_below), default=float("nan"))
+    na, lo, hi = b["na_j_kg"], b["line_liquid_j_kg"], b["line_ice_j_kg"]
+    if na > hi:
+        verdict = f"more than the {w.energy(hi)} that refreezes drops to ice pellets"
+    elif na < lo:
+        verdict = f"less than the {w.energy(lo)} needed to refreeze them, so drops stay liquid"
+    else:
+        verdict = f"between {w.energy(lo)} and {w.energy(hi)}: some drops refreeze"
+    return [(f"Below the warm layer the air is below {_ZERO}, down to "
+             f"{w.temperature(coldest)}, with {w.energy(na)} of refreezing energy, {verdict}.")]
+
+
+def _surface_sentence(columns: Columns, i: int) -> str:
+    """The surface air and wet-bulb, and whether evaporation can cool it below freezing."""
+    t_s = float(columns.surface_temperature_c[i])
+    tw_s = float(columns.surface_wetbulb_c[i])
+    sentence = (f"At the surface the air is {w.temperature(t_s)} with a wet-bulb of "
+                f"{w.temperature(tw_s)}")
     if t_s > 0 >= tw_s:
         sentence += ": evaporation can cool the air below freezing"
-    out.append(sentence + ".")
-    if "ramer" in results and "ice_fraction" in results["ramer"].values:
-        f = float(results["ramer"].values["ice_fraction"][i])
-        if np.isfinite(f):
-            out.append(f"Ramer's ice fraction at the ground is {f:.2f} (1 = all ice, 0 = all liquid).")
+    return sentence + "."
 
+
+def _ice_fraction_sentences(result: MethodResult, i: int) -> list[str]:
+    """Ramer's (1993) ice fraction at the ground, when his march reached it."""
+    if "ice_fraction" not in result.values:
+        return []
+    f = float(result.values["ice_fraction"][i])
+    if not np.isfinite(f):
+        return []
+    return [(f"Ramer's ice fraction at the ground is {w.fraction(f)} (1 = all ice, 0 = all "
+             "liquid).")]
+
+
+def _consensus_sentences(diagnosis: Explained) -> list[str]:
+    """The vote tally, the consensus steps a reader needs, and the consensus with its
+    probability."""
+    out = []
     cons = diagnosis.consensus_result
+    i = diagnosis.row
     counts = cons.values["counts"][i]
     if int(cons.values["n_voters"][i]) > 0:
         tally = ", ".join(f"{name} {votes}" for name, votes in _tally(counts).items())
@@ -108,10 +178,11 @@ def narrative(diagnosis) -> list[str]:
         out.append(support)
     code = diagnosis.code
     if diagnosis.members:
-        out.append(f"Consensus: {code.label} ({code.name}), probability {diagnosis.probability:.2f} over "
-                   f"{diagnosis.members} perturbed profiles ({diagnosis.confidence} confidence).")
+        out.append(f"Consensus: {w.code(code)}, probability {w.fraction(diagnosis.probability)} "
+                   f"over {diagnosis.members} perturbed profiles ({diagnosis.confidence} "
+                   "confidence).")
     else:
-        out.append(f"Consensus: {code.label} ({code.name}); probabilities not computed.")
+        out.append(f"Consensus: {w.code(code)}; probabilities not computed.")
     return out
 
 

@@ -15,8 +15,8 @@ isothermal +3 degC layer from 850 to 800 hPa gives
 ``R_d`` with ``d ln p`` overstates it by ``c_p/R_d ~ 3.5``.)
 
 Warm layers above 250 hPa are stratospheric warmth, not melting layers: the
-analysis stops at :data:`TOP_LIMIT_HPA` (levels above it are ignored, as in
-operational practice since 2008, brief section 1).
+analysis stops at :data:`TOP_LIMIT_HPA` (levels above it are ignored; common practice
+in operational post-processing of Bourgouin2000).
 """
 
 from __future__ import annotations
@@ -24,6 +24,7 @@ from __future__ import annotations
 import dataclasses
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
@@ -71,6 +72,7 @@ class LayerSet:
 
     @property
     def depth_m(self) -> np.ndarray:
+        """Depth of every layer, m, ``(n, K)``."""
         return self.top_m - self.bottom_m
 
     def column(self, i: int) -> list[dict]:
@@ -90,7 +92,8 @@ class LayerSet:
         return out
 
 
-def layer_area_j_kg(pressure_bottom_hpa, pressure_top_hpa, mean_excess_c):
+def layer_area_j_kg(pressure_bottom_hpa: ArrayLike, pressure_top_hpa: ArrayLike,
+                    mean_excess_c: ArrayLike) -> np.ndarray:
     """Area of an isothermal layer, J/kg: ``R_d * (T - T0) * ln(p_bottom / p_top)``."""
     return Rd * np.asarray(mean_excess_c) * np.log(np.asarray(pressure_bottom_hpa)
                                                    / np.asarray(pressure_top_hpa))
@@ -325,7 +328,7 @@ def zero_height_m(layers: LayerSet) -> np.ndarray:
     return height
 
 
-def level_index_runs(mask: np.ndarray):
+def level_index_runs(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Contiguous True runs per row: returns (start, end, count) with (n, R) int arrays of
     inclusive level indices, padded with -1."""
     n, L = mask.shape
@@ -360,6 +363,7 @@ class CloudLayers:
     top_index: np.ndarray
 
     def column(self, i: int) -> list[dict]:
+        """The cloud (or dry) layers of column ``i`` as a list of dicts (bottom -> top)."""
         out = []
         for k in range(int(self.count[i])):
             out.append({"bottom_hpa": round(float(self.bottom_hpa[i, k]), 1),

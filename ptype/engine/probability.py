@@ -32,6 +32,8 @@ members.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 
 from ptype import thermo
@@ -40,6 +42,10 @@ from ptype.engine.columns import Columns
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
 from ptype.errors import OptionError
+
+#: A seed of the members' random draws: a whole number, a sequence of them (one stream per
+#: batch, ``[seed, k]``) or None (fresh entropy); as ``numpy.random.default_rng`` takes it.
+SeedLike = int | Sequence[int] | None
 
 DEFAULT_MEMBERS = 50
 MAX_MEMBERS = 10000
@@ -81,7 +87,8 @@ def correlated_noise(height_m: np.ndarray, rng: np.random.Generator,
     return _ar1(r, s, rng.standard_normal(np.shape(height_m)))
 
 
-def ar1_coefficients(height_m: np.ndarray, length_m: float = CORRELATION_LENGTH_M):
+def ar1_coefficients(height_m: np.ndarray,
+                     length_m: float = CORRELATION_LENGTH_M) -> tuple[np.ndarray, np.ndarray]:
     """The ``r_k`` and ``sqrt(1 - r_k^2)`` of :func:`correlated_noise`, ``(n, L-1)`` each."""
     dz = np.diff(height_m, axis=1)
     r = np.exp(-np.abs(np.nan_to_num(dz, nan=np.inf)) / length_m)
@@ -162,7 +169,7 @@ def _shifted(height_m: np.ndarray, values: np.ndarray, shift_m: np.ndarray) -> n
     return np.where(np.isfinite(out), out, values)
 
 
-def perturb(columns: Columns, members: int, seed=None, *,
+def perturb(columns: Columns, members: int, seed: SeedLike = None, *,
             temperature_sigma_k: float = TEMPERATURE_SIGMA_K,
             correlation_length_m: float = CORRELATION_LENGTH_M) -> Columns:
     """Members of every column, stacked: row ``i * members + m`` is member ``m`` of column ``i``
@@ -172,7 +179,7 @@ def perturb(columns: Columns, members: int, seed=None, *,
                            correlation_length_m=correlation_length_m)[0]
 
 
-def perturb_members(columns: Columns, members: int, seed=None, *,
+def perturb_members(columns: Columns, members: int, seed: SeedLike = None, *,
                     temperature_sigma_k: float = TEMPERATURE_SIGMA_K,
                     correlation_length_m: float = CORRELATION_LENGTH_M
                     ) -> tuple[Columns, np.ndarray]:
@@ -222,7 +229,14 @@ def voter_weights(rng: np.random.Generator, n: int) -> np.ndarray:
     return draws
 
 
-def check_members(members) -> int:
+def check_members(members: object) -> int:
+    """``members`` as an int when it is a whole number from 0 to :data:`MAX_MEMBERS`.
+
+    Raises
+    ------
+    ptype.errors.OptionError
+        Naming the field ``members``, the value and the range expected.
+    """
     if isinstance(members, bool) or not isinstance(members, (int, np.integer)):
         raise OptionError(f"members = {members!r}: expected a whole number", field="members")
     if not 0 <= members <= MAX_MEMBERS:

@@ -7,9 +7,10 @@ probabilities out.
 
 1. the **control**: the methods on the columns as given, then their consensus
    (:func:`diagnose_columns`), and
-2. the **members**: Monte-Carlo perturbations of the columns (:func:`ptype.engine.probability.perturb`)
-   through the methods the consensus reads, in batches that bound memory; the probability of
-   a type is the fraction of a column's members that give it.
+2. the **members**: Monte-Carlo perturbations of the columns
+   (:func:`ptype.engine.probability.perturb`) through the methods the consensus reads, in
+   batches that bound memory; the probability of a type is the fraction of a column's members
+   that give it.
 
 Everything is vectorised over columns; nothing here loops per column.
 """
@@ -30,6 +31,7 @@ from ptype.engine.layers import zero_height_m
 from ptype.engine.methods import METHOD_NAMES, get_method
 from ptype.engine.methods.base import Context, MethodResult
 from ptype.engine.probability import (
+    SeedLike,
     check_members,
     perturb_members,
     possible_code_map,
@@ -37,6 +39,9 @@ from ptype.engine.probability import (
     supported_codes,
 )
 from ptype.errors import OptionError
+
+#: Method names: an iterable, a comma-separated string, or None for all of them.
+MethodsLike = Iterable[str] | str | None
 
 #: Columns x members diagnosed in one vectorised pass when the caller sets no batch size.
 DEFAULT_MEMBER_BATCH = 20_000
@@ -59,12 +64,12 @@ def method_names(methods: Iterable[str] | str | None) -> tuple[str, ...]:
     return tuple(m for m in METHOD_NAMES if m in names)
 
 
-def run_methods(ctx: Context, methods=None) -> dict[str, MethodResult]:
+def run_methods(ctx: Context, methods: MethodsLike = None) -> dict[str, MethodResult]:
     """Run the named methods (default: all) on a context; results keyed by name."""
     return {name: get_method(name).run(ctx) for name in method_names(methods)}
 
 
-def consensus_methods(methods=None) -> tuple[str, ...]:
+def consensus_methods(methods: MethodsLike = None) -> tuple[str, ...]:
     """The methods the consensus of ``methods`` (default all) actually reads: its voters
     (:data:`ptype.engine.consensus.VOTERS`).  ``thickness`` and ``jennings`` never vote; the
     surface humidity check and the no-vote fallback compute Jennings et al. (2018) inside the
@@ -89,8 +94,8 @@ def warm_cold_energies(ctx: Context) -> tuple[np.ndarray, np.ndarray]:
     return np.where(warm, area, 0.0).sum(axis=1), cold
 
 
-def diagnose_columns(columns: Columns, methods=None, *, return_context: bool = False,
-                     consensus_only: bool = False,
+def diagnose_columns(columns: Columns, methods: MethodsLike = None, *,
+                     return_context: bool = False, consensus_only: bool = False,
                      voter_weights: np.ndarray | None = None) -> dict[str, Any]:
     """The control pass: methods and consensus on ``columns`` as given (no members).
 
@@ -138,7 +143,8 @@ def diagnose_columns(columns: Columns, methods=None, *, return_context: bool = F
     return out
 
 
-def member_probabilities(columns: Columns, members: int, seed=None, methods=None,
+def member_probabilities(columns: Columns, members: int, seed: SeedLike = None,
+                         methods: MethodsLike = None,
                          code_map: np.ndarray | None = None) -> np.ndarray:
     """Probability of every code per column, ``(n, len(Code))``, rows summing to 1.
 
@@ -184,8 +190,9 @@ class EngineRun:
         return self.fields["ptype"]
 
 
-def run_columns(columns: Columns, members: int = 0, seed=None, methods=None, *,
-                trace: bool = False, batch_columns: int | None = None,
+def run_columns(columns: Columns, members: int = 0, seed: SeedLike = None,
+                methods: MethodsLike = None, *, trace: bool = False,
+                batch_columns: int | None = None,
                 batch_seed: Callable[[int, int], Any] | None = None,
                 calibration: Calibration | None = None) -> EngineRun:
     """Diagnose a batch of columns: the control, and member probabilities when ``members``.

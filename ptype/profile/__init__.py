@@ -5,7 +5,9 @@
 module              what it holds
 ==================  ===========================================================
 :mod:`.document`    the JSON profile document (pydantic): structure and types
-:mod:`.model`       :class:`Profile`: physical checks, humidity conversion, heights
+:mod:`.levels`      the stages from level mappings to checked arrays: columns, physical
+                    checks, humidity conversion, order, hypsometric heights
+:mod:`.model`       :class:`Profile`, built by running those stages
 ==================  ===========================================================
 """
 

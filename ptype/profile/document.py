@@ -47,7 +47,8 @@ class Level(_Strict):
     height_m: float | None = Field(None, description="Geopotential height above mean sea level, m.")
     temperature_c: float = Field(..., description="Air temperature, degC.")
     dewpoint_c: float | None = Field(None, description="Dew point over water, degC.")
-    relative_humidity_pct: float | None = Field(None, description="Relative humidity over water, %.")
+    relative_humidity_pct: float | None = Field(None,
+                                                description="Relative humidity over water, %.")
     mixing_ratio_g_kg: float | None = Field(None, description="Water-vapour mixing ratio, g/kg.")
     wetbulb_c: float | None = Field(
         None, description="Psychrometer wet-bulb reading, degC (converted to a dew point).")
@@ -67,7 +68,8 @@ class Surface(_Strict):
     road_surface_temperature_c: float | None = Field(None, ge=-80, le=80, allow_inf_nan=False,
                                                      description="Road-surface temperature, degC.")
     precipitation_rate_mm_h: float | None = Field(None, ge=0, le=500, allow_inf_nan=False,
-                                                  description="Precipitation rate, mm/h (liquid equivalent).")
+                                                  description="Precipitation rate, mm/h "
+                                                              "(liquid equivalent).")
     wind_speed_m_s: float | None = Field(None, ge=0, le=150, allow_inf_nan=False,
                                          description="Wind speed, m/s.")
     elevation_m: float | None = Field(None, ge=-500, le=9000, allow_inf_nan=False,
@@ -108,7 +110,8 @@ def validation_error_to_profile_error(exc: ValidationError) -> ProfileError:
     kind = err["type"]
     value = err.get("input")
     if kind == "extra_forbidden":
-        msg = f"{field}: unknown field (value {value!r}); see docs/formats.md for the accepted fields"
+        msg = (f"{field}: unknown field (value {value!r}); see docs/formats.md for the accepted "
+               "fields")
     elif kind == "missing":
         msg = f"{field}: required field is missing"
     else:

@@ -50,50 +50,76 @@ def _is_path(source: Any) -> bool:
     return False
 
 
-def read_document(source: str | os.PathLike | bytes, format: str | None = None) -> tuple[dict, str]:
-    """Read ``source`` into a profile document; returns ``(document, name)`` where ``name``
-    describes the source for messages (the file name, or ``<text>``)."""
+def read_document(source: str | os.PathLike | bytes,
+                  format: str | None = None) -> tuple[dict, str]:
+    """Read ``source`` into a profile document.
+
+    Parameters
+    ----------
+    source : str, os.PathLike or bytes
+        A file path, or the content itself (text or bytes).
+    format : {"json", "csv", "temp", "netcdf"}, optional
+        Skip detection from the extension or the content.
+
+    Returns
+    -------
+    (dict, str)
+        The document and a name for the source in messages (the file name, or ``<text>``).
+
+    Raises
+    ------
+    ptype.errors.ReaderError
+        The source cannot be read; the message names it and what was expected.
+    """
     if format is not None and format not in FORMATS:
-        raise ReaderError(f"format {format!r} is not supported; expected one of {', '.join(FORMATS)}")
+        raise ReaderError(f"format {format!r} is not supported; expected one of "
+                          f"{', '.join(FORMATS)}")
     if _is_path(source):
-        path = Path(source)
-        name = str(path)
-        if not path.exists():
-            raise ReaderError(f"{name}: no such file")
-        fmt = format or _EXTENSIONS.get(path.suffix.lower())
-        if fmt == "netcdf":
+        return _read_path(Path(source), format)
+    if isinstance(source, bytes):
+        if format == "netcdf" or source[:3] == b"CDF" or source[:4] == b"\x89HDF":
             from ptype.readers import netcdf_format
-            return netcdf_format.read_netcdf_document(path), name
+            return netcdf_format.read_netcdf_document(source), "<text>"
         try:
-            text = path.read_text(encoding="utf-8-sig")  # tolerate a byte-order mark
+            text = source.decode("utf-8-sig")
         except UnicodeDecodeError:
-            raise ReaderError(f"{name}: not a UTF-8 text file") from None
-        except OSError as exc:
-            raise ReaderError(f"{name}: cannot be read ({exc.strerror})") from None
+            raise ReaderError("<text>: not UTF-8 text") from None
+    elif isinstance(source, str):
+        text = source.removeprefix("\ufeff")
     else:
-        name = "<text>"
-        if isinstance(source, bytes):
-            if format == "netcdf" or source[:3] == b"CDF" or source[:4] == b"\x89HDF":
-                from ptype.readers import netcdf_format
-                return netcdf_format.read_netcdf_document(source), name
-            try:
-                text = source.decode("utf-8-sig")
-            except UnicodeDecodeError:
-                raise ReaderError("<text>: not UTF-8 text") from None
-        elif isinstance(source, str):
-            text = source.removeprefix("\ufeff")
-        else:
-            raise ReaderError(f"expected a path, text or bytes, got {type(source).__name__}")
-        fmt = format
+        raise ReaderError(f"expected a path, text or bytes, got {type(source).__name__}")
+    return _read_text(text, format, "<text>"), "<text>"
+
+
+def _read_path(path: Path, format: str | None) -> tuple[dict, str]:
+    """A file, by the format given or its extension (NetCDF is read from the file itself)."""
+    name = str(path)
+    if not path.exists():
+        raise ReaderError(f"{name}: no such file")
+    fmt = format or _EXTENSIONS.get(path.suffix.lower())
+    if fmt == "netcdf":
+        from ptype.readers import netcdf_format
+        return netcdf_format.read_netcdf_document(path), name
+    try:
+        text = path.read_text(encoding="utf-8-sig")  # tolerate a byte-order mark
+    except UnicodeDecodeError:
+        raise ReaderError(f"{name}: not a UTF-8 text file") from None
+    except OSError as exc:
+        raise ReaderError(f"{name}: cannot be read ({exc.strerror})") from None
+    return _read_text(text, fmt, name), name
+
+
+def _read_text(text: str, fmt: str | None, name: str) -> dict:
+    """Text in ``fmt`` (detected from the content when None) as a profile document."""
     if fmt is None:
         fmt = detect_format(text)
     if fmt == "json":
-        return json_format.read_json_document(text, name), name
+        return json_format.read_json_document(text, name)
     if fmt == "csv":
-        return csv_format.read_csv_document(text, name), name
+        return csv_format.read_csv_document(text, name)
     if fmt == "temp":
         from ptype.readers import temp_format
-        return temp_format.read_temp_document(text, name), name
+        return temp_format.read_temp_document(text, name)
     if fmt == "netcdf":
         raise ReaderError(f"{name}: NetCDF must be given as a file path or bytes")
     raise ReaderError(f"{name}: format {fmt!r} is not supported")

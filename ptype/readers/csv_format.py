@@ -33,45 +33,85 @@ _SITE_KEYS = {"site_id": "id", "site_name": "name", "latitude": "latitude",
 _NUMERIC_SITE = {"latitude", "longitude", "elevation_m"}
 
 
+_DOC_KEYS = ("valid_time", "source")
+
+
 def _number(text: str, name: str, line: int, column: str) -> float:
     try:
         return float(text)
     except ValueError:
-        raise ReaderError(f"{name}: line {line}: column {column}: {text!r} is not a number") from None
+        raise ReaderError(f"{name}: line {line}: column {column}: {text!r} is not a "
+                          "number") from None
 
 
 def read_csv_document(text: str, name: str = "<text>") -> dict:
-    """Parse CSV text into a profile document dict."""
+    """Parse CSV text into a profile document dict.
+
+    Parameters
+    ----------
+    text : str
+        The CSV content: ``# key: value`` metadata lines, a header naming the level fields
+        (:data:`ptype.profile.LEVEL_FIELDS`), one row per level.
+    name : str
+        The source, for messages.
+
+    Returns
+    -------
+    dict
+        A profile document (``levels`` and, when given, ``site``, ``surface``,
+        ``valid_time``, ``source``).
+
+    Raises
+    ------
+    ptype.errors.ReaderError
+        Naming the line and the column or key at fault.
+    """
     doc: dict = {}
     site: dict = {}
     surface: dict = {}
     data_lines: list[tuple[int, str]] = []
     for lineno, raw in enumerate(text.splitlines(), start=1):
         line = raw.strip()
-        if not line:
-            continue
         if line.startswith("#"):
-            body = line.lstrip("#").strip()
-            if ":" not in body:
-                continue  # a plain comment
-            key, _, value = body.partition(":")
-            key, value = key.strip(), value.strip()
-            if key in _SITE_KEYS:
-                site[_SITE_KEYS[key]] = (_number(value, name, lineno, key)
-                                         if key in _NUMERIC_SITE else value)
-            elif key in ("valid_time", "source"):
-                doc[key] = value
-            elif key.startswith("surface."):
-                surface[key[len("surface."):]] = _number(value, name, lineno, key)
-            else:
-                raise ReaderError(f"{name}: line {lineno}: unknown metadata key {key!r}; expected one of "
-                                  f"{', '.join(list(_SITE_KEYS) + ['valid_time', 'source', 'surface.<field>'])}")
-            continue
-        data_lines.append((lineno, raw))
+            _read_metadata(line, doc, site, surface, name, lineno)
+        elif line:
+            data_lines.append((lineno, raw))
     if not data_lines:
         raise ReaderError(f"{name}: no header line found; expected e.g. "
                           "'pressure_hpa,height_m,temperature_c,dewpoint_c'")
-    header_line, header = data_lines[0]
+    columns = _read_header(*data_lines[0], name)
+    doc["levels"] = _read_rows(data_lines[1:], columns, name)
+    if site:
+        doc["site"] = site
+    if surface:
+        doc["surface"] = surface
+    return doc
+
+
+def _read_metadata(line: str, doc: dict, site: dict, surface: dict, name: str,
+                   lineno: int) -> None:
+    """One ``# key: value`` line into the document, site or surface (a plain comment has no
+    colon and is skipped)."""
+    body = line.lstrip("#").strip()
+    if ":" not in body:
+        return
+    key, _, value = body.partition(":")
+    key, value = key.strip(), value.strip()
+    if key in _SITE_KEYS:
+        site[_SITE_KEYS[key]] = (_number(value, name, lineno, key)
+                                 if key in _NUMERIC_SITE else value)
+    elif key in _DOC_KEYS:
+        doc[key] = value
+    elif key.startswith("surface."):
+        surface[key[len("surface."):]] = _number(value, name, lineno, key)
+    else:
+        expected = ", ".join([*_SITE_KEYS, *_DOC_KEYS, "surface.<field>"])
+        raise ReaderError(f"{name}: line {lineno}: unknown metadata key {key!r}; expected one "
+                          f"of {expected}")
+
+
+def _read_header(header_line: int, header: str, name: str) -> list[str]:
+    """The column names of the header, checked: known, distinct, pressure and temperature."""
     columns = [c.strip().lower() for c in next(csv.reader([header]))]
     unknown = [c for c in columns if c not in LEVEL_FIELDS]
     if unknown:
@@ -82,21 +122,17 @@ def read_csv_document(text: str, name: str = "<text>") -> dict:
     for required in ("pressure_hpa", "temperature_c"):
         if required not in columns:
             raise ReaderError(f"{name}: line {header_line}: the header has no {required} column")
+    return columns
+
+
+def _read_rows(data_lines: list[tuple[int, str]], columns: list[str], name: str) -> list[dict]:
+    """One level per row; an empty cell is a missing value."""
     levels = []
-    reader = csv.reader(io.StringIO("\n".join(raw for _, raw in data_lines[1:])))
-    for (lineno, _), row in zip(data_lines[1:], reader):
+    reader = csv.reader(io.StringIO("\n".join(raw for _, raw in data_lines)))
+    for (lineno, _), row in zip(data_lines, reader):
         if len(row) != len(columns):
-            raise ReaderError(f"{name}: line {lineno}: {len(row)} value(s) for {len(columns)} columns")
-        level = {}
-        for column, cell in zip(columns, row):
-            cell = cell.strip()
-            if cell == "":
-                continue
-            level[column] = _number(cell, name, lineno, column)
-        levels.append(level)
-    doc["levels"] = levels
-    if site:
-        doc["site"] = site
-    if surface:
-        doc["surface"] = surface
-    return doc
+            raise ReaderError(f"{name}: line {lineno}: {len(row)} value(s) for {len(columns)} "
+                              "columns")
+        levels.append({column: _number(cell.strip(), name, lineno, column)
+                       for column, cell in zip(columns, row) if cell.strip() != ""})
+    return levels

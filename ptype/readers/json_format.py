@@ -1,4 +1,5 @@
-"""Our JSON profile document (see :mod:`ptype.profile.document` and ``docs/profile.schema.json``)."""
+"""Our JSON profile document (see :mod:`ptype.profile.document` and
+``docs/profile.schema.json``)."""
 
 from __future__ import annotations
 

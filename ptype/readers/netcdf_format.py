@@ -152,32 +152,57 @@ def read_netcdf_document(path_or_bytes: str | os.PathLike | bytes) -> dict:
 
 
 def _read(ds, name: str) -> dict:
-    def one(standard_name: str, required: bool, hint: str = ""):
-        found = _find(ds, standard_name)
-        if not found:
-            if required:
-                raise ReaderError(f"{name}: no variable or coordinate with standard_name "
-                                  f"'{standard_name}'{hint}")
-            return None
-        if len(found) > 1:
-            names = ", ".join(repr(v.name) for v in found)
-            raise ReaderError(f"{name}: several variables have standard_name '{standard_name}' "
-                              f"({names}); expected one")
-        return found[0]
+    """The profile document of an open dataset: levels, site, valid time and source."""
+    p_var, t_var, td_var, rh_var, z_var = _variables(ds, name)
+    vertical = _vertical_dimension(p_var, t_var, name)
+    columns = _level_columns(name, vertical, p_var, t_var, td_var, rh_var, z_var)
+    doc: dict = {"levels": _levels(columns)}
+    site = _site(ds)
+    if site:
+        doc["site"] = site
+    valid_time = _valid_time(ds)
+    if valid_time is not None:
+        doc["valid_time"] = valid_time
+    source = ds.attrs.get("source") or ds.attrs.get("title")
+    doc["source"] = (f"NetCDF {Path(name).name}" + (f": {source}" if source else ""))[:200]
+    return doc
 
-    p_var = one("air_pressure", True, " (the pressure levels); expected a variable or the "
-                                      "vertical coordinate")
-    t_var = one("air_temperature", True)
-    td_var = one("dew_point_temperature", False)
-    rh_var = None if td_var is not None else one("relative_humidity", False)
+
+def _one(ds, name: str, standard_name: str, required: bool, hint: str = ""):
+    """The one variable with ``standard_name`` (None when absent and not required)."""
+    found = _find(ds, standard_name)
+    if not found:
+        if required:
+            raise ReaderError(f"{name}: no variable or coordinate with standard_name "
+                              f"'{standard_name}'{hint}")
+        return None
+    if len(found) > 1:
+        names = ", ".join(repr(v.name) for v in found)
+        raise ReaderError(f"{name}: several variables have standard_name '{standard_name}' "
+                          f"({names}); expected one")
+    return found[0]
+
+
+def _variables(ds, name: str) -> tuple:
+    """Pressure, temperature, dew point or relative humidity, and height (CF standard names:
+    ``air_pressure``, ``air_temperature``, ``dew_point_temperature``, ``relative_humidity``,
+    ``geopotential_height`` or ``altitude``)."""
+    p_var = _one(ds, name, "air_pressure", True, " (the pressure levels); expected a variable "
+                                                 "or the vertical coordinate")
+    t_var = _one(ds, name, "air_temperature", True)
+    td_var = _one(ds, name, "dew_point_temperature", False)
+    rh_var = None if td_var is not None else _one(ds, name, "relative_humidity", False)
     if td_var is None and rh_var is None:
         raise ReaderError(f"{name}: no variable with standard_name 'dew_point_temperature' or "
                           "'relative_humidity'; expected one of them for the humidity")
-    z_var = one("geopotential_height", False)
+    z_var = _one(ds, name, "geopotential_height", False)
     if z_var is None:
-        z_var = one("altitude", False)
+        z_var = _one(ds, name, "altitude", False)
+    return p_var, t_var, td_var, rh_var, z_var
 
-    # The vertical dimension is the one pressure runs along (or the longest one it has).
+
+def _vertical_dimension(p_var, t_var, name: str) -> str:
+    """The dimension pressure runs along (the longest one it has, else temperature's)."""
     p_dims = [d for d in p_var.dims if p_var.sizes[d] > 1]
     if not p_dims:
         raise ReaderError(f"{name}: variable {p_var.name!r} (air_pressure) has a single value; "
@@ -185,35 +210,50 @@ def _read(ds, name: str) -> dict:
     vertical = max(p_dims, key=lambda d: p_var.sizes[d])
     if t_var.sizes.get(vertical, 0) <= 1 and t_var.ndim:
         vertical = max((d for d in t_var.dims), key=lambda d: t_var.sizes[d])
-    p = _convert(p_var, name, _column(p_var, name, vertical), "pressure")
-    t = _convert(t_var, name, _column(t_var, name, vertical), "temperature")
-    n = p.size
-    columns = {"pressure_hpa": p, "temperature_c": t}
+    return vertical
+
+
+def _level_columns(name: str, vertical: str, p_var, t_var, td_var, rh_var,
+                   z_var) -> dict[str, np.ndarray]:
+    """The profile's columns in ptype's units, all of one length along ``vertical``."""
+    def column(var, kind):
+        return _convert(var, name, _column(var, name, vertical), kind)
+
+    columns = {"pressure_hpa": column(p_var, "pressure"),
+               "temperature_c": column(t_var, "temperature")}
     if td_var is not None:
-        columns["dewpoint_c"] = _convert(td_var, name, _column(td_var, name, vertical),
-                                         "temperature")
+        columns["dewpoint_c"] = column(td_var, "temperature")
     else:
-        columns["relative_humidity_pct"] = _convert(rh_var, name,
-                                                    _column(rh_var, name, vertical), "humidity")
+        columns["relative_humidity_pct"] = column(rh_var, "humidity")
     if z_var is not None and z_var.size > 1:
-        columns["height_m"] = _convert(z_var, name, _column(z_var, name, vertical), "height")
+        columns["height_m"] = column(z_var, "height")
+    n = columns["pressure_hpa"].size
     for key, values in columns.items():
         if values.size != n:
-            raise ReaderError(f"{name}: {key} has {values.size} values but air_pressure has {n}; "
-                              f"expected both along dimension {vertical!r}")
+            raise ReaderError(f"{name}: {key} has {values.size} values but air_pressure has "
+                              f"{n}; expected both along dimension {vertical!r}")
+    return columns
 
+
+def _levels(columns: dict[str, np.ndarray]) -> list[dict]:
+    """One level per finite pressure and temperature; fill values of the others are left out."""
+    p, t = columns["pressure_hpa"], columns["temperature_c"]
     levels = []
-    for i in range(n):
+    for i in range(p.size):
         if not (math.isfinite(p[i]) and math.isfinite(t[i])):
             continue  # a fill value in pressure or temperature: no level there
-        level = {}
-        for key in ("pressure_hpa", "height_m", "temperature_c", "dewpoint_c",
-                    "relative_humidity_pct"):
-            if key in columns and math.isfinite(columns[key][i]):
-                level[key] = float(columns[key][i])
-        levels.append(level)
+        levels.append({key: float(columns[key][i]) for key in _LEVEL_KEYS
+                       if key in columns and math.isfinite(columns[key][i])})
+    return levels
 
-    doc: dict = {"levels": levels}
+
+_LEVEL_KEYS = ("pressure_hpa", "height_m", "temperature_c", "dewpoint_c",
+               "relative_humidity_pct")
+
+
+def _site(ds) -> dict:
+    """The site: ``cf_role = profile_id``, latitude, longitude, ``surface_altitude``, or the
+    ``station_name`` attribute (CF 1.13, discrete sampling geometries)."""
     site: dict = {}
     for var in ds.variables.values():
         if var.attrs.get("cf_role") == "profile_id" and var.size == 1:
@@ -227,13 +267,15 @@ def _read(ds, name: str) -> dict:
         site["elevation_m"] = elevation
     if not site.get("id") and ds.attrs.get("station_name"):
         site["name"] = str(ds.attrs["station_name"])[:200]
-    if site:
-        doc["site"] = site
+    return site
+
+
+def _valid_time(ds) -> str | None:
+    """The single ``time`` value as ISO 8601 UTC, or None."""
+    stamp = None
     for var in _find(ds, "time"):
         if var.size == 1 and np.issubdtype(var.dtype, np.datetime64):
-            stamp = np.datetime_as_string(var.values.ravel()[0], unit="s")
-            if not stamp.startswith("NaT"):
-                doc["valid_time"] = stamp + "Z"
-    source = ds.attrs.get("source") or ds.attrs.get("title")
-    doc["source"] = (f"NetCDF {Path(name).name}" + (f": {source}" if source else ""))[:200]
-    return doc
+            text = np.datetime_as_string(var.values.ravel()[0], unit="s")
+            if not text.startswith("NaT"):
+                stamp = text + "Z"
+    return stamp

@@ -200,7 +200,8 @@ class _Groups:
             where = f"group {k + 2} '{self.groups[k]}'"
         else:
             where = f"after group {len(self.groups) + 1} (end of message)"
-        return ReaderError(f"{self.name}: message {self.message_no} Part {self.part}: {where}: {problem}")
+        return ReaderError(f"{self.name}: message {self.message_no} Part {self.part}: {where}: "
+                           f"{problem}")
 
     def peek(self, ahead: int = 0) -> str | None:
         k = self.i + ahead
@@ -245,7 +246,8 @@ def _parse_identification(g: _Groups, part: str) -> tuple[int, int, bool, str, s
     knots = yy > 50  # day + 50: wind speeds in knots (from memory, unverified)
     day = yy - 50 if knots else yy
     if not 1 <= day <= 31:
-        raise g.error(f"day of month {day} (YY={yy:02d}); expected 01-31, or 51-81 with winds in knots",
+        raise g.error(f"day of month {day} (YY={yy:02d}); expected 01-31, or 51-81 with winds "
+                      "in knots",
                       g.i - 1)
     if not 0 <= gg <= 23:
         raise g.error(f"hour {gg:02d}; expected 00-23 UTC", g.i - 1)
@@ -256,8 +258,24 @@ def _parse_identification(g: _Groups, part: str) -> tuple[int, int, bool, str, s
 
 
 def _parse_part_a(g: _Groups, id_pressure: float | None) -> list[_Level]:
-    """Sections 2-4 of Part A; ``id_pressure`` is the last standard surface with a wind group."""
-    levels: list[_Level] = []
+    """Sections 2-4 of Part A; ``id_pressure`` is the last standard surface with a wind group.
+
+    The surface, the standard surfaces, the tropopauses and the maximum winds, in that order
+    (WMO306, FM 35 Part A); the regional and national sections (51515, ...) are not used.
+    """
+    levels, surface_hpa = _parse_surface(g)
+    levels += _parse_standard_surfaces(g, id_pressure, surface_hpa)
+    levels += _parse_tropopauses(g)
+    _skip_maximum_winds(g)
+    if not g.done and g.peek() not in _SECTION_MARKERS:
+        raise g.error("unexpected group after the tropopause and maximum-wind sections; "
+                      "expected a section indicator such as 51515 or the end of the message")
+    return levels
+
+
+def _parse_surface(g: _Groups) -> tuple[list[_Level], float | None]:
+    """Section 2, the surface group ``99PPP TTTaDD ddfff``: the surface level (when its
+    pressure and temperature are given) and its pressure."""
     first = g.take("the surface group 99PPP")
     if not first.startswith("99"):
         raise g.error("expected the surface group 99PPP", g.i - 1)
@@ -268,8 +286,16 @@ def _parse_part_a(g: _Groups, id_pressure: float | None) -> list[_Level]:
     t, dep = g.temperature_group("the surface")
     g.wind_group("the surface")  # always present (from memory, unverified)
     if surface_hpa is not None and t is not None:
-        levels.append(_Level(surface_hpa, t, dep, None, "surface"))
+        return [_Level(surface_hpa, t, dep, None, "surface")], surface_hpa
+    return [], surface_hpa
 
+
+def _parse_standard_surfaces(g: _Groups, id_pressure: float | None,
+                             surface_hpa: float | None) -> list[_Level]:
+    """Section 2 continued, ``PPhhh TTTaDD [ddfff]`` per standard surface in order; a wind
+    group only down to ``id_pressure``.  Surfaces below ground or without a temperature are
+    skipped."""
+    levels: list[_Level] = []
     next_index = 0
     while not g.done:
         head = g.peek()
@@ -293,19 +319,30 @@ def _parse_part_a(g: _Groups, id_pressure: float | None) -> list[_Level]:
         if surface_hpa is not None and pressure > surface_hpa:
             continue  # below ground: extrapolated values, not an observation
         levels.append(_Level(pressure, t, dep, height, "standard"))
+    return levels
 
+
+def _parse_tropopauses(g: _Groups) -> list[_Level]:
+    """Section 3, ``88PPP TTTaDD ddfff`` per tropopause (``88999``: none)."""
+    levels: list[_Level] = []
     while g.peek() is not None and g.peek()[:2] == "88":
         head = g.take("the tropopause group 88PPP")
         if head == "88999":
             continue
         if "/" in head[2:]:
-            raise g.error("tropopause pressure must be given (88999 when there is none)", g.i - 1)
+            raise g.error("tropopause pressure must be given (88999 when there is none)",
+                          g.i - 1)
         pressure = float(int(head[2:]))
         t, dep = g.temperature_group("the tropopause")
         g.wind_group("the tropopause")
         if t is not None and pressure > 0:
             levels.append(_Level(pressure, t, dep, None, "tropopause"))
+    return levels
 
+
+def _skip_maximum_winds(g: _Groups) -> None:
+    """Section 4, ``77PPP``/``66PPP ddfff [4vbvbvava]`` per maximum wind (``77999``: none);
+    read for the structure only, winds are not used."""
     while g.peek() is not None and g.peek()[:2] in ("77", "66"):
         head = g.take("the maximum-wind group 77PPP/66PPP")
         if head in ("77999", "66999"):
@@ -314,46 +351,19 @@ def _parse_part_a(g: _Groups, id_pressure: float | None) -> list[_Level]:
         nxt = g.peek()
         if nxt is not None and nxt.startswith("4") and nxt not in _SECTION_MARKERS:
             g.take("the wind-shear group 4vbvbvava")
-    if not g.done and g.peek() not in _SECTION_MARKERS:
-        raise g.error("unexpected group after the tropopause and maximum-wind sections; "
-                      "expected a section indicator such as 51515 or the end of the message")
-    return levels  # regional and national sections (51515, ...) are not used
 
 
 def _parse_part_b(g: _Groups, part: _Part) -> list[_Level]:
-    levels: list[_Level] = []
-    while not g.done:
-        head = g.peek()
-        if head in _SECTION_MARKERS:
-            break
-        head = g.take("a significant level nnPPP")
-        nn, ppp = head[:2], head[2:]
-        if not (nn[0] == nn[1] and nn[0] != "/"):
-            raise g.error("expected a significant level nnPPP with nn = 00, 11, 22, ... 99, "
-                          "or a section indicator (21212, 31313, 41414, 51515)", g.i - 1)
-        if "/" in ppp:
-            raise g.error("pressure of a significant level must be given", g.i - 1)
-        pressure = float(int(ppp))
-        if pressure < 100:
-            pressure += 1000.0
-        t, dep = g.temperature_group(f"the significant level at {pressure:g} hPa")
-        if t is not None:
-            levels.append(_Level(pressure, t, dep, None, "surface" if nn == "00" else "significant"))
-
+    """Sections 5-8 of Part B: the significant temperature levels (kept), the significant
+    winds, the sonde and launch time, the clouds (read for the structure; the launch time is
+    kept)."""
+    levels = _parse_significant_levels(g)
     while not g.done:
         marker = g.take("a section indicator")
         if marker == "21212":
-            # Significant winds: nnPPP ddfff pairs, not used for the profile.
-            while not g.done and g.peek() not in _SECTION_MARKERS:
-                g.take("a significant-wind group")
+            _skip_significant_winds(g)
         elif marker == "31313":
-            g.take("the sonde/system group srrarasasa")
-            launch = g.take("the launch-time group 8GGgg")
-            if not launch.startswith("8"):
-                raise g.error("expected the launch-time group 8GGgg", g.i - 1)
-            part.launch = launch[1:]
-            if g.peek() is not None and g.peek().startswith("9") and g.peek() not in _SECTION_MARKERS:
-                g.take("the sea-temperature group 9snTwTwTw")
+            _parse_launch(g, part)
         elif marker == "41414":
             g.take("the cloud group NhCLhCMCH")
         elif marker in _SECTION_MARKERS:
@@ -362,6 +372,72 @@ def _parse_part_b(g: _Groups, part: _Part) -> list[_Level]:
             raise g.error("expected a section indicator (21212, 31313, 41414, 51515 or 61616)",
                           g.i - 1)
     return levels
+
+
+def _ends_section(group: str, last_nn: str | None) -> bool:
+    """Whether ``group`` is a section indicator rather than the next level ``nnPPP``.
+
+    ``55555`` is both the regional indicator and level number 55 at 555 hPa: it is the level
+    when the level before it was number 44 (levels are numbered 00, 11, ... 99, 11, ...;
+    WMO306 FM 35 section 5).
+    """
+    if group not in _SECTION_MARKERS:
+        return False
+    return not (group[:2] == _NEXT_LEVEL_NUMBER.get(last_nn) and group[2:] == group[:3])
+
+
+#: The number of the significant level after each one (00, 11, ... 99, then 11 again).
+_NEXT_LEVEL_NUMBER = {**{f"{k}{k}": f"{k + 1}{k + 1}" for k in range(9)}, "99": "11"}
+
+
+def _skip_significant_winds(g: _Groups) -> None:
+    """Section 6, ``nnPPP ddfff`` pairs: skipped whole, they are not used for the profile."""
+    k = 0
+    last_nn = None
+    while not g.done:
+        group = g.peek()
+        # Every other group is a level number nnPPP, where 55555 may be level 55.
+        if group in _SECTION_MARKERS and (k % 2 or _ends_section(group, last_nn)):
+            break
+        g.take("a significant-wind group")
+        if k % 2 == 0:
+            last_nn = group[:2]
+        k += 1
+
+
+def _parse_significant_levels(g: _Groups) -> list[_Level]:
+    """Section 5, ``nnPPP TTTaDD`` per significant level; ``00`` is the surface."""
+    levels: list[_Level] = []
+    last_nn = None
+    while not g.done and not _ends_section(g.peek(), last_nn):
+        head = g.take("a significant level nnPPP")
+        nn, ppp = head[:2], head[2:]
+        if not (nn[0] == nn[1] and nn[0] != "/"):
+            raise g.error("expected a significant level nnPPP with nn = 00, 11, 22, ... 99, "
+                          "or a section indicator (21212, 31313, 41414, 51515)", g.i - 1)
+        if "/" in ppp:
+            raise g.error("pressure of a significant level must be given", g.i - 1)
+        last_nn = nn
+        pressure = float(int(ppp))
+        if pressure < 100:
+            pressure += 1000.0
+        t, dep = g.temperature_group(f"the significant level at {pressure:g} hPa")
+        if t is not None:
+            kind = "surface" if nn == "00" else "significant"
+            levels.append(_Level(pressure, t, dep, None, kind))
+    return levels
+
+
+def _parse_launch(g: _Groups, part: _Part) -> None:
+    """Section 7, ``31313 srrarasasa 8GGgg [9snTwTwTw]``: the launch time into ``part``."""
+    g.take("the sonde/system group srrarasasa")
+    launch = g.take("the launch-time group 8GGgg")
+    if not launch.startswith("8"):
+        raise g.error("expected the launch-time group 8GGgg", g.i - 1)
+    part.launch = launch[1:]
+    nxt = g.peek()
+    if nxt is not None and nxt.startswith("9") and nxt not in _SECTION_MARKERS:
+        g.take("the sea-temperature group 9snTwTwTw")
 
 
 def _split_messages(text: str) -> list[list[str]]:

@@ -17,6 +17,7 @@ module                 what it holds (sources: keys of ``docs/references.md``)
 :mod:`.wetbulb`        isobaric (ASHRAE2017 eq. 35) and pseudo-adiabatic (Knox2017,
                        Bolton1980) wet-bulb, numpy solvers
 :mod:`.fast`           the same wet-bulb solvers compiled with numba, for large arrays
+:mod:`.kinds`          the wet-bulb kinds (:data:`WET_BULB_KINDS`) and their check
 :mod:`.psychrometer`   dew point and humidity from dry- and wet-bulb readings
 =====================  =======================================================================
 """
@@ -24,6 +25,7 @@ module                 what it holds (sources: keys of ``docs/references.md``)
 from __future__ import annotations
 
 from ptype.thermo.heights import hypsometric_heights_m, thickness_m, virtual_temperature_c
+from ptype.thermo.kinds import WET_BULB_KINDS, check_wet_bulb_kind
 from ptype.thermo.parcel import (
     equivalent_potential_temperature_k,
     lcl_temperature_c,
@@ -41,10 +43,11 @@ from ptype.thermo.saturation import (
     vapor_pressure_from_dewpoint_hpa,
     vapor_pressure_from_mixing_ratio_hpa,
 )
-from ptype.thermo.wetbulb import WET_BULB_KINDS, wet_bulb_temperature, wet_bulb_temperatures
+from ptype.thermo.wetbulb import wet_bulb_temperature, wet_bulb_temperatures
 
 __all__ = [
     "WET_BULB_KINDS",
+    "check_wet_bulb_kind",
     "dewpoint_from_mixing_ratio_c",
     "dewpoint_from_relative_humidity_c",
     "dewpoint_from_vapor_pressure_c",

@@ -15,7 +15,8 @@ g = standard_gravity = 9.80665
 Rd = dry_air_gas_constant = 287.04
 #: Gas constant of water vapour, J kg-1 K-1.
 Rv = water_vapor_gas_constant = 461.5
-#: Ratio of molar masses water/dry air, Mw/Md = 18.01528/28.9645 (ASHRAE 2017 ch. 1 eq. 22 uses 0.621945).
+#: Ratio of molar masses water/dry air, Mw/Md = 18.01528/28.9645 (ASHRAE 2017 ch. 1 eq. 22
+#: uses 0.621945).
 epsilon = molecular_weight_ratio = 0.621945
 #: Specific heat of dry air at constant pressure, J kg-1 K-1.
 Cp_d = dry_air_spec_heat_press = 1005.7

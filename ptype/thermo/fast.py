@@ -12,7 +12,7 @@ level-points costs a few seconds.  Same equations, same bracket as :mod:`ptype.t
   on [Td - 1, T], solved by Newton's method with the closed-form slope.
 
 Each point stops on its own step (:data:`ISOBARIC_STEP_K`, :data:`ADIABATIC_STEP_K`);
-the compiled and numpy paths agree to 1e-6 K or better (``tests/test_grid_fastthermo.py``).
+the compiled and numpy paths agree to 1e-6 K or better (``tests/test_thermo_fast.py``).
 Both solvers run on blocks of points with a fixed two Halley (isobaric) or Newton
 (adiabatic) steps so that LLVM vectorises them (about 3.5 x and 2.3 x the per-point loops);
 points they cannot finish that way go to the per-point solvers (see "Vectorised solvers" below).
@@ -32,8 +32,10 @@ import math
 import threading
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.thermo.constants import epsilon
+from ptype.thermo.kinds import check_wet_bulb_kind
 
 try:  # numba is a declared dependency, but the numpy path must keep working without it
     import numba
@@ -44,14 +46,15 @@ except ImportError:  # pragma: no cover - exercised only on installs without num
 
 #: Isobaric wet-bulb: per-point Halley step below which the iteration stops, K.  With cubic
 #: convergence the error left is below 1e-9 K (measured against a 1e-12 K solution on 4
-#: million points, -40..35 degC, 300..1050 hPa, RH 10..100 %; see tests/test_grid_fastthermo.py).
+#: million points, -40..35 degC, 300..1050 hPa, RH 10..100 %; see tests/test_thermo_fast.py).
 ISOBARIC_STEP_K = 1e-2
 #: Adiabatic wet-bulb: per-point Newton step below which the iteration stops, K (as the
 #: numpy path's tolerance; the error left after a quadratic step of 1e-3 K is ~1e-7 K).
 ADIABATIC_STEP_K = 1e-3
 MAX_ITER = 60
 
-# Alduchov & Eskridge (1996) AERK constants, e in hPa, T in degC (as ptype.thermo.saturation._AE_WATER).
+# Alduchov & Eskridge (1996) AERK constants, e in hPa, T in degC (as
+# ptype.thermo.saturation._AE_WATER).
 _A, _B, _C = 6.1094, 17.625, 243.04
 _BC = _B * _C
 _T0 = 273.15
@@ -134,7 +137,8 @@ def _isobaric_solve(p, t, td, es_d, inv_cd):
 
 @_jit
 def _isobaric_point(p, t, td_in):
-    """Thermodynamic wet-bulb of one point (see :func:`ptype.thermo.wetbulb._isobaric_wet_bulb_c`)."""
+    """Thermodynamic wet-bulb of one point (see
+    :func:`ptype.thermo.wetbulb._isobaric_wet_bulb_c`)."""
     if not (math.isfinite(p) and math.isfinite(t) and math.isfinite(td_in) and p > 0.0):
         return math.nan
     td = min(td_in, t)
@@ -237,7 +241,7 @@ def _exp_block(a):
     """``exp(a)`` for ``-12.4 <= a <= 3.5`` without a library call, so that the loop calling it
     vectorises: the Taylor polynomial of degree 13 of ``exp(a / 32)`` (truncation below 2e-17
     for ``|a / 32| <= 0.39``), squared five times (relative error under 1e-14 overall; checked
-    against ``numpy.exp`` in tests/test_grid_fastthermo.py)."""
+    against ``numpy.exp`` in tests/test_thermo_fast.py)."""
     y = a * (1.0 / 32.0)
     s = 1.0 + y * (1.0 + y * (1.0 / 2.0 + y * (1.0 / 6.0 + y * (1.0 / 24.0 + y * (
         1.0 / 120.0 + y * (1.0 / 720.0 + y * (1.0 / 5040.0 + y * (1.0 / 40320.0 + y * (
@@ -351,7 +355,7 @@ def _log_block(y):
     """``log(y)`` for ``1/64 <= y <= 64`` without a library call (vectorisable): exact scalings
     by powers of two bring ``y`` into [0.707, 1.414], then ``log y = 2 atanh(s)`` with
     ``s = (y - 1) / (y + 1)``, ``|s| <= 0.172``, summed to ``s**23`` (truncation below 1e-17;
-    checked against ``numpy.log`` in tests/test_grid_fastthermo.py)."""
+    checked against ``numpy.log`` in tests/test_thermo_fast.py)."""
     k = 0.0
     big = y >= 8.0
     y = y * 0.125 if big else y
@@ -536,7 +540,7 @@ def _adiabatic(p, t, td, iso, parallel: bool) -> np.ndarray:
     return out
 
 
-def wet_bulbs_c(pressure_hpa, temperature_c, dewpoint_c,
+def wet_bulbs_c(pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
                 parallel: bool | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Isobaric and pseudo-adiabatic wet-bulb, degC, in one pass (the isobaric value starts the
     adiabatic iteration); each equal to :func:`wet_bulb_c` of its kind.  NaN where an input is
@@ -546,15 +550,15 @@ def wet_bulbs_c(pressure_hpa, temperature_c, dewpoint_c,
     return iso.reshape(shape), _adiabatic(p, t, td, iso, parallel).reshape(shape)
 
 
-def wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, kind: str = "isobaric",
-               parallel: bool | None = None) -> np.ndarray:
+def wet_bulb_c(pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
+               kind: str = "isobaric", parallel: bool | None = None) -> np.ndarray:
     """Wet-bulb temperature, degC, compiled path; same contract as
     :func:`ptype.thermo.wetbulb.wet_bulb_temperature` (broadcasting, NaN where an input is missing).
 
     ``parallel`` = None picks numba's threads from the main thread and a serial loop elsewhere.
+    An unknown ``kind`` raises :class:`ptype.errors.OptionError`.
     """
-    if kind not in ("isobaric", "adiabatic"):
-        raise ValueError(f"kind must be one of ('isobaric', 'adiabatic'), got {kind!r}")
+    check_wet_bulb_kind(kind)
     p, t, td, shape, parallel = _flat_inputs(pressure_hpa, temperature_c, dewpoint_c, parallel)
     out = _isobaric(p, t, td, parallel)
     if kind == "adiabatic":

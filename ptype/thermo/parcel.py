@@ -4,24 +4,26 @@ equivalent potential temperature (Bolton 1980 eqs. 15 and 39)."""
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.thermo.constants import T0, Cp_d, Rd
 from ptype.thermo.saturation import _as_float, mixing_ratio_g_kg, vapor_pressure_from_dewpoint_hpa
 
 
-def potential_temperature_k(pressure_hpa, temperature_c):
+def potential_temperature_k(pressure_hpa: ArrayLike, temperature_c: ArrayLike) -> np.ndarray:
     """Potential temperature, K (Poisson's equation with kappa = Rd/cp)."""
     return (_as_float(temperature_c) + T0) * (1000.0 / _as_float(pressure_hpa)) ** (Rd / Cp_d)
 
 
-def lcl_temperature_c(temperature_c, dewpoint_c):
+def lcl_temperature_c(temperature_c: ArrayLike, dewpoint_c: ArrayLike) -> np.ndarray:
     """Temperature at the lifting condensation level, degC (Bolton 1980 eq. 15)."""
     t_k = _as_float(temperature_c) + T0
     td_k = np.minimum(_as_float(dewpoint_c) + T0, t_k)
     return 1.0 / (1.0 / (td_k - 56.0) + np.log(t_k / td_k) / 800.0) + 56.0 - T0
 
 
-def equivalent_potential_temperature_k(pressure_hpa, temperature_c, dewpoint_c):
+def equivalent_potential_temperature_k(pressure_hpa: ArrayLike, temperature_c: ArrayLike,
+                                       dewpoint_c: ArrayLike) -> np.ndarray:
     """Equivalent potential temperature, K (Bolton 1980 eq. 39, with eq. 15 for T_L).
 
     Bolton states an accuracy of about 0.3 K against numerically integrated

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.thermo.constants import epsilon
 from ptype.thermo.saturation import (
@@ -31,7 +32,9 @@ def _humidity_ratio_from_wet_bulb(pressure_hpa, temperature_c, wetbulb_c, iced_b
     return np.where(np.asarray(iced_bulb) & (tw < 0.0), ice, liquid)
 
 
-def psychrometer_dewpoint_c(temperature_c, wetbulb_c, pressure_hpa=1013.25, iced_bulb=False):
+def psychrometer_dewpoint_c(temperature_c: ArrayLike, wetbulb_c: ArrayLike,
+                            pressure_hpa: ArrayLike = 1013.25,
+                            iced_bulb: bool = False) -> np.ndarray:
     """Dew point, degC, from psychrometer dry- and wet-bulb readings (inverse of the wet-bulb).
 
     Parameters
@@ -51,8 +54,9 @@ def psychrometer_dewpoint_c(temperature_c, wetbulb_c, pressure_hpa=1013.25, iced
     return dewpoint_from_vapor_pressure_c(e)
 
 
-def psychrometer_relative_humidity_pct(temperature_c, wetbulb_c, pressure_hpa=1013.25,
-                                       iced_bulb=False):
+def psychrometer_relative_humidity_pct(temperature_c: ArrayLike, wetbulb_c: ArrayLike,
+                                       pressure_hpa: ArrayLike = 1013.25,
+                                       iced_bulb: bool = False) -> np.ndarray:
     """Relative humidity over water, %, from psychrometer dry- and wet-bulb readings."""
     td = psychrometer_dewpoint_c(temperature_c, wetbulb_c, pressure_hpa, iced_bulb)
     return relative_humidity_pct(temperature_c, td)

@@ -9,7 +9,9 @@ in the units its argument names say and broadcasts over any shape.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
+from ptype.errors import OptionError
 from ptype.thermo.constants import T0, epsilon
 
 # Alduchov & Eskridge (1996) Magnus constants (their AERK / AERKi), e in hPa, T in degC.
@@ -21,7 +23,7 @@ def _as_float(x):
     return np.asarray(x, dtype=np.float64)
 
 
-def saturation_vapor_pressure_hpa(temperature_c, phase: str = "water"):
+def saturation_vapor_pressure_hpa(temperature_c: ArrayLike, phase: str = "water") -> np.ndarray:
     """Saturation vapour pressure, hPa.
 
     Parameters
@@ -50,10 +52,11 @@ def _phase_constants(phase: str):
         return _AE_WATER
     if phase == "ice":
         return _AE_ICE
-    raise ValueError(f"phase must be 'water' or 'ice', got {phase!r}")
+    raise OptionError(f"phase = {phase!r}: expected 'water' or 'ice'", field="phase")
 
 
-def saturation_vapor_pressure_murphy_koop_hpa(temperature_c, phase: str = "water"):
+def saturation_vapor_pressure_murphy_koop_hpa(temperature_c: ArrayLike,
+                                              phase: str = "water") -> np.ndarray:
     """Saturation vapour pressure from Murphy & Koop (2005), hPa.
 
     Eq. 10 (liquid water, valid 123-332 K) and eq. 7 (hexagonal ice, T > 110 K)
@@ -69,16 +72,16 @@ def saturation_vapor_pressure_murphy_koop_hpa(temperature_c, phase: str = "water
     elif phase == "ice":
         ln_e = 9.550426 - 5723.265 / t + 3.53068 * np.log(t) - 0.00728332 * t
     else:
-        raise ValueError(f"phase must be 'water' or 'ice', got {phase!r}")
+        raise OptionError(f"phase = {phase!r}: expected 'water' or 'ice'", field="phase")
     return np.exp(ln_e) / 100.0
 
 
-def vapor_pressure_from_dewpoint_hpa(dewpoint_c):
+def vapor_pressure_from_dewpoint_hpa(dewpoint_c: ArrayLike) -> np.ndarray:
     """Vapour pressure, hPa, from the dew point (saturation over water at Td; WMO convention)."""
     return saturation_vapor_pressure_hpa(dewpoint_c, "water")
 
 
-def dewpoint_from_vapor_pressure_c(vapor_pressure_hpa):
+def dewpoint_from_vapor_pressure_c(vapor_pressure_hpa: ArrayLike) -> np.ndarray:
     """Dew point, degC, inverting the Alduchov & Eskridge (1996) water form exactly."""
     a, b, c = _AE_WATER
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -86,31 +89,36 @@ def dewpoint_from_vapor_pressure_c(vapor_pressure_hpa):
         return c * x / (b - x)
 
 
-def mixing_ratio_g_kg(pressure_hpa, dewpoint_c):
-    """Water-vapour mixing ratio, g/kg: ``w = epsilon e / (p - e)`` (e.g. Wallace & Hobbs 2006 eq. 3.59)."""
+def mixing_ratio_g_kg(pressure_hpa: ArrayLike, dewpoint_c: ArrayLike) -> np.ndarray:
+    """Water-vapour mixing ratio, g/kg: ``w = epsilon e / (p - e)`` (e.g. Wallace & Hobbs 2006
+    eq. 3.59)."""
     e = vapor_pressure_from_dewpoint_hpa(dewpoint_c)
     return 1000.0 * epsilon * e / (_as_float(pressure_hpa) - e)
 
 
-def vapor_pressure_from_mixing_ratio_hpa(pressure_hpa, mixing_ratio_g_kg_):
+def vapor_pressure_from_mixing_ratio_hpa(pressure_hpa: ArrayLike,
+                                         mixing_ratio_g_kg_: ArrayLike) -> np.ndarray:
     """Vapour pressure, hPa, from mixing ratio: ``e = w p / (epsilon + w)``."""
     w = _as_float(mixing_ratio_g_kg_) / 1000.0
     return w * _as_float(pressure_hpa) / (epsilon + w)
 
 
-def dewpoint_from_mixing_ratio_c(pressure_hpa, mixing_ratio_g_kg_):
+def dewpoint_from_mixing_ratio_c(pressure_hpa: ArrayLike,
+                                 mixing_ratio_g_kg_: ArrayLike) -> np.ndarray:
     """Dew point, degC, from pressure and mixing ratio."""
     return dewpoint_from_vapor_pressure_c(
         vapor_pressure_from_mixing_ratio_hpa(pressure_hpa, mixing_ratio_g_kg_))
 
 
-def relative_humidity_pct(temperature_c, dewpoint_c):
-    """Relative humidity with respect to liquid water, %, ``100 e(Td) / e_s(T)`` (WMO-No. 8 convention)."""
+def relative_humidity_pct(temperature_c: ArrayLike, dewpoint_c: ArrayLike) -> np.ndarray:
+    """Relative humidity with respect to liquid water, %, ``100 e(Td) / e_s(T)`` (WMO-No. 8
+    convention)."""
     return 100.0 * (vapor_pressure_from_dewpoint_hpa(dewpoint_c)
                     / saturation_vapor_pressure_hpa(temperature_c, "water"))
 
 
-def dewpoint_from_relative_humidity_c(temperature_c, relative_humidity_pct_):
+def dewpoint_from_relative_humidity_c(temperature_c: ArrayLike,
+                                      relative_humidity_pct_: ArrayLike) -> np.ndarray:
     """Dew point, degC, from temperature and relative humidity over water (inverse of
     :func:`relative_humidity_pct`)."""
     e = saturation_vapor_pressure_hpa(temperature_c) * _as_float(relative_humidity_pct_) / 100.0

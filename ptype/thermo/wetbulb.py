@@ -13,8 +13,10 @@ The numpy solvers here serve installs without numba and check the compiled ones 
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.thermo.constants import epsilon
+from ptype.thermo.kinds import check_wet_bulb_kind
 from ptype.thermo.parcel import equivalent_potential_temperature_k
 from ptype.thermo.saturation import _AE_WATER, _as_float
 
@@ -60,7 +62,8 @@ def _isobaric_wet_bulb_c(pressure_hpa, temperature_c, dewpoint_c, step_tolerance
         num = (2501.0 - 2.326 * x) * wsat - 1.006 * (t - x)
         den = a_t - 4.186 * x
         f = num / den - w
-        df = ((-2.326 * wsat + (2501.0 - 2.326 * x) * dwsat + 1.006) * den + 4.186 * num) / (den * den)
+        df = (((-2.326 * wsat + (2501.0 - 2.326 * x) * dwsat + 1.006) * den + 4.186 * num)
+              / (den * den))
         # f increases with t*: a positive residual means the root lies below x.
         positive = f > 0
         hi = np.where(positive, x, hi)
@@ -108,7 +111,6 @@ def _adiabatic_secant(p, t, td, tolerance_k, max_iter):
     return np.clip(x, td, t)
 
 
-WET_BULB_KINDS = ("isobaric", "adiabatic")
 #: Arrays of at least this many valid points use the compiled solver of ptype.thermo.fast.
 #: Since the compiled solvers are vectorised they are the cheaper path for any size (a
 #: 60-level control column: ~0.3 ms in numpy, a few microseconds compiled); the numpy
@@ -124,7 +126,8 @@ def _fast_available() -> bool:
     return fast.AVAILABLE
 
 
-def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "isobaric"):
+def wet_bulb_temperature(pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
+                         kind: str = "isobaric") -> np.ndarray:
     """Wet-bulb temperature, degC, broadcasting over any shape.
 
     Parameters
@@ -132,27 +135,33 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     pressure_hpa, temperature_c, dewpoint_c : array_like
         Pressure (hPa), air temperature (degC) and dew point (degC, over water).
     kind : {"isobaric", "adiabatic"}
-        ``"isobaric"`` (default): the thermodynamic (psychrometric) wet-bulb over
-        liquid water, the temperature an air parcel reaches by evaporating water
-        into itself at constant pressure (ASHRAE 2017 ch. 1 eq. 35; AMS Glossary
-        "wet-bulb temperature").  Ramer (1993) uses this one.
+        One of :data:`ptype.thermo.WET_BULB_KINDS`.  ``"isobaric"`` (default): the
+        thermodynamic (psychrometric) wet-bulb over liquid water, the temperature an air
+        parcel reaches by evaporating water into itself at constant pressure (ASHRAE 2017
+        ch. 1 eq. 35; AMS Glossary "wet-bulb temperature").  Ramer (1993) uses this one.
         ``"adiabatic"``: the pseudo-adiabatic wet-bulb of Normand's rule (lift to
         the LCL, descend along the pseudo-adiabat; Knox et al. 2017), which
         Baldwin et al. (1994) use.  It is typically a few tenths of a kelvin
-        below the isobaric value (the brief's figure, from memory; the test
-        suite measures it against MetPy).
+        below the isobaric value (from memory; the test suite measures it
+        against MetPy).
 
     Returns
     -------
     numpy.ndarray
         Wet-bulb temperature, degC, with ``Td <= Tw <= T`` wherever the inputs
         are finite; NaN where any input is NaN.
+
+    Raises
+    ------
+    ptype.errors.OptionError
+        For a ``kind`` not in :data:`ptype.thermo.WET_BULB_KINDS`.
     """
+    check_wet_bulb_kind(kind)
     p, t, td = np.broadcast_arrays(_as_float(pressure_hpa), _as_float(temperature_c),
                                    _as_float(dewpoint_c))
     valid = np.isfinite(p) & np.isfinite(t) & np.isfinite(td) & (p > 0)
     n_valid = np.count_nonzero(valid)
-    if kind in WET_BULB_KINDS and n_valid >= _FAST_MIN_SIZE and _fast_available():
+    if n_valid >= _FAST_MIN_SIZE and _fast_available():
         # Large arrays: the compiled per-point solver (same equations; ptype.thermo.fast),
         # which itself gives NaN where an input is missing, so no gather and scatter.
         from ptype.thermo import fast
@@ -163,14 +172,13 @@ def wet_bulb_temperature(pressure_hpa, temperature_c, dewpoint_c, kind: str = "i
     pv, tv, tdv = p[valid], t[valid], td[valid]
     if kind == "isobaric":
         out[valid] = _isobaric_wet_bulb_c(pv, tv, tdv)
-    elif kind == "adiabatic":
-        out[valid] = _adiabatic_wet_bulb_c(pv, tv, tdv)
     else:
-        raise ValueError(f"kind must be one of {WET_BULB_KINDS}, got {kind!r}")
+        out[valid] = _adiabatic_wet_bulb_c(pv, tv, tdv)
     return out if out.ndim else out[()]
 
 
-def wet_bulb_temperatures(pressure_hpa, temperature_c, dewpoint_c) -> tuple[np.ndarray, np.ndarray]:
+def wet_bulb_temperatures(pressure_hpa: ArrayLike, temperature_c: ArrayLike,
+                          dewpoint_c: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Isobaric and pseudo-adiabatic wet-bulb together, degC: the same values as
     ``wet_bulb_temperature(..., kind="isobaric")`` and ``kind="adiabatic"``, in one compiled
     pass on large arrays (:func:`ptype.thermo.fast.wet_bulbs_c`)."""

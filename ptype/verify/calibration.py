@@ -11,14 +11,12 @@ outside its training sample).
 
 from __future__ import annotations
 
-from collections.abc import Sequence
 from datetime import UTC, datetime
-from typing import Any
 
 import numpy as np
 
 from ptype.codes import Code
-from ptype.engine.calibration import FEATURES, Calibration, features
+from ptype.engine.calibration import FEATURES, Calibration
 from ptype.errors import OptionError
 
 #: Inverse strength of the L2 penalty (scikit-learn's C); ours, chosen by cross-validation on
@@ -27,17 +25,6 @@ PENALTY_C = 0.3
 #: Fewest verifiable cases a calibration is fitted on, and the number of cross-validation folds.
 MIN_CASES = 30
 FOLDS = 5
-
-
-def engine_features(profiles: Sequence, *, members: int, seed, methods=None
-                    ) -> tuple[np.ndarray, np.ndarray, dict[str, np.ndarray]]:
-    """Features, raw member frequencies and engine fields of ``profiles`` (members > 0)."""
-    from ptype.verify.report import diagnose_cases
-    codes, prob = diagnose_cases(profiles, members=members, seed=seed, methods=methods)
-    if prob is None:
-        raise OptionError("members: a calibration needs Monte-Carlo members (at least 1)",
-                          field="members")
-    return features(codes, prob), prob, codes
 
 
 def fit_calibration(x: np.ndarray, observed: np.ndarray, *, source: str = "",
@@ -60,7 +47,7 @@ def fit_calibration(x: np.ndarray, observed: np.ndarray, *, source: str = "",
     return Calibration(classes=tuple(Code(int(c)).name for c in model.classes_),
                        coef=np.asarray(model.coef_, dtype=np.float64),
                        intercept=np.asarray(model.intercept_, dtype=np.float64),
-                       mean=mean, scale=scale, n_cases=int(len(observed)),
+                       mean=mean, scale=scale, n_cases=len(observed),
                        fitted=datetime.now(UTC).isoformat(timespec="seconds").replace(
                            "+00:00", "Z"),
                        source=source, extra=dict(extra or {}))
@@ -79,16 +66,6 @@ def cross_validated(x: np.ndarray, observed: np.ndarray, possible: np.ndarray, *
         cal = fit_calibration(x[train], observed[train])
         out[test] = cal.apply(x[test], possible[test])
     return out
-
-
-def held_out_summary(raw: np.ndarray, calibrated: np.ndarray, observed: np.ndarray,
-                     folds: int = FOLDS) -> dict[str, Any]:
-    """Scores of the raw member frequencies and of the held-out calibrated probabilities on
-    the same cases (ranked probability score, its skill, Brier scores and reliability)."""
-    from ptype.verify.report import probabilistic_scores
-    return {"folds": folds, "n": int(len(observed)),
-            "raw": probabilistic_scores(raw, observed),
-            "calibrated": probabilistic_scores(calibrated, observed)}
 
 
 def feature_names() -> list[str]:

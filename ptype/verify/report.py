@@ -252,7 +252,9 @@ def _held_out(codes: dict, prob: np.ndarray, observed: np.ndarray, seed) -> dict
         return None
     x = features(codes, raw)
     held = cv.cross_validated(x, observed, codes["possible"], seed=0 if seed is None else seed)
-    return cv.held_out_summary(raw, held, observed)
+    return {"folds": cv.FOLDS, "n": len(observed),
+            "raw": probabilistic_scores(raw, observed),
+            "calibrated": probabilistic_scores(held, observed)}
 
 
 # --------------------------------------------------------------------------- text table

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import importlib
+from types import ModuleType
 
 #: Method names in the order results list them.
 METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",
@@ -11,7 +12,7 @@ METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "clo
 _MODULE_OF: dict[str, str] = {}
 
 
-def get_method(name: str):
+def get_method(name: str) -> ModuleType:
     """The module implementing method ``name``."""
     if name not in METHOD_NAMES:
         from ptype.errors import OptionError

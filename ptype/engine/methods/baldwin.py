@@ -3,8 +3,8 @@
 Baldwin, M., R. Treadon and S. Contorno, 1994: Precipitation type prediction using a
 decision tree approach with a mesoscale model.  Preprints, 10th Conf. on Numerical Weather
 Prediction, Portland OR, Amer. Meteor. Soc., 30-31 (citation key ``Baldwin1994``).  All
-thresholds as used in operational model post-processing (see ``docs/methods.md``).  The revision (:mod:`ptype.engine.methods.baldwin_revised`) only replaces the
-snow test (step 3).
+thresholds as used in operational model post-processing (see ``docs/methods.md``).  The
+revision (:mod:`ptype.engine.methods.baldwin_revised`) only replaces the snow test (step 3).
 
 Baldwin's tree reads the **pseudo-adiabatic wet-bulb** ``Tw`` (Normand's rule; Columns'
 ``wetbulb_adiabatic_c``), the air temperature ``T`` and the dew point ``Td``.  Areas are
@@ -43,9 +43,11 @@ written to reduce its FZRA/PL bias.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import NO_RESULT, Code
-from ptype.engine.columns import interpolate_at_pressure
+from ptype.engine import wording as w
+from ptype.engine.columns import Columns, interpolate_at_pressure
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
 from ptype.engine.methods.base import Context, MethodResult, Step, select_first
@@ -108,7 +110,8 @@ def _integrand(height_m, value_c):
     return za, zb, va, ok, slope
 
 
-def area_k_m(height_m, value_c, bottom_m, top_m, part: str = "net", *, integrand=None):
+def area_k_m(height_m: ArrayLike, value_c: ArrayLike, bottom_m: ArrayLike, top_m: ArrayLike,
+             part: str = "net", *, integrand: tuple | None = None) -> np.ndarray:
     """Integral of ``value_c`` over height between ``bottom_m`` and ``top_m``, K m.
 
     ``value_c`` (n, L) is taken linear in height between levels (NaN-padded trailing levels
@@ -203,7 +206,7 @@ if _COMPILED:  # the helper is inlined into the compiled parts loop
 _parts_compiled = compiled(_parts_loop, numpy_errors=True)
 
 
-def saturated_levels(columns):
+def saturated_levels(columns: Columns) -> tuple[np.ndarray, np.ndarray]:
     """Baldwin's saturated levels.
 
     Returns ``(mask (n, L), depression_k (n,))``: the levels found with the first dew-point
@@ -329,14 +332,6 @@ def run(ctx: Context) -> MethodResult:
     return run_tree(ctx, revised=False)
 
 
-def _f(x, digits=1):
-    """A number for a sentence: true minus sign, no negative zero."""
-    text = f"{x + 0.0:.{digits}f}"
-    if float(text) == 0.0:
-        text = text.lstrip("-")
-    return text.replace("-", "\u2212")
-
-
 def explain_tree(result: MethodResult, i: int, *, revised: bool) -> list[Step]:
     """The trace of column ``i`` for either variant, from ``result.values`` only."""
     src = SOURCE_REVISED if revised else SOURCE
@@ -346,81 +341,101 @@ def explain_tree(result: MethodResult, i: int, *, revised: bool) -> list[Step]:
         return [Step(rule, "Fewer than two valid levels: Baldwin's tree needs a profile.",
                      source=src)]
     if rule == "no_saturated_layer":
-        return [Step(rule, "No level between 70 hPa above the surface and 500 hPa has a dew-point "
-                     f"depression below {SATURATION_DEPRESSIONS_K[-1]:.0f} K: no saturated layer "
-                     "to make precipitation, so Baldwin's tree gives no type.", {},
+        band = (f"{w.pressure(SATURATION_SEARCH_ABOVE_SURFACE_HPA)} above the surface and "
+                f"{w.pressure(SATURATION_SEARCH_TOP_HPA)}")
+        return [Step(rule, f"No level between {band} has a dew-point "
+                     f"depression below {w.kelvin(SATURATION_DEPRESSIONS_K[-1])}: no saturated "
+                     "layer to make precipitation, so Baldwin's tree gives no type.", {},
                      {"dewpoint_depression_k": SATURATION_DEPRESSIONS_K[-1]}, src)]
-    steps: list[Step] = []
-    dep = v["saturation_depression_k"]
-    relaxed = "" if dep == SATURATION_DEPRESSIONS_K[0] else f" (limit relaxed to {dep:.0f} K)"
-    steps.append(Step("saturated_layer",
-                      f"Saturated levels (T \u2212 Td < {dep:.0f} K{relaxed}) reach up to "
-                      f"{v['highest_saturated_hpa']:.0f} hPa; the coldest is "
-                      f"{_f(v['cloud_coldest_c'])} \u00b0C and the warmest "
-                      f"{_f(v['cloud_warmest_c'])} \u00b0C at {v['cloud_warmest_hpa']:.0f} hPa.",
-                      {"saturation_depression_k": dep,
-                       "highest_saturated_hpa": v["highest_saturated_hpa"],
-                       "cloud_coldest_c": v["cloud_coldest_c"],
-                       "cloud_warmest_c": v["cloud_warmest_c"]},
-                      {"dewpoint_depression_k": dep}, src))
+    steps = [_saturation_step(v, src)]
     tc, st = v["cloud_coldest_c"], v["surface_temperature_c"]
+    no_ice = w.temperature(NO_ICE_CLOUD_C, trim=True)
+    zero = w.temperature(0.0, trim=True)
     if rule in ("no_ice_freezing", "no_ice_rain"):
-        kind = ("at or below 0 \u00b0C: freezing rain" if rule == "no_ice_freezing"
-                else "above 0 \u00b0C: rain")
-        steps.append(Step(rule, f"The coldest saturated level, {_f(tc)} \u00b0C, is warmer than "
-                          f"{_f(NO_ICE_CLOUD_C)} \u00b0C, so the cloud holds no ice; the surface "
-                          f"temperature {_f(st)} \u00b0C is {kind}.  (Whether this is drizzle "
-                          "rather than rain is for the cloud-top method to say; Baldwin's tree "
-                          "answers rain or freezing rain.)",
+        kind = (f"at or below {zero}: freezing rain" if rule == "no_ice_freezing"
+                else f"above {zero}: rain")
+        steps.append(Step(rule, f"The coldest saturated level, {w.temperature(tc)}, is warmer "
+                          f"than {no_ice}, so the cloud holds no ice; the surface temperature "
+                          f"{w.temperature(st)} is {kind}.  (Whether this is drizzle rather than "
+                          "rain is for the cloud-top method to say; Baldwin's tree answers rain "
+                          "or freezing rain.)",
                           {"cloud_coldest_c": tc, "surface_temperature_c": st},
                           {"cloud_coldest_c": NO_ICE_CLOUD_C, "surface_temperature_c": 0.0}, src))
         return steps
-    steps.append(Step("ice_in_cloud", f"The coldest saturated level, {_f(tc)} \u00b0C, is at or "
-                      f"below {_f(NO_ICE_CLOUD_C)} \u00b0C: the cloud makes ice.",
+    steps.append(Step("ice_in_cloud", f"The coldest saturated level, {w.temperature(tc)}, is at "
+                      f"or below {no_ice}: the cloud makes ice.",
                       {"cloud_coldest_c": tc}, {"cloud_coldest_c": NO_ICE_CLOUD_C}, src))
-    if revised:
-        area, limit, key = v["areap0_k_m"], AREAP0_SNOW_K_M, "areap0_k_m"
-        what = "wet-bulb above 0 \u00b0C"
-    else:
-        area, limit, key = v["areap4_k_m"], AREAP4_SNOW_K_M, "areap4_k_m"
-        what = f"wet-bulb above {_f(NO_ICE_CLOUD_C)} \u00b0C (measured from {_f(NO_ICE_CLOUD_C)})"
-    label = "AREAP0" if revised else "AREAP4"
+    steps.append(_snow_step(v, rule, revised, src))
     if rule == "snow_area":
-        steps.append(Step(rule, f"{label}, the area of {what} below the highest saturated level, "
-                          f"is {area:.0f} K\u00b7m < {limit:.0f} K\u00b7m: too little warmth to melt "
-                          "the ice, snow.", {key: area}, {key: limit}, src))
         return steps
-    steps.append(Step("snow_area", f"{label}, the area of {what} below the highest saturated "
-                      f"level, is {area:.0f} K\u00b7m \u2265 {limit:.0f} K\u00b7m: enough warmth to "
-                      "melt the ice.", {key: area}, {key: limit}, src))
-    surfc, areas8, surfw = v["surfc_k_m"], v["areas8_k_m"], v["surfw_k_m"]
-    pl_vals = {"surfc_k_m": surfc, "areas8_k_m": areas8, "surfw_k_m": surfw}
-    pl_th = {"surfc_k_m": SURFC_PELLETS_K_M, "areas8_k_m": AREAS8_PELLETS_K_M,
-             "surfw_k_m": SURFW_PELLETS_K_M}
-    if rule == "pellets_surface_cold":
-        steps.append(Step(rule, f"SURFC, the cold wet-bulb area from the ground up to the warmest "
-                          f"saturated level, is {_f(surfc, 0)} K\u00b7m < {_f(SURFC_PELLETS_K_M, 0)} "
-                          "K\u00b7m: melted drops refreeze, ice pellets.", pl_vals, pl_th, src))
+    steps.append(_pellets_step(v, rule, src))
+    if rule in ("pellets_surface_cold", "pellets_low_cold"):
         return steps
-    if rule == "pellets_low_cold":
-        steps.append(Step(rule, f"AREAS8, the net wet-bulb area of the lowest "
-                          f"{AREAS8_DEPTH_HPA:.0f} hPa, is {_f(areas8, 0)} K\u00b7m < "
-                          f"{_f(AREAS8_PELLETS_K_M, 0)} K\u00b7m and SURFW, the warm area next to the "
-                          f"ground, is {_f(surfw, 0)} K\u00b7m < {_f(SURFW_PELLETS_K_M, 0)} K\u00b7m: "
-                          "ice pellets.", pl_vals, pl_th, src))
-        return steps
-    steps.append(Step("pellets_test", f"No refreezing to ice pellets: SURFC {_f(surfc, 0)} K\u00b7m "
-                      f"is not below {_f(SURFC_PELLETS_K_M, 0)} K\u00b7m, and AREAS8 "
-                      f"{_f(areas8, 0)} K\u00b7m with SURFW {_f(surfw, 0)} K\u00b7m does not meet "
-                      f"AREAS8 < {_f(AREAS8_PELLETS_K_M, 0)} K\u00b7m together with SURFW < "
-                      f"{_f(SURFW_PELLETS_K_M, 0)} K\u00b7m.", pl_vals, pl_th, src))
     if rule == "freezing_rain":
-        text = f"Surface temperature {_f(st)} \u00b0C < 0 \u00b0C: freezing rain."
+        text = f"Surface temperature {w.temperature(st)} < {zero}: freezing rain."
     else:
-        text = f"Surface temperature {_f(st)} \u00b0C \u2265 0 \u00b0C: rain."
+        text = f"Surface temperature {w.temperature(st)} {w.GE} {zero}: rain."
     steps.append(Step(rule, text, {"surface_temperature_c": st}, {"surface_temperature_c": 0.0},
                       src))
     return steps
+
+
+def _saturation_step(v: dict, src: str) -> Step:
+    """Step 1 of the tree: the saturated levels and the criterion that found them."""
+    dep = v["saturation_depression_k"]
+    relaxed = ("" if dep == SATURATION_DEPRESSIONS_K[0]
+               else f" (limit relaxed to {w.kelvin(dep)})")
+    return Step("saturated_layer",
+                f"Saturated levels (T {w.MINUS} Td < {w.kelvin(dep)}{relaxed}) reach up to "
+                f"{w.pressure(v['highest_saturated_hpa'])}; the coldest is "
+                f"{w.temperature(v['cloud_coldest_c'])} and the warmest "
+                f"{w.temperature(v['cloud_warmest_c'])} at {w.pressure(v['cloud_warmest_hpa'])}.",
+                {"saturation_depression_k": dep,
+                 "highest_saturated_hpa": v["highest_saturated_hpa"],
+                 "cloud_coldest_c": v["cloud_coldest_c"],
+                 "cloud_warmest_c": v["cloud_warmest_c"]},
+                {"dewpoint_depression_k": dep}, src)
+
+
+def _snow_step(v: dict, rule: str, revised: bool, src: str) -> Step:
+    """Step 3: AREAP4 (or the revision's AREAP0) against its snow limit."""
+    if revised:
+        area, limit, key, label = v["areap0_k_m"], AREAP0_SNOW_K_M, "areap0_k_m", "AREAP0"
+        what = f"wet-bulb above {w.temperature(0.0, trim=True)}"
+    else:
+        area, limit, key, label = v["areap4_k_m"], AREAP4_SNOW_K_M, "areap4_k_m", "AREAP4"
+        no_ice = w.temperature(NO_ICE_CLOUD_C, trim=True)
+        what = f"wet-bulb above {no_ice} (measured from {no_ice})"
+    head = f"{label}, the area of {what} below the highest saturated level, is {w.area(area)}"
+    if rule == "snow_area":
+        text = f"{head} < {w.area(limit)}: too little warmth to melt the ice, snow."
+    else:
+        text = f"{head} {w.GE} {w.area(limit)}: enough warmth to melt the ice."
+    return Step("snow_area", text, {key: area}, {key: limit}, src)
+
+
+def _pellets_step(v: dict, rule: str, src: str) -> Step:
+    """Step 5: the two ice-pellet tests on SURFC, AREAS8 and SURFW."""
+    surfc, areas8, surfw = v["surfc_k_m"], v["areas8_k_m"], v["surfw_k_m"]
+    values = {"surfc_k_m": surfc, "areas8_k_m": areas8, "surfw_k_m": surfw}
+    limits = {"surfc_k_m": SURFC_PELLETS_K_M, "areas8_k_m": AREAS8_PELLETS_K_M,
+              "surfw_k_m": SURFW_PELLETS_K_M}
+    if rule == "pellets_surface_cold":
+        text = (f"SURFC, the cold wet-bulb area from the ground up to the warmest saturated "
+                f"level, is {w.area(surfc)} < {w.area(SURFC_PELLETS_K_M)}: melted drops "
+                "refreeze, ice pellets.")
+    elif rule == "pellets_low_cold":
+        text = (f"AREAS8, the net wet-bulb area of the lowest {w.pressure(AREAS8_DEPTH_HPA)}, "
+                f"is {w.area(areas8)} < {w.area(AREAS8_PELLETS_K_M)} and SURFW, the warm area "
+                f"next to the ground, is {w.area(surfw)} < {w.area(SURFW_PELLETS_K_M)}: ice "
+                "pellets.")
+    else:
+        rule = "pellets_test"
+        text = (f"No refreezing to ice pellets: SURFC {w.area(surfc)} is not below "
+                f"{w.area(SURFC_PELLETS_K_M)}, and AREAS8 {w.area(areas8)} with SURFW "
+                f"{w.area(surfw)} does not meet AREAS8 < {w.area(AREAS8_PELLETS_K_M)} together "
+                f"with SURFW < {w.area(SURFW_PELLETS_K_M)}.")
+    return Step(rule, text, values, limits, src)
 
 
 def explain(result: MethodResult, i: int) -> list[Step]:

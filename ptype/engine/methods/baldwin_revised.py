@@ -1,8 +1,9 @@
 """The 2005 revision of the Baldwin et al. (1994) decision tree.
 
 Written to reduce the original's freezing-rain/ice-pellet bias (thresholds as used in
-operational model post-processing, see ``docs/methods.md``; citation key ``Baldwin1994``).  It keeps every step of :mod:`ptype.engine.methods.baldwin` except the
-snow test: instead of ``AREAP4 < 3000 K m`` it uses
+operational model post-processing, see ``docs/methods.md``; citation key ``Baldwin1994``).
+It keeps every step of :mod:`ptype.engine.methods.baldwin` except the snow test: instead
+of ``AREAP4 < 3000 K m`` it uses
 
 ``AREAP0 = integral of Tw dz`` over the parts with ``Tw >= 0 degC`` from the ground to the
 highest saturated level; ``AREAP0 < 350 K m`` -> SN.

@@ -18,9 +18,10 @@ from __future__ import annotations
 import dataclasses
 import functools
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.engine.columns import Columns
 from ptype.engine.layers import (
@@ -50,6 +51,7 @@ class Step:
     source: str = ""
 
     def to_dict(self) -> dict:
+        """The step as JSON-ready data (floats rounded to 3 decimals, NaN as None)."""
         return {"rule": self.rule, "text": self.text,
                 "values": {k: _round(v) for k, v in self.values.items()},
                 "thresholds": {k: _round(v) for k, v in self.thresholds.items()},
@@ -65,7 +67,8 @@ def _round(v):
     return v
 
 
-def select_first(conditions, choices, default):
+def select_first(conditions: Sequence[ArrayLike], choices: Sequence[ArrayLike],
+                 default: ArrayLike) -> np.ndarray:
     """``np.select(conditions, choices, default)`` (the first true condition wins) as a chain of
     ``np.where`` from the last condition back: same values and dtype for the rule tables of the
     methods, without np.select's per-call set-up (it runs several times per diagnosis)."""
@@ -86,9 +89,11 @@ class MethodResult:
     explainer: Callable[[MethodResult, int], list[Step]] | None = None
 
     def steps(self, i: int) -> list[Step]:
+        """The explanation of column ``i`` (none without an explainer)."""
         return self.explainer(self, i) if self.explainer else []
 
     def value(self, key: str, i: int) -> float:
+        """``values[key]`` of column ``i`` as a float."""
         return float(self.values[key][i])
 
 
@@ -115,22 +120,26 @@ class Context:
 
     @functools.cached_property
     def cloud_mask(self) -> np.ndarray:
+        """Saturated levels (:func:`ptype.engine.layers.cloud_mask`), ``(n, L)``."""
         c = self.columns
         return cloud_mask(c.temperature_c, c.dewpoint_c, c.relative_humidity_pct)
 
     @functools.cached_property
     def cloud_layers(self) -> CloudLayers:
-        """Cloud layers at least :data:`ptype.engine.layers.MIN_CLOUD_DEPTH_M` deep."""
+        """Runs of saturated levels at least :data:`ptype.engine.layers.MIN_CLOUD_DEPTH_M` deep:
+        the cloud layers."""
         c = self.columns
         return without_thin_runs(level_runs(self.cloud_mask, c.pressure_hpa, c.height_m,
                                             c.temperature_c))
 
     @functools.cached_property
     def dry_layers(self) -> CloudLayers:
+        """Runs of dry levels (:func:`ptype.engine.layers.dry_mask`)."""
         c = self.columns
         return level_runs(self.dry_mask, c.pressure_hpa, c.height_m, c.temperature_c)
 
     @functools.cached_property
     def dry_mask(self) -> np.ndarray:
+        """Dry levels (:func:`ptype.engine.layers.dry_mask`), ``(n, L)``."""
         c = self.columns
         return dry_mask(c.temperature_c, c.dewpoint_c, c.relative_humidity_pct)

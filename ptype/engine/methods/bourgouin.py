@@ -23,10 +23,10 @@ into four cases:
 
 An elevated warm layer (or the sum of them) under 2 J/kg is ignored.
 
-The thresholds 2, 5.6, 13.2 J/kg and the lines 46 + 0.66 PA, 66 + 0.66 PA are
-confirmed against the operational implementation (brief section 1); which case
-each applies to follows the paper's figures (from memory, consistent with that code).
-Where the operational code picks a type at random inside the mix zones, we report the mix.
+The thresholds 2, 5.6, 13.2 J/kg and the lines 46 + 0.66 PA, 66 + 0.66 PA are those of
+Bourgouin2000 as operational post-processing uses them (common practice); which case each
+applies to follows the paper's figures (from memory).  Where operational practice draws a
+type at random inside the mix zones, we report the mix.
 """
 
 from __future__ import annotations
@@ -34,6 +34,8 @@ from __future__ import annotations
 import numpy as np
 
 from ptype.codes import Code
+from ptype.engine import wording as w
+from ptype.engine.layers import TOP_LIMIT_HPA
 from ptype.engine.methods.base import Context, MethodResult, Step
 
 NAME = "bourgouin"
@@ -71,6 +73,7 @@ RULES = (
 
 
 def run(ctx: Context) -> MethodResult:
+    """Bourgouin (2000) for every column of ``ctx`` (the cases of the module docstring)."""
     lay = ctx.air_layers
     c = ctx.columns
     _, K = lay.kind.shape
@@ -113,56 +116,81 @@ def run(ctx: Context) -> MethodResult:
     return MethodResult(NAME, code, rule, values, explain)
 
 
-_CASES = ("D (whole column below 0 °C)", "C (warm layer at the surface only)",
+_CASES = (f"D (whole column below {w.temperature(0.0, trim=True)})",
+          "C (warm layer at the surface only)",
           "A (warm layer aloft over a cold surface layer)",
           "B (warm surface layer, cold layer, warm layer aloft)")
+_SURFACE_LAYER_OUTCOME = {"surface_layer_snow": "too little to melt snow: snow",
+                          "surface_layer_mix": "partial melting: rain and snow",
+                          "surface_layer_rain": "enough to melt snow: rain"}
+_SURFACE_THRESHOLDS = {"snow_below_j_kg": SURFACE_SNOW_J_KG, "rain_above_j_kg": SURFACE_RAIN_J_KG}
 
 
 def explain(result: MethodResult, i: int) -> list[Step]:
+    """Bourgouin's reasoning for column ``i``: the profile case, then the areas compared."""
     v = {k: (float(a[i]) if np.ndim(a) == 1 else a[i]) for k, a in result.values.items()}
     rule = RULES[int(result.rule[i])]
     case = int(v["case"])
-    steps = [Step("profile_case", f"Profile case {_CASES[case]}.", {"case": "DCAB"[case]}, {}, SOURCE)]
-    pa, na, pas = v["pa_aloft_j_kg"], v["na_j_kg"], v["pa_surface_j_kg"]
-    lo, hi = v["line_liquid_j_kg"], v["line_ice_j_kg"]
+    steps = [Step("profile_case", f"Profile case {_CASES[case]}.", {"case": "DCAB"[case]}, {},
+                  SOURCE)]
+    pa, pas = v["pa_aloft_j_kg"], v["pa_surface_j_kg"]
     if v["ignored_aloft"]:
-        steps.append(Step("weak_aloft_ignored",
-                          f"The warm area aloft, {pa:.1f} J/kg, is under {MIN_ALOFT_J_KG} J/kg and is ignored.",
+        steps.append(Step("weak_aloft_ignored", f"The warm area aloft, {w.energy(pa)}, is under "
+                          f"{w.energy(MIN_ALOFT_J_KG)} and is ignored.",
                           {"pa_aloft_j_kg": pa}, {"min_aloft_j_kg": MIN_ALOFT_J_KG}, SOURCE))
-    thresholds_sfc = {"snow_below_j_kg": SURFACE_SNOW_J_KG, "rain_above_j_kg": SURFACE_RAIN_J_KG}
-    thresholds_lines = {"liquid_line_j_kg": lo, "ice_line_j_kg": hi,
-                        "line": "46 + 0.66 PA / 66 + 0.66 PA"}
     if rule == "all_cold":
-        steps.append(Step(rule, "No layer above 0 °C below 250 hPa: snow.", {}, {}, SOURCE))
+        steps.append(Step(rule, f"No layer above {w.temperature(0.0, trim=True)} below "
+                          f"{w.pressure(TOP_LIMIT_HPA)}: snow.", {}, {}, SOURCE))
     elif rule.startswith("surface_layer"):
-        outcome = {"surface_layer_snow": "too little to melt snow: snow",
-                   "surface_layer_mix": "partial melting: rain and snow",
-                   "surface_layer_rain": "enough to melt snow: rain"}[rule]
-        steps.append(Step(rule, f"Surface warm area {pas:.1f} J/kg vs {SURFACE_SNOW_J_KG}/{SURFACE_RAIN_J_KG} J/kg: "
-                                f"{outcome}.", {"pa_surface_j_kg": pas}, thresholds_sfc, SOURCE))
+        steps.append(Step(rule, f"Surface warm area {w.energy(pas)} against "
+                          f"{w.energy(SURFACE_SNOW_J_KG)} and {w.energy(SURFACE_RAIN_J_KG)}: "
+                          f"{_SURFACE_LAYER_OUTCOME[rule]}.", {"pa_surface_j_kg": pas},
+                          _SURFACE_THRESHOLDS, SOURCE))
     else:
-        where = ("refreezing area NA" if case == 2 else "middle cold-layer area NA")
-        if na > hi:
-            verdict = f"above the ice line {hi:.1f} J/kg: drops refreeze to ice pellets"
-        elif na < lo:
-            verdict = f"below the liquid line {lo:.1f} J/kg: drops stay liquid"
-        else:
-            verdict = f"between the lines {lo:.1f} and {hi:.1f} J/kg: partial refreezing"
-        steps.append(Step("refreezing_lines",
-                          f"Warm area aloft PA = {pa:.1f} J/kg; {where} = {na:.1f} J/kg, {verdict}.",
-                          {"pa_aloft_j_kg": pa, "na_j_kg": na}, thresholds_lines, SOURCE))
-        final = {
-            "refreeze_pellets": "ice pellets",
-            "refreeze_mix": "freezing rain and ice pellets (mix zone)",
-            "no_refreeze_freezing": f"surface air {v['surface_temperature_c']:.1f} °C is below 0 °C: freezing rain",
-            "no_refreeze_warm_surface": f"surface air {v['surface_temperature_c']:.1f} °C is not below 0 °C: rain",
-            "b_pellets_survive": f"surface warm area {pas:.1f} J/kg < {SURFACE_SNOW_J_KG}: pellets survive",
-            "b_pellets_partly_melt": f"surface warm area {pas:.1f} J/kg between {SURFACE_SNOW_J_KG} and {SURFACE_RAIN_J_KG}: rain and ice pellets",
-            "b_pellets_melt": f"surface warm area {pas:.1f} J/kg > {SURFACE_RAIN_J_KG}: pellets melt, rain",
-            "b_liquid": "liquid drops fall through a warm surface layer: rain",
-            "b_between": f"partly refrozen drops meet a surface warm area of {pas:.1f} J/kg: rain and ice pellets",
-        }[rule]
-        steps.append(Step(rule, final[0].upper() + final[1:] + ".",
-                          {"pa_surface_j_kg": pas, "surface_temperature_c": v["surface_temperature_c"]},
-                          thresholds_sfc if rule.startswith("b_") else {"surface_freezing_c": 0.0}, SOURCE))
+        steps.append(_lines_step(v, case))
+        steps.append(_refreezing_outcome_step(v, rule))
     return steps
+
+
+def _lines_step(v: dict, case: int) -> Step:
+    """Cases A and B: the refreezing area against the two lines of the warm area aloft."""
+    pa, na = v["pa_aloft_j_kg"], v["na_j_kg"]
+    lo, hi = v["line_liquid_j_kg"], v["line_ice_j_kg"]
+    where = "refreezing area NA" if case == 2 else "middle cold-layer area NA"
+    if na > hi:
+        verdict = f"above the ice line {w.energy(hi)}: drops refreeze to ice pellets"
+    elif na < lo:
+        verdict = f"below the liquid line {w.energy(lo)}: drops stay liquid"
+    else:
+        verdict = f"between the lines {w.energy(lo)} and {w.energy(hi)}: partial refreezing"
+    return Step("refreezing_lines",
+                f"Warm area aloft PA = {w.energy(pa)}; {where} = {w.energy(na)}, {verdict}.",
+                {"pa_aloft_j_kg": pa, "na_j_kg": na},
+                {"liquid_line_j_kg": lo, "ice_line_j_kg": hi,
+                 "line": "46 + 0.66 PA / 66 + 0.66 PA"}, SOURCE)
+
+
+def _refreezing_outcome_step(v: dict, rule: str) -> Step:
+    """Cases A and B: the type the lines (and, in case B, the surface layer) give."""
+    pas, sfc = v["pa_surface_j_kg"], v["surface_temperature_c"]
+    zero = w.temperature(0.0, trim=True)
+    surface_area = f"surface warm area {w.energy(pas)}"
+    snow, rain = w.energy(SURFACE_SNOW_J_KG), w.energy(SURFACE_RAIN_J_KG)
+    final = {
+        "refreeze_pellets": "ice pellets",
+        "refreeze_mix": "freezing rain and ice pellets (mix zone)",
+        "no_refreeze_freezing": f"surface air {w.temperature(sfc)} is below {zero}: "
+                                "freezing rain",
+        "no_refreeze_warm_surface": f"surface air {w.temperature(sfc)} is not below {zero}: rain",
+        "b_pellets_survive": f"{surface_area} < {snow}: pellets survive",
+        "b_pellets_partly_melt": f"{surface_area} between {snow} and {rain}: rain and ice "
+                                 "pellets",
+        "b_pellets_melt": f"{surface_area} > {rain}: pellets melt, rain",
+        "b_liquid": "liquid drops fall through a warm surface layer: rain",
+        "b_between": f"partly refrozen drops meet a surface warm area of {w.energy(pas)}: "
+                     "rain and ice pellets",
+    }[rule]
+    return Step(rule, final[0].upper() + final[1:] + ".",
+                {"pa_surface_j_kg": pas, "surface_temperature_c": sfc},
+                _SURFACE_THRESHOLDS if rule.startswith("b_") else {"surface_freezing_c": 0.0},
+                SOURCE)

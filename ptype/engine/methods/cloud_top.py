@@ -8,7 +8,7 @@ Following a hydrometeor from its source to the ground in four steps
    below 0 degC).  A cloud layer makes ice when its coldest temperature is at or
    below :data:`ICE_NUCLEATION_C` (-10 degC: heterogeneous freezing is likeliest
    below -10 degC and deposition nucleation is efficient from -10 to -20 degC,
-   NWS Louisville guidance quoted in the brief, section 6).  A higher ice cloud
+   NWS ice-nucleation guidance, common practice; Baumgardt2000).  A higher ice cloud
    *seeds* a lower one unless the gap between them holds more than
    :data:`SEEDING_GAP_M` of dry air (RH over water below 80 %, :mod:`ptype.engine.layers`)
    in which the crystals sublimate (ours, from memory of seeder-feeder
@@ -19,8 +19,8 @@ Following a hydrometeor from its source to the ground in four steps
 2. Without ice the cloud rains out by collision-coalescence as **drizzle**:
    freezing drizzle when the surface air is at or below 0 degC (Huffman &
    Norman 1988; Bocchieri 1980), whatever the melting-layer methods say -
-   provided the cloud is at least :data:`DRIZZLE_CLOUD_DEPTH_M` deep (ours);
-   a shallower humid layer gives no result.  Cloud layers thinner than
+   provided the cloud's liquid part is at least :data:`DRIZZLE_CLOUD_DEPTH_M` deep
+   (ours); a shallower cloud gives no result.  Cloud layers thinner than
    :data:`ptype.engine.layers.MIN_CLOUD_DEPTH_M` are not clouds at all.
 3. With ice, the **warm layers** decide melting by their maximum temperature
    (Stewart & King 1987): above 3 degC complete melting; 1-3 degC partial
@@ -29,8 +29,8 @@ Following a hydrometeor from its source to the ground in four steps
    (:func:`warm_layer_peaks_c`, ours): a warm but dry layer cools falling snow
    by sublimation and does not melt it.
 4. The **near-surface cold layer** refreezes drops that melted completely only
-   if it is colder than -8 degC (WPC training guidance quoted in the brief,
-   section 6); partly melted particles keep an ice core and refreeze readily.
+   if it is colder than -8 degC (WPC forecaster training guidance, common
+   practice); partly melted particles keep an ice core and refreeze readily.
 """
 
 from __future__ import annotations
@@ -38,6 +38,7 @@ from __future__ import annotations
 import numpy as np
 
 from ptype.codes import NO_RESULT, Code
+from ptype.engine import wording as w
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
 from ptype.engine.layers import (
@@ -64,15 +65,16 @@ PARTIAL_MELT_C = 1.0
 REFREEZE_COLD_LAYER_C = -8.0
 #: Precipitation freezes on contact when the surface air is at or below this, degC.
 FREEZING_SURFACE_C = 0.0
-#: A cloud that makes no ice gives drizzle only when it is at least this deep, m (ours:
-#: collision-coalescence needs a deep enough supercooled layer to grow drizzle drops; the
-#: freezing-drizzle stratus of Huffman & Norman 1988 are several hundred metres deep).
-#: A shallower humid layer abstains instead of overriding the other methods.
+#: A cloud that makes no ice gives drizzle only when its liquid part is at least this deep, m
+#: (ours: collision-coalescence needs a deep enough supercooled layer to grow drizzle drops;
+#: the freezing-drizzle stratus of Huffman & Norman 1988 are several hundred metres deep).
+#: A shallower cloud abstains instead of overriding the other methods.
 DRIZZLE_CLOUD_DEPTH_M = 300.0
 
 RULES = ("no_cloud", "no_ice_freezing_drizzle", "no_ice_drizzle", "melted_freezing_rain",
-         "melted_refrozen_pellets", "melted_rain", "partly_melted_pellets", "partly_melted_rain_pellets",
-         "surface_melt_rain", "surface_melt_rain_snow", "snow", "cloud_too_shallow")
+         "melted_refrozen_pellets", "melted_rain", "partly_melted_pellets",
+         "partly_melted_rain_pellets", "surface_melt_rain", "surface_melt_rain_snow", "snow",
+         "cloud_too_shallow")
 _LUT = np.array([NO_RESULT, Code.FZDZ, Code.DZ, Code.FZRA, Code.PL, Code.RA, Code.PL, Code.RAPL,
                  Code.RA, Code.RASN, Code.SN, NO_RESULT], dtype=np.int64)
 
@@ -193,6 +195,7 @@ def warm_layer_peaks_c(columns) -> tuple[np.ndarray, np.ndarray]:
 
 
 def run(ctx: Context) -> MethodResult:
+    """The top-down reasoning for every column of ``ctx`` (see the module docstring)."""
     c = ctx.columns
     ia = ice_analysis(ctx)
     aloft_max, surface_max = warm_layer_peaks_c(c)
@@ -200,7 +203,8 @@ def run(ctx: Context) -> MethodResult:
     Ka = air.kind.shape[1]
     ka = np.arange(Ka)[None, :]
     aloft_warm_air = (air.kind > 0) & (ka > 0)
-    highest = np.where(aloft_warm_air.any(axis=1), Ka - 1 - np.argmax(aloft_warm_air[:, ::-1], axis=1), 0)
+    highest = np.where(aloft_warm_air.any(axis=1),
+                       Ka - 1 - np.argmax(aloft_warm_air[:, ::-1], axis=1), 0)
     cold_below = (air.kind < 0) & (ka < highest[:, None])
     cold_min = np.where(cold_below, air.extreme_c, 0.0).min(axis=1)
     sfc_t = c.surface_temperature_c
@@ -222,68 +226,99 @@ def run(ctx: Context) -> MethodResult:
     return MethodResult(NAME, _LUT[rule], rule, values, explain)
 
 
+_ICE_THRESHOLDS = {"ice_nucleation_c": ICE_NUCLEATION_C, "seeding_gap_m": SEEDING_GAP_M}
+
+
 def explain(result: MethodResult, i: int) -> list[Step]:
+    """The top-down reasoning for column ``i``: ice in the cloud, then melting and refreezing
+    on the way down, from ``result.values`` only."""
     v = {k: a[i] for k, a in result.values.items()}
     rule = RULES[int(result.rule[i])]
     if rule == "no_cloud":
         return [Step(rule, "No saturated layer in the profile: the cloud-top reasoning cannot say "
                            "where precipitation forms.", {}, {}, SOURCE_ICE)]
-    steps = []
+    if not v["ice"]:
+        return _no_ice_steps(v, rule)
+    return [_ice_step(v), _melting_step(v, rule)]
+
+
+def _ice_step(v: dict) -> Step:
+    """Step 1 with ice: the cloud's own, or seeded from a higher cloud."""
     top_c = float(v["top_cloud_min_c"])
     low_c = float(v["lowest_cloud_min_c"])
-    th = {"ice_nucleation_c": ICE_NUCLEATION_C, "seeding_gap_m": SEEDING_GAP_M}
-    if v["ice"]:
-        if v["seeded"]:
-            text = (f"The lowest cloud (coldest {low_c:.1f} °C) is too warm to make ice itself but is "
-                    f"seeded by ice from a higher cloud (top {float(v['top_cloud_top_hpa']):.0f} hPa, "
-                    f"{top_c:.1f} °C) through a gap with at most {SEEDING_GAP_M:.0f} m of dry air.")
-        else:
-            text = (f"The cloud reaches {low_c if low_c <= ICE_NUCLEATION_C else top_c:.1f} °C, at or below "
-                    f"{ICE_NUCLEATION_C:.0f} °C: it makes ice.")
-        steps.append(Step("ice_present", text, {"cloud_min_c": min(low_c, top_c)}, th, SOURCE_ICE))
-    elif rule == "cloud_too_shallow":
-        depth = float(v["lowest_cloud_depth_m"])
-        steps.append(Step(rule, f"The lowest cloud makes no ice and its liquid part is {depth:.0f} m "
-                                f"deep: too shallow to grow drizzle (at least "
-                                f"{DRIZZLE_CLOUD_DEPTH_M:.0f} m, ours), so this method does not "
-                                "decide.", {"lowest_cloud_depth_m": depth},
-                          {"drizzle_cloud_depth_m": DRIZZLE_CLOUD_DEPTH_M},
-                          "ours (collision-coalescence needs a deep cloud)"))
-        return steps
+    nucleation = w.temperature(ICE_NUCLEATION_C, trim=True)
+    if v["seeded"]:
+        text = (f"The lowest cloud (coldest {w.temperature(low_c)}) is too warm to make ice "
+                f"itself but is seeded by ice from a higher cloud (top "
+                f"{w.pressure(float(v['top_cloud_top_hpa']))}, {w.temperature(top_c)}) through "
+                f"a gap with at most {w.height(SEEDING_GAP_M)} of dry air.")
     else:
-        steps.append(Step("no_ice", f"The precipitating cloud is no colder than {low_c:.1f} °C "
-                          f"(ice needs {ICE_NUCLEATION_C:.0f} °C or colder) and no higher ice cloud seeds it: "
-                          "supercooled liquid, growing as drizzle.",
-                          {"cloud_min_c": low_c}, th, SOURCE_ICE))
-        sfc = float(v["surface_temperature_c"])
-        word = "freezing drizzle" if rule == "no_ice_freezing_drizzle" else "drizzle"
-        steps.append(Step(rule, f"Surface air {sfc:.1f} °C: {word}.", {"surface_temperature_c": sfc},
-                          {"freezing_surface_c": FREEZING_SURFACE_C}, "Huffman & Norman (1988)"))
-        return steps
+        coldest = low_c if low_c <= ICE_NUCLEATION_C else top_c
+        text = (f"The cloud reaches {w.temperature(coldest)}, at or below {nucleation}: it "
+                "makes ice.")
+    return Step("ice_present", text, {"cloud_min_c": min(low_c, top_c)}, _ICE_THRESHOLDS,
+                SOURCE_ICE)
+
+
+def _no_ice_steps(v: dict, rule: str) -> list[Step]:
+    """Steps 1-2 without ice: supercooled drops grow as drizzle, freezing on a cold surface
+    (or, in too shallow a cloud, no decision)."""
+    low_c = float(v["lowest_cloud_min_c"])
+    if rule == "cloud_too_shallow":
+        depth = float(v["lowest_cloud_depth_m"])
+        return [Step(rule, f"The lowest cloud makes no ice and its liquid part is "
+                           f"{w.height(depth)} deep: too shallow to grow drizzle (at least "
+                           f"{w.height(DRIZZLE_CLOUD_DEPTH_M)}, ours), so this method does not "
+                           "decide.", {"lowest_cloud_depth_m": depth},
+                     {"drizzle_cloud_depth_m": DRIZZLE_CLOUD_DEPTH_M},
+                     "ours (collision-coalescence needs a deep cloud)")]
+    sfc = float(v["surface_temperature_c"])
+    word = "freezing drizzle" if rule == "no_ice_freezing_drizzle" else "drizzle"
+    return [
+        Step("no_ice", f"The precipitating cloud is no colder than {w.temperature(low_c)} (ice "
+             f"needs {w.temperature(ICE_NUCLEATION_C, trim=True)} or colder) and no higher ice "
+             "cloud seeds it: supercooled liquid, growing as drizzle.",
+             {"cloud_min_c": low_c}, _ICE_THRESHOLDS, SOURCE_ICE),
+        Step(rule, f"Surface air {w.temperature(sfc)}: {word}.", {"surface_temperature_c": sfc},
+             {"freezing_surface_c": FREEZING_SURFACE_C}, "Huffman & Norman (1988)"),
+    ]
+
+
+def _melting_step(v: dict, rule: str) -> Step:
+    """Steps 3-4 with ice: the warm layers melt it (Stewart & King 1987), the cold layer
+    below may refreeze it."""
     aloft = float(v["max_temperature_aloft_c"])
     sfc_l = float(v["max_temperature_surface_layer_c"])
     cold = float(v["cold_layer_min_c"])
     sfc = float(v["surface_temperature_c"])
-    mth = {"complete_melt_c": COMPLETE_MELT_C, "partial_melt_c": PARTIAL_MELT_C}
+    t_aloft, t_sfc, t_cold = w.temperature(aloft), w.temperature(sfc), w.temperature(cold)
+    complete = w.temperature(COMPLETE_MELT_C, trim=True)
+    partial = w.temperature(PARTIAL_MELT_C, trim=True)
+    band = f"{partial} to {complete}"
+    peak = f"A melting layer aloft peaks at {t_aloft}"
     texts = {
-        "melted_freezing_rain": f"A warm layer aloft peaks at {aloft:+.1f} °C (> {COMPLETE_MELT_C}): "
-                                f"snow melts completely; the cold layer below reaches only {cold:.1f} °C "
-                                f"(refreezing needs {REFREEZE_COLD_LAYER_C} °C) and the surface is {sfc:.1f} °C: freezing rain.",
-        "melted_refrozen_pellets": f"A warm layer aloft peaks at {aloft:+.1f} °C: snow melts completely, "
-                                   f"then the cold layer below reaches {cold:.1f} °C: drops refreeze to ice pellets.",
-        "melted_rain": f"A warm layer aloft peaks at {aloft:+.1f} °C: snow melts completely and the "
-                       f"surface air is {sfc:.1f} °C: rain.",
-        "partly_melted_pellets": f"A warm layer aloft peaks at {aloft:+.1f} °C (1-3 °C): partial melting; "
-                                 f"the particles refreeze below and the surface is {sfc:.1f} °C: ice pellets.",
-        "partly_melted_rain_pellets": f"A warm layer aloft peaks at {aloft:+.1f} °C (1-3 °C): partial melting; "
-                                      f"the surface air is {sfc:.1f} °C: rain and ice pellets.",
-        "surface_melt_rain": f"The surface-based warm layer peaks at {sfc_l:+.1f} °C: snow melts: rain.",
-        "surface_melt_rain_snow": f"The surface-based warm layer peaks at {sfc_l:+.1f} °C (1-3 °C): "
-                                  "partial melting: rain and snow.",
-        "snow": f"No melting layer reaches {PARTIAL_MELT_C} °C (warmest {max(aloft, sfc_l):+.1f} °C): snow.",
+        "melted_freezing_rain": f"{peak} (> {complete}): snow melts completely; the cold layer "
+                                f"below reaches only {t_cold} (refreezing needs "
+                                f"{w.temperature(REFREEZE_COLD_LAYER_C, trim=True)}) and the "
+                                f"surface is {t_sfc}: freezing rain.",
+        "melted_refrozen_pellets": f"{peak}: snow melts completely, then the cold layer below "
+                                   f"reaches {t_cold}: drops refreeze to ice pellets.",
+        "melted_rain": f"{peak}: snow melts completely and the surface air is {t_sfc}: rain.",
+        "partly_melted_pellets": f"{peak} ({band}): partial melting; the particles refreeze "
+                                 f"below and the surface is {t_sfc}: ice pellets.",
+        "partly_melted_rain_pellets": f"{peak} ({band}): partial melting; the surface air is "
+                                      f"{t_sfc}: rain and ice pellets.",
+        "surface_melt_rain": f"The surface-based melting layer peaks at "
+                             f"{w.temperature(sfc_l)}: snow melts: rain.",
+        "surface_melt_rain_snow": f"The surface-based melting layer peaks at "
+                                  f"{w.temperature(sfc_l)} ({band}): partial melting: rain and "
+                                  "snow.",
+        "snow": f"No melting layer reaches {partial} (warmest "
+                f"{w.temperature(max(aloft, sfc_l))}): snow.",
     }
     src = SOURCE_REFREEZE if rule.startswith("melted") else SOURCE_MELT
-    steps.append(Step(rule, texts[rule], {"max_temperature_aloft_c": aloft, "max_temperature_surface_layer_c": sfc_l,
-                                          "cold_layer_min_c": cold, "surface_temperature_c": sfc},
-                      dict(mth, refreeze_cold_layer_c=REFREEZE_COLD_LAYER_C), src))
-    return steps
+    return Step(rule, texts[rule],
+                {"max_temperature_aloft_c": aloft, "max_temperature_surface_layer_c": sfc_l,
+                 "cold_layer_min_c": cold, "surface_temperature_c": sfc},
+                {"complete_melt_c": COMPLETE_MELT_C, "partial_melt_c": PARTIAL_MELT_C,
+                 "refreeze_cold_layer_c": REFREEZE_COLD_LAYER_C}, src)

@@ -55,8 +55,10 @@ Choices (ours, documented in ``docs/methods.md``):
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import NO_RESULT, Code
+from ptype.engine import wording as w
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
 from ptype.engine.layers import TOP_LIMIT_HPA
@@ -117,18 +119,19 @@ def _check_radius(radius_m):
     return r
 
 
-def air_density_kg_m3(pressure_hpa, temperature_c):
+def air_density_kg_m3(pressure_hpa: ArrayLike, temperature_c: ArrayLike) -> np.ndarray:
     """Dry-air density, ``p / (R_d T)``, kg m-3."""
     return np.asarray(pressure_hpa) * 100.0 / (Rd * (np.asarray(temperature_c) + T0))
 
 
-def air_viscosity_pa_s(temperature_c):
+def air_viscosity_pa_s(temperature_c: ArrayLike) -> np.ndarray:
     """Dynamic viscosity of air, Pa s (Sutherland's law, U.S. Standard Atmosphere 1976)."""
     t = np.asarray(temperature_c, dtype=np.float64) + T0
     return 1.458e-6 * t ** 1.5 / (t + 110.4)
 
 
-def terminal_velocity_m_s(diameter_m, air_density=FALL_SPEED_REFERENCE_DENSITY):
+def terminal_velocity_m_s(diameter_m: ArrayLike,
+                          air_density: ArrayLike = FALL_SPEED_REFERENCE_DENSITY) -> np.ndarray:
     """Fall speed of a raindrop, m/s: Atlas et al. (1973) fit to Gunn & Kinzer (1949),
     ``9.65 - 10.3 exp(-0.6 D[mm])``, times ``(1.204 / rho_air)^0.4`` (Foote & du Toit 1969).
     Constants from memory, unverified."""
@@ -137,7 +140,7 @@ def terminal_velocity_m_s(diameter_m, air_density=FALL_SPEED_REFERENCE_DENSITY):
                                                    / np.asarray(air_density)) ** 0.4
 
 
-def ventilation_factor(reynolds_number):
+def ventilation_factor(reynolds_number: ArrayLike) -> np.ndarray:
     """Mean ventilation factor of a falling sphere (Pruppacher & Klett 1997, from memory,
     unverified): ``X = Sc^(1/3) Re^(1/2)``; ``1 + 0.108 X^2`` for X < 1.4, else
     ``0.78 + 0.308 X``."""
@@ -145,20 +148,22 @@ def ventilation_factor(reynolds_number):
     return np.where(x < 1.4, 1.0 + 0.108 * x * x, 0.78 + 0.308 * x)
 
 
-def vapour_diffusivity_m2_s(pressure_hpa, temperature_c):
+def vapour_diffusivity_m2_s(pressure_hpa: ArrayLike, temperature_c: ArrayLike) -> np.ndarray:
     """``D_v = 2.11e-5 (T/T0)^1.94 (1013.25/p)`` m2/s (Pruppacher & Klett 1997, from memory)."""
     t = np.asarray(temperature_c, dtype=np.float64) + T0
     return VAPOUR_DIFFUSIVITY_M2_S * (t / T0) ** 1.94 * (1013.25 / np.asarray(pressure_hpa))
 
 
-def vapour_density_excess_kg_m3(vapour_pressure_hpa, temperature_c):
+def vapour_density_excess_kg_m3(vapour_pressure_hpa: ArrayLike,
+                                temperature_c: ArrayLike) -> np.ndarray:
     """Ambient vapour density minus the saturation vapour density over water at 0 degC, kg m-3."""
     e = np.asarray(vapour_pressure_hpa, dtype=np.float64) * 100.0
     es0 = float(saturation_vapor_pressure_hpa(0.0)) * 100.0
     return e / (Rv * (np.asarray(temperature_c) + T0)) - es0 / (Rv * T0)
 
 
-def fall_state(radius_m, pressure_hpa, mean_excess_c):
+def fall_state(radius_m: ArrayLike, pressure_hpa: ArrayLike,
+               mean_excess_c: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Fall speed (m/s) and ventilation factor of the particle in the warm layer."""
     r = _check_radius(radius_m)
     rho = air_density_kg_m3(pressure_hpa, mean_excess_c)
@@ -167,8 +172,9 @@ def fall_state(radius_m, pressure_hpa, mean_excess_c):
     return v, ventilation_factor(reynolds)
 
 
-def melting_time_s(radius_m, mean_excess_c, *, pressure_hpa=850.0,
-                   vapour_density_excess_kg_m3_=0.0, ventilation=None):
+def melting_time_s(radius_m: ArrayLike, mean_excess_c: ArrayLike, *,
+                   pressure_hpa: ArrayLike = 850.0, vapour_density_excess_kg_m3_: ArrayLike = 0.0,
+                   ventilation: ArrayLike | None = None) -> np.ndarray:
     """Time to melt an ice sphere of radius ``radius_m`` completely, s.
 
     ``t_m = rho_i L_f r0^2 / (2 f [K_a dT + L_v D_v d_rho_v])`` (Mason 1971; Pruppacher &
@@ -187,8 +193,9 @@ def melting_time_s(radius_m, mean_excess_c, *, pressure_hpa=850.0,
         return np.where(heat > 0.0, rho_i * Lf * r * r / (2.0 * ventilation * heat), np.inf)
 
 
-def tau(depth_m, mean_excess_c, *, radius_m=PARTICLE_RADIUS_M, pressure_hpa=850.0,
-        vapour_density_excess_kg_m3_=0.0):
+def tau(depth_m: ArrayLike, mean_excess_c: ArrayLike, *, radius_m: ArrayLike = PARTICLE_RADIUS_M,
+        pressure_hpa: ArrayLike = 850.0,
+        vapour_density_excess_kg_m3_: ArrayLike = 0.0) -> np.ndarray:
     """Czys et al. (1996) ``tau = t_r / t_m`` for a warm layer ``depth_m`` deep whose mean
     excess over 0 degC is ``mean_excess_c`` (``t_r = depth / fall speed``)."""
     v, f = fall_state(radius_m, pressure_hpa, mean_excess_c)
@@ -371,79 +378,93 @@ def run(ctx: Context, *, radius_m: float | None = None,
                         explainer=explain)
 
 
-def _f(x, digits=1):
-    """A number for a sentence: true minus sign, no negative zero."""
-    text = f"{x + 0.0:.{digits}f}"
-    if float(text) == 0.0:
-        text = text.lstrip("-")
-    return text.replace("-", "\u2212")
+#: Why Czys's tau gives no type outside its domain (Czys et al. 1996; Rauber et al. 2001).
+_DOMAIN = ("Czys's \u03c4 applies only to the three-layer profile (ice cloud aloft, one "
+           "elevated warm layer, a sub-freezing surface layer)")
 
 
 def explain(result: MethodResult, i: int) -> list[Step]:
     """Czys's reasoning for column ``i``, from ``result.values`` only."""
     v = {k: float(a[i]) for k, a in result.values.items()}
     rule = RULES[int(result.rule[i])]
-    domain = ("Czys's \u03c4 applies only to the three-layer profile (ice cloud aloft, one "
-              "elevated warm layer, a sub-freezing surface layer)")
+    outside = _outside_domain_step(v, rule)
+    if outside is not None:
+        return [outside]
     sfc = v["surface_temperature_c"]
-    if rule == "insufficient_levels":
-        return [Step(rule, "Fewer than two valid levels: no layers to examine.", source=SOURCE)]
-    if rule == "surface_not_freezing":
-        return [Step(rule, f"The surface is at {_f(sfc)} \u00b0C, not below 0 \u00b0C: {domain}, "
-                     "so it gives no type here.", {"surface_temperature_c": sfc},
-                     {"surface_temperature_c": 0.0}, SOURCE)]
-    if rule == "no_elevated_warm_layer":
-        return [Step(rule, f"No layer above 0 \u00b0C aloft: {domain}; with nothing to melt the "
-                     "particle the question it answers does not arise.",
-                     {"layer_count": v["layer_count"]}, {}, SOURCE)]
-    if rule == "not_three_layers":
-        return [Step(rule, f"The temperature profile has {int(v['layer_count'])} layers about "
-                     f"0 \u00b0C, not three: {domain}, so it gives no type here.",
-                     {"layer_count": v["layer_count"]}, {"layer_count": 3}, SOURCE)]
-    steps = [Step("three_layers", f"Three-layer profile: a sub-freezing surface ({_f(sfc)} "
-                  f"\u00b0C) under a warm layer {v['warm_bottom_hpa']:.0f}\u2013"
-                  f"{v['warm_top_hpa']:.0f} hPa, {v['warm_depth_m']:.0f} m deep, mean "
-                  f"{_f(v['warm_mean_excess_c'], 2)} \u00b0C above freezing.",
+    steps = [Step("three_layers", f"Three-layer profile: a sub-freezing surface "
+                  f"({w.temperature(sfc)}) under a warm layer "
+                  f"{w.pressure_range(v['warm_bottom_hpa'], v['warm_top_hpa'])}, "
+                  f"{w.height(v['warm_depth_m'])} deep, mean "
+                  f"{w.temperature(v['warm_mean_excess_c'], 2)} above freezing.",
                   {"surface_temperature_c": sfc, "warm_depth_m": v["warm_depth_m"],
                    "warm_mean_excess_c": v["warm_mean_excess_c"]},
                   {"surface_temperature_c": 0.0}, SOURCE)]
-    cmin = v["cloud_coldest_above_c"]
+    steps.append(_ice_cloud_step(v, rule))
     if rule == "no_ice_cloud_aloft":
-        if np.isfinite(cmin):
-            text = (f"But the cloud above the warm layer is no colder than {_f(cmin)} \u00b0C, "
-                    f"warmer than {_f(ICE_CLOUD_MAX_C)} \u00b0C, so it is unlikely to make ice: "
-                    f"{domain}.")
-        else:
-            text = f"But there is no cloud above the warm layer to make ice: {domain}."
-        steps.append(Step(rule, text, {"cloud_coldest_above_c": cmin},
-                          {"cloud_coldest_above_c": ICE_CLOUD_MAX_C}, SOURCE))
         return steps
-    steps.append(Step("ice_cloud_aloft", f"Cloud above the warm layer reaches {_f(cmin)} \u00b0C "
-                      f"(\u2264 {_f(ICE_CLOUD_MAX_C)} \u00b0C): ice falls into the warm layer.",
-                      {"cloud_coldest_above_c": cmin},
-                      {"cloud_coldest_above_c": ICE_CLOUD_MAX_C}, SOURCE))
-    r_um = v["particle_radius_m"] * 1e6
+    steps.append(_melting_time_step(v))
+    t = v["tau"]
+    if rule == "complete_melting":
+        text = (f"\u03c4 = {w.number(t, 2)} {w.GE} 1: the particle melts completely and the "
+                "drop supercools in the cold surface layer: freezing rain.")
+    else:
+        text = (f"\u03c4 = {w.number(t, 2)} < 1: an ice core survives the warm layer and the "
+                "drop refreezes in the cold surface layer: ice pellets.")
+    steps.append(Step(rule, text, {"tau": t}, {"tau": 1.0}, SOURCE))
+    return steps
+
+
+def _outside_domain_step(v: dict, rule: str) -> Step | None:
+    """The one step of a column outside the three-layer domain, or None inside it."""
+    zero = w.temperature(0.0, trim=True)
+    if rule == "insufficient_levels":
+        return Step(rule, "Fewer than two valid levels: no layers to examine.", source=SOURCE)
+    if rule == "surface_not_freezing":
+        sfc = v["surface_temperature_c"]
+        return Step(rule, f"The surface is at {w.temperature(sfc)}, not below {zero}: "
+                    f"{_DOMAIN}, so it gives no type here.", {"surface_temperature_c": sfc},
+                    {"surface_temperature_c": 0.0}, SOURCE)
+    if rule == "no_elevated_warm_layer":
+        return Step(rule, f"No layer above {zero} aloft: {_DOMAIN}; with nothing to melt the "
+                    "particle the question it answers does not arise.",
+                    {"layer_count": v["layer_count"]}, {}, SOURCE)
+    if rule == "not_three_layers":
+        return Step(rule, f"The temperature profile has {int(v['layer_count'])} layers about "
+                    f"{zero}, not three: {_DOMAIN}, so it gives no type here.",
+                    {"layer_count": v["layer_count"]}, {"layer_count": 3}, SOURCE)
+    return None
+
+
+def _ice_cloud_step(v: dict, rule: str) -> Step:
+    """Whether a cloud above the warm layer is cold enough to send ice into it."""
+    cmin = v["cloud_coldest_above_c"]
+    limit = w.temperature(ICE_CLOUD_MAX_C, trim=True)
+    values, limits = {"cloud_coldest_above_c": cmin}, {"cloud_coldest_above_c": ICE_CLOUD_MAX_C}
+    if rule != "no_ice_cloud_aloft":
+        return Step("ice_cloud_aloft", f"Cloud above the warm layer reaches "
+                    f"{w.temperature(cmin)} ({w.LE} {limit}): ice falls into the warm layer.",
+                    values, limits, SOURCE)
+    if np.isfinite(cmin):
+        text = (f"But the cloud above the warm layer is no colder than {w.temperature(cmin)}, "
+                f"warmer than {limit}, so it is unlikely to make ice: {_DOMAIN}.")
+    else:
+        text = f"But there is no cloud above the warm layer to make ice: {_DOMAIN}."
+    return Step(rule, text, values, limits, SOURCE)
+
+
+def _melting_time_step(v: dict) -> Step:
+    """The particle's residence and melting times in the warm layer."""
     if np.isfinite(v["melting_time_s"]):
-        needs = (f"needs {v['melting_time_s']:.0f} s to melt (ventilation factor "
-                 f"{v['ventilation_factor']:.2f})")
+        needs = (f"needs {w.seconds(v['melting_time_s'])} to melt (ventilation factor "
+                 f"{w.number(v['ventilation_factor'], 2)})")
     else:
         needs = ("cannot melt at all: the layer is so dry that evaporation cools the particle "
                  "more than the warm air heats it")
-    steps.append(Step("melting_time", f"An ice sphere of radius {r_um:.0f} \u00b5m falling at "
-                      f"{v['fall_speed_m_s']:.2f} m/s spends {v['residence_time_s']:.0f} s in the "
-                      f"warm layer and {needs}.",
-                      {"particle_radius_m": v["particle_radius_m"],
-                       "fall_speed_m_s": v["fall_speed_m_s"],
-                       "residence_time_s": v["residence_time_s"],
-                       "melting_time_s": v["melting_time_s"],
-                       "vapour_density_excess_kg_m3": v["vapour_density_excess_kg_m3"]}, {},
-                      SOURCE))
-    t = v["tau"]
-    if rule == "complete_melting":
-        text = (f"\u03c4 = {t:.2f} \u2265 1: the particle melts completely and the drop "
-                "supercools in the cold surface layer: freezing rain.")
-    else:
-        text = (f"\u03c4 = {t:.2f} < 1: an ice core survives the warm layer and the drop "
-                "refreezes in the cold surface layer: ice pellets.")
-    steps.append(Step(rule, text, {"tau": t}, {"tau": 1.0}, SOURCE))
-    return steps
+    return Step("melting_time", f"An ice sphere of radius {w.micrometres(v['particle_radius_m'])} "
+                f"falling at {w.speed(v['fall_speed_m_s'])} spends "
+                f"{w.seconds(v['residence_time_s'])} in the warm layer and {needs}.",
+                {"particle_radius_m": v["particle_radius_m"],
+                 "fall_speed_m_s": v["fall_speed_m_s"],
+                 "residence_time_s": v["residence_time_s"],
+                 "melting_time_s": v["melting_time_s"],
+                 "vapour_density_excess_kg_m3": v["vapour_density_excess_kg_m3"]}, {}, SOURCE)

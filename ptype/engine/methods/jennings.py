@@ -11,10 +11,10 @@ with T the 2 m air temperature in degC and RH in %; snow when p_snow >= 0.5.
 
 Also :func:`ding_category` - Ding et al. (2014), *J. Hydrology* 513, 154-163,
 doi:10.1016/j.jhydrol.2014.03.038: thresholds on the wet-bulb that depend on RH
-and elevation, giving snow / sleet (a rain-snow mix) / rain.  The T0 equation
-is confirmed in public code; the dT and dS expressions are from memory
-(unverified), supported by the close agreement of the confirmed polynomial
-form (brief section 8).  It is reported in the steps, not voted.
+and elevation, giving snow / sleet (a rain-snow mix) / rain (Ding2014).  The T0
+equation is as published; the dT and dS expressions are from memory (unverified),
+supported by their agreement (within 0.01 K for RH 0.8-1.0) with a polynomial form
+of T_min in public use (common practice).  It is reported in the steps, not voted.
 
 Neither looks aloft: they cannot see a warm nose, so they can only say rain or snow.
 """
@@ -22,8 +22,10 @@ Neither looks aloft: they cannot see a warm nose, so they can only say rain or s
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import Code
+from ptype.engine import wording as w
 from ptype.engine.methods.base import Context, MethodResult, Step
 
 NAME = "jennings"
@@ -37,14 +39,15 @@ SOURCE = "Jennings et al. (2018), Nat. Commun. 9, 1148, Suppl. Table 2"
 SOURCE_DING = "Ding et al. (2014), J. Hydrol. 513, 154-163 (dT, dS from memory)"
 
 
-def snow_probability(temperature_c, relative_humidity_pct):
+def snow_probability(temperature_c: ArrayLike, relative_humidity_pct: ArrayLike) -> np.ndarray:
     """Jennings et al. (2018) bivariate logistic probability of snow."""
     t = np.asarray(temperature_c, dtype=np.float64)
     rh = np.asarray(relative_humidity_pct, dtype=np.float64)
     return 1.0 / (1.0 + np.exp(ALPHA + BETA * t + GAMMA * rh))
 
 
-def ding_thresholds_c(relative_humidity_pct, elevation_m):
+def ding_thresholds_c(relative_humidity_pct: ArrayLike,
+                      elevation_m: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
     """Ding et al. (2014) wet-bulb thresholds ``(t_min, t_max)`` in degC.
 
     ``T0 = -5.87 - 0.1042 Z + 0.0885 Z**2 + 16.06 RH - 9.614 RH**2`` (Z in km, RH a
@@ -67,7 +70,8 @@ def ding_thresholds_c(relative_humidity_pct, elevation_m):
     return t_min, t_max
 
 
-def ding_category(wetbulb_c, relative_humidity_pct, elevation_m):
+def ding_category(wetbulb_c: ArrayLike, relative_humidity_pct: ArrayLike,
+                  elevation_m: ArrayLike) -> np.ndarray:
     """Ding et al. (2014) class: Code.SN, Code.RASN (their 'sleet' = rain-snow mix) or Code.RA."""
     t_min, t_max = ding_thresholds_c(relative_humidity_pct, elevation_m)
     tw = np.asarray(wetbulb_c, dtype=np.float64)
@@ -78,6 +82,8 @@ RULES = ("snow", "rain")
 
 
 def run(ctx: Context) -> MethodResult:
+    """Jennings et al. (2018) at the surface of every column of ``ctx``, with the Ding et al.
+    (2014) class as a cross-check in the values."""
     c = ctx.columns
     p = snow_probability(c.surface_temperature_c, c.surface_relative_humidity_pct)
     snow = p >= SNOW_PROBABILITY_THRESHOLD
@@ -89,27 +95,32 @@ def run(ctx: Context) -> MethodResult:
               "surface_relative_humidity_pct": c.surface_relative_humidity_pct,
               "surface_wetbulb_c": c.surface_wetbulb_c, "elevation_m": elev,
               "ding_t_min_c": t_min, "ding_t_max_c": t_max,
-              "ding_code": ding_category(c.surface_wetbulb_c, c.surface_relative_humidity_pct, elev)}
+              "ding_code": ding_category(c.surface_wetbulb_c, c.surface_relative_humidity_pct,
+                                         elev)}
     return MethodResult(NAME, code, rule, values, explain)
 
 
 def explain(result: MethodResult, i: int) -> list[Step]:
+    """The Ding et al. (2014) cross-check, then the Jennings et al. (2018) rule that decided."""
     v = {k: float(a[i]) for k, a in result.values.items()}
     rule = RULES[int(result.rule[i])]
     word = "snow" if rule == "snow" else "rain"
     ding = Code(int(v["ding_code"])).label
+    t_sfc = v["surface_temperature_c"]
+    rh_sfc = v["surface_relative_humidity_pct"]
     # The cross-check comes first so that the last step is always the rule that decided.
     return [
-        Step("ding_check", f"Cross-check (Ding et al. 2014): surface wet-bulb {v['surface_wetbulb_c']:+.1f} °C "
-                           f"against {v['ding_t_min_c']:+.1f}/{v['ding_t_max_c']:+.1f} °C at "
-                           f"{v['elevation_m']:.0f} m gives {ding}.",
+        Step("ding_check", f"Cross-check (Ding et al. 2014): surface wet-bulb "
+             f"{w.temperature(v['surface_wetbulb_c'])} against "
+             f"{w.temperature(v['ding_t_min_c'])} and {w.temperature(v['ding_t_max_c'])} at "
+             f"{w.height(v['elevation_m'])} gives {ding}.",
              {"surface_wetbulb_c": v["surface_wetbulb_c"], "elevation_m": v["elevation_m"]},
              {"t_min_c": v["ding_t_min_c"], "t_max_c": v["ding_t_max_c"]}, SOURCE_DING),
-        Step(rule, f"Surface air {v['surface_temperature_c']:+.1f} °C at {v['surface_relative_humidity_pct']:.0f} % "
-                   f"relative humidity gives a snow probability of {v['snow_probability']:.2f} "
-                   f"(snow at {SNOW_PROBABILITY_THRESHOLD} or more): {word}. This looks at the surface only.",
-             {"snow_probability": v["snow_probability"], "surface_temperature_c": v["surface_temperature_c"],
-              "surface_relative_humidity_pct": v["surface_relative_humidity_pct"]},
+        Step(rule, f"Surface air {w.temperature(t_sfc)} at {w.percent(rh_sfc)} relative "
+             f"humidity gives a snow probability of {w.fraction(v['snow_probability'])} (snow at "
+             f"{SNOW_PROBABILITY_THRESHOLD} or more): {word}. This looks at the surface only.",
+             {"snow_probability": v["snow_probability"], "surface_temperature_c": t_sfc,
+              "surface_relative_humidity_pct": rh_sfc},
              {"snow_probability_threshold": SNOW_PROBABILITY_THRESHOLD,
               "alpha": ALPHA, "beta": BETA, "gamma": GAMMA}, SOURCE),
     ]

@@ -29,8 +29,8 @@ wet-bulb** profile ``Tw`` and tracks its ice fraction ``I`` (1 = all ice, 0 = al
    ``I <= 0.04`` -> FZRA if surface ``Tw < 0``, else RA.
 
 Between 0.04 and 0.85 the particle lands partly melted.  Operational multi-algorithm
-practice lets Ramer abstain there and leaves the call to the other methods.  ptype reports a mix instead by
-default, chosen from what the particle went through:
+practice lets Ramer abstain there and leaves the call to the other methods.  ptype reports a
+mix instead by default, chosen from what the particle went through:
 
 * surface ``Tw < 0 degC``: FZRAPL (liquid that freezes on contact with partly frozen
   pellets; a partly melted flake that refreezes partly is a pellet in the making);
@@ -48,8 +48,10 @@ RH = 1 gives ``dI = ln(875/825) * (-2) / 0.045 = -2.6``: it melts completely.
 from __future__ import annotations
 
 import numpy as np
+from numpy.typing import ArrayLike
 
 from ptype.codes import NO_RESULT, Code
+from ptype.engine import wording as w
 from ptype.engine.compiled import AVAILABLE as _COMPILED
 from ptype.engine.compiled import compiled
 from ptype.engine.layers import level_index_runs
@@ -104,8 +106,9 @@ _RULE = {name: k for k, name in enumerate(RULES)}
 SOURCE = "Ramer (1993); constants as used operationally"
 
 
-def ice_fraction_change(pressure_bottom_hpa, pressure_top_hpa, mean_wetbulb_c,
-                        mean_relative_humidity_fraction):
+def ice_fraction_change(pressure_bottom_hpa: ArrayLike, pressure_top_hpa: ArrayLike,
+                        mean_wetbulb_c: ArrayLike,
+                        mean_relative_humidity_fraction: ArrayLike) -> np.ndarray:
     """Ramer's (1993) change of ice fraction across a layer.
 
     ``dI = ln(p_b / p_t) * (T0 - Tw) / (E * RH^efac)`` with the layer-mean wet-bulb and RH;
@@ -116,7 +119,8 @@ def ice_fraction_change(pressure_bottom_hpa, pressure_top_hpa, mean_wetbulb_c,
         mean_wetbulb_c, mean_relative_humidity_fraction)
 
 
-def ice_fraction_change_ln(log_pressure_ratio, mean_wetbulb_c, mean_relative_humidity_fraction):
+def ice_fraction_change_ln(log_pressure_ratio: ArrayLike, mean_wetbulb_c: ArrayLike,
+                           mean_relative_humidity_fraction: ArrayLike) -> np.ndarray:
     """:func:`ice_fraction_change` from ``ln(p_b / p_t)`` directly (the march works in ln p, so
     its pieces give the difference of their ln p bounds without an ``exp`` and a ``log``)."""
     rh = np.maximum(np.asarray(mean_relative_humidity_fraction, dtype=np.float64),
@@ -126,7 +130,8 @@ def ice_fraction_change_ln(log_pressure_ratio, mean_wetbulb_c, mean_relative_hum
             / (MELT_COEFFICIENT * rh ** RH_EXPONENT))
 
 
-def generation_layer(pressure_hpa, relative_humidity_pct, wetbulb_c=None):
+def generation_layer(pressure_hpa: ArrayLike, relative_humidity_pct: ArrayLike,
+                     wetbulb_c: ArrayLike | None = None) -> tuple[np.ndarray, ...]:
     """The highest generating layer of each column.
 
     Returns ``(top_hpa, bottom_hpa)``, each ``(n,)``, NaN where a column has none, and, when
@@ -413,8 +418,8 @@ def _stages_numpy(seq, valid, warm, hist, ice0):
     np.maximum.at(mx, flat, hi)
     np.minimum.at(mn, flat, lo)
     present = np.arange(S)[None, :] < count[:, None]
-    st["extreme_c"] = np.where(present, np.where(st["kind"] > 0, mx.reshape(n, S), mn.reshape(n, S)),
-                               np.nan)
+    extreme = np.where(st["kind"] > 0, mx.reshape(n, S), mn.reshape(n, S))
+    st["extreme_c"] = np.where(present, extreme, np.nan)
     for key in ("top_hpa", "bottom_hpa"):  # ln p -> hPa, only for the stage bounds
         st[key] = np.exp(st[key])
     return st, count
@@ -450,40 +455,26 @@ def _march_loop(x, tw, rh_frac, xg, ice0, ice_out, was_liquid_out, table, count)
     :func:`_pieces` from the top down, the change of :func:`ice_fraction_change_ln` and the
     clipped carry of :func:`_carry_numpy` on every valid piece, and the stages of
     :func:`_stages_numpy` (ln p bounds) written into ``table`` while there is room for them.
-    ``count`` receives every column's number of stages, room or not."""
+    ``count`` receives every column's number of stages, room or not.  The helpers it calls
+    are inlined into it, so it is one compiled loop."""
     n, L = x.shape
-    room = table.shape[2]
     for i in range(n):
-        g = xg[i]
         ice = ice0[i]
         liquid = ice <= 0.0
         s = -1
         kind = 0
         for j in range(L - 2, -1, -1):
-            x_b, x_t = x[i, j], x[i, j + 1]
-            tb, tt = tw[i, j], tw[i, j + 1]
-            rb, rt = rh_frac[i, j], rh_frac[i, j + 1]
-            if not (np.isfinite(x_b) and np.isfinite(x_t) and np.isfinite(tb)
-                    and np.isfinite(tt) and np.isfinite(g)):
+            ok, x_top, tw_top, rh_top = _clipped_interval(
+                x[i, j], x[i, j + 1], tw[i, j], tw[i, j + 1], rh_frac[i, j], rh_frac[i, j + 1],
+                xg[i])
+            if not ok:
                 continue
-            x_top = x_t if x_t >= g else g  # noqa: FURB136 - np.maximum of finite values
-            if not x_b > x_top:
-                continue
-            w = (x_top - x_b) / (x_t - x_b) if x_t != x_b else 0.0
-            tw_top = tb + w * (tt - tb)
-            rh_top = rb + w * (rt - rb)
-            f = (tw_top - 0.0) / (tw_top - tb)
-            c0 = f if (f > 0.0 and f < 1.0) else 1.0
-            f = (tw_top - FREEZING_ONSET_TW_C) / (tw_top - tb)
-            c1 = f if (f > 0.0 and f < 1.0) else 1.0
-            lo = c0 if c0 <= c1 else c1  # noqa: FURB136 - spelled out for numba
-            hi = c0 if c0 >= c1 else c1  # noqa: FURB136
-            dx = x_b - x_top
-            dtw = tb - tw_top
-            drh = rb - rh_top
+            lo, hi = _cut_fractions(tw_top, tw[i, j])
+            dx = x[i, j] - x_top
+            dtw = tw[i, j] - tw_top
+            drh = rh_frac[i, j] - rh_top
             for k in range(3):
-                f0 = 0.0 if k == 0 else (lo if k == 1 else hi)
-                f1 = lo if k == 0 else (hi if k == 1 else 1.0)
+                f0, f1 = _piece_fractions(k, lo, hi)
                 if not f1 - f0 > 1e-12:
                     continue
                 xa = x_top + f0 * dx
@@ -492,45 +483,100 @@ def _march_loop(x, tw, rh_frac, xg, ice0, ice_out, was_liquid_out, table, count)
                 z = tw_top + f1 * dtw
                 tw_mean = 0.5 * (a + z)
                 rh_mean = 0.5 * ((rh_top + f0 * drh) + (rh_top + f1 * drh))
-                warm = tw_mean > 0.0
                 before = ice
-                if warm or tw_mean < FREEZING_ONSET_TW_C or ice > 0.0:
-                    # np.maximum / np.minimum semantics: NaN propagates.
-                    rh = MIN_RH_FRACTION if rh_mean < MIN_RH_FRACTION else rh_mean  # noqa: FURB136
-                    y = ice + (xb - xa) * (-tw_mean) / (MELT_COEFFICIENT * rh ** RH_EXPONENT)
-                    if y < 0.0:  # noqa: PLR1730 - NaN must pass through, as in numpy
-                        y = 0.0
-                    if y > 1.0:  # noqa: PLR1730
-                        y = 1.0
-                    ice = y
+                ice = _ice_after_piece(ice, xb - xa, tw_mean, rh_mean)
                 if ice <= 0.0:
                     liquid = True
-                kk = 1 if warm else -1
+                kk = 1 if tw_mean > 0.0 else -1
                 if kk != kind:
                     s += 1
                     kind = kk
-                    if s < room:
-                        table[0, i, s] = xa
-                        table[2, i, s] = kk
-                        table[3, i, s] = -np.inf if kk > 0 else np.inf
-                        table[4, i, s] = before
-                if s < room:
-                    if kk > 0:
-                        top = a if a >= z else z  # noqa: FURB136 - spelled out for numba
-                        if top > table[3, i, s]:  # noqa: PLR1730
-                            table[3, i, s] = top
-                    else:
-                        bottom = a if a <= z else z  # noqa: FURB136
-                        if bottom < table[3, i, s]:  # noqa: PLR1730
-                            table[3, i, s] = bottom
-                    # Every piece may end its stage; the last one of the stage wins.
-                    table[1, i, s] = xb
-                    table[5, i, s] = ice
+                    _open_stage(table, i, s, kk, xa, before)
+                _extend_stage(table, i, s, kk, a, z, xb, ice)
         ice_out[i] = ice
         was_liquid_out[i] = liquid
         count[i] = s + 1
 
 
+def _clipped_interval(x_b, x_t, tb, tt, rb, rt, g):
+    """The interval between two levels clipped to the generation top ``g`` (ln p): whether
+    it is usable, and ln p, Tw and RH at its clipped top (as :func:`_pieces`)."""
+    if not (np.isfinite(x_b) and np.isfinite(x_t) and np.isfinite(tb)
+            and np.isfinite(tt) and np.isfinite(g)):
+        return False, 0.0, 0.0, 0.0
+    x_top = x_t if x_t >= g else g  # noqa: FURB136 - np.maximum of finite values
+    if not x_b > x_top:
+        return False, 0.0, 0.0, 0.0
+    f = (x_top - x_b) / (x_t - x_b) if x_t != x_b else 0.0
+    return True, x_top, tb + f * (tt - tb), rb + f * (rt - rb)
+
+
+def _cut_fractions(tw_top, tw_bottom):
+    """Fractions of the interval (0 at its top, 1 at its bottom) where Tw crosses 0 and
+    -6.6 degC, in increasing order; 1 where it does not cross (as :func:`_pieces`)."""
+    f = (tw_top - 0.0) / (tw_top - tw_bottom)
+    c0 = f if (f > 0.0 and f < 1.0) else 1.0
+    f = (tw_top - FREEZING_ONSET_TW_C) / (tw_top - tw_bottom)
+    c1 = f if (f > 0.0 and f < 1.0) else 1.0
+    lo = c0 if c0 <= c1 else c1  # noqa: FURB136 - spelled out for numba
+    hi = c0 if c0 >= c1 else c1  # noqa: FURB136
+    return lo, hi
+
+
+def _piece_fractions(k, lo, hi):
+    """The bounds of piece ``k`` (0, 1, 2) of an interval cut at ``lo`` and ``hi``."""
+    f0 = 0.0 if k == 0 else (lo if k == 1 else hi)
+    f1 = lo if k == 0 else (hi if k == 1 else 1.0)
+    return f0, f1
+
+
+def _ice_after_piece(ice, log_pressure_ratio, tw_mean, rh_mean):
+    """The ice fraction after one piece: :func:`ice_fraction_change_ln` added and clipped to
+    [0, 1] where the piece acts (warm, colder than -6.6 degC, or ice already present)."""
+    if tw_mean > 0.0 or tw_mean < FREEZING_ONSET_TW_C or ice > 0.0:
+        # np.maximum / np.minimum semantics: NaN propagates.
+        rh = MIN_RH_FRACTION if rh_mean < MIN_RH_FRACTION else rh_mean  # noqa: FURB136
+        y = ice + log_pressure_ratio * (-tw_mean) / (MELT_COEFFICIENT * rh ** RH_EXPONENT)
+        if y < 0.0:  # noqa: PLR1730 - NaN must pass through, as in numpy
+            y = 0.0
+        if y > 1.0:  # noqa: PLR1730
+            y = 1.0
+        return y
+    return ice
+
+
+def _open_stage(table, i, s, kind, x_top, ice_before):
+    """Start stage ``s`` of column ``i`` in ``table`` (when there is room for it)."""
+    if s < table.shape[2]:
+        table[0, i, s] = x_top
+        table[2, i, s] = kind
+        table[3, i, s] = -np.inf if kind > 0 else np.inf
+        table[4, i, s] = ice_before
+
+
+def _extend_stage(table, i, s, kind, tw_a, tw_z, x_bottom, ice):
+    """Add a piece to stage ``s``: its extreme wet-bulb, bottom and ice fraction (every piece
+    may end its stage; the last one of the stage wins)."""
+    if s < table.shape[2]:
+        if kind > 0:
+            top = tw_a if tw_a >= tw_z else tw_z  # noqa: FURB136 - spelled out for numba
+            if top > table[3, i, s]:  # noqa: PLR1730
+                table[3, i, s] = top
+        else:
+            bottom = tw_a if tw_a <= tw_z else tw_z  # noqa: FURB136
+            if bottom < table[3, i, s]:  # noqa: PLR1730
+                table[3, i, s] = bottom
+        table[1, i, s] = x_bottom
+        table[5, i, s] = ice
+
+
+if _COMPILED:  # the helpers are inlined into the compiled march
+    _clipped_interval = compiled(_clipped_interval, numpy_errors=True, inline=True)
+    _cut_fractions = compiled(_cut_fractions, numpy_errors=True, inline=True)
+    _piece_fractions = compiled(_piece_fractions, numpy_errors=True, inline=True)
+    _ice_after_piece = compiled(_ice_after_piece, numpy_errors=True, inline=True)
+    _open_stage = compiled(_open_stage, numpy_errors=True, inline=True)
+    _extend_stage = compiled(_extend_stage, numpy_errors=True, inline=True)
 _march_compiled = compiled(_march_loop, numpy_errors=True)
 if _COMPILED:  # the helper is inlined into the compiled generation loop
     _moist = compiled(_moist, inline=True)
@@ -596,131 +642,153 @@ def run(ctx: Context, *, abstain_on_mix: bool | None = None) -> MethodResult:
     return MethodResult(name=NAME, code=code, rule=rule, values=values, explainer=explain)
 
 
-def _f(x, digits=1):
-    """A number for a sentence: true minus sign, no negative zero."""
-    text = f"{x + 0.0:.{digits}f}"
-    if float(text) == 0.0:
-        text = text.lstrip("-")
-    return text.replace("-", "\u2212")
-
-
 def explain(result: MethodResult, i: int) -> list[Step]:
-    """Ramer's reasoning for column ``i``, from the numbers in ``result.values`` only."""
+    """Ramer's reasoning for column ``i``, from the numbers in ``result.values`` only.
+
+    The steps follow the method: the gross checks, the generating layer, one step per warm
+    or cold stage of the march, then the rule on the final ice fraction.
+    """
     v = {k: a[i] for k, a in result.values.items()}
     rule = RULES[int(result.rule[i])]
-    steps: list[Step] = []
     if rule == "insufficient_levels":
         return [Step(rule, "Fewer than two valid levels: Ramer's method cannot follow a particle "
                      "down the column.", source=SOURCE)]
-    sfc = float(v["surface_wetbulb_c"])
-    gross = {"surface_wetbulb_c": sfc}
-    if rule == "gross_warm_surface":
-        return [Step(rule, f"Surface wet-bulb {_f(sfc)} \u00b0C \u2265 "
-                     f"{_f(GROSS_RAIN_SURFACE_TW_C)} \u00b0C: rain, whatever happens aloft.",
-                     gross, {"surface_wetbulb_c": GROSS_RAIN_SURFACE_TW_C}, SOURCE)]
-    steps.append(Step("gross_warm_surface", f"Surface wet-bulb {_f(sfc)} \u00b0C is below "
-                      f"{_f(GROSS_RAIN_SURFACE_TW_C)} \u00b0C, so the gross rain check does not "
-                      "apply.", gross, {"surface_wetbulb_c": GROSS_RAIN_SURFACE_TW_C}, SOURCE))
-    mx = float(v["max_wetbulb_c"])
-    if rule == "gross_cold_column":
-        steps.append(Step(rule, f"The warmest wet-bulb in the column is {_f(mx)} \u00b0C \u2264 "
-                          f"{_f(FREEZING_ONSET_TW_C)} \u00b0C: nothing can melt, snow.",
-                          {"max_wetbulb_c": mx}, {"max_wetbulb_c": FREEZING_ONSET_TW_C}, SOURCE))
+    steps = _gross_steps(v, rule)
+    if rule in ("gross_warm_surface", "gross_cold_column"):
         return steps
-    steps.append(Step("gross_cold_column", f"The warmest wet-bulb in the column is {_f(mx)} "
-                      f"\u00b0C, above {_f(FREEZING_ONSET_TW_C)} \u00b0C, so the particle must be "
-                      "followed down.", {"max_wetbulb_c": mx},
-                      {"max_wetbulb_c": FREEZING_ONSET_TW_C}, SOURCE))
     if rule == "no_generation_layer":
-        steps.append(Step(rule, f"No layer at or below {GENERATION_TOP_LIMIT_HPA:.0f} hPa has RH "
-                          f"\u2265 {GENERATION_RH_PCT:.0f} % over a depth p_bottom/p_top \u2265 "
-                          f"{GENERATION_DEPTH_RATIO}: no generating layer, so Ramer's method "
-                          "gives no type.", {},
+        steps.append(Step(rule, f"No layer at pressures of {w.pressure(GENERATION_TOP_LIMIT_HPA)} "
+                          f"or more has RH {w.GE} {w.percent(GENERATION_RH_PCT)} over a depth "
+                          f"p_bottom/p_top {w.GE} {GENERATION_DEPTH_RATIO}: no generating layer, "
+                          "so Ramer's method gives no type.", {},
                           {"relative_humidity_pct": GENERATION_RH_PCT,
                            "depth_ratio": GENERATION_DEPTH_RATIO}, SOURCE))
         return steps
+    steps.append(_generation_step(v))
+    for s in range(int(v["stage_count"])):
+        steps.append(_stage_step(v, s))
+    steps.append(_final_step(v, rule))
+    return steps
+
+
+def _gross_steps(v: dict, rule: str) -> list[Step]:
+    """The two gross checks (Ramer 1993): the one that fired, or both that passed."""
+    sfc = float(v["surface_wetbulb_c"])
+    gross = {"surface_wetbulb_c": sfc}
+    limit = {"surface_wetbulb_c": GROSS_RAIN_SURFACE_TW_C}
+    rain_limit = w.temperature(GROSS_RAIN_SURFACE_TW_C, trim=True)
+    if rule == "gross_warm_surface":
+        return [Step(rule, f"Surface wet-bulb {w.temperature(sfc)} {w.GE} {rain_limit}: rain, "
+                     "whatever happens aloft.", gross, limit, SOURCE)]
+    steps = [Step("gross_warm_surface", f"Surface wet-bulb {w.temperature(sfc)} is below "
+                  f"{rain_limit}, so the gross rain check does not apply.", gross, limit, SOURCE)]
+    mx = float(v["max_wetbulb_c"])
+    onset = w.temperature(FREEZING_ONSET_TW_C)
+    values, limits = {"max_wetbulb_c": mx}, {"max_wetbulb_c": FREEZING_ONSET_TW_C}
+    if rule == "gross_cold_column":
+        steps.append(Step(rule, f"The warmest wet-bulb in the column is {w.temperature(mx)} "
+                          f"{w.LE} {onset}: nothing can melt, snow.", values, limits, SOURCE))
+    else:
+        steps.append(Step("gross_cold_column", f"The warmest wet-bulb in the column is "
+                          f"{w.temperature(mx)}, above {onset}, so the particle must be "
+                          "followed down.", values, limits, SOURCE))
+    return steps
+
+
+def _generation_step(v: dict) -> Step:
+    """Where the particle is generated and whether it starts as ice (Ramer 1993)."""
     top, bot, ttw = (float(v["generation_top_hpa"]), float(v["generation_bottom_hpa"]),
                      float(v["generation_top_wetbulb_c"]))
     ice0 = float(v["initial_ice_fraction"])
     start = ("so the particle starts as ice (I = 1)." if ice0 >= 1.0 else
              "so the particle starts as supercooled liquid (I = 0).")
-    relation = "\u2264" if ice0 >= 1.0 else ">"
-    steps.append(Step("generation_layer",
-                      f"Precipitation is generated in the moist layer {bot:.0f}\u2013{top:.0f} hPa "
-                      f"(RH \u2265 {GENERATION_RH_PCT:.0f} %, depth ratio {bot / top:.3f}); the "
-                      f"wet-bulb at its top is {_f(ttw)} \u00b0C {relation} "
-                      f"{_f(FREEZING_ONSET_TW_C)} \u00b0C, {start}",
-                      {"generation_top_hpa": top, "generation_bottom_hpa": bot,
-                       "generation_top_wetbulb_c": ttw, "initial_ice_fraction": ice0},
-                      {"relative_humidity_pct": GENERATION_RH_PCT,
-                       "depth_ratio": GENERATION_DEPTH_RATIO,
-                       "generation_top_wetbulb_c": FREEZING_ONSET_TW_C}, SOURCE))
-    for s in range(int(v["stage_count"])):
-        st_top, st_bot = float(v["stage_top_hpa"][s]), float(v["stage_bottom_hpa"][s])
-        i0, i1 = float(v["stage_ice_start"][s]), float(v["stage_ice_end"][s])
-        ext = float(v["stage_extreme_c"][s])
-        vals = {"top_hpa": st_top, "bottom_hpa": st_bot, "ice_fraction_start": i0,
-                "ice_fraction_end": i1}
-        if v["stage_kind"][s] > 0:
-            vals["max_wetbulb_c"] = ext
-            if i1 <= 0.0:
-                what = "the particle melted completely"
-            elif i1 < i0:
-                what = "the particle melted partly"
-            else:
-                what = "nothing was left to melt"
-            text = (f"Ice fraction after the warm layer {st_bot:.0f}\u2013{st_top:.0f} hPa "
-                    f"(wet-bulb up to {_f(ext)} \u00b0C) is {i1:.2f}: {what}.")
-            steps.append(Step("warm_layer", text, vals, {"wetbulb_c": 0.0}, SOURCE))
-        else:
-            vals["min_wetbulb_c"] = ext
-            if i0 <= 0.0 and i1 <= 0.0:
-                what = (f"the drop stays supercooled, as the wet-bulb never falls below "
-                        f"{_f(FREEZING_ONSET_TW_C)} \u00b0C" if ext >= FREEZING_ONSET_TW_C else
-                        "the drop stays liquid: too little of the layer is colder than "
-                        f"{_f(FREEZING_ONSET_TW_C)} \u00b0C")
-            elif i1 >= 1.0 and i0 >= 1.0:
-                what = "the particle stays ice"
-            elif i1 >= 1.0:
-                what = "the particle refroze completely"
-            elif i1 > i0:
-                what = "the particle refroze partly"
-            else:
-                what = "the ice fraction is unchanged"
-            text = (f"Ice fraction after the cold layer {st_bot:.0f}\u2013{st_top:.0f} hPa "
-                    f"(wet-bulb down to {_f(ext)} \u00b0C) is {i1:.2f}: {what}.")
-            steps.append(Step("cold_layer", text, vals,
-                              {"wetbulb_c": 0.0, "freezing_onset_wetbulb_c": FREEZING_ONSET_TW_C},
-                              SOURCE))
+    relation = w.LE if ice0 >= 1.0 else ">"
+    return Step("generation_layer",
+                f"Precipitation is generated in the moist layer {w.pressure_range(bot, top)} "
+                f"(RH {w.GE} {w.percent(GENERATION_RH_PCT)}, depth ratio "
+                f"{w.number(bot / top, 3)}); the wet-bulb at its top is {w.temperature(ttw)} "
+                f"{relation} {w.temperature(FREEZING_ONSET_TW_C)}, {start}",
+                {"generation_top_hpa": top, "generation_bottom_hpa": bot,
+                 "generation_top_wetbulb_c": ttw, "initial_ice_fraction": ice0},
+                {"relative_humidity_pct": GENERATION_RH_PCT,
+                 "depth_ratio": GENERATION_DEPTH_RATIO,
+                 "generation_top_wetbulb_c": FREEZING_ONSET_TW_C}, SOURCE)
+
+
+def _stage_step(v: dict, s: int) -> Step:
+    """Stage ``s`` of the march: a warm (melting) or cold (freezing) run of pieces."""
+    st_top, st_bot = float(v["stage_top_hpa"][s]), float(v["stage_bottom_hpa"][s])
+    i0, i1 = float(v["stage_ice_start"][s]), float(v["stage_ice_end"][s])
+    ext = float(v["stage_extreme_c"][s])
+    vals = {"top_hpa": st_top, "bottom_hpa": st_bot, "ice_fraction_start": i0,
+            "ice_fraction_end": i1}
+    layer = w.pressure_range(st_bot, st_top)
+    if v["stage_kind"][s] > 0:
+        vals["max_wetbulb_c"] = ext
+        text = (f"Ice fraction after the warm layer {layer} (wet-bulb up to "
+                f"{w.temperature(ext)}) is {w.fraction(i1)}: {_melting_outcome(i0, i1)}.")
+        return Step("warm_layer", text, vals, {"wetbulb_c": 0.0}, SOURCE)
+    vals["min_wetbulb_c"] = ext
+    text = (f"Ice fraction after the cold layer {layer} (wet-bulb down to "
+            f"{w.temperature(ext)}) is {w.fraction(i1)}: {_freezing_outcome(i0, i1, ext)}.")
+    return Step("cold_layer", text, vals,
+                {"wetbulb_c": 0.0, "freezing_onset_wetbulb_c": FREEZING_ONSET_TW_C}, SOURCE)
+
+
+def _melting_outcome(i0: float, i1: float) -> str:
+    if i1 <= 0.0:
+        return "the particle melted completely"
+    if i1 < i0:
+        return "the particle melted partly"
+    return "nothing was left to melt"
+
+
+def _freezing_outcome(i0: float, i1: float, coldest_c: float) -> str:
+    onset = w.temperature(FREEZING_ONSET_TW_C)
+    if i0 <= 0.0 and i1 <= 0.0:
+        if coldest_c >= FREEZING_ONSET_TW_C:
+            return f"the drop stays supercooled, as the wet-bulb never falls below {onset}"
+        return f"the drop stays liquid: too little of the layer is colder than {onset}"
+    if i1 >= 1.0 and i0 >= 1.0:
+        return "the particle stays ice"
+    if i1 >= 1.0:
+        return "the particle refroze completely"
+    if i1 > i0:
+        return "the particle refroze partly"
+    return "the ice fraction is unchanged"
+
+
+#: The verdict of each final rule, after "Final ice fraction X ..." (Ramer 1993; the mixes
+#: are ptype's reading of the undecided band).
+_FINAL_TEXT = {
+    "solid_never_liquid": "{ge_solid} and the particle was never all liquid: snow.",
+    "solid_refrozen": "{ge_solid} and the particle was all liquid on the way down, so it "
+                      "refroze: ice pellets.",
+    "liquid_freezing": "{le_liquid} and surface wet-bulb {sfc} < {zero}: freezing rain.",
+    "liquid_rain": "{le_liquid} and surface wet-bulb {sfc} {ge} {zero}: rain.",
+    "mix_freezing": "{band} with surface wet-bulb {sfc} < {zero}: freezing rain mixed with ice "
+                    "pellets (ptype's reading of Ramer's undecided band).",
+    "mix_refrozen_rain": "{band}, surface wet-bulb {sfc} {ge} {zero} and the particle had been "
+                         "all liquid: rain mixed with ice pellets (ptype's reading of Ramer's "
+                         "undecided band).",
+    "mix_partly_melted_snow": "{band}, surface wet-bulb {sfc} {ge} {zero} and the particle was "
+                              "never all liquid: partly melted snow, rain and snow (ptype's "
+                              "reading of Ramer's undecided band).",
+    "mix_abstain": "{band}: Ramer's method leaves this undecided and abstains, as in "
+                   "operational multi-algorithm practice.",
+}
+
+
+def _final_step(v: dict, rule: str) -> Step:
+    """The rule on the ice fraction that reaches the ground."""
     ice = float(v["ice_fraction"])
+    sfc = float(v["surface_wetbulb_c"])
     liquid = bool(v["was_liquid"])
-    fv = {"ice_fraction": ice, "was_liquid": liquid, "surface_wetbulb_c": sfc}
-    th = {"liquid_limit": LIQUID_LIMIT, "solid_limit": SOLID_LIMIT, "surface_wetbulb_c": 0.0}
-    texts = {
-        "solid_never_liquid": f"Final ice fraction {ice:.2f} \u2265 {SOLID_LIMIT} and the particle "
-                              "was never all liquid: snow.",
-        "solid_refrozen": f"Final ice fraction {ice:.2f} \u2265 {SOLID_LIMIT} and the particle was "
-                          "all liquid on the way down, so it refroze: ice pellets.",
-        "liquid_freezing": f"Final ice fraction {ice:.2f} \u2264 {LIQUID_LIMIT} and surface wet-bulb "
-                           f"{_f(sfc)} \u00b0C < 0 \u00b0C: freezing rain.",
-        "liquid_rain": f"Final ice fraction {ice:.2f} \u2264 {LIQUID_LIMIT} and surface wet-bulb "
-                       f"{_f(sfc)} \u00b0C \u2265 0 \u00b0C: rain.",
-        "mix_freezing": f"Final ice fraction {ice:.2f} lies between {LIQUID_LIMIT} and "
-                        f"{SOLID_LIMIT} with surface wet-bulb {_f(sfc)} \u00b0C < 0 \u00b0C: "
-                        "freezing rain mixed with ice pellets (ptype's reading of Ramer's "
-                        "undecided band).",
-        "mix_refrozen_rain": f"Final ice fraction {ice:.2f} lies between {LIQUID_LIMIT} and "
-                             f"{SOLID_LIMIT}, surface wet-bulb {_f(sfc)} \u00b0C \u2265 0 \u00b0C "
-                             "and the particle had been all liquid: rain mixed with ice pellets "
-                             "(ptype's reading of Ramer's undecided band).",
-        "mix_partly_melted_snow": f"Final ice fraction {ice:.2f} lies between {LIQUID_LIMIT} and "
-                                  f"{SOLID_LIMIT}, surface wet-bulb {_f(sfc)} \u00b0C \u2265 0 "
-                                  "\u00b0C and the particle was never all liquid: partly melted "
-                                  "snow, rain and snow (ptype's reading of Ramer's undecided "
-                                  "band).",
-        "mix_abstain": f"Final ice fraction {ice:.2f} lies between {LIQUID_LIMIT} and "
-                       f"{SOLID_LIMIT}: Ramer's method leaves this undecided and abstains, as in "
-                       "operational multi-algorithm practice.",
-    }
-    steps.append(Step(rule, texts[rule], fv, th, SOURCE))
-    return steps
+    verdict = _FINAL_TEXT[rule].format(
+        ge_solid=f"{w.GE} {SOLID_LIMIT}", le_liquid=f"{w.LE} {LIQUID_LIMIT}",
+        band=f"lies between {LIQUID_LIMIT} and {SOLID_LIMIT}", sfc=w.temperature(sfc),
+        zero=w.temperature(0.0, trim=True), ge=w.GE)
+    return Step(rule, f"Final ice fraction {w.fraction(ice)} {verdict}",
+                {"ice_fraction": ice, "was_liquid": liquid, "surface_wetbulb_c": sfc},
+                {"liquid_limit": LIQUID_LIMIT, "solid_limit": SOLID_LIMIT,
+                 "surface_wetbulb_c": 0.0}, SOURCE)

@@ -1,8 +1,8 @@
 """Partial-thickness rules (1000-850 and 850-700 hPa).
 
-The thickness algorithm of Cortinas et al. (preprint; thresholds chosen from
-Keeter & Cline 1991, Younkin 1967 and Zerr 1997), as quoted in the brief
-(section 7, confirmed in a secondary source):
+The thickness algorithm of Cortinas et al. (Cortinas2002, a preprint; thresholds chosen
+from Keeter1991, Younkin 1967 and Zerr 1997; the values as quoted in a secondary source,
+details from memory):
 
 1. 1000-850 hPa > 1310 m, or 850-700 hPa > 1560 m -> RA when the surface
    wet-bulb is above 0 degC, otherwise FZRA;
@@ -11,8 +11,8 @@ Keeter & Cline 1991, Younkin 1967 and Zerr 1997), as quoted in the brief
 
 The two thicknesses are read jointly, as Keeter & Cline (1991) read them on
 their nomogram: a warm lowest layer (1000-850 hPa above the rain limit) rules
-snow out whatever the layer above says, so the liquid test comes first.  All of 1000, 850, 700 and 500 hPa must
-lie inside the profile (no extrapolation below ground or above the top);
+snow out whatever the layer above says, so the liquid test comes first.  All of 1000, 850,
+700 and 500 hPa must lie inside the profile (no extrapolation below ground or above the top);
 otherwise the method gives no result.  Thicknesses come from the profile's
 heights interpolated linearly in ln p.
 """
@@ -22,6 +22,7 @@ from __future__ import annotations
 import numpy as np
 
 from ptype.codes import NO_RESULT, Code
+from ptype.engine import wording as w
 from ptype.engine.columns import interpolate_at_pressures
 from ptype.engine.methods.base import Context, MethodResult, Step, select_first
 
@@ -41,13 +42,15 @@ _LUT = np.array([NO_RESULT, Code.SN, Code.RA, Code.FZRA, Code.PL, NO_RESULT], dt
 
 
 def run(ctx: Context) -> MethodResult:
+    """The thickness rules for every column of ``ctx`` (see the module docstring)."""
     c = ctx.columns
     levels = (1000.0, 850.0, 700.0, 500.0)
     at = interpolate_at_pressures(c.pressure_hpa, c.height_m, levels)
     z = {p: at[:, j] for j, p in enumerate(levels)}
     low = z[850.0] - z[1000.0]
     mid = z[700.0] - z[850.0]
-    complete = np.isfinite(z[1000.0]) & np.isfinite(z[850.0]) & np.isfinite(z[700.0]) & np.isfinite(z[500.0])
+    complete = (np.isfinite(z[1000.0]) & np.isfinite(z[850.0]) & np.isfinite(z[700.0])
+                & np.isfinite(z[500.0]))
     warm_sfc = c.surface_wetbulb_c > 0.0
     liquid = (low > RAIN_1000_850_MIN_M) | (mid > PELLETS_850_700_MAX_M)
     # Jointly (Keeter & Cline 1991): the liquid test before the snow test, so a warm
@@ -61,6 +64,7 @@ def run(ctx: Context) -> MethodResult:
 
 
 def explain(result: MethodResult, i: int) -> list[Step]:
+    """The thickness rule that fired for column ``i``, with the two thicknesses."""
     rule = RULES[int(result.rule[i])]
     low = float(result.values["thickness_1000_850_m"][i])
     mid = float(result.values["thickness_850_700_m"][i])
@@ -68,18 +72,26 @@ def explain(result: MethodResult, i: int) -> list[Step]:
     th = {"snow_850_700_max_m": SNOW_850_700_MAX_M, "pellets_850_700_max_m": PELLETS_850_700_MAX_M,
           "rain_1000_850_min_m": RAIN_1000_850_MIN_M}
     vals = {"thickness_1000_850_m": low, "thickness_850_700_m": mid, "surface_wetbulb_c": tw}
+    lower = f"1000{w.DASH}850 hPa"
+    upper = f"850{w.DASH}700 hPa"
     text = {
-        "missing_levels": "The profile does not span 1000 to 500 hPa (1000 hPa below ground or the top too "
-                          "low): no thickness result, as the rules are not extrapolated.",
-        "snow_850_700": f"1000-850 hPa thickness {low:.0f} m <= {RAIN_1000_850_MIN_M:.0f} m and "
-                        f"850-700 hPa {mid:.0f} m <= {SNOW_850_700_MAX_M:.0f} m: snow.",
-        "liquid_warm_surface": f"1000-850 hPa thickness {low:.0f} m (limit {RAIN_1000_850_MIN_M:.0f}) or 850-700 hPa "
-                               f"{mid:.0f} m (limit {PELLETS_850_700_MAX_M:.0f}) says liquid; surface wet-bulb "
-                               f"{tw:+.1f} °C: rain.",
-        "liquid_freezing_surface": f"1000-850 hPa thickness {low:.0f} m or 850-700 hPa {mid:.0f} m says liquid; "
-                                   f"surface wet-bulb {tw:+.1f} °C is not above 0: freezing rain.",
-        "pellets_850_700": f"850-700 hPa thickness {mid:.0f} m between {SNOW_850_700_MAX_M:.0f} and "
-                           f"{PELLETS_850_700_MAX_M:.0f} m: ice pellets.",
+        "missing_levels": "The profile does not span 1000 to 500 hPa (1000 hPa below ground or "
+                          "the top too low): no thickness result, as the rules are not "
+                          "extrapolated.",
+        "snow_850_700": f"{lower} thickness {w.height(low)} {w.LE} "
+                        f"{w.height(RAIN_1000_850_MIN_M)} and {upper} {w.height(mid)} {w.LE} "
+                        f"{w.height(SNOW_850_700_MAX_M)}: snow.",
+        "liquid_warm_surface": f"{lower} thickness {w.height(low)} (limit "
+                               f"{w.height(RAIN_1000_850_MIN_M)}) or {upper} {w.height(mid)} "
+                               f"(limit {w.height(PELLETS_850_700_MAX_M)}) says liquid; surface "
+                               f"wet-bulb {w.temperature(tw)}: rain.",
+        "liquid_freezing_surface": f"{lower} thickness {w.height(low)} or {upper} "
+                                   f"{w.height(mid)} says liquid; surface wet-bulb "
+                                   f"{w.temperature(tw)} is not above "
+                                   f"{w.temperature(0.0, trim=True)}: freezing rain.",
+        "pellets_850_700": f"{upper} thickness {w.height(mid)} between "
+                           f"{w.height(SNOW_850_700_MAX_M)} and "
+                           f"{w.height(PELLETS_850_700_MAX_M)}: ice pellets.",
         "none_fired": "No thickness rule fired.",
     }[rule]
     return [Step(rule, text, vals, th, SOURCE)]

@@ -175,104 +175,142 @@ def _dominant_code(steps, idx) -> Code:
     return min(codes, key=lambda c: HAZARD_RANK[c])
 
 
-def evaluate_rules(timeline: Mapping[str, Any], now: datetime, site_name: str,
-                   thresholds: Mapping[str, Any] | None = None) -> list[Candidate]:
-    """Alert candidates for one site's timeline, at most one per event."""
-    th = merged_thresholds(thresholds)
-    steps = timeline.get("steps") or []
-    if not steps:
-        return []
-    step = timedelta(minutes=float(timeline["step_minutes"]))
-    out: list[Candidate] = []
+@dataclass
+class _Rules:
+    """What every event rule reads: the timeline's steps, the thresholds and the clock."""
 
-    def lead_ok(s, hours):
+    timeline: Mapping[str, Any]
+    steps: list
+    now: datetime
+    site_name: str
+    th: dict
+    step: timedelta
+    out: list = field(default_factory=list)
+
+    def lead_ok(self, s: Mapping[str, Any], hours: Any) -> bool:
         return s["lead_hours"] <= float(hours)
 
-    def make(event, idx, onset, expires, severity, probability, detail, params):
+    def span(self, flags):
+        return _span(self.steps, flags, self.step)
+
+    def make(self, event: str, idx, onset: datetime, expires: datetime, severity: str,
+             probability: float, detail: str, params: dict) -> None:
+        """Append the candidate of ``event`` over steps ``idx``."""
         text, _, instruction = EVENTS[event]
-        code = Code.NONE if event == "frost" else _dominant_code(steps, idx)
+        code = Code.NONE if event == "frost" else _dominant_code(self.steps, idx)
         onset_text = onset.strftime("%d %b %H:%M UTC")
-        headline = f"{text} at {site_name} from {onset_text}"
+        headline = f"{text} at {self.site_name} from {onset_text}"
         description = (f"{detail} Period: {onset.strftime('%Y-%m-%d %H:%M')} to "
                        f"{expires.strftime('%Y-%m-%d %H:%M')} UTC. {CAUTION}")
         params = {"ptype": code.name, "grib2_code": GRIB2_4201[code],
                   "max_probability": round(probability, 3), **params}
         certainty = certainty_word(probability)
-        obs = timeline.get("observation") or {}
-        if onset <= now and observed_confirms(event, obs.get("present_weather")):
+        obs = self.timeline.get("observation") or {}
+        if onset <= self.now and observed_confirms(event, obs.get("present_weather")):
             # CAP 1.2 "Observed": determined to have occurred or to be ongoing.
             certainty = "Observed"
             params["observed_present_weather"] = obs["present_weather"]
-        out.append(Candidate(event, onset, expires, severity, certainty,
-                             urgency_word(onset, now), headline, description,
-                             f"{instruction} {CAUTION}", params))
+        self.out.append(Candidate(event, onset, expires, severity, certainty,
+                                  urgency_word(onset, self.now), headline, description,
+                                  f"{instruction} {CAUTION}", params))
 
-    # Freezing precipitation on the road.
-    flags = [lead_ok(s, th["freezing_window_hours"]) and s["hazards"]["freezing_probability"]
-             is not None
+
+def _freezing_rule(r: _Rules) -> None:
+    """Freezing precipitation on the road within the window."""
+    steps, th = r.steps, r.th
+    flags = [r.lead_ok(s, th["freezing_window_hours"])
+             and s["hazards"]["freezing_probability"] is not None
              and s["hazards"]["freezing_probability"] >= float(th["freezing_probability"])
              for s in steps]
-    span = _span(steps, flags, step)
+    span = r.span(flags)
     if span:
         idx, onset, expires = span
         p = max(steps[i]["hazards"]["freezing_probability"] for i in idx)
         glaze = sum(steps[i]["hazards"]["flat_glaze_mm"] or 0.0 for i in idx)
         severity = "Severe" if p >= 0.6 or glaze >= ACCRETION_SEVERE_MM else "Moderate"
-        make("freezing_precipitation", idx, onset, expires, severity, p,
-             f"Freezing precipitation on the road surface is forecast with a probability up to "
-             f"{p:.0%}; flat-surface glaze up to {glaze:.1f} mm.",
-             {"flat_glaze_mm": round(glaze, 2)})
+        r.make("freezing_precipitation", idx, onset, expires, severity, p,
+               f"Freezing precipitation on the road surface is forecast with a probability up "
+               f"to {p:.0%}; flat-surface glaze up to {glaze:.1f} mm.",
+               {"flat_glaze_mm": round(glaze, 2)})
 
-    # Ice accretion (Jones) over the whole timeline.
+
+def _accretion_rule(r: _Rules) -> None:
+    """Ice accretion (Jones) over the whole timeline."""
+    steps = r.steps
     acc = [s["hazards"]["ice_accretion_mm"] or 0.0 for s in steps]
     total = sum(acc)
-    if total >= float(th["accretion_mm"]):
-        idx, onset, expires = _span(steps, [a > 0 for a in acc], step)
+    if total >= float(r.th["accretion_mm"]):
+        idx, onset, expires = r.span([a > 0 for a in acc])
         severity = ("Extreme" if total >= ACCRETION_EXTREME_MM else
                     "Severe" if total >= ACCRETION_SEVERE_MM else "Moderate")
         p = max(steps[i]["hazards"]["freezing_probability"] or 0.0 for i in idx)
-        make("ice_accretion", idx, onset, expires, severity, p,
-             f"Radial ice accretion of about {total:.1f} mm on exposed wires and structures "
-             f"(Jones simple flux model, an upper bound).",
-             {"ice_accretion_mm": round(total, 2)})
+        r.make("ice_accretion", idx, onset, expires, severity, p,
+               f"Radial ice accretion of about {total:.1f} mm on exposed wires and structures "
+               f"(Jones simple flux model, an upper bound).",
+               {"ice_accretion_mm": round(total, 2)})
 
-    # Frost.
-    if th["frost"]:
-        flags = [lead_ok(s, th["frost_window_hours"]) and s["hazards"]["frost"] for s in steps]
-        span = _span(steps, flags, step)
-        if span:
-            idx, onset, expires = span
-            road = min(steps[i]["surface"]["road_surface_temperature_c"] for i in idx)
-            make("frost", idx, onset, expires, "Minor", 0.8,
-                 f"Road surface at or below 0 degC and below the frost point of the air "
-                 f"(lowest road temperature {road:.1f} degC): hoar frost deposition.",
-                 {"min_road_surface_temperature_c": road})
 
-    # Ice pellets.
-    flags = [lead_ok(s, th["ice_pellets_window_hours"])
-             and (s["hazards"].get("ice_pellets_probability") or 0.0)
-             >= float(th["ice_pellets_probability"]) for s in steps]
-    span = _span(steps, flags, step)
+def _frost_rule(r: _Rules) -> None:
+    """Hoar frost on the road within the window."""
+    if not r.th["frost"]:
+        return
+    steps = r.steps
+    span = r.span([r.lead_ok(s, r.th["frost_window_hours"]) and s["hazards"]["frost"]
+                   for s in steps])
+    if span:
+        idx, onset, expires = span
+        road = min(steps[i]["surface"]["road_surface_temperature_c"] for i in idx)
+        r.make("frost", idx, onset, expires, "Minor", 0.8,
+               f"Road surface at or below 0 degC and below the frost point of the air "
+               f"(lowest road temperature {road:.1f} degC): hoar frost deposition.",
+               {"min_road_surface_temperature_c": road})
+
+
+def _pellets_rule(r: _Rules) -> None:
+    """Ice pellets within the window, severity by the depth over the period."""
+    steps, th = r.steps, r.th
+    span = r.span([r.lead_ok(s, th["ice_pellets_window_hours"])
+                   and (s["hazards"].get("ice_pellets_probability") or 0.0)
+                   >= float(th["ice_pellets_probability"]) for s in steps])
     if span:
         idx, onset, expires = span
         depth = sum(steps[i]["hazards"]["ice_pellets_cm"] or 0.0 for i in idx)
         p = max(steps[i]["hazards"]["ice_pellets_probability"] for i in idx)
         severity = ("Severe" if depth >= PELLETS_SEVERE_CM else
                     "Moderate" if depth >= PELLETS_MODERATE_CM else "Minor")
-        make("ice_pellets", idx, onset, expires, severity, p,
-             f"Ice pellets are forecast with a probability up to {p:.0%}, about {depth:.1f} cm "
-             f"(at a 2.5:1 pellet-to-liquid ratio).", {"ice_pellets_cm": round(depth, 2)})
+        r.make("ice_pellets", idx, onset, expires, severity, p,
+               f"Ice pellets are forecast with a probability up to {p:.0%}, about {depth:.1f} "
+               f"cm (at a 2.5:1 pellet-to-liquid ratio).", {"ice_pellets_cm": round(depth, 2)})
 
-    # Heavy snow.
-    flags = [lead_ok(s, th["snow_window_hours"]) and (s["hazards"]["snow_probability"] or 0.0)
-             >= float(th["snow_probability"]) and (s["surface"]["precipitation_rate_mm_h"] or 0.0)
-             >= float(th["snow_rate_mm_h"]) for s in steps]
-    span = _span(steps, flags, step)
+
+def _snow_rule(r: _Rules) -> None:
+    """Heavy snow within the window."""
+    steps, th = r.steps, r.th
+    span = r.span([r.lead_ok(s, th["snow_window_hours"])
+                   and (s["hazards"]["snow_probability"] or 0.0) >= float(th["snow_probability"])
+                   and (s["surface"]["precipitation_rate_mm_h"] or 0.0)
+                   >= float(th["snow_rate_mm_h"]) for s in steps])
     if span:
         idx, onset, expires = span
         snow = sum(steps[i]["hazards"]["snow_cm"] or 0.0 for i in idx)
         p = max(steps[i]["hazards"]["snow_probability"] for i in idx)
-        make("heavy_snow", idx, onset, expires, "Severe" if snow >= 15.0 else "Moderate", p,
-             f"Heavy snow with about {snow:.0f} cm (at a 10:1 snow-to-liquid ratio).",
-             {"snow_cm": round(snow, 1)})
-    return out
+        r.make("heavy_snow", idx, onset, expires, "Severe" if snow >= 15.0 else "Moderate", p,
+               f"Heavy snow with about {snow:.0f} cm (at a 10:1 snow-to-liquid ratio).",
+               {"snow_cm": round(snow, 1)})
+
+
+#: The event rules, in the order their candidates are listed.
+EVENT_RULES = (_freezing_rule, _accretion_rule, _frost_rule, _pellets_rule, _snow_rule)
+
+
+def evaluate_rules(timeline: Mapping[str, Any], now: datetime, site_name: str,
+                   thresholds: Mapping[str, Any] | None = None) -> list[Candidate]:
+    """Alert candidates for one site's timeline, at most one per event."""
+    steps = timeline.get("steps") or []
+    if not steps:
+        return []
+    r = _Rules(timeline, steps, now, site_name, merged_thresholds(thresholds),
+               timedelta(minutes=float(timeline["step_minutes"])))
+    for rule in EVENT_RULES:
+        rule(r)
+    return r.out

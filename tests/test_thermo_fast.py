@@ -8,6 +8,7 @@ import numpy as np
 import pytest
 
 from ptype import thermo
+from ptype.errors import OptionError
 from ptype.thermo import fast as fastthermo
 from ptype.thermo import wetbulb
 
@@ -71,7 +72,7 @@ def test_wet_bulb_c_adiabatic_against_metpy():
 def test_wet_bulb_c_bounds_and_missing_values():
     # Physical invariant: Td <= Tw <= T (e.g. AMS Glossary, "wet-bulb temperature").
     p, t, td = _sample(10_000, seed=4)
-    for kind in ("isobaric", "adiabatic"):
+    for kind in thermo.WET_BULB_KINDS:
         tw = fastthermo.wet_bulb_c(p, t, td, kind=kind)
         assert np.all(tw <= t) and np.all(tw >= td)
     tw = fastthermo.wet_bulb_c([np.nan, 850.0, 850.0, -5.0], [1.0, np.nan, 1.0, 1.0],
@@ -114,8 +115,11 @@ def test_wet_bulb_c_broadcasts_and_keeps_shape():
 
 
 def test_wet_bulb_c_rejects_unknown_kind():
-    with pytest.raises(ValueError, match="kind"):
+    # The same check and message as the numpy path (ptype.thermo.kinds).
+    with pytest.raises(OptionError) as info:
         fastthermo.wet_bulb_c(1000.0, 10.0, 5.0, kind="iced")
+    assert str(info.value) == "kind = 'iced': expected one of isobaric, adiabatic"
+    assert info.value.field == "kind"
 
 
 def test_wet_bulb_temperature_dispatches_large_arrays_to_compiled_path():
