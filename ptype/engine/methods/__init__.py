@@ -6,7 +6,7 @@ import importlib
 
 #: Method names in the order results list them.
 METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",
-                "thickness", "jennings")
+                "thickness", "jennings", "particles")
 
 _MODULE_OF: dict[str, str] = {}
 

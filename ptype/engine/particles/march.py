@@ -46,6 +46,13 @@ from ptype.thermo.constants import T0, Lf, Lv, Rd, Rv, rho_w
 #: Deepest sub-step, m (ours: halving it changes the ground fractions of the test profiles by
 #: less than 0.005, ``tests/test_particles_march.py``).
 STEP_M = 25.0
+#: Largest melted fraction a bin may gain in one integration step (ours): a sub-step that would
+#: melt more is cut into equal parts for that bin (the air is the same in every part), so that
+#: the change of shape and fall speed during melting is followed even in a warm layer that melts
+#: a flake within a few tens of metres.
+MAX_MELT_STEP = 0.05
+#: At most this many parts per sub-step (ours; reached only above +30 degC).
+MAX_PARTS = 256
 #: Mean melted fraction at which the mass counts as half and completely melted (ours: the open
 #: tail of the size distribution would otherwise put "complete" at the ground).
 HALF_MELTED = 0.5
@@ -244,33 +251,42 @@ def _interval(z, zg, started, j, step):
     return np.where(ok, top, 0.0), depth, count
 
 
+def _melt_parts(a_full):
+    """Parts a sub-step is cut into for a bin that would melt ``a_full`` of its mass in it."""
+    return np.minimum(np.maximum(np.ceil(a_full / MAX_MELT_STEP), 1.0), MAX_PARTS)
+
+
 def _update_numpy(state, env, consts, dz):
     """One sub-step of every bin (see the module docstring), numpy arrays ``(n, B)``."""
     s, w, r, q = state
     rho_mu, g_h, g_v, dens, bigg, frozen = env
     v_snow, v_drop, d_snow, d_drop, c_snow, c_drop, mass, volume = consts
     geometry = (v_snow, v_drop, d_snow, d_drop, c_snow, c_drop, dens, rho_mu, g_h, g_v)
-    h0, v0 = _heat_and_speed(s, *geometry)
-    ice = s + r
-    melt = (q > 0.0) & (h0 > 0.0) & (ice > 0.0)
-    a0 = q * h0 * dz / (v0 * Lf * mass)
-    s_half = s - np.maximum(0.5 * a0 - r, 0.0)
-    s_half = np.maximum(s_half, 0.0)
-    h1, v1 = _heat_and_speed(s_half, *geometry)
-    a = q * np.maximum(h1, 0.0) * dz / (v1 * Lf * mass)
-    a = np.minimum(a, ice)
-    take_r = np.minimum(a, r)
-    s_m = s - (a - take_r)
-    r_m = r - take_r
-    w_m = w + a
-    gone = s_m + r_m <= EMPTY
-    s = np.where(melt, np.where(gone, 0.0, s_m), s)
-    r = np.where(melt, np.where(gone, 0.0, r_m), r)
-    w = np.where(melt, np.where(gone, 1.0, w_m), w)
-    q = np.where(melt & gone, 0.0, q)
+    h_first, v_first = _heat_and_speed(s, *geometry)
+    melt = (q > 0.0) & (h_first > 0.0) & (s + r > 0.0)
+    parts = np.where(melt, _melt_parts(q * h_first * dz / (v_first * Lf * mass)), 1.0)
+    part = dz / parts
+    h0, v0 = h_first, v_first
+    for k in range(int(parts.max(initial=1.0))):
+        if k > 0:
+            h0, v0 = _heat_and_speed(s, *geometry)
+        ice = s + r
+        go = melt & (k < parts) & (ice > 0.0)
+        a0 = q * h0 * part / (v0 * Lf * mass)
+        s_half = np.maximum(s - np.maximum(0.5 * a0 - r, 0.0), 0.0)
+        h1, v1 = _heat_and_speed(s_half, *geometry)
+        a = np.minimum(q * np.maximum(h1, 0.0) * part / (v1 * Lf * mass), ice)
+        take_r = np.minimum(a, r)
+        s_m = s - (a - take_r)
+        r_m = r - take_r
+        gone = s_m + r_m <= EMPTY
+        s = np.where(go, np.where(gone, 0.0, s_m), s)
+        w = np.where(go, np.where(gone, 1.0, w + a), w)
+        r = np.where(go, np.where(gone, 0.0, r_m), r)
+        q = np.where(go & gone, 0.0, q)
     held = w - (1.0 - q)
-    freeze = ~melt & (q > 0.0) & (h0 < 0.0) & (held > 0.0)
-    a_f = np.minimum(q * (-h0) * dz / (v0 * Lf * mass), held)
+    freeze = ~melt & (q > 0.0) & (h_first < 0.0) & (held > 0.0)
+    a_f = np.minimum(q * (-h_first) * dz / (v_first * Lf * mass), held)
     r = np.where(freeze, r + a_f, r)
     w = np.where(freeze, w - a_f, w)
     nucleate = (q < 1.0) & (bigg > 0.0)
@@ -353,39 +369,49 @@ def _update_bin(i, b, s, w, r, q, env, v_snow, v_drop, d_snow, d_drop, c_snow, c
     """:func:`_update_numpy` for one bin (compiled with numba); writes ``out[0..3]``.  Skips the
     heat balance when it cannot change anything (the numpy path then computes a zero change)."""
     rho_mu, g_h, g_v, dens, bigg, frozen = env
-    ice = s + r
     held = w - (1.0 - q)
     cold_dry = g_h <= 0.0 and g_v <= 0.0
     warm_wet = g_h >= 0.0 and g_v >= 0.0
-    idle = q <= 0.0 or (cold_dry and held <= 0.0) or (warm_wet and ice <= 0.0)
+    idle = q <= 0.0 or (cold_dry and held <= 0.0) or (warm_wet and s + r <= 0.0)
     if not idle:
-        h0, v0 = _heat_and_speed_jit(s, v_snow[i, b], v_drop[i, b], d_snow[i, b], d_drop[i, b],
-                                     c_snow[i, b], c_drop[i, b], dens, rho_mu, g_h, g_v)
-        if q > 0.0 and h0 > 0.0 and ice > 0.0:
-            a0 = q * h0 * dz / (v0 * Lf * mass[i, b])
-            x = 0.5 * a0 - r
-            if x < 0.0:  # noqa: PLR1730 - plain branches compile simply in numba
-                x = 0.0
-            s_half = s - x
-            if s_half < 0.0:  # noqa: PLR1730
-                s_half = 0.0
-            h1, v1 = _heat_and_speed_jit(s_half, v_snow[i, b], v_drop[i, b], d_snow[i, b],
-                                         d_drop[i, b], c_snow[i, b], c_drop[i, b], dens, rho_mu,
-                                         g_h, g_v)
-            if h1 < 0.0:  # noqa: PLR1730
-                h1 = 0.0
-            a = q * h1 * dz / (v1 * Lf * mass[i, b])
-            if a > ice:  # noqa: PLR1730
-                a = ice
-            take_r = a if a < r else r  # noqa: FURB136 - np.minimum order, for numba
-            s_m = s - (a - take_r)
-            r_m = r - take_r
-            if s_m + r_m <= EMPTY:
-                s, r, w, q = 0.0, 0.0, 1.0, 0.0
-            else:
-                s, r, w = s_m, r_m, w + a
-        elif q > 0.0 and h0 < 0.0 and held > 0.0:
-            a_f = q * (-h0) * dz / (v0 * Lf * mass[i, b])
+        vs, vd, ds, dd, cs, cd = (v_snow[i, b], v_drop[i, b], d_snow[i, b], d_drop[i, b],
+                                  c_snow[i, b], c_drop[i, b])
+        m = mass[i, b]
+        h_first, v_first = _heat_and_speed_jit(s, vs, vd, ds, dd, cs, cd, dens, rho_mu, g_h, g_v)
+        if h_first > 0.0 and s + r > 0.0:
+            parts = _melt_parts_jit(q * h_first * dz / (v_first * Lf * m))
+            part = dz / parts
+            h0, v0 = h_first, v_first
+            for k in range(int(parts)):
+                if k > 0:
+                    h0, v0 = _heat_and_speed_jit(s, vs, vd, ds, dd, cs, cd, dens, rho_mu, g_h,
+                                                 g_v)
+                ice = s + r
+                if not ice > 0.0:
+                    break
+                a0 = q * h0 * part / (v0 * Lf * m)
+                x = 0.5 * a0 - r
+                if x < 0.0:  # noqa: PLR1730 - plain branches compile simply in numba
+                    x = 0.0
+                s_half = s - x
+                if s_half < 0.0:  # noqa: PLR1730
+                    s_half = 0.0
+                h1, v1 = _heat_and_speed_jit(s_half, vs, vd, ds, dd, cs, cd, dens, rho_mu, g_h,
+                                             g_v)
+                if h1 < 0.0:  # noqa: PLR1730
+                    h1 = 0.0
+                a = q * h1 * part / (v1 * Lf * m)
+                if a > ice:  # noqa: PLR1730
+                    a = ice
+                take_r = a if a < r else r  # noqa: FURB136 - np.minimum order, for numba
+                s_m = s - (a - take_r)
+                r_m = r - take_r
+                if s_m + r_m <= EMPTY:
+                    s, r, w, q = 0.0, 0.0, 1.0, 0.0
+                else:
+                    s, r, w = s_m, r_m, w + a
+        elif q > 0.0 and h_first < 0.0 and held > 0.0:
+            a_f = q * (-h_first) * dz / (v_first * Lf * m)
             if a_f > held:  # noqa: PLR1730
                 a_f = held
             r = r + a_f
@@ -398,6 +424,16 @@ def _update_bin(i, b, s, w, r, q, env, v_snow, v_drop, d_snow, d_drop, c_snow, c
         r = r + fz
         w = w - fz
     out[0], out[1], out[2], out[3] = s, w, r, q
+
+
+def _melt_parts_scalar(a_full):
+    """:func:`_melt_parts` for a scalar (compiled with numba)."""
+    parts = np.ceil(a_full / MAX_MELT_STEP)
+    if parts < 1.0:  # noqa: PLR1730
+        parts = 1.0
+    if parts > MAX_PARTS:  # noqa: PLR1730
+        parts = float(MAX_PARTS)
+    return parts
 
 
 def _march_loop(z, t, e, p, tw, zg, liquid0, v_snow, v_drop, d_snow, d_drop, c_snow, c_drop,
@@ -507,6 +543,7 @@ def _record_loop(levels, i, j, z, g, mf, state):
 
 _environment_jit = compiled(_environment, inline=True, numpy_errors=True)
 _heat_and_speed_jit = compiled(_heat_and_speed, inline=True, numpy_errors=True)
+_melt_parts_jit = compiled(_melt_parts_scalar, inline=True, numpy_errors=True)
 _update_bin_jit = compiled(_update_bin, inline=True, numpy_errors=True)
 _record_jit = compiled(_record_loop, inline=True)
 _inert_interval = compiled(_inert_loop, inline=True)
