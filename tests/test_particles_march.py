@@ -99,7 +99,7 @@ def test_mass_is_conserved_and_fractions_bounded():
     assert np.all(fr[:, started] >= 0.0)
 
 
-# -- single particle ---------------------------------------------------------------------------------
+# -- single particle -------------------------------------------------------------------------------
 
 def _independent_depth_m(melted, t_c=2.0, p_hpa=1000.0, d_mm=1.0):
     """Depth of fall (m) for a particle of melted diameter ``d_mm`` to melt the fraction
@@ -192,7 +192,7 @@ def test_dry_warm_air_does_not_melt_snow():
     assert wet.values["melted_fraction_levels"][0, 0] > 0.3
 
 
-# -- discretisation ---------------------------------------------------------------------------------
+# -- discretisation --------------------------------------------------------------------------------
 
 def test_halving_the_step_changes_little():
     # Convergence (ours): halving the 25 m sub-step moves the mean melted fraction by less than
@@ -209,7 +209,7 @@ def test_halving_the_step_changes_little():
         assert np.max(np.abs(a.values[k] - b.values[k])) <= 1 / 12 + 1e-9
 
 
-# -- Bourgouin (2000), surface-based warm layer ------------------------------------------------------
+# -- Bourgouin (2000), surface-based warm layer ----------------------------------------------------
 
 def _area_at_half_liquid(rate, rh):
     depths = np.arange(60.0, 900.0, 15.0)
@@ -244,7 +244,7 @@ def test_half_liquid_area_moves_with_rate_within_documented_range():
         assert 0.6 * BOURGOUIN_SNOW_J_KG <= areas[0] and areas[2] <= 1.35 * BOURGOUIN_RAIN_J_KG
 
 
-# -- Bourgouin (2000), elevated warm layer over a cold surface layer ---------------------------------
+# -- Bourgouin (2000), elevated warm layer over a cold surface layer -------------------------------
 
 def test_refrozen_ice_grows_as_the_cold_layer_deepens_or_cools():
     # Physical expectation stated by Bourgouin (2000) (the refreezing area NA) and forecasting
@@ -297,7 +297,7 @@ def test_liquid_pellet_boundary_against_bourgouin_lines(nucleation, factor):
         assert 66.0 + 0.66 * pa < na < factor * bourgouin_midline(pa)
 
 
-# -- properties ---------------------------------------------------------------------------------------
+# -- properties ------------------------------------------------------------------------------------
 
 @st.composite
 def one_warm_layer(draw):

@@ -119,7 +119,7 @@ def test_melting_speed_interpolates():
     assert fallspeed.melting_fall_speed_m_s(0.25, 1.0, 5.0) == pytest.approx(2.0)
 
 
-# -- air properties, ventilation, capacitance -------------------------------------------------------
+# -- air properties, ventilation, capacitance ------------------------------------------------------
 
 def test_air_properties_handbook_values():
     # Viscosity of air at 0 degC: 1.71e-5 Pa s (U.S. Standard Atmosphere 1976 table value, from
@@ -150,7 +150,7 @@ def test_disc_capacitance_is_two_over_pi_of_sphere():
         2 / math.pi)
 
 
-# -- heat balance -----------------------------------------------------------------------------------
+# -- heat balance ----------------------------------------------------------------------------------
 
 def test_surface_heat_hand_calculation():
     # Hand calculation, Mason (1971) / Pruppacher & Klett (1997) melting balance

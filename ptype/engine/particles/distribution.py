@@ -25,8 +25,8 @@ import numpy as np
 #: 1.5 mm/h (``tests/test_particles_physics.py``).
 GM_INTERCEPT_PER_M3_MM = 3.8e3
 GM_INTERCEPT_EXPONENT = -0.87
-#: Gunn & Marshall (1958) slope ``Lambda = 25.5 R^-0.48`` cm-1 = ``2.55 R^-0.48`` mm-1.  From memory,
-#: unverified against the paper (same consistency check).
+#: Gunn & Marshall (1958) slope ``Lambda = 25.5 R^-0.48`` cm-1 = ``2.55 R^-0.48`` mm-1.
+#: From memory, unverified against the paper (same consistency check).
 GM_SLOPE_PER_MM = 2.55
 GM_SLOPE_EXPONENT = -0.48
 #: Melted precipitation rate used when the profile gives none, mm/h.  Common practice (1-2 mm/h

@@ -188,8 +188,8 @@ def bigg_rate_per_m3_s(drop_temperature_c):
 
     Notes
     -----
-    ``J = B [exp(A (T0 - T)) - 1]`` with :data:`BIGG_A_PER_K` and :data:`BIGG_B_PER_M3_S`.  A drop of
-    volume V freezes within ``dt`` with probability ``1 - exp(-J V dt)``.  Valid for drops of
+    ``J = B [exp(A (T0 - T)) - 1]`` with :data:`BIGG_A_PER_K` and :data:`BIGG_B_PER_M3_S`.  A drop
+    of volume V freezes within ``dt`` with probability ``1 - exp(-J V dt)``.  Valid for drops of
     tens of um to mm, down to about -30 degC (homogeneous freezing below -38 degC is not
     represented).
     """

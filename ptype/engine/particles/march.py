@@ -181,7 +181,8 @@ def march(height_m, temperature_c, dewpoint_c, pressure_hpa, wetbulb_c, start_he
     start_liquid : (n,) array_like of bool
         The particles start as supercooled drops (no ice) instead of snow.
     melted_diameter_mm : (n, B) array_like
-        Melted diameter of each bin (:func:`ptype.engine.particles.distribution.melted_diameters_mm`).
+        Melted diameter of each bin
+        (:func:`ptype.engine.particles.distribution.melted_diameters_mm`).
     mass_fraction : (B,) or (n, B) array_like, optional
         Mass carried by each bin (default equal).
     step_m : float
@@ -206,8 +207,8 @@ def march(height_m, temperature_c, dewpoint_c, pressure_hpa, wetbulb_c, start_he
     n, L = z.shape
     bins = particle_bins(np.atleast_2d(melted_diameter_mm))
     B = bins["mass"].shape[1]
-    mf = (np.full((n, B), 1.0 / B) if mass_fraction is None else
-          np.ascontiguousarray(np.broadcast_to(np.asarray(mass_fraction, dtype=np.float64), (n, B))))
+    mf = np.full((n, B), 1.0 / B) if mass_fraction is None else np.ascontiguousarray(
+        np.broadcast_to(np.asarray(mass_fraction, dtype=np.float64), (n, B)))
     zg = np.ascontiguousarray(np.broadcast_to(np.asarray(start_height_m, dtype=np.float64), (n,)))
     liquid0 = np.ascontiguousarray(np.broadcast_to(np.asarray(start_liquid, dtype=bool), (n,)))
     consts = tuple(np.ascontiguousarray(np.broadcast_to(bins[k], (n, B)))
@@ -429,9 +430,9 @@ def _update_bin(i, b, s, w, r, q, env, v_snow, v_drop, d_snow, d_drop, c_snow, c
 def _melt_parts_scalar(a_full):
     """:func:`_melt_parts` for a scalar (compiled with numba)."""
     parts = np.ceil(a_full / MAX_MELT_STEP)
-    if parts < 1.0:  # noqa: PLR1730
+    if parts < 1.0:  # noqa: PLR1730 - plain branches compile simply in numba
         parts = 1.0
-    if parts > MAX_PARTS:  # noqa: PLR1730
+    if parts > MAX_PARTS:
         parts = float(MAX_PARTS)
     return parts
 
