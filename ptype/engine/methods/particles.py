@@ -125,10 +125,10 @@ def run(ctx: Context, *, n_bins: int = distribution.DEFAULT_BINS, rate_mm_h=None
     """
     c = ctx.columns
     n = c.n_columns
-    given = c.precipitation_rate_mm_h if rate_mm_h is None else rate_mm_h
+    given = np.broadcast_to(np.asarray(c.precipitation_rate_mm_h if rate_mm_h is None
+                                       else rate_mm_h, dtype=np.float64), (n,))
     rate = distribution.rate_or_default_mm_h(given, n)
-    from_profile = np.isfinite(np.broadcast_to(np.asarray(given, dtype=np.float64), (n,))) & (
-        np.broadcast_to(np.asarray(given, dtype=np.float64), (n,)) > 0.0)
+    from_profile = np.isfinite(given) & (given > 0.0)
     gen = generating_level(ctx.cloud_layers, c.height_m, ctx.dry_mask)
     enough = c.n_levels >= 2
     start = np.where(enough, gen.height_m, np.nan)
@@ -224,7 +224,7 @@ def _generating_step(v, sfc) -> Step:
     th = {"ice_nucleation_c": -10.0}
     if v["starts_liquid"]:
         text = (f"The precipitating cloud is never colder than {_f(tmin)} \u00b0C, so it makes no "
-                f"ice: supercooled drizzle drops ({DRIZZLE_DIAMETER_MM} mm) leave its top at "
+                f"ice: drizzle drops ({DRIZZLE_DIAMETER_MM} mm) leave its top at "
                 f"{p:.0f} hPa ({_agl(z, sfc)}).")
     else:
         text = (f"Snow leaves the top of the ice-making cloud at {p:.0f} hPa ({_agl(z, sfc)}), "
