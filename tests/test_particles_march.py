@@ -145,8 +145,8 @@ def test_single_flake_melting_matches_quadrature():
     # A 1 mm (melted) aggregate starting at 1000 m in saturated air at +2 degC and 1000 hPa.
     # Hand calculation of the first metre: H = 7.59e-3 W (see test_particles_physics), v = 0.982
     # m/s, L_f m = 0.1749 J -> 4.4 % melted per metre at first; the quadrature above integrates
-    # the whole path: 30 % melted after 10 m, 49 % after 20 m, 80 % after 50 m.  The march (25 m
-    # sub-steps cut into parts of at most 5 % melt) must match within 0.3 % of the mass.
+    # the whole path: 30 % melted after 10 m, 49 % after 20 m, 80 % after 50 m.  The march (50 m
+    # sub-steps cut into parts of at most 10 % melt) must match within 0.3 % of the mass.
     z = np.array([[0.0, 500.0, 900.0, 950.0, 970.0, 980.0, 990.0, 1000.0, 1500.0]])
     t = np.array([[2.0] * 8 + [-5.0]])
     p = np.full_like(z, 1000.0)
@@ -195,7 +195,7 @@ def test_dry_warm_air_does_not_melt_snow():
 # -- discretisation --------------------------------------------------------------------------------
 
 def test_halving_the_step_changes_little():
-    # Convergence (ours): halving the 25 m sub-step moves the mean melted fraction by less than
+    # Convergence (ours): halving the 50 m sub-step moves the mean melted fraction by less than
     # 0.005 and a ground class by at most one size bin (1/12 of the mass: a bin whose ice core
     # vanishes exactly at the bottom of a warm layer may go either way).
     t = np.array([warm_nose(c, s, p, w) for c in (300.0, 1000.0) for s in (-3.0, -12.0)
@@ -257,7 +257,7 @@ def test_refrozen_ice_grows_as_the_cold_layer_deepens_or_cools():
     res, _ = run(np.array(deeper + colder), saturated_above_m=0.0)
     ice = res.values["ground_refrozen_ice"]
     klass = res.values["refrozen"]
-    assert klass[0] == 0.0 and klass[5] == 0.0 and klass[9] > 0.5
+    assert klass[0] == 0.0 and klass[5] < 1e-3 and klass[9] > 0.5
     for part in (slice(0, 5), slice(5, 10)):
         assert np.all(np.diff(ice[part]) > 0.0)
         assert np.all(np.diff(klass[part]) >= -1e-12)
@@ -342,12 +342,12 @@ def test_compact_refrozen_particles_outlast_flakes():
     # the upper one can leave compact refrozen particles that fall faster and melt less in the
     # lower one than flakes do (pellets outlast snowflakes: a compact particle has less surface
     # per mass and less time in the layer).  Invented column: shallow surface warm layer under a
-    # cold layer; warming by 1.4 K turns the top of the cloud layer into a melting layer.
+    # cold layer; warming by 1 K turns the top of the cloud layer into a melting layer.
     z = HEIGHTS_M
     t = np.interp(z, [0, 99, 101, 1444, 3904, 6000, 8000], [1.14, 1.14, -4.25, -6.98, -0.27,
                                                              -20.0, -35.0])
     a, _ = run(t, saturated_above_m=0.0)
-    b, _ = run(t + 1.43, saturated_above_m=0.0)
+    b, _ = run(t + 1.0, saturated_above_m=0.0)
     assert b.values["ground_refrozen_ice"][0] > 0.0 == a.values["ground_refrozen_ice"][0]
     ice = [1.0 - r.values["liquid_fraction_levels"][0, 0] for r in (a, b)]
     assert ice[1] > ice[0]

@@ -22,7 +22,7 @@ import numpy as np
 #: Gunn & Marshall (1958) intercept ``N0 = 3.8e3 R^-0.87`` m-3 mm-1 (R in mm/h).  From memory,
 #: unverified against the paper; checked here for consistency: with the Locatelli & Hobbs (1974)
 #: fall speeds and masses the distribution carries a mass flux within 20 % of ``R`` from 0.3 to
-#: 1.5 mm/h (``tests/test_particles_physics.py``).
+#: 1 mm/h (``tests/test_particles_physics.py``).
 GM_INTERCEPT_PER_M3_MM = 3.8e3
 GM_INTERCEPT_EXPONENT = -0.87
 #: Gunn & Marshall (1958) slope ``Lambda = 25.5 R^-0.48`` cm-1 = ``2.55 R^-0.48`` mm-1.

@@ -173,8 +173,9 @@ def surface_heat_w(capacitance_m, heat_ventilation, vapour_ventilation, temperat
     ``H = 4 pi C [k_a (T - T0) f_h + L_v D_v (rho_v - rho_vs(T0)) f_v]`` (Mason 1971, ch. 8;
     Pruppacher & Klett 1997, eq. 16-75 for melting; the same balance with the opposite sign
     freezes the liquid of a particle that holds ice).  Neglects the heat carried by collected
-    cloud water and radiation.  Checked in the tests: in saturated air at +1 degC and 1000 hPa
-    the vapour term adds 75 % to conduction (hand calculation).
+    cloud water and radiation.  Checked in the tests: in saturated air at +2 degC and 1000 hPa
+    the vapour term adds about 80 % to conduction (hand calculation).  Valid for air between
+    about -40 and +40 degC (the property fits) and a particle surface at 0 degC.
     """
     t = np.asarray(temperature_c, dtype=np.float64)
     conduction = air_conductivity_w_m_k(t) * t * heat_ventilation
