@@ -258,7 +258,7 @@ def _melting_step(v, sfc) -> Step:
     if np.isfinite(half):
         parts.append(f"half of the mass has melted by {_agl(half, sfc)}")
     if np.isfinite(done):
-        parts.append(f"{_pct(COMPLETE_MELTED)} by {_agl(done, sfc)}")
+        parts.append(f"{_pct(COMPLETE_MELTED)} of it by {_agl(done, sfc)}")
         tail = "."
     else:
         tail = f"; melting is not complete: {_pct(melted)} of the mass has melted at the ground."
