@@ -13,6 +13,8 @@ import pytest
 from api_support import document_to_csv, freezing_rain_document, snow_document
 from test_server import start_server, stop_server
 
+from ptype.engine.methods import METHOD_NAMES
+
 CHROMIUM = "/usr/bin/chromium"
 CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
                  "--disable-component-update", "--disable-sync", "--no-first-run"]
@@ -79,7 +81,7 @@ def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
     assert "Freezing rain" in page.inner_text("#verdict-label")
     assert "freezes on contact" in page.inner_text("#verdict-meaning")
     assert page.locator("#bars li").count() >= 1
-    assert page.locator("#methods-body tr").count() == 8
+    assert page.locator("#methods-body tr").count() == len(METHOD_NAMES)
     assert "Guidance only" in page.inner_text("#caution")
 
     page.wait_for_function("() => { const i = document.getElementById('diagram');"

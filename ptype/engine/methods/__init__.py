@@ -7,7 +7,7 @@ from types import ModuleType
 
 #: Method names in the order results list them.
 METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",
-                "thickness", "jennings")
+                "thickness", "jennings", "particles")
 
 _MODULE_OF: dict[str, str] = {}
 
