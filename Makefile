@@ -38,6 +38,7 @@ system-deps:
 	fi
 
 test: $(STAMP) system-deps
+	$(VENV)/bin/ruff check ptype api tests bench soundings_demo soundings_demo
 	$(PY) -m pytest -q
 
 run: $(STAMP)

@@ -5,7 +5,8 @@ module listed in :data:`BLUEPRINT_MODULES` (a module exposes ``bp``).  Views onl
 the request, call the library and serialise the answer; what several views share lives in
 :mod:`ptype.api.plumbing` (requests, answers, store, clock, key) and
 :mod:`ptype.api.site_ops` (sites and alerts), the wire format in :mod:`ptype.api.models`,
-and each view carries its OpenAPI description (:mod:`ptype.api.openapi`).  All errors are mapped to JSON
+and each view carries its OpenAPI description (:mod:`ptype.api.openapi`).  All errors are
+mapped to JSON
 ``{"error": {"code", "message", "field"?}}`` by :mod:`ptype.api.errors`.
 
 The API lives under ``/v1`` (each API blueprint's ``url_prefix``); the pages (``/``,

@@ -93,6 +93,7 @@ def main(argv: list[str] | None = None) -> dict:
     # Ingest latency through the app (observation post + alert evaluation).
     from ptype.api import create_app
     from ptype.api.sites import store_for
+
     from ptype.store import keys
     with tempfile.TemporaryDirectory() as d:
         app = create_app({"PTYPE_DATA_DIR": d, "PTYPE_NOW": now.isoformat()})

@@ -223,8 +223,9 @@ def run_threads(url: str, path: str, body: bytes | None, connections: int,
 def stage_timings(document: dict, repeat: int = 40) -> dict:
     """Mean milliseconds of each stage of one request, measured in this process."""
     sys.path.insert(0, str(ROOT))
-    import ptype
     from ptype.api import create_app
+
+    import ptype
     from ptype.profile.document import parse_document
 
     body = json.dumps(document)

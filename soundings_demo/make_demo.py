@@ -476,9 +476,10 @@ CASES = [
     {"site": "korrim-pass", "hour": 20, "design": "SN PL",
      "note": "marginal: weak warm nose (under +1 degC) above the pass; snow or ice pellets",
      "set": {"t_nose": 0.7, "nose_depth": 20.0}},
-    {"site": "tessary-viaduct", "hour": 13, "design": "FZRAPL PL",
+    {"site": "tessary-viaduct", "hour": 13, "design": "FZRAPL PL FZRA",
      "note": "marginal: +3 degC nose over a -6 degC cold layer, between the ice-pellet and "
-             "freezing-rain lines", "set": {"t_nose": 3.0, "t_ib": -5.8, "ib_agl": 55.0}},
+             "freezing-rain lines (a cold layer warmer than about -8 degC may leave melted "
+             "drops liquid)", "set": {"t_nose": 3.0, "t_ib": -5.8, "ib_agl": 55.0}},
     {"site": "ulmbrook-cutting", "hour": 16, "design": "RA FZRA",
      "note": "marginal: surface just above 0 degC under a strong warm nose; rain or freezing "
              "rain",

@@ -3,10 +3,10 @@
 from datetime import timedelta
 
 import pytest
-from series_helpers import T0, profile_doc, storm_docs
-
 from ptype.api import create_app
 from ptype.api.sites import store_for
+from series_helpers import T0, profile_doc, storm_docs
+
 from ptype.roads.alerts.lifecycle import CHANGE_TOLERANCE, decide
 from ptype.roads.alerts.rules import Candidate, certainty_word, evaluate_rules, urgency_word
 from ptype.store import keys

@@ -7,9 +7,9 @@ from pathlib import Path
 
 import pytest
 from api_support import document_to_csv, freezing_rain_document, snow_document
-
 from ptype.api import create_app
 from ptype.api.models import DemoList
+
 from ptype.readers.temp_format import write_temp
 
 REPO_DEMO = Path(__file__).resolve().parent.parent / "soundings_demo"

@@ -8,10 +8,10 @@ import json
 
 import pytest
 from api_support import document_to_csv, freezing_rain_document, snow_document
-
-import ptype
 from ptype.api import create_app
 from ptype.api.models import BatchResponse, Diagnosis, ErrorResponse
+
+import ptype
 from ptype.readers.temp_format import write_temp
 
 

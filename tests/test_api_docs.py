@@ -8,10 +8,10 @@ from html.parser import HTMLParser
 
 import jsonschema_rs
 import pytest
+from ptype.api.openapi import documented_routes
 from schemathesis.specs.openapi.definitions import OPENAPI_31  # the OAS 3.1 meta-schema
 
 import ptype
-from ptype.api.openapi import documented_routes
 
 
 @pytest.fixture(scope="module")

@@ -8,7 +8,6 @@ import json
 import numpy as np
 import pytest
 from flask import Blueprint, Flask
-
 from ptype.api.errors import ApiError
 from ptype.api.models import SiteIn
 from ptype.api.openapi import Operation, documented_routes

@@ -3,9 +3,9 @@
 import os
 
 import pytest
+from ptype.api.plumbing import store_for
 from series_helpers import storm_docs
 
-from ptype.api.plumbing import store_for
 from ptype.clock import parse_time
 from ptype.store import keys
 

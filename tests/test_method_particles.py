@@ -7,6 +7,8 @@ published reasoning named beside each case.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 from particles_support import HEIGHTS_M, columns, surface_warm_layer, warm_nose
@@ -215,3 +217,23 @@ def test_explanation_of_drizzle_and_no_melting():
     assert "makes no ice" in texts[0] and "freezing drizzle" in texts[-1]
     snow = run(-3.0 - 6.5e-3 * HEIGHTS_M)
     assert [s.rule for s in snow.steps(0)][2] == "no_melting"
+
+
+#: An invented demo sounding of freezing rain (a strong warm nose over a cold surface layer).
+DEMO_FZRA = (Path(__file__).resolve().parents[1] / "soundings_demo" / "json"
+             / "mistleby-bridge_20260127T1600.json")
+
+
+def test_diagnosis_json_carries_the_particle_fractions_and_levels():
+    # What the page and API clients read: fractions at the ground that sum to 1, the melting
+    # heights, and per-level fractions on the profile's own levels.
+    import ptype
+    d = ptype.diagnose(str(DEMO_FZRA), members=0).to_dict()
+    block = d["methods"]["particles"]
+    fractions = block["mass_fractions"]
+    assert set(fractions) == {"snow", "melting", "liquid", "refrozen"}
+    assert abs(sum(fractions.values()) - 1.0) < 1e-3 and min(fractions.values()) >= 0.0
+    assert block["melting_start_m"] >= block["melting_half_m"] >= block["melting_complete_m"]
+    n = len(d["profile"]["pressure_hpa"])
+    assert len(d["profile"]["melted_fraction"]) == len(d["profile"]["refrozen_fraction"]) == n
+    assert any("particle model" in s for s in d["explanation"])

@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from winter_soundings import build_columns, draw_parameters
 
 import ptype
 from ptype import thermo
@@ -22,7 +23,6 @@ from ptype.engine.columns import Columns
 from ptype.engine.methods.base import Context
 from ptype.engine.run import diagnose_columns
 from ptype.thermo.constants import Rd
-from winter_soundings import build_columns, draw_parameters
 
 
 def _levels(knots_p, knots_t, depression, n_levels=60, p_top=300.0):

@@ -12,7 +12,6 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from ptype import thermo
 from ptype.codes import Code
 from ptype.engine.columns import Columns
 from ptype.engine.probability import (

@@ -9,14 +9,13 @@ from __future__ import annotations
 
 import schemathesis
 from hypothesis import HealthCheck, Phase, settings
+from ptype.api import create_app
 from schemathesis.checks import not_a_server_error
 from schemathesis.specs.openapi.checks import (
     content_type_conformance,
     response_schema_conformance,
     status_code_conformance,
 )
-
-from ptype.api import create_app
 
 APP = create_app({"TESTING": True})
 schema = schemathesis.openapi.from_wsgi("/openapi.json", APP)

@@ -12,6 +12,8 @@ from datetime import UTC, datetime
 
 import schemathesis
 from hypothesis import HealthCheck, Phase, settings
+from ptype.api import create_app
+from ptype.api.plumbing import store_for
 from schemathesis.checks import not_a_server_error
 from schemathesis.specs.openapi.checks import (
     content_type_conformance,
@@ -19,8 +21,6 @@ from schemathesis.specs.openapi.checks import (
     status_code_conformance,
 )
 
-from ptype.api import create_app
-from ptype.api.plumbing import store_for
 from ptype.store.keys import create_key
 
 APP = create_app({"TESTING": True, "PTYPE_DATA_DIR": tempfile.mkdtemp(prefix="ptype-st-"),

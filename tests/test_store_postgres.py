@@ -19,10 +19,10 @@ import sqlalchemy as sa
 
 pytest.importorskip("psycopg", reason="the psycopg driver is not installed")
 
-from series_helpers import storm_docs
-
 from ptype.api import create_app
 from ptype.api.sites import store_for
+from series_helpers import storm_docs
+
 from ptype.store import Store, keys, migrations
 
 NOW = datetime(2026, 1, 27, tzinfo=UTC)

@@ -11,6 +11,7 @@ from pathlib import Path
 import pytest
 import schemathesis
 from hypothesis import HealthCheck, Phase, settings
+from ptype.api import create_app
 from schemathesis.checks import not_a_server_error
 from schemathesis.specs.openapi.checks import (
     content_type_conformance,
@@ -19,7 +20,6 @@ from schemathesis.specs.openapi.checks import (
 )
 
 import ptype
-from ptype.api import create_app
 
 DEMO = Path(__file__).resolve().parents[1] / "soundings_demo" / "verification" / "profiles"
 METHODS = ["bourgouin", "cloud_top"]

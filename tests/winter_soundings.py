@@ -72,7 +72,6 @@ def draw_parameters(rng: np.random.Generator, n: int) -> dict[str, np.ndarray]:
 
 def _temperature_on(height_m: np.ndarray, prm: dict[str, np.ndarray]) -> np.ndarray:
     """Temperature, degC, on ``(n, L)`` heights above ground from the knots of each column."""
-    n, L = height_m.shape
     z1 = prm["surface_layer_top_m"][:, None]
     t0 = prm["surface_temperature_c"][:, None]
     t1 = prm["surface_layer_top_c"][:, None]
@@ -105,7 +104,8 @@ def _dewpoint(temperature_c, height_m, prm) -> np.ndarray:
     zt = prm["cloud_top_m"][:, None]
     rh = prm["surface_rh_pct"][:, None]
     # Depression for the surface RH at the surface temperature, roughly (Magnus slope at 0 degC).
-    sub_cloud = np.clip((100.0 - rh) / 5.0, 0.0, 12.0) * np.clip(1.0 - height_m / np.maximum(zb, 1.0), 0.0, 1.0)
+    below_base = np.clip(1.0 - height_m / np.maximum(zb, 1.0), 0.0, 1.0)
+    sub_cloud = np.clip((100.0 - rh) / 5.0, 0.0, 12.0) * below_base
     in_cloud = (height_m >= zb) & (height_m <= zt)
     slot = prm["dry_slot"][:, None] & (np.abs(height_m - prm["dry_slot_m"][:, None]) < 300.0)
     dep = np.where(in_cloud, 0.15, np.where(height_m > zt, 12.0, sub_cloud))

@@ -42,7 +42,7 @@ from ptype.engine.methods.base import Context, MethodResult, Step, select_first
 #: original Baldwin et al. (1994) tree and its 2005 revision share everything but the snow
 #: test, so together they cast one vote (ours).
 VOTER_WEIGHTS = {"bourgouin": 1.0, "ramer": 1.0, "baldwin": 0.5, "baldwin_revised": 0.5,
-                 "czys": 1.0, "cloud_top": 1.0}
+                 "czys": 1.0, "cloud_top": 1.0, "particles": 1.0}
 VOTERS = tuple(VOTER_WEIGHTS)
 NAME = "consensus"
 
@@ -242,8 +242,9 @@ def explain(result: MethodResult, i: int) -> list[Step]:
                                 f"{w.temperature(float(v['surface_wetbulb_c'][i]))}, below "
                                 "freezing, and the snow reached the surface layer unmelted: "
                                 "evaporation into the dry surface air can keep flakes frozen. "
-                                f"The snow probability {w.fraction(float(v['snow_probability'][i]))}"
-                                f" turns {winner.name} into {w.code(code)}.",
+                                "The snow probability "
+                                f"{w.fraction(float(v['snow_probability'][i]))} turns "
+                                f"{winner.name} into {w.code(code)}.",
                           {"surface_wetbulb_c": float(v["surface_wetbulb_c"][i]),
                            "snow_probability": float(v["snow_probability"][i])},
                           {"surface_wetbulb_c": 0.0,
@@ -271,8 +272,9 @@ def _vote_step(v: dict, i: int, counts: np.ndarray, tally: dict) -> Step:
         text += f", {weight} of them for it"
     if ph in ("liquid", "drizzle", "liquid_pellets"):
         sfc = float(v["surface_temperature_c"][i])
-        text += (f"; on a surface at {w.temperature(sfc)} the liquid "
-                 f"{'freezes on contact' if sfc <= cloud_top.FREEZING_SURFACE_C else 'stays liquid'}")
+        fate = ("freezes on contact" if sfc <= cloud_top.FREEZING_SURFACE_C
+                else "stays liquid")
+        text += f"; on a surface at {w.temperature(sfc)} the liquid {fate}"
     if v["tie"][i]:
         text += "; equal votes within that phase go to the more hazardous type"
     text += f": {w.code(vote)}"

@@ -147,6 +147,10 @@ class Diagnosis:
                              "wetbulb": getattr(mod, "WETBULB", None),
                              "rule": None if res.rule is None else _rule_name(mod, res, i),
                              "steps": [s.to_dict() for s in res.steps(i)]}
+            details = getattr(mod, "details", None)
+            if details is not None:
+                # A method with more to say than its type (the particle model's fractions).
+                methods[name].update(details(res, i, self.profile.n_levels))
         return methods
 
     def _surface_dict(self) -> dict[str, float]:
@@ -169,7 +173,21 @@ class Diagnosis:
         return {"pressure_hpa": clean(c.pressure_hpa[i]), "height_m": clean(c.height_m[i]),
                 "temperature_c": clean(c.temperature_c[i]), "dewpoint_c": clean(c.dewpoint_c[i]),
                 "relative_humidity_pct": clean(c.relative_humidity_pct[i]),
-                "wetbulb_c": clean(tw), "wetbulb_kind": self.wetbulb}
+                "wetbulb_c": clean(tw), "wetbulb_kind": self.wetbulb,
+                **self._particle_levels()}
+
+    def _particle_levels(self) -> dict[str, list]:
+        """The particle model's mean melted and refrozen fractions per level, when it ran."""
+        res = self.results.get("particles")
+        if res is None:
+            return {}
+        k, i = self.profile.n_levels, self.row
+
+        def clean(a):
+            return [round(x, 4) if isfinite(x) else None for x in a[i, :k].tolist()]
+
+        return {"melted_fraction": clean(res.values["melted_fraction_levels"]),
+                "refrozen_fraction": clean(res.values["refrozen_fraction_levels"])}
 
 
 def _iso(t: datetime) -> str:

@@ -75,6 +75,8 @@ def narrative(diagnosis: Explained) -> list[str]:
     out.append(_surface_sentence(diagnosis.columns, i))
     if "ramer" in results:
         out.extend(_ice_fraction_sentences(results["ramer"], i))
+    if "particles" in results:
+        out.extend(_particle_sentences(results["particles"], i))
     out.extend(_consensus_sentences(diagnosis))
     return out
 
@@ -158,6 +160,23 @@ def _ice_fraction_sentences(result: MethodResult, i: int) -> list[str]:
         return []
     return [(f"Ramer's ice fraction at the ground is {w.fraction(f)} (1 = all ice, 0 = all "
              "liquid).")]
+
+
+def _particle_sentences(result: MethodResult, i: int) -> list[str]:
+    """The particle model's mass at the ground and where it melted, when it ran."""
+    v = result.values
+    if not np.isfinite(v["generating_height_m"][i]):
+        return []
+    shares = ", ".join(f"{w.percent(100.0 * float(v[k][i]))} {word}" for k, word in
+                       (("snow", "snow"), ("melting", "melting snow"), ("liquid", "liquid"),
+                        ("refrozen", "refrozen ice")) if float(v[k][i]) >= 0.005)
+    text = f"The particle model brings to the ground {shares}"
+    half, done = float(v["melting_half_m"][i]), float(v["melting_complete_m"][i])
+    if np.isfinite(done):
+        text += f"; the snow is half melted at {w.height(half)} and melted at {w.height(done)}"
+    elif np.isfinite(half):
+        text += f"; the snow is half melted at {w.height(half)}"
+    return [text + "."]
 
 
 def _consensus_sentences(diagnosis: Explained) -> list[str]:

@@ -459,7 +459,7 @@ def without_thin_runs(runs: CloudLayers, min_depth_m: float = MIN_CLOUD_DEPTH_M)
         keep = present & ((runs.top_m - runs.bottom_m) >= min_depth_m)
     if (keep == present).all():
         return runs
-    n, R = keep.shape
+    n = keep.shape[0]
     count = keep.sum(axis=1)
     R_new = max(int(count.max(initial=0)), 1)
     ri, rk = np.nonzero(keep)
@@ -470,7 +470,8 @@ def without_thin_runs(runs: CloudLayers, min_depth_m: float = MIN_CLOUD_DEPTH_M)
         out[ri, slot] = a[ri, rk]
         return out
 
-    return CloudLayers(bottom_hpa=packed(runs.bottom_hpa, np.nan), top_hpa=packed(runs.top_hpa, np.nan),
+    return CloudLayers(bottom_hpa=packed(runs.bottom_hpa, np.nan),
+                       top_hpa=packed(runs.top_hpa, np.nan),
                        bottom_m=packed(runs.bottom_m, np.nan), top_m=packed(runs.top_m, np.nan),
                        top_temperature_c=packed(runs.top_temperature_c, np.nan),
                        min_temperature_c=packed(runs.min_temperature_c, np.nan), count=count,
@@ -483,7 +484,7 @@ def deepest_run_within_m(mask: np.ndarray, height_m: np.ndarray, bottom_m: np.nd
     """Depth of the deepest run of True levels of ``mask`` lying between ``bottom_m`` and
     ``top_m`` (``(n,)`` each), m; 0 where there is none."""
     inside = mask & (height_m >= bottom_m[:, None] - 1e-6) & (height_m <= top_m[:, None] + 1e-6)
-    start, end, count = level_index_runs(inside)
+    start, end, _ = level_index_runs(inside)
     rows = np.arange(height_m.shape[0])[:, None]
     present = start >= 0
     depth = np.where(present, height_m[rows, np.maximum(end, 0)]

@@ -36,7 +36,6 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from ptype import thermo
 from ptype.codes import HAZARD_RANK, Code
 from ptype.engine.columns import Columns
 from ptype.engine.compiled import AVAILABLE as _COMPILED
@@ -287,7 +286,7 @@ def possible_code_map(control: np.ndarray, possible: np.ndarray) -> np.ndarray:
     surface layer...) counts as the possible type with the nearest ice content: the column's
     own type when it is among those, else the most hazardous of them.  Possible types map to
     themselves."""
-    n, k = possible.shape
+    k = possible.shape[1]
     distance = np.abs(_ICE_CONTENT[:, None] - _ICE_CONTENT[None, :])  # (from, to)
     rank = np.array([HAZARD_RANK[Code(c)] for c in range(k)], dtype=np.float64)
     # cost[i, from, to]: impossible targets excluded; nearest ice first, then the control,

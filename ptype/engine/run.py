@@ -229,18 +229,6 @@ def run_columns(columns: Columns, members: int = 0, seed: SeedLike = None,
     names = method_names(methods)
     n = columns.n_columns
     per_batch = batch_columns or max(1, DEFAULT_MEMBER_BATCH // max(members, 1))
-    if trace and members and n <= per_batch and batch_seed is None:
-        # One pass for the control and its members (one profile: the common case of the
-        # service); the control's rows come first.
-        pert, weights = perturb_members(columns, members, seed)
-        batch = Columns.concat([columns, pert])
-        weights = np.concatenate([np.ones((n, weights.shape[1])), weights])
-        core = diagnose_columns(batch, names, return_context=True, voter_weights=weights)
-        code_map = possible_code_map(core["ptype"][:n], core["possible"][:n])
-        member_codes = np.repeat(code_map, members, axis=0)[np.arange(n * members),
-                                                            core["ptype"][n:]]
-        probs = probabilities_from_codes(member_codes, n, members)
-        return _engine_run(core, probs, n, calibration)
     core = diagnose_columns(columns, names, return_context=trace)
     probs = None
     if members:

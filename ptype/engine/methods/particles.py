@@ -164,6 +164,36 @@ def run(ctx: Context, *, n_bins: int = distribution.DEFAULT_BINS, rate_mm_h=None
                         explainer=explain)
 
 
+def details(result: MethodResult, i: int, n_levels: int) -> dict:
+    """What the diagnosis JSON adds for column ``i``: the mass fractions at the ground (summing
+    to 1), the heights where melting starts, is half done and complete, and the per-level mean
+    melted, liquid and refrozen fractions (``n_levels`` levels, surface to top; None where
+    the particles have not passed)."""
+    v = result.values
+
+    def height(key):
+        x = float(v[key][i])
+        return round(x) if np.isfinite(x) else None
+
+    def levels(key):
+        return [round(x, 4) if np.isfinite(x) else None
+                for x in v[key][i, :n_levels].tolist()]
+
+    fractions = {k: round(float(v[k][i]), 4) for k in ("snow", "melting", "liquid", "refrozen")}
+    if not np.isfinite(v["generating_height_m"][i]):
+        fractions = None
+    return {"mass_fractions": fractions,
+            "melting_start_m": height("melting_start_m"),
+            "melting_half_m": height("melting_half_m"),
+            "melting_complete_m": height("melting_complete_m"),
+            "refreezing_start_m": height("refreezing_start_m"),
+            "generating_height_m": height("generating_height_m"),
+            "precipitation_rate_mm_h": round(float(v["precipitation_rate_mm_h"][i]), 2),
+            "levels": {"melted_fraction": levels("melted_fraction_levels"),
+                       "liquid_fraction": levels("liquid_fraction_levels"),
+                       "refrozen_fraction": levels("refrozen_fraction_levels")}}
+
+
 def _rules(enough, has_start, drizzle, freezing, fractions, melted_ground):
     """Index into :data:`RULES` of every column (the module's type table)."""
     snowlike, liquid, refrozen = fractions
