@@ -38,7 +38,7 @@ system-deps:
 	fi
 
 test: $(STAMP) system-deps
-	$(VENV)/bin/ruff check ptype api tests bench soundings_demo soundings_demo
+	$(VENV)/bin/ruff check ptype api tests bench soundings_demo
 	$(PY) -m pytest -q
 
 run: $(STAMP)
@@ -67,7 +67,7 @@ demo-grid: $(STAMP)
 	  --members 20 --seed 1 --per-method --plot $(PTYPE_DATA_DIR)/grid/demo_ptype.png
 
 lint: $(STAMP)
-	$(VENV)/bin/ruff check ptype api tests bench
+	$(VENV)/bin/ruff check ptype api tests bench soundings_demo
 
 clean:
 	rm -rf $(VENV) .data .pytest_cache build *.egg-info
