@@ -19,6 +19,8 @@ from ptype.codes import GRIB2_4201, from_abbrev
 from ptype.errors import OptionError, ReaderError
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+#: The invented demo grid (soundings_demo/grid/make_grid.py).
+DEMO_GRID = os.path.join(ROOT, "soundings_demo", "grid", "demo_grid.nc")
 
 # WMO GRIB2 code table 4.201 "Precipitation type" (wmo-im/GRIB2 v37, as summarised in
 # shared/reference/standards.md sec. 2.1): the flag meanings must be these words.
@@ -456,3 +458,36 @@ def test_diagnose_dataset_without_time_on_cells_with_auxiliary_coordinates(small
                                   small_result.precipitation_type.values[0].ravel())
     assert {"lat", "lon"} <= set(out.coords) and "height" not in out.coords
     assert out.precipitation_type.attrs["grid_mapping"] == "crs" and "crs" in out
+
+
+def test_grid_fractions_are_cf_variables_that_sum_to_one(small_file):
+    # The particle model's four classes of mass at the ground (docs/particles.md): each in
+    # [0, 1] with units "1" (CF: a dimensionless fraction), and their sum is 1 where it ran.
+    ds = grid.open_grid(small_file)
+    out = grid.diagnose_dataset(ds, fractions=True).compute()
+    names = [f"mass_fraction_of_{k}_at_surface" for k in ("snow", "melting", "liquid",
+                                                          "refrozen")]
+    total = sum(out[n].values.astype(np.float64) for n in names)
+    ran = np.isfinite(total)
+    assert ran.mean() > 0.9
+    np.testing.assert_allclose(total[ran], 1.0, atol=1e-5)
+    for n in names:
+        v = out[n]
+        assert v.attrs["units"] == "1" and ptype.CAUTION in v.attrs["comment"]
+        assert np.nanmin(v.values) >= 0.0 and np.nanmax(v.values) <= 1.0
+
+
+def test_demo_grid_has_no_snow_between_rain_and_freezing_rain():
+    # Melted drops never become snow again (docs/consensus.md, the phase path): where rain
+    # meets freezing rain on the invented demo grid, no column between them may say snow
+    # (before the phase path a one-pixel band of snow showed there: 233 columns).
+    ds = grid.open_grid(str(DEMO_GRID))
+    codes = grid.diagnose_dataset(ds).compute().precipitation_type.values
+    rain, freezing, snow = 1, 3, 5  # WMO GRIB2 code table 4.201
+    band = 0
+    for axis in (-1, -2):
+        before, after = np.roll(codes, 1, axis=axis), np.roll(codes, -1, axis=axis)
+        band += int(((codes == snow) & (((before == rain) & (after == freezing))
+                                        | ((before == freezing) & (after == rain)))).sum())
+    assert band == 0
+    assert (codes == rain).any() and (codes == freezing).any() and (codes == snow).any()

@@ -39,6 +39,9 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help="restrict to these methods (default: all)")
     p.add_argument("--per-method", action="store_true",
                    help="also write one type variable per method")
+    p.add_argument("--fractions", action="store_true",
+                   help="also write the particle model's mass fractions at the ground (snow, "
+                        "melting snow, liquid, refrozen ice)")
     p.add_argument("--plot", default=None, metavar="MAP.png", help="also draw a map of the type")
     p.add_argument("--plot-time", type=int, default=0, metavar="INDEX",
                    help="time step drawn by --plot (default 0, the first)")
@@ -70,7 +73,8 @@ def run(args: argparse.Namespace) -> int:
         start = time.perf_counter()
         ds = grid.open_grid(args.inputs, chunks, members=args.members)
         out = grid.diagnose_dataset(ds, members=args.members, seed=args.seed,
-                                    methods=args.methods, per_method=args.per_method)
+                                    methods=args.methods, per_method=args.per_method,
+                                    fractions=args.fractions)
         grid.write_grid(out, args.output, progress=progress, client=client, argv=_argv(args))
         elapsed = time.perf_counter() - start
     finally:
@@ -104,6 +108,8 @@ def _argv(args: argparse.Namespace) -> list[str]:
         parts += ["--methods", args.methods]
     if args.per_method:
         parts.append("--per-method")
+    if args.fractions:
+        parts.append("--fractions")
     return parts
 
 

@@ -43,6 +43,8 @@ from ptype.errors import OptionError
 #: Method names: an iterable, a comma-separated string, or None for all of them.
 MethodsLike = Iterable[str] | str | None
 
+#: The particle model's classes of mass at the ground (``fraction_<class>`` in the fields).
+PARTICLE_FRACTIONS = ("snow", "melting", "liquid", "refrozen")
 #: Columns x members diagnosed in one vectorised pass when the caller sets no batch size.
 DEFAULT_MEMBER_BATCH = 20_000
 
@@ -138,6 +140,10 @@ def diagnose_columns(columns: Columns, methods: MethodsLike = None, *,
     out["melt_surface_j_kg"] = cons.values["melt_surface_j_kg"]
     out["surface_temperature_c"] = columns.surface_temperature_c
     out["surface_wetbulb_c"] = columns.surface_wetbulb_c
+    if "particles" in results:
+        # The particle model's mass at the ground, for grids and timelines.
+        for part in PARTICLE_FRACTIONS:
+            out[f"fraction_{part}"] = results["particles"].values[part]
     if return_context:
         out.update(_context=ctx, _results=results, _consensus=cons)
     return out

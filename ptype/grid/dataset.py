@@ -33,6 +33,7 @@ def _label_name(code: Code) -> str:
 
 def diagnose_dataset(ds: xr.Dataset, members: int = 0, seed: int | None = None,
                      methods: Iterable[str] | str | None = None, per_method: bool = False,
+                     fractions: bool = False,
                      fields: GridFields | None = None) -> xr.Dataset:
     """Diagnose every column of a model dataset; lazy when ``ds`` holds dask arrays.
 
@@ -46,6 +47,10 @@ def diagnose_dataset(ds: xr.Dataset, members: int = 0, seed: int | None = None,
         Seed of the members (reproducible for the same seed and chunking).
     methods : iterable of str, optional
         Methods to run (default all of :data:`ptype.engine.methods.METHOD_NAMES`).
+    fractions : bool
+        Also return the particle model's mass fractions at the ground
+        (``mass_fraction_of_<class>_at_surface`` for snow, melting snow, liquid and refrozen
+        ice; they sum to 1 where the model ran).
     per_method : bool
         Also return one type variable per method.
 
@@ -66,7 +71,7 @@ def diagnose_dataset(ds: xr.Dataset, members: int = 0, seed: int | None = None,
         raise OptionError(f"seed = {seed!r}: expected a non-negative whole number", field="seed")
     fields = fields or find_fields(ds)
     layout = KernelLayout(methods=method_names(methods), members=members,
-                          per_method=bool(per_method))
+                          per_method=bool(per_method), fractions=bool(fractions))
     packed = _packed_results(ds, fields, layout, seed)
     return _output_dataset(ds, fields, layout, packed, seed)
 
@@ -124,6 +129,9 @@ def _packed_results(ds, fields: GridFields, layout: KernelLayout, seed):
     return packed.transpose(*_column_dims(fields), "ptype_field").reset_coords(drop=True)
 
 
+#: The particle model's classes of mass at the ground, as written in variable long names.
+FRACTION_OUTPUTS = {"snow": "snow", "melting": "melting snow", "liquid": "liquid",
+                    "refrozen": "refrozen ice"}
 #: The float outputs: variable name -> (kernel field, units, long name).
 FLOAT_OUTPUTS = {
     "warm_layer_energy": ("warm_area_j_kg", "J kg-1",
@@ -172,6 +180,15 @@ def _output_dataset(ds, fields: GridFields, layout: KernelLayout, packed, seed):
                                 "temperature and humidity profiles) whose consensus type is "
                                 f"{code.name}", **extra}
             out[f"probability_of_{_label_name(code)}"] = field(f"p_{code.name}").assign_attrs(attrs)
+    if layout.fractions:
+        for part, words in FRACTION_OUTPUTS.items():
+            out[f"mass_fraction_of_{part}_at_surface"] = field(f"fraction_{part}").assign_attrs(
+                {"long_name": f"mass fraction of the precipitation reaching the surface as "
+                              f"{words} (particle model)", "units": "1",
+                 "valid_range": np.array([0.0, 1.0], dtype=np.float32),
+                 "comment": "size-resolved melting and refreezing from the cloud to the "
+                            "ground (docs/particles.md); the four fractions sum to 1. "
+                            + CAUTION, **extra})
     out = _with_coordinates(out, ds, fields, grid_mapping)
     out.attrs.update(_global_attributes(ds, layout, seed))
     hist = ds.attrs.get("history")

@@ -15,6 +15,7 @@ import numpy as np
 
 from ptype import thermo
 from ptype.codes import NO_RESULT, Code
+from ptype.engine.run import PARTICLE_FRACTIONS
 from ptype.grid.fields import GridFields
 
 if TYPE_CHECKING:
@@ -61,6 +62,9 @@ class KernelLayout:
     #: Pack one type per method too (``per_method``); without them only the methods the
     #: consensus reads are run (:func:`ptype.engine.run.consensus_methods`, same consensus).
     per_method: bool = True
+    #: Pack the particle model's mass fractions at the ground (snow, melting, liquid,
+    #: refrozen) too.
+    fractions: bool = False
 
     @property
     def method_fields(self) -> tuple[str, ...]:
@@ -71,9 +75,10 @@ class KernelLayout:
     def names(self) -> tuple[str, ...]:
         """Every packed field: consensus, per-method types, diagnostics, probabilities."""
         probs = tuple(f"p_{c.name}" for c in Code) if self.members else ()
+        fractions = tuple(f"fraction_{k}" for k in PARTICLE_FRACTIONS) if self.fractions else ()
         return (("ptype",) + tuple(f"m_{m}" for m in self.method_fields)
                 + ("warm_area_j_kg", "cold_area_j_kg", "wetbulb_zero_height_m",
-                   "freezing_level_m") + probs)
+                   "freezing_level_m") + probs + fractions)
 
 
 def build_columns(pressure_hpa: ArrayLike, temperature_c: ArrayLike, dewpoint_c: ArrayLike,
@@ -141,6 +146,8 @@ def diagnose_block(columns: Columns, layout: KernelLayout,
     sub = columns if ok.all() else columns.take(ok)
     # The energies and heights come from the layer analysis, whichever methods run.
     methods = layout.methods if layout.per_method else consensus_methods(layout.methods)
+    if layout.fractions and "particles" not in methods:
+        methods = (*methods, "particles")
     # Members multiply the columns: they go through the engine in batches so memory stays
     # bounded, one random stream per batch derived from the seed and the batch number.
     run = run_columns(sub, layout.members, seed, methods,
@@ -156,6 +163,9 @@ def diagnose_block(columns: Columns, layout: KernelLayout,
     block[:, 1:1 + k] = np.where(block[:, 1:1 + k] == NO_RESULT, np.nan, block[:, 1:1 + k])
     if layout.members:
         block = np.concatenate([block, run.probabilities], axis=1)
+    if layout.fractions:
+        block = np.concatenate([block, np.column_stack(
+            [res[f"fraction_{k}"] for k in PARTICLE_FRACTIONS])], axis=1)
     out[ok] = block
     return out
 
