@@ -3,7 +3,8 @@
 The workload is one profile with its default Monte-Carlo members (50): 51 columns.  Reference:
 :func:`ptype.engine.run.diagnose_columns` on those 51 columns with every other method and the
 consensus.  Measured: the particle method alone (a fresh :class:`Context`, so its cloud layers
-are computed inside the timing) on the same 51 columns.  Both are timed alternately, many times,
+are computed inside the timing) on the same 51 columns; and the whole ``ptype.diagnose`` with
+50 members with and without the particle model voting (``diagnose_50_members``).  Both are timed alternately, many times,
 and the ratio of the medians is reported (target: at most 3).  Two profiles: the 60-level
 freezing-rain profile of ``bench/bench_diagnose.py`` and a demo sounding.
 
@@ -61,9 +62,32 @@ def measure(batch: Columns) -> dict:
                                 round(ratios[3 * len(ratios) // 4], 2)]}
 
 
+def measure_diagnosis(document: dict) -> dict:
+    """The whole ``ptype.diagnose`` with 50 members, the particle model voting, against the same
+    diagnosis without it: what adding the model costs a service request."""
+    profile = ptype.Profile.from_document(document)
+    others = [m for m in METHOD_NAMES if m != particles.NAME]
+    for methods in (None, others):
+        ptype.diagnose(profile, members=DEFAULT_MEMBERS, seed=0, methods=methods)
+    with_model, without = [], []
+    for _ in range(REPEATS):
+        t0 = time.perf_counter()
+        ptype.diagnose(profile, members=DEFAULT_MEMBERS, seed=0).to_dict()
+        t1 = time.perf_counter()
+        ptype.diagnose(profile, members=DEFAULT_MEMBERS, seed=0, methods=others).to_dict()
+        t2 = time.perf_counter()
+        with_model.append(t1 - t0)
+        without.append(t2 - t1)
+    a, b = statistics.median(with_model), statistics.median(without)
+    return {"with_particles_ms": round(a * 1e3, 3), "without_particles_ms": round(b * 1e3, 3),
+            "added_over_rest": round((a - b) / b, 2)}
+
+
 def main() -> dict:
     cases = {"sixty_level_freezing_rain": measure(batch_of(sixty_level_document())),
              "demo_" + DEMO.stem: measure(batch_of(json.loads(DEMO.read_text())))}
+    cases["sixty_level_freezing_rain"]["diagnose_50_members"] = measure_diagnosis(
+        sixty_level_document())
     worst = max(c["ratio_of_medians"] for c in cases.values())
     result = {"members": DEFAULT_MEMBERS, "repeats": REPEATS, "cases": cases,
               "target_ratio": TARGET_RATIO, "worst_ratio": worst,
