@@ -14,11 +14,11 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE / "_ext"))
 
-import ptype  # noqa: E402 - the package documented (installed, or on PYTHONPATH)
+import ptype  # the package documented (installed, or on PYTHONPATH)
 
 project = "ptype"
 author = "The ptype developers"
-copyright = "the ptype developers; Apache License 2.0"  # noqa: A001 - Sphinx's setting
+copyright = "the ptype developers; Apache License 2.0"
 release = ptype.__version__
 version = ".".join(release.split(".")[:2])
 

@@ -143,10 +143,10 @@ def render(document: dict) -> str:
     _SCHEMAS.clear()
     _SCHEMAS.update(document.get("components", {}).get("schemas", {}))
     info = document.get("info", {})
-    lines = [f"Service version {text(info.get('version'))}, OpenAPI "
-             f"{text(document.get('openapi'))}. {text(info.get('description'))}", "",
-             "The same document, as served at ``GET /openapi.json``: "
-             ":download:`openapi.json <_generated/openapi.json>`.", ""]
+    lines = [(f"Service version {text(info.get('version'))}, OpenAPI "
+              f"{text(document.get('openapi'))}. {text(info.get('description'))}"), "",
+             ("The same document, as served at ``GET /openapi.json``: "
+              ":download:`openapi.json <_generated/openapi.json>`."), ""]
     by_tag: dict[str, list[tuple[str, str, dict]]] = {}
     for path, item in document.get("paths", {}).items():
         for method in METHODS:
