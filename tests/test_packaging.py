@@ -276,3 +276,39 @@ def test_service_extra_serves(installed):
     served = installed["served"]
     assert served["status"] == 200, served["body"]
     assert served["body"] == _expected()
+
+
+@pytest.mark.parametrize(("argv", "extra"), [
+    (["alerts"], "service"),
+    (["keys", "list"], "service"),
+    (["grid", "in.nc", "-o", "out.nc", "--scheduler", "tcp://127.0.0.1:1"], "grid"),
+    (["grid", "in.nc", "-o", "out.nc", "--plot", "map.png"], "plot"),
+    (["verify", "cases.csv", "--format", "html"], "plot"),
+])
+def test_options_that_need_an_extra_name_it(monkeypatch, capsys, tmp_path, argv, extra):
+    """Without the extra's modules (as in a plain install) the command stops before any work."""
+    from ptype import cli
+    monkeypatch.chdir(tmp_path)
+    monkeypatch.setattr(cli, "_installed", lambda module: False)
+    assert cli.main(argv) == 2
+    captured = capsys.readouterr()
+    assert captured.out == "" and len(captured.err.strip().splitlines()) == 1
+    assert captured.err.startswith(f"ptype {argv[0]}: ")
+    assert f"pip install 'ptype[{extra}]'" in captured.err
+    assert list(tmp_path.iterdir()) == []  # nothing written
+    # With the extras installed (this environment) the same command line needs nothing more.
+    monkeypatch.undo()
+    assert cli.missing_extra(cli.build_parser().parse_args(argv)) is None
+
+
+def test_a_module_missing_at_run_time_names_its_extra(monkeypatch, capsys, tmp_path):
+    """A command that finds an optional module missing only while running still names it."""
+    from ptype import cli
+    monkeypatch.setenv("PTYPE_DATA_DIR", str(tmp_path))
+    monkeypatch.setitem(sys.modules, "gunicorn", None)  # import gunicorn now fails
+    monkeypatch.setitem(sys.modules, "gunicorn.app", None)
+    monkeypatch.setitem(sys.modules, "gunicorn.app.base", None)
+    monkeypatch.setattr(cli, "missing_extra", lambda args: None)  # skip the early check
+    assert cli.main(["serve", "--port", "0"]) == 2
+    err = capsys.readouterr().err
+    assert err.strip() == cli.missing_extra_message("serve", "service", ["gunicorn"])
