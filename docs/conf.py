@@ -29,6 +29,7 @@ extensions = [
     "numpydoc",
     "myst_parser",
     "ptype_openapi",
+    "ptype_guides",
 ]
 
 source_suffix = {".rst": "restructuredtext", ".md": "markdown"}

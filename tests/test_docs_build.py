@@ -116,4 +116,8 @@ def test_guides_tutorial_and_changelog_are_pages(built):
     for guide in ("formats", "methods", "consensus", "references", "install", "api",
                   "changelog"):
         assert (built / f"{guide}.html").is_file(), guide
+    # Every Markdown guide of docs/ is a page reachable from the index, named there or not.
+    index = (built / "index.html").read_text(encoding="utf-8")
+    for page in DOCS.glob("*.md"):
+        assert f'href="{page.stem}.html"' in index, page.name
     assert ptype.__version__.rsplit(".", 1)[0] in page_text(built / "index.html")
