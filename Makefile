@@ -11,7 +11,7 @@ HOST ?= 127.0.0.1
 PORT ?= 8080
 export PTYPE_DATA_DIR
 
-.PHONY: run test install system-deps bench bench-deps bench-load lint clean demo-grid
+.PHONY: run test install system-deps bench bench-deps bench-load lint clean demo-grid docs
 
 $(STAMP): pyproject.toml setup.py
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
@@ -66,8 +66,15 @@ demo-grid: $(STAMP)
 	$(VENV)/bin/ptype grid soundings_demo/grid/demo_grid.nc -o $(PTYPE_DATA_DIR)/grid/demo_ptype.nc \
 	  --members 20 --seed 1 --per-method --plot $(PTYPE_DATA_DIR)/grid/demo_ptype.png
 
+# The reference manual (Sphinx; warnings are errors), in docs/_build/html.  make test builds
+# it too (tests/test_docs_build.py).
+docs: $(STAMP)
+	$(PY) -m sphinx -W --keep-going -q -b html docs docs/_build/html
+	@echo "manual: docs/_build/html/index.html"
+
 lint: $(STAMP)
 	$(VENV)/bin/ruff check ptype api tests bench soundings_demo
 
 clean:
-	rm -rf $(VENV) .data .pytest_cache build *.egg-info
+	rm -rf $(VENV) .data .pytest_cache build dist *.egg-info docs/_build docs/_generated \
+	  docs/reference/generated

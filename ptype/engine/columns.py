@@ -25,8 +25,10 @@ from ptype.engine.compiled import compiled
 class Columns:
     """A batch of profiles as NaN-padded arrays, rows ordered surface -> top.
 
-    Attributes (``(n, L)`` unless noted)
-    -------------------------------------
+    Arrays are ``(n, L)`` unless noted.
+
+    Attributes
+    ----------
     pressure_hpa, height_m, temperature_c, dewpoint_c
     relative_humidity_pct : over water
     wetbulb_c : isobaric (psychrometric) wet-bulb

@@ -250,6 +250,10 @@ def _held_out(codes: dict, prob: np.ndarray, observed: np.ndarray, seed) -> dict
     raw = codes.get("member_frequencies", prob)
     if len(observed) < cv.MIN_CASES * cv.FOLDS / (cv.FOLDS - 1) or len(set(observed)) < 2:
         return None
+    try:
+        import sklearn  # noqa: F401 - the calibration extra
+    except ImportError:
+        return {"skipped": "fitting calibrations needs pip install 'ptype[calibrate]'"}
     x = features(codes, raw)
     held = cv.cross_validated(x, observed, codes["possible"], seed=0 if seed is None else seed)
     return {"folds": cv.FOLDS, "n": len(observed),
@@ -322,7 +326,9 @@ def _calibration_lines(report: dict) -> list[str]:
     else:
         lines.append("Probabilities uncalibrated: member frequencies.")
     held = report.get("held_out_calibration")
-    if held:
+    if held and "skipped" in held:
+        lines.append(f"Held-out calibration not computed: {held['skipped']}.")
+    elif held:
         lines.append(f"Held-out calibration ({held['folds']}-fold, {held['n']} cases): RPS "
                      f"{_fmt(held['raw']['rps'], 0)} raw -> "
                      f"{_fmt(held['calibrated']['rps'], 0)} calibrated (lower is better).")
@@ -387,7 +393,7 @@ def make_figures(report: dict) -> dict[str, bytes]:
         axn.grid(alpha=0.3)
         figures["reliability"] = _png(fig)
     held = report.get("held_out_calibration")
-    if held:
+    if held and "skipped" not in held:
         figures["calibration"] = _calibration_figure(held)
     names = ["consensus"] + list(report["methods"])
     blocks = [cons] + [report["methods"][k] for k in report["methods"]]
