@@ -176,3 +176,18 @@ def test_complete_melting_never_gives_snow(seed):
     melted = out["_consensus"].values["melted_aloft"] | out["_consensus"].values[
         "melted_at_surface"]
     assert not np.isin(out["ptype"][melted], [Code.SN, Code.RASN]).any()
+
+
+@settings(max_examples=10, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(seed=st.integers(0, 2**31 - 1))
+def test_reported_type_is_supported_and_probabilities_sum_to_one(seed):
+    # The reported type has at least a quarter of its members (ptype.engine.probability
+    # .MIN_SUPPORT, docs/consensus.md) and stays within the profile's phase path.
+    from ptype.engine.probability import MIN_SUPPORT
+    from ptype.engine.run import run_columns
+    cols = build_columns(draw_parameters(np.random.default_rng(seed), 32))
+    run = run_columns(cols, 20, seed)
+    rows = np.arange(cols.n_columns)
+    np.testing.assert_allclose(run.probabilities.sum(axis=1), 1.0)
+    assert np.all(run.probabilities[rows, run.codes] >= MIN_SUPPORT - 1e-12)
+    assert np.all(run.fields["possible"][rows, run.codes])

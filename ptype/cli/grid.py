@@ -39,6 +39,8 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help="restrict to these methods (default: all)")
     p.add_argument("--per-method", action="store_true",
                    help="also write one type variable per method")
+    p.add_argument("--calibration", default=None, metavar="FILE",
+                   help="calibrate the probabilities with FILE (from ptype calibrate)")
     p.add_argument("--fractions", action="store_true",
                    help="also write the particle model's mass fractions at the ground (snow, "
                         "melting snow, liquid, refrozen ice)")
@@ -69,12 +71,16 @@ def run(args: argparse.Namespace) -> int:
         client = _connect(args.scheduler)
     else:
         grid.retain_freed_memory()  # this process computes: reuse freed memory (see there)
+    calibration = None
+    if args.calibration:
+        from ptype.engine.calibration import Calibration
+        calibration = Calibration.load(args.calibration)
     try:
         start = time.perf_counter()
         ds = grid.open_grid(args.inputs, chunks, members=args.members)
         out = grid.diagnose_dataset(ds, members=args.members, seed=args.seed,
                                     methods=args.methods, per_method=args.per_method,
-                                    fractions=args.fractions)
+                                    fractions=args.fractions, calibration=calibration)
         grid.write_grid(out, args.output, progress=progress, client=client, argv=_argv(args))
         elapsed = time.perf_counter() - start
     finally:

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import functools
 from collections.abc import Iterable
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -33,7 +33,7 @@ def _label_name(code: Code) -> str:
 
 def diagnose_dataset(ds: xr.Dataset, members: int = 0, seed: int | None = None,
                      methods: Iterable[str] | str | None = None, per_method: bool = False,
-                     fractions: bool = False,
+                     fractions: bool = False, calibration: Any = None,
                      fields: GridFields | None = None) -> xr.Dataset:
     """Diagnose every column of a model dataset; lazy when ``ds`` holds dask arrays.
 
@@ -47,6 +47,9 @@ def diagnose_dataset(ds: xr.Dataset, members: int = 0, seed: int | None = None,
         Seed of the members (reproducible for the same seed and chunking).
     methods : iterable of str, optional
         Methods to run (default all of :data:`ptype.engine.methods.METHOD_NAMES`).
+    calibration : Calibration, optional
+        Calibrated probabilities (:mod:`ptype.engine.calibration`); the output's
+        ``ptype_calibration`` attribute says which, or "uncalibrated".
     fractions : bool
         Also return the particle model's mass fractions at the ground
         (``mass_fraction_of_<class>_at_surface`` for snow, melting snow, liquid and refrozen
@@ -71,7 +74,8 @@ def diagnose_dataset(ds: xr.Dataset, members: int = 0, seed: int | None = None,
         raise OptionError(f"seed = {seed!r}: expected a non-negative whole number", field="seed")
     fields = fields or find_fields(ds)
     layout = KernelLayout(methods=method_names(methods), members=members,
-                          per_method=bool(per_method), fractions=bool(fractions))
+                          per_method=bool(per_method), fractions=bool(fractions),
+                          calibration=calibration)
     packed = _packed_results(ds, fields, layout, seed)
     return _output_dataset(ds, fields, layout, packed, seed)
 
@@ -236,6 +240,10 @@ def _global_attributes(ds, layout: KernelLayout, seed) -> dict:
         "ptype_version": __version__,
         "ptype_methods": " ".join(names_m),
         "ptype_members": np.int32(layout.members),
+        "ptype_calibration": (
+            "uncalibrated: member frequencies" if layout.calibration is None or not layout.members
+            else f"calibrated: fitted on {layout.calibration.n_cases} cases from "
+                 f"{layout.calibration.source} ({layout.calibration.fitted})"),
         "ptype_seed": "none" if seed is None else str(int(seed)),
         "comment": CAUTION,
     }

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import dataclasses
 from collections.abc import Mapping
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -65,6 +65,8 @@ class KernelLayout:
     #: Pack the particle model's mass fractions at the ground (snow, melting, liquid,
     #: refrozen) too.
     fractions: bool = False
+    #: A :class:`ptype.engine.calibration.Calibration` for the probabilities, or None.
+    calibration: Any = None
 
     @property
     def method_fields(self) -> tuple[str, ...]:
@@ -152,7 +154,8 @@ def diagnose_block(columns: Columns, layout: KernelLayout,
     # bounded, one random stream per batch derived from the seed and the batch number.
     run = run_columns(sub, layout.members, seed, methods,
                       batch_columns=max(1, MEMBER_BATCH_COLUMNS // max(layout.members, 1)),
-                      batch_seed=lambda b, start: _batch_seed(seed, b))
+                      batch_seed=lambda b, start: _batch_seed(seed, b),
+                      calibration=layout.calibration)
     res = run.fields
     cols = [res["ptype"]] + [res[m] for m in layout.method_fields] + [
         res["warm_area_j_kg"], res["cold_area_j_kg"], res["wetbulb_zero_height_m"],

@@ -577,9 +577,11 @@ class StepDiagnosis:
 
 
 def diagnose_steps(cols: StepColumns, spells: Spells, members: int, seed: int | None,
-                   methods: Iterable[str] | str | None = None) -> StepDiagnosis:
+                   methods: Iterable[str] | str | None = None,
+                   calibration: Any = None) -> StepDiagnosis:
     """Engine stage: all step columns through :func:`ptype.engine.run.run_columns` in one
-    vectorised pass (control and Monte-Carlo members); dry steps become NONE."""
+    vectorised pass (control and Monte-Carlo members; probabilities calibrated when a
+    :class:`ptype.engine.calibration.Calibration` is given); dry steps become NONE."""
     from ptype.engine.run import run_columns
 
     columns = Columns.from_arrays(
@@ -589,7 +591,7 @@ def diagnose_steps(cols: StepColumns, spells: Spells, members: int, seed: int | 
         road_surface_temperature_c=cols.road_surface_temperature_c,
         precipitation_rate_mm_h=cols.precipitation_rate_mm_h,
         wind_speed_m_s=cols.wind_speed_m_s)
-    run = run_columns(columns, members, seed, methods)
+    run = run_columns(columns, members, seed, methods, calibration=calibration)
     codes_wet = np.asarray(run.codes, dtype=int)
     probs = run.probabilities if members else np.eye(len(Code))[codes_wet]
     dry = spells.known & ~spells.precipitating
@@ -682,12 +684,19 @@ def _timeline_header(now: datetime, step: timedelta, hours: float, times: Sequen
                 k: (_iso(v) if isinstance(v, datetime) else v) for k, v in obs.__dict__.items()}}
 
 
+def _calibration_summary(calibration: Any, members: int) -> dict[str, Any]:
+    from ptype.engine.calibration import UNCALIBRATED
+    if calibration is None or not members:
+        return dict(UNCALIBRATED)
+    return calibration.summary() | {"calibrated": True}
+
+
 def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
                    hours: float = 12.0, step: str | timedelta = "15min",
                    observations: Iterable[Mapping[str, Any] | SurfaceObservation] | None = None,
                    adjustments: Iterable[str] | None = ADJUSTMENTS, members: int = 30,
-                   seed: int | None = 0, methods: Iterable[str] | str | None = None
-                   ) -> dict[str, Any]:
+                   seed: int | None = 0, methods: Iterable[str] | str | None = None,
+                   calibration: Any = None) -> dict[str, Any]:
     """Build a timeline from a series of profiles (one forecast issue) and optional observations.
 
     Parameters
@@ -699,6 +708,8 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
         :data:`OBS_MAX_AGE_H` old) is blended in.
     adjustments : which of :data:`ADJUSTMENTS` to apply.
     members, seed : Monte-Carlo members for the probabilities (0 = none).
+    calibration : a :class:`ptype.engine.calibration.Calibration` for the probabilities
+        (the timeline's ``calibration`` says which, or "uncalibrated").
 
     Returns a JSON-ready dict: ``steps``, ``transitions``, ``totals``, ``caution`` and the
     inputs used (``issued_profiles``, ``observation``, ``adjustments``).
@@ -714,6 +725,7 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
     clock = StepClock(tuple(step_times(times[0], times[-1], now, hours, step_td)), now, step_td)
     obs = _select_observation(observations, now) if "observation" in adjustments else None
     base = _timeline_header(now, step_td, hours, times, adjustments, obs)
+    base["calibration"] = _calibration_summary(calibration, members)
     if not clock.n:
         base.update(steps=[], transitions=[], totals=timeline_totals([], step_td),
                     message=f"no profile covers {_iso(now)} to "
@@ -734,7 +746,7 @@ def build_timeline(profiles: Sequence[Profile], *, now: datetime | None = None,
         cols, changed = adjust_for_melting(cols, spells, fade)
         applied.append(("melting", changed))
 
-    diagnosis = diagnose_steps(cols, spells, members, seed, methods)
+    diagnosis = diagnose_steps(cols, spells, members, seed, methods, calibration)
     hz = hazards_at_steps(diagnosis, cols, spells, clock.hours_step)
     steps = step_records(clock, cols, spells, diagnosis, hz, adjustment_notes(applied, clock.n))
     base.update(steps=steps, transitions=transitions(steps),
