@@ -140,6 +140,8 @@ def test_wheel_core_requirements_are_lean(dist):
 def test_cli_extras_table_matches_pyproject():
     """Each extra the command line names installs the modules it checks for."""
     declared = PYPROJECT["project"]["optional-dependencies"]
+    # Distributions whose import name differs from the distribution's name.
+    import_name = {"scikit-learn": "sklearn"}
 
     def dists(extra: str) -> set[str]:
         names = set()
@@ -147,7 +149,7 @@ def test_cli_extras_table_matches_pyproject():
             name = re.match(r"[A-Za-z0-9_.-]+", req).group(0).lower()
             inner = re.match(r"ptype\[(.+)\]", req)
             names |= ({d for e in inner.group(1).split(",") for d in dists(e.strip())}
-                      if inner else {name})
+                      if inner else {import_name.get(name, name)})
         return names
 
     for extra, modules in EXTRA_MODULES.items():

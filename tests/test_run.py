@@ -96,7 +96,8 @@ def test_diagnose_columns_fields():
     out = diagnose_columns(_fzra_columns(2))
     per_column = {"ptype", *METHOD_NAMES, "warm_area_j_kg", "cold_area_j_kg",
                   "wetbulb_zero_height_m", "freezing_level_m", "melt_aloft_j_kg",
-                  "melt_surface_j_kg", "surface_temperature_c", "surface_wetbulb_c"}
+                  "melt_surface_j_kg", "surface_temperature_c", "surface_wetbulb_c",
+                  "fraction_snow", "fraction_melting", "fraction_liquid", "fraction_refrozen"}
     per_code = {"possible", "vote_share"}
     assert set(out) == per_column | per_code
     assert all(np.shape(out[k]) == (2,) for k in per_column)

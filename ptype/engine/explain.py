@@ -94,12 +94,16 @@ def _cloud_sentence(result: MethodResult, i: int) -> str:
                 f"cloud topping at {w.pressure(v['top_cloud_top_hpa'])} "
                 f"({w.temperature(v['top_cloud_min_c'])}).")
     if v["ice"]:
-        return (f"The cloud tops at {w.pressure(v['top_cloud_top_hpa'])} and reaches "
-                f"{w.temperature(v['top_cloud_min_c'])}, cold enough to make ice (at or below "
-                f"{nucleation}).")
-    return (f"The cloud tops at {w.pressure(v['lowest_cloud_top_hpa'])} and is no colder than "
-            f"{w.temperature(v['lowest_cloud_min_c'])}, too warm to make ice (ice needs about "
-            f"{nucleation}): drops grow as drizzle.")
+        return (f"The cloud top is at {w.pressure(v['top_cloud_top_hpa'])}, where the cloud "
+                f"reaches {w.temperature(v['top_cloud_min_c'])}: cold enough to make ice (at or "
+                f"below {nucleation}).")
+    text = (f"The cloud top is at {w.pressure(v['lowest_cloud_top_hpa'])} and the cloud is "
+            f"nowhere colder than {w.temperature(v['lowest_cloud_min_c'])}: too warm to make ice "
+            f"(ice needs about {nucleation})")
+    if v.get("drizzle", True):
+        return text + ", so its drops grow as drizzle."
+    return (text + f"; its liquid part, {w.height(v['lowest_cloud_depth_m'])} deep, is too "
+            "shallow to grow drizzle.")
 
 
 def _warm_layer_sentences(layers: list[dict]) -> list[str]:

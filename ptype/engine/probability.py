@@ -146,26 +146,18 @@ def nose_peaks(columns: Columns) -> tuple[np.ndarray, np.ndarray]:
     return np.where(has, z[rows, k], np.nan), np.where(has, k, -1)
 
 
-def _shifted(height_m: np.ndarray, values: np.ndarray, shift_m: np.ndarray) -> np.ndarray:
-    """``values`` read at ``height - shift`` along each row (linear, held at the ends):
-    the profile moved up by ``shift`` (``(n,)``)."""
-    n, L = values.shape
-    z = np.where(np.isfinite(height_m), height_m, np.inf)
-    # One sorted key for all rows: heights offset by a row number larger than any height.
-    big = np.nanmax(np.abs(height_m[np.isfinite(height_m)]), initial=1.0) * 4.0 + 1e6
-    rows = np.arange(n)[:, None]
-    keys = np.where(np.isfinite(z), z + rows * big, rows * big + big * 0.999).ravel()
-    target = (height_m - shift_m[:, None]) + rows * big
-    idx = np.searchsorted(keys, target.ravel()).reshape(n, L)
-    lo = np.clip(idx - 1 - rows * L, 0, L - 1)
-    hi = np.clip(idx - rows * L, 0, L - 1)
-    z_lo, z_hi = height_m[rows, lo], height_m[rows, hi]
-    v_lo, v_hi = values[rows, lo], values[rows, hi]
+def _lapse_k_m(height_m: np.ndarray, temperature_c: np.ndarray) -> np.ndarray:
+    """dT/dz of every level, K/m: centred differences inside the column, one-sided at its
+    ends; 0 where a neighbour is missing."""
+    dz = np.diff(height_m, axis=1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        w = np.clip((height_m - shift_m[:, None] - z_lo) / (z_hi - z_lo), 0.0, 1.0)
-    w = np.where(np.isfinite(w), w, 0.0)
-    out = v_lo + w * (v_hi - v_lo)
-    return np.where(np.isfinite(out), out, values)
+        slope = np.diff(temperature_c, axis=1) / dz
+    slope = np.nan_to_num(slope, nan=0.0, posinf=0.0, neginf=0.0)
+    out = np.zeros(temperature_c.shape)
+    out[:, 0] = slope[:, 0]
+    out[:, -1] = slope[:, -1]
+    out[:, 1:-1] = 0.5 * (slope[:, :-1] + slope[:, 1:])
+    return out
 
 
 def perturb(columns: Columns, members: int, seed: SeedLike = None, *,
@@ -183,35 +175,38 @@ def perturb_members(columns: Columns, members: int, seed: SeedLike = None, *,
                     correlation_length_m: float = CORRELATION_LENGTH_M
                     ) -> tuple[Columns, np.ndarray]:
     """Perturbed profiles of every column (stacked as :func:`perturb`) and each member's
-    voter weights (:func:`voter_weights`), from one random stream."""
+    voter weights (:func:`voter_weights`), from one random stream.
+
+    What depends only on the column (the AR(1) coefficients, the surface fade, the nose's
+    weight and lapse, the dew-point depression) is computed once per column and repeated.
+    The nose's height shift is taken to first order, ``T(z - dz) = T(z) - dz dT/dz``, so that
+    a member's shift and bump are one term: ``w (bump - shift dT/dz)``."""
     check_members(members)
     rng = np.random.default_rng(seed)
     rep = np.repeat(np.arange(columns.n_columns), members)
     base = columns.take(rep)
     n = base.n_columns
-    # The members of a column share its heights, hence the AR(1) coefficients: computed once
-    # per column (the same numbers as from the repeated heights).
-    r, s = (np.repeat(a, members, axis=0)
-            for a in ar1_coefficients(columns.height_m, correlation_length_m))
+
+    def per_member(a):
+        return np.repeat(a, members, axis=0)
+
+    r, s = (per_member(a) for a in ar1_coefficients(columns.height_m, correlation_length_m))
     e_t = _ar1(r, s, rng.standard_normal(base.height_m.shape))
     e_dd = _ar1(r, s, rng.standard_normal(base.height_m.shape))
-    z = base.height_m
-    z_agl = z - z[:, :1]
-    t = base.temperature_c + temperature_sigma_k * e_t
-    t = t + SURFACE_SIGMA_K * rng.standard_normal(n)[:, None] * np.exp(-z_agl / SURFACE_DEPTH_M)
+    z = columns.height_m
+    fade = per_member(np.nan_to_num(np.exp(-(z - z[:, :1]) / SURFACE_DEPTH_M)))
     nose_z, _ = nose_peaks(columns)
-    nose_z = np.repeat(nose_z, members)
-    has_nose = np.isfinite(nose_z)
-    weight = np.where(has_nose[:, None],
-                      np.clip(1.0 - np.abs(z - nose_z[:, None]) / NOSE_HALF_WIDTH_M, 0.0, 1.0),
-                      0.0)
+    with np.errstate(invalid="ignore"):
+        weight = np.clip(1.0 - np.abs(z - nose_z[:, None]) / NOSE_HALF_WIDTH_M, 0.0, 1.0)
     weight = np.nan_to_num(weight)
+    lapse = _lapse_k_m(z, columns.temperature_c)
+    has_nose = np.repeat(np.isfinite(nose_z), members)
+    surface = SURFACE_SIGMA_K * rng.standard_normal(n)
     shift = np.where(has_nose, NOSE_SHIFT_SIGMA_M * rng.standard_normal(n), 0.0)
     bump = NOSE_SIGMA_K * rng.standard_normal(n)
-    if has_nose.any():
-        t = t + weight * (_shifted(z, base.temperature_c, shift) - base.temperature_c)
-    t = t + weight * bump[:, None]
-    depression = np.maximum(base.temperature_c - base.dewpoint_c, 0.0)
+    t = (base.temperature_c + temperature_sigma_k * e_t + surface[:, None] * fade
+         + per_member(weight) * (bump[:, None] - shift[:, None] * per_member(lapse)))
+    depression = per_member(np.maximum(columns.temperature_c - columns.dewpoint_c, 0.0))
     td = t - depression * np.exp(DEPRESSION_LOG_SIGMA * e_dd)
     return base.with_profile(t, td), voter_weights(rng, n)
 

@@ -356,7 +356,7 @@ def explain_tree(result: MethodResult, i: int, *, revised: bool) -> list[Step]:
                 else f"above {zero}: rain")
         steps.append(Step(rule, f"The coldest saturated level, {w.temperature(tc)}, is warmer "
                           f"than {no_ice}, so the cloud holds no ice; the surface temperature "
-                          f"{w.temperature(st)} is {kind}.  (Whether this is drizzle rather than "
+                          f"{w.temperature(st)} is {kind}. (Whether this is drizzle rather than "
                           "rain is for the cloud-top method to say; Baldwin's tree answers rain "
                           "or freezing rain.)",
                           {"cloud_coldest_c": tc, "surface_temperature_c": st},
