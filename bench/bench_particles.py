@@ -5,8 +5,9 @@ The workload is one profile with its default Monte-Carlo members (50): 51 column
 consensus.  Measured: the particle method alone (a fresh :class:`Context`, so its cloud layers
 are computed inside the timing) on the same 51 columns; and the whole ``ptype.diagnose`` with
 50 members with and without the particle model voting (``diagnose_50_members``).  Both are
-timed alternately, many times, and the ratio of the medians is reported (target: at most 3).  Two profiles: the 60-level
-freezing-rain profile of ``bench/bench_diagnose.py`` and a demo sounding.
+timed alternately, many times, and the ratio of the medians is reported (target: at most 3).
+Two profiles: the 60-level freezing-rain profile of ``bench/bench_diagnose.py`` and a demo
+sounding.
 
     .venv/bin/python bench/bench_particles.py
 """
