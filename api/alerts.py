@@ -17,10 +17,19 @@ from ptype.clock import iso
 from ptype.constants import CAUTION
 from ptype.roads.alerts import service
 from ptype.roads.alerts.atom import build_feed
-from ptype.roads.alerts.cap import DEFAULT_RADIUS_KM, STATUS
+from ptype.roads.alerts.cap import DEFAULT_RADIUS_KM, STATUS, deployment_scope
 from ptype.store import Alert
 
 bp = Blueprint("alerts", __name__, url_prefix="/v1")
+
+
+def init_app(app) -> None:
+    """Check the deployment's CAP scope settings when the service starts, not at the first
+    CAP request."""
+    try:
+        deployment_scope(app.config)
+    except ValueError as exc:
+        raise ValueError(f"PTYPE_CAP_SCOPE: {exc}") from None
 
 
 def cap_status() -> str | None:
@@ -64,7 +73,8 @@ def alert_cap(alert_id: str) -> Response:
             raise ApiError(404, "not_found", f"alert {alert_id} does not exist", "id")
         xml = service.cap_for(alert, cap_sender(), cap_status(),
                               float(current_app.config.get("PTYPE_CAP_RADIUS_KM",
-                                                           DEFAULT_RADIUS_KM)))
+                                                           DEFAULT_RADIUS_KM)),
+                              **deployment_scope(current_app.config))
     return Response(xml, mimetype="application/cap+xml")
 
 

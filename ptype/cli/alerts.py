@@ -26,7 +26,13 @@ def run(args: argparse.Namespace) -> int:
     from ptype.clock import utcnow
     from ptype.constants import CAUTION
     from ptype.roads.alerts import service
+    from ptype.errors import OptionError
+    from ptype.roads.alerts.cap import deployment_scope
     from ptype.store import Alert, open_store
+    try:
+        scope = deployment_scope()
+    except ValueError as exc:  # checked before anything is read or written
+        raise OptionError(f"PTYPE_CAP_SCOPE: {exc}", field="PTYPE_CAP_SCOPE") from None
     store = open_store()
     now = utcnow()
     sender = os.environ.get("PTYPE_CAP_SENDER") or "ptype@localhost"
@@ -39,7 +45,8 @@ def run(args: argparse.Namespace) -> int:
         if args.format == "cap":
             status = os.environ.get("PTYPE_CAP_STATUS")  # else the status recorded
             for a in alerts:
-                print(service.cap_for(s.get(Alert, a["id"]), sender, status, 10.0).decode())
+                print(service.cap_for(s.get(Alert, a["id"]), sender, status, 10.0,
+                                      **scope).decode())
             return 0
     if args.format == "json":
         print(json.dumps({"alerts": alerts, "caution": CAUTION}, indent=2))

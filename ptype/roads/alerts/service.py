@@ -218,15 +218,19 @@ def list_alerts(session: Session, now: datetime, sender: str, *, include_recent:
     return [alert_dict(a, sender) for a in rows]
 
 
-def cap_for(alert: Alert, sender: str, status: str | None, radius_km: float) -> bytes:
-    """CAP XML of the alert's latest message; ``status`` None uses the one recorded with it."""
+def cap_for(alert: Alert, sender: str, status: str | None, radius_km: float,
+            **scope: str | None) -> bytes:
+    """CAP XML of the alert's latest message; ``status`` None uses the one recorded with it;
+    ``scope`` the deployment's ``scope``, ``restriction`` and ``addresses``
+    (:func:`ptype.roads.alerts.cap.build_cap`; its defaults when not given)."""
     from ptype.roads.alerts.cap import build_cap
     last = alert.messages[-1]
     msg = {"identifier": last.identifier, "msg_type": last.msg_type, "sent": last.sent,
            "snapshot": last.snapshot}
     earlier = [{"identifier": m.identifier, "sent": m.sent} for m in alert.messages[:-1]]
     status = status or last.snapshot.get("cap_status") or "Actual"
-    return build_cap(msg, earlier, sender=sender, status=status, radius_km=radius_km)
+    given = {k: v for k, v in scope.items() if v}
+    return build_cap(msg, earlier, sender=sender, status=status, radius_km=radius_km, **given)
 
 
 def evaluate_all(session: Session, now: datetime, *, members: int = ALERT_MEMBERS,
