@@ -7,8 +7,8 @@ seconds.
 """
 
 import re
-from importlib.resources import files
 from datetime import UTC, datetime
+from importlib.resources import files
 from xml.etree import ElementTree as ET
 
 import pytest

@@ -25,8 +25,8 @@ def run(args: argparse.Namespace) -> int:
 
     from ptype.clock import utcnow
     from ptype.constants import CAUTION
-    from ptype.roads.alerts import service
     from ptype.errors import OptionError
+    from ptype.roads.alerts import service
     from ptype.roads.alerts.cap import deployment_scope
     from ptype.store import Alert, open_store
     try:
