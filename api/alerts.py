@@ -8,6 +8,7 @@ import os
 
 from flask import Blueprint, Response, current_app, jsonify, request
 from ptype.api.errors import ApiError
+from ptype.api.inputs import check_id
 from ptype.api.models import AlertList, AlertListOptions, EvaluateResult
 from ptype.api.openapi import Operation, text_answer
 from ptype.api.plumbing import cap_sender, get_store, now, require_key
@@ -21,6 +22,9 @@ from ptype.roads.alerts.cap import DEFAULT_RADIUS_KM, STATUS
 from ptype.store import Alert
 
 bp = Blueprint("alerts", __name__, url_prefix="/v1")
+
+#: Longest alert id (the store's column); a longer one names no alert.
+MAX_ALERT_ID = 64
 
 
 def cap_status() -> str | None:
@@ -38,11 +42,7 @@ def cap_status() -> str | None:
 def list_alerts() -> Response:
     """The alerts, of every site or of ``?site=``; ``?active=1`` leaves out ended ones."""
     site = request.args.get("site")
-    try:
-        site_id = int(site) if site is not None else None
-    except ValueError:
-        raise ApiError(400, "invalid_option", f"site = {site!r}: expected a site id",
-                       "site") from None
+    site_id = check_id(site, "site") if site is not None else None
     active_only = request.args.get("active") in ("1", "true", "yes")
     return jsonify({"alerts": current_alerts(site_id, not active_only), "now": iso(now()),
                     "caution": CAUTION})
@@ -59,7 +59,7 @@ def list_alerts() -> Response:
 def alert_cap(alert_id: str) -> Response:
     """The latest CAP message of one alert."""
     with get_store().read() as s:
-        alert = s.get(Alert, alert_id)
+        alert = s.get(Alert, alert_id) if len(alert_id) <= MAX_ALERT_ID else None
         if alert is None:
             raise ApiError(404, "not_found", f"alert {alert_id} does not exist", "id")
         xml = service.cap_for(alert, cap_sender(), cap_status(),

@@ -18,6 +18,7 @@ import sqlalchemy as sa
 from flask import Blueprint, Response, current_app, jsonify, request
 from ptype.api import examples
 from ptype.api.errors import ApiError
+from ptype.api.inputs import query_time
 from ptype.api.models import (
     IngestResult,
     ObservationIn,
@@ -30,7 +31,7 @@ from ptype.api.models import (
     TimelineOptions,
 )
 from ptype.api.openapi import Operation
-from ptype.api.plumbing import get_store, now, request_json, require_key, store_for, validate_body
+from ptype.api.plumbing import get_store, load_json_body, now, require_key, store_for, validate_body
 from ptype.api.site_ops import evaluate_after_ingest, site_dict, site_or_404
 from sqlalchemy.orm import Session
 
@@ -53,8 +54,8 @@ WRITE_ERRORS = (400, 401, 403, 404, 413, 415, 422)
 
 
 def _json_body() -> Any:
-    """The JSON body of a write; 400 when there is none."""
-    return request_json("invalid_body", "expected a JSON body (Content-Type: application/json)")
+    """The JSON body of a write: 415 when not JSON by its type, 400 when empty or broken."""
+    return load_json_body()
 
 
 def _naive(dt: datetime) -> datetime:
@@ -243,7 +244,7 @@ def get_timeline(site_id: int) -> Response:
     if "adjustments" in args:
         text = args["adjustments"].strip()
         adjustments = [] if text in ("", "none") else [a.strip() for a in text.split(",")]
-    t = parse_time(args["now"], "now") if "now" in args else now()
+    t = query_time("now") or now()
     with get_store().read() as s:
         site = site_or_404(s, site_id)
         out = service.site_timeline(s, site, t, hours=hours, step=args.get("step", "15min"),
