@@ -12,8 +12,8 @@ Element order follows the CAP 1.2 schema's sequences exactly::
 Text passes through :func:`ptype.store.text.xml_safe`, so a message is well-formed XML
 whatever was stored.  Times are ``YYYY-MM-DDThh:mm:ss+00:00`` (no fractional seconds, no
 "Z", as the schema's pattern requires).  ``references`` lists the earlier messages of the
-same alert as space-separated ``sender,identifier,sent`` triples.  The GRIB2 code table 4.201 value of the
-dominant precipitation type is carried in a ``parameter``.
+same alert as space-separated ``sender,identifier,sent`` triples.  The GRIB2 code table
+4.201 value of the dominant precipitation type is carried in a ``parameter``.
 """
 
 from __future__ import annotations
