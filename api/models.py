@@ -352,6 +352,8 @@ class SiteOut(ResponseModel):
     longitude: float
     elevation_m: float | None = None
     code: str | None = None
+    owner: str | None = Field(None, description="Whose site it is: the owner of the key that "
+                                                "created it (docs/api.md, Owners).")
     thresholds: dict[str, Any] | None = None
 
 
