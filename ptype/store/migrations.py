@@ -149,8 +149,12 @@ def current_version(conn: Connection) -> int:
     return int(value or 0)
 
 
-def migrate(engine: sa.Engine) -> list[int]:
-    """Apply the missing migrations in order; returns the versions applied by this call."""
+def migrate(engine: sa.Engine, until: int | None = None) -> list[int]:
+    """Apply the missing migrations in order; returns the versions applied by this call.
+
+    ``until`` stops after that version (a store at an earlier schema, for tests of the
+    migrations themselves).
+    """
     applied: list[int] = []
     # ptype_write makes the SQLite begin listener take the write lock up front.
     with engine.execution_options(ptype_write=True).begin() as conn:
@@ -159,7 +163,7 @@ def migrate(engine: sa.Engine) -> list[int]:
         _version_table.create(conn, checkfirst=True)
         have = current_version(conn)
         for version, name, func in MIGRATIONS:
-            if version <= have:
+            if version <= have or (until is not None and version > until):
                 continue
             func(conn)
             conn.execute(_version_table.insert().values(
