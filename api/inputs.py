@@ -17,6 +17,7 @@ The character rules themselves live in :mod:`ptype.store.text`; the time range i
 from __future__ import annotations
 
 import json
+import re
 from datetime import datetime
 from typing import Any, NoReturn
 
@@ -91,8 +92,42 @@ def json_body(expected: str = "a JSON object") -> Any:
                                             f"{exc.colno}: invalid JSON ({exc.msg})") from None
     except RecursionError:
         raise _too_deep(limit) from None
-    check_json_value(value, limit)
+    if nesting_depth(value, limit) > limit:
+        raise _too_deep(limit)
+    if may_hold_forbidden_text(text):  # only then walk the value to name the field
+        check_json_value(value, limit)
     return value
+
+
+#: An escape that may write a forbidden character (RFC 8259, sec. 7): ``\b`` and ``\f``, or
+#: ``\u`` of a C0 control, of a surrogate (either half of a pair, too: a supplementary
+#: non-character is written as a pair), of U+FDD0-U+FDEF, U+FFFE or U+FFFF.
+_SUSPECT_ESCAPE = re.compile(r"\\(?:[bf]|u(?:00[01][0-9a-fA-F]|[dD][89a-fA-F][0-9a-fA-F]{2}"
+                             r"|[fF][dD][dDeE][0-9a-fA-F]|[fF]{3}[eEfF]))")
+
+
+def nesting_depth(value: Any, limit: int) -> int:
+    """How deeply arrays and objects nest in the decoded JSON ``value`` (a scalar is 0),
+    counted level by level without recursion; counting stops past ``limit``."""
+    level = [value] if type(value) in (dict, list) else []
+    depth = 0
+    while level and depth <= limit:
+        depth += 1
+        deeper: list[Any] = []
+        for item in level:
+            children = item.values() if type(item) is dict else item
+            deeper += [c for c in children if type(c) is dict or type(c) is list]
+        level = deeper
+    return depth
+
+
+def may_hold_forbidden_text(text: str) -> bool:
+    """False when no string of the JSON ``text`` can hold a forbidden character: none is
+    written as itself, and no escape could write one.  (Raw control characters inside
+    strings are already refused by the JSON reader.)"""
+    if _SUSPECT_ESCAPE.search(text) is not None:
+        return True
+    return not text.isascii() and first_bad_character(text) is not None
 
 
 def _too_deep(limit: int) -> ApiError:

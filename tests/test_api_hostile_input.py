@@ -12,6 +12,7 @@ RFC 4287.  ``nosniff``: WHATWG Fetch standard, sec. "X-Content-Type-Options";
 from __future__ import annotations
 
 import io
+import json
 import os
 import stat
 from pathlib import Path
@@ -19,12 +20,16 @@ from pathlib import Path
 import pytest
 import sqlalchemy as sa
 from api_support import document_to_csv, freezing_rain_document
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from lxml import etree
+from ptype.api.inputs import may_hold_forbidden_text, nesting_depth
 from ptype.api.plumbing import store_for
 from series_helpers import storm_docs
 
 from ptype.clock import parse_time
 from ptype.store import Site, keys
+from ptype.store.text import first_bad_character
 
 NOW = "2026-01-27T00:00:00Z"
 XSD = etree.XMLSchema(etree.parse(str(Path(__file__).parent / "data" / "cap12_subset.xsd")))
@@ -33,7 +38,7 @@ STRICT = etree.XMLParser(recover=False, resolve_entities=False, no_network=True)
 DEEP = "[" * 10_000 + "]" * 10_000
 #: Names that no text field may hold (XML 1.0 Char, Unicode non-characters).
 NASTY = ["x\x01y", "nul\x00here", "bom\ufffe", "end\uffff", "lone\ud800surrogate",
-         "form\x0cfeed", "esc\x1b[31m", "non\ufdd0char", "plane\U0001fffe"]
+         "form\x0cfeed", "back\x08space", "esc\x1b[31m", "non\ufdd0char", "plane\U0001fffe"]
 
 
 @pytest.fixture
@@ -281,3 +286,44 @@ def test_data_folder_0700_and_database_0600_when_created(make_app, tmp_path):
     assert stat.S_IMODE(os.stat(data).st_mode) == 0o700
     for f in data.iterdir():  # the database and, while open, its WAL and shared memory
         assert stat.S_IMODE(os.stat(f).st_mode) == 0o600, f.name
+
+
+# -- the fast screens of the body reader never miss --------------------------------------
+
+def _strings(value):
+    if isinstance(value, dict):
+        for k, v in value.items():
+            yield k
+            yield from _strings(v)
+    elif isinstance(value, list):
+        for v in value:
+            yield from _strings(v)
+    elif isinstance(value, str):
+        yield value
+
+
+def _depth(value):
+    if isinstance(value, dict | list):
+        children = value.values() if isinstance(value, dict) else value
+        return 1 + max((_depth(c) for c in children), default=0)
+    return 0
+
+
+_ANY_TEXT = st.text(st.characters(), max_size=6) | st.sampled_from(NASTY)
+_JSON = st.recursive(st.none() | st.booleans() | st.integers() | _ANY_TEXT,
+                     lambda inner: st.lists(inner, max_size=3)
+                     | st.dictionaries(_ANY_TEXT, inner, max_size=3), max_leaves=12)
+
+
+@settings(max_examples=300, deadline=None, derandomize=True, database=None)
+@given(value=_JSON, ascii_only=st.booleans())
+def test_body_screens_agree_with_a_full_walk(value, ascii_only):
+    text = json.dumps(value, ensure_ascii=ascii_only)
+    if not ascii_only:
+        try:
+            text.encode("utf-8")
+        except UnicodeEncodeError:
+            return  # a lone surrogate cannot travel as UTF-8 at all
+    if any(first_bad_character(s) for s in _strings(value)):
+        assert may_hold_forbidden_text(text)
+    assert nesting_depth(value, 100) == _depth(value)
