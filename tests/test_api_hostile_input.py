@@ -29,7 +29,7 @@ from series_helpers import storm_docs
 
 from ptype.clock import parse_time
 from ptype.store import Site, keys
-from ptype.store.text import first_bad_character
+from ptype.store.text import first_bad_character, first_bad_line_character, xml_safe
 
 NOW = "2026-01-27T00:00:00Z"
 XSD = etree.XMLSchema(etree.parse(str(Path(__file__).parent / "data" / "cap12_subset.xsd")))
@@ -327,3 +327,28 @@ def test_body_screens_agree_with_a_full_walk(value, ascii_only):
     if any(first_bad_character(s) for s in _strings(value)):
         assert may_hold_forbidden_text(text)
     assert nesting_depth(value, 100) == _depth(value)
+
+
+def _xml_char(c):
+    # XML 1.0 (fifth edition, 2008), production [2] Char.
+    cp = ord(c)
+    return cp in (0x9, 0xA, 0xD) or 0x20 <= cp <= 0xD7FF or 0xE000 <= cp <= 0xFFFD or (
+        0x10000 <= cp <= 0x10FFFF)
+
+
+def _noncharacter(c):
+    # The Unicode Standard, sec. 23.7: U+FDD0..U+FDEF and U+nFFFE, U+nFFFF of every plane.
+    cp = ord(c)
+    return 0xFDD0 <= cp <= 0xFDEF or (cp & 0xFFFE) == 0xFFFE
+
+
+@settings(max_examples=300, deadline=None, derandomize=True, database=None)
+@given(text=st.text(st.characters(), max_size=8) | st.text(st.characters(max_codepoint=0x7F),
+                                                           max_size=8))
+def test_character_rules_follow_xml_and_unicode(text):
+    bad = [c for c in text if not _xml_char(c) or _noncharacter(c)]
+    assert first_bad_character(text) == (bad[0] if bad else None)
+    line_bad = [c for c in text if c in bad or ord(c) in (0x9, 0xA, 0xD, 0x2028, 0x2029)
+                or 0x7F <= ord(c) <= 0x9F]
+    assert first_bad_line_character(text) == (line_bad[0] if line_bad else None)
+    assert all(_xml_char(c) for c in xml_safe(text))

@@ -25,19 +25,22 @@ _NONCHARACTERS = "\ufdd0-\ufdef" + "".join(
 _BAD = re.compile(f"[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff{_NONCHARACTERS}]")
 #: Also refused in single-line fields: tab, line breaks, DEL and the C1 controls.
 _BAD_LINE = re.compile(f"[\x00-\x1f\x7f-\x9f\u2028\u2029\ud800-\udfff{_NONCHARACTERS}]")
+#: The same rules within ASCII, where a small class is searched ten times faster.
+_BAD_ASCII = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f]")
+_BAD_LINE_ASCII = re.compile("[\x00-\x1f\x7f]")
 #: What XML 1.0 cannot carry at all (replaced on output).
 _NOT_XML = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
 
 
 def first_bad_character(text: str) -> str | None:
     """The first character of ``text`` that no accepted text may hold, or None."""
-    match = _BAD.search(text)
+    match = (_BAD_ASCII if text.isascii() else _BAD).search(text)
     return match.group() if match else None
 
 
 def first_bad_line_character(text: str) -> str | None:
     """The first character of ``text`` that a single-line field may not hold, or None."""
-    match = _BAD_LINE.search(text)
+    match = (_BAD_LINE_ASCII if text.isascii() else _BAD_LINE).search(text)
     return match.group() if match else None
 
 
