@@ -352,3 +352,53 @@ def test_character_rules_follow_xml_and_unicode(text):
                 or 0x7F <= ord(c) <= 0x9F]
     assert first_bad_line_character(text) == (line_bad[0] if line_bad else None)
     assert all(_xml_char(c) for c in xml_safe(text))
+
+
+# -- the real server --------------------------------------------------------------------
+
+def _raw_post(url: str, path: str, chunks, content_type: str) -> bytes:
+    """POST ``chunks`` with chunked transfer encoding (RFC 9112, sec. 7.1) on a raw socket;
+    the whole answer, even when the server answers before it has read everything."""
+    import socket
+    host, port = url.removeprefix("http://").split(":")
+    with socket.create_connection((host, int(port)), timeout=30) as sock:
+        sock.sendall(f"POST {path} HTTP/1.1\r\nHost: {host}\r\nContent-Type: {content_type}\r\n"
+                     "Transfer-Encoding: chunked\r\n\r\n".encode())
+        try:
+            for chunk in chunks:
+                sock.sendall(f"{len(chunk):x}\r\n".encode() + chunk + b"\r\n")
+            sock.sendall(b"0\r\n\r\n")
+        except OSError:
+            pass  # the server answered and closed before the end of the body
+        answer = b""
+        while data := sock.recv(65536):
+            answer += data
+    return answer
+
+
+def test_real_server_chunked_body_headers_and_files(tmp_path):
+    from test_server import start_server, stop_server
+    proc, url = start_server(tmp_path, "--workers", "1")
+    try:
+        for path, kind in [("/v1/diagnose", "application/json"), ("/v1/verify",
+                                                                   "application/json"),
+                           ("/v1/diagnose", "text/csv")]:
+            answer = _raw_post(url, path, [b"[" * 65536] * 80, kind)  # 5 MiB
+            head, _, body = answer.partition(b"\r\n\r\n")
+            assert head.startswith(b"HTTP/1.1 413"), answer[:200]
+            assert b"X-Content-Type-Options: nosniff" in head
+            assert json.loads(body)["error"]["code"] == "request_entity_too_large"
+        small = _raw_post(url, "/v1/diagnose", [json.dumps(freezing_rain_document(20)).encode()],
+                          "application/json")
+        assert small.startswith(b"HTTP/1.1 200"), small[:300]
+        import requests
+        css = requests.get(url + "/static/ptype.css", timeout=10)
+        assert css.headers["X-Content-Type-Options"] == "nosniff"
+        assert css.headers["X-Frame-Options"] == "DENY"
+        assert requests.get(url + "/v1/sites", timeout=10).ok  # opens the store
+        data = tmp_path / "data"
+        assert stat.S_IMODE(os.stat(data).st_mode) == 0o700
+        files = {f.name: stat.S_IMODE(os.stat(f).st_mode) for f in data.iterdir()}
+        assert files["ptype.sqlite3"] == 0o600 and set(files.values()) == {0o600}, files
+    finally:
+        stop_server(proc)
