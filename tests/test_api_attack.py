@@ -13,7 +13,9 @@ and strings for numbers, wrong content types).  Whatever comes in:
   tests/data/cap12_subset.xsd (OASIS CAP 1.2, 2010);
 * every answer says ``X-Content-Type-Options: nosniff``;
 * no stored site name holds a character XML 1.0 forbids, and no key writes to another
-  owner's site.
+  owner's site;
+* with owner-scoped reads (``PTYPE_OWNER_READS``, a second run), each owner's key lists
+  exactly that owner's sites.
 
 The run is bounded (derandomized, a fixed number of examples and steps) so that it takes
 well under a minute in CI.
@@ -26,6 +28,7 @@ import tempfile
 import urllib.parse
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import ClassVar
 
 import hypothesis.strategies as st
 from api_support import document_to_csv, freezing_rain_document, snow_document
@@ -53,27 +56,35 @@ XSD = etree.XMLSchema(etree.parse(str(Path(__file__).parent / "data" / "cap12_su
 STRICT = etree.XMLParser(recover=False, resolve_entities=False, no_network=True)
 XML_TYPES = ("application/cap+xml", "application/atom+xml")
 
-APP = create_app({"TESTING": True, "PTYPE_DATA_DIR": tempfile.mkdtemp(prefix="ptype-attack-"),
-                  "PTYPE_NOW": NOW, "PTYPE_ALERT_MEMBERS": 2})
-with APP.app_context(), store_for(APP).write() as _s:
-    _T = datetime(2026, 1, 27, tzinfo=UTC)
-    KEYS = {"north": keys.create_key(_s, "north-depot", _T, owner="north")[0],
-            "south": keys.create_key(_s, "south-depot", _T, owner="south")[0],
-            "admin": keys.create_key(_s, "ops", _T, admin=True)[0]}
-    _REVOKED, _info = keys.create_key(_s, "old", _T, owner="north")
-    keys.revoke_key(_s, _info.key_id, _T)
+def make_service(**config):
+    """A service on a new store with keys of two owners, an administrator's and a revoked
+    one; returns the application and the Authorization header of each kind of caller."""
+    app = create_app({"TESTING": True, "PTYPE_NOW": NOW, "PTYPE_ALERT_MEMBERS": 2,
+                      "PTYPE_DATA_DIR": tempfile.mkdtemp(prefix="ptype-attack-"), **config})
+    when = datetime(2026, 1, 27, tzinfo=UTC)
+    with app.app_context(), store_for(app).write() as s:
+        made = {"north": keys.create_key(s, "north-depot", when, owner="north")[0],
+                "south": keys.create_key(s, "south-depot", when, owner="south")[0],
+                "admin": keys.create_key(s, "ops", when, admin=True)[0]}
+        revoked, info = keys.create_key(s, "old", when, owner="north")
+        keys.revoke_key(s, info.key_id, when)
+    auths = {None: None, **{k: f"Bearer {v}" for k, v in made.items()},
+             "revoked": f"Bearer {revoked}", "garbage": "Bearer not-a-key",
+             "basic": "Basic dXNlcjpwYXNz", "unknown": "Bearer ptk_000000000000_x"}
+    return app, auths
 
-#: Authorization headers: none, each owner's key, an administrator's, and bad ones.
-AUTHS = {None: None, **{k: f"Bearer {v}" for k, v in KEYS.items()},
-         "revoked": f"Bearer {_REVOKED}", "garbage": "Bearer not-a-key",
-         "basic": "Basic dXNlcjpwYXNz", "unknown": "Bearer ptk_000000000000_x"}
+
+#: Reads open (the default), and reads scoped to the key's owner (PTYPE_OWNER_READS).
+OPEN_READS = make_service()
+OWNER_READS = make_service(PTYPE_OWNER_READS=True)
+AUTHS = OPEN_READS[1]
 #: Which owner each auth writes for (None: cannot write).
 WRITES_FOR = {"north": "north", "south": "south", "admin": "*"}
 #: The auths a rule draws from: writers twice as often as the others.
 AUTH = st.sampled_from([*AUTHS, *WRITES_FOR])
 
 OPERATIONS = [(method.upper(), path) for path, ops in
-              APP.test_client().get("/openapi.json").json["paths"].items()
+              OPEN_READS[0].test_client().get("/openapi.json").json["paths"].items()
               for method in ops if method in ("get", "post")]
 EXERCISED: set[tuple[str, str]] = set()
 #: (operation, status) -> count over the run, for the report of what the run reached.
@@ -170,14 +181,18 @@ class ServiceUnderAttack(RuleBasedStateMachine):
 
     sites = Bundle("sites")
     alerts = Bundle("alerts")
+    service = OPEN_READS
+    #: The owner of every site created in the service's store (which outlives one example).
+    owners: ClassVar[dict[int, str]] = {}
 
     def __init__(self):
         super().__init__()
-        self.client = APP.test_client()
-        self.owner_of: dict[int, str] = {}
+        self.client = self.service[0].test_client()
+        self.auths = self.service[1]
+        self.owner_of = self.owners
 
     def call(self, method, path, auth=None, content=None, query=None, operation=None):
-        headers = {"Authorization": AUTHS[auth]} if AUTHS.get(auth) else {}
+        headers = {"Authorization": self.auths[auth]} if self.auths.get(auth) else {}
         kind, data = content if content else (None, None)
         response = self.client.open(path, method=method, headers=headers, data=data,
                                     content_type=kind, query_string=query)
@@ -234,30 +249,32 @@ class ServiceUnderAttack(RuleBasedStateMachine):
 
     @rule(site=st.one_of(sites.map(str), IDS), now=st.one_of(st.none(), QUERY_TEXT),
           members=st.sampled_from(["0", "1", "2", "-1", "x", "1e3"]),
-          hours=st.sampled_from(["1", "3", "0", "nan", "-2", "1e308"]))
-    def timeline(self, site, now, members, hours):
+          hours=st.sampled_from(["1", "3", "0", "nan", "-2", "1e308"]), auth=AUTH)
+    def timeline(self, site, now, members, hours, auth):
         query = {"members": members, "hours": hours, "step": "30min"}
         if now is not None:
             query["now"] = now
-        self.call("GET", f"/v1/sites/{urllib.parse.quote(site, safe='')}/timeline",
+        self.call("GET", f"/v1/sites/{urllib.parse.quote(site, safe='')}/timeline", auth,
                   query=query, operation=("GET", "/v1/sites/{site_id}/timeline"))
 
-    @rule(target=alerts, site=st.one_of(st.none(), st.sampled_from(["1", "2"]), QUERY_TEXT))
-    def list_alerts(self, site):
-        r = self.call("GET", "/v1/alerts", query={"site": site} if site is not None else None,
+    @rule(target=alerts, site=st.one_of(st.none(), st.sampled_from(["1", "2"]), QUERY_TEXT),
+          auth=AUTH)
+    def list_alerts(self, site, auth):
+        r = self.call("GET", "/v1/alerts", auth,
+                      query={"site": site} if site is not None else None,
                       operation=("GET", "/v1/alerts"))
         ids = [a["id"] for a in r.json["alerts"]] if r.status_code == 200 else []
         return multiple(*ids[:3])
 
     @rule(alert=consumes(alerts))
     def read_cap(self, alert):
-        r = self.call("GET", f"/v1/alerts/{alert}.cap",
+        r = self.call("GET", f"/v1/alerts/{alert}.cap", "admin",
                       operation=("GET", "/v1/alerts/{alert_id}.cap"))
         assert r.status_code == 200 and r.mimetype == "application/cap+xml"
 
     @rule(auth=AUTH)
     def feed_and_evaluate(self, auth):
-        self.call("GET", "/v1/alerts.atom", operation=("GET", "/v1/alerts.atom"))
+        self.call("GET", "/v1/alerts.atom", auth, operation=("GET", "/v1/alerts.atom"))
         r = self.call("POST", "/v1/alerts/evaluate", auth,
                       operation=("POST", "/v1/alerts/evaluate"))
         assert (r.status_code == 200) == (auth in WRITES_FOR)
@@ -280,17 +297,38 @@ class ServiceUnderAttack(RuleBasedStateMachine):
         self.call(method, path, auth, content if method == "POST" else None, query,
                   operation=operation)
 
+    def _sites_seen_by(self, auth):
+        r = self.client.get("/v1/sites", headers={"Authorization": self.auths[auth]})
+        return r.json["sites"]
+
     @invariant()
     def stored_text_is_xml_text(self):
-        r = self.client.get("/v1/sites")
-        for site in r.json["sites"]:
+        for site in self._sites_seen_by("admin"):
             assert first_bad_character(site["name"]) is None, site["name"]
 
 
-def test_every_operation_under_attack():
-    run_state_machine_as_test(ServiceUnderAttack, settings=settings(
-        max_examples=30, stateful_step_count=25, deadline=None, derandomize=True,
+class OwnerReadsUnderAttack(ServiceUnderAttack):
+    """The same with owner-scoped reads: no key reads another owner's sites."""
+
+    service = OWNER_READS
+    owners: ClassVar[dict[int, str]] = {}
+
+    @invariant()
+    def reads_show_only_the_owners_sites(self):
+        for owner in ("north", "south"):
+            seen = {site["id"] for site in self._sites_seen_by(owner)}
+            assert seen == {i for i, o in self.owner_of.items() if o == owner}
+
+
+def _run(machine, examples, steps):
+    run_state_machine_as_test(machine, settings=settings(
+        max_examples=examples, stateful_step_count=steps, deadline=None, derandomize=True,
         database=None, suppress_health_check=list(HealthCheck)))
+
+
+def test_every_operation_under_attack():
+    _run(ServiceUnderAttack, 30, 25)
+    _run(OwnerReadsUnderAttack, 10, 20)
     missing = set(OPERATIONS) - EXERCISED
     assert not missing, f"operations never exercised: {sorted(missing)}"
     # The run reached the states that matter, not only the refusals.
