@@ -402,3 +402,21 @@ def test_real_server_chunked_body_headers_and_files(tmp_path):
         assert files["ptype.sqlite3"] == 0o600 and set(files.values()) == {0o600}, files
     finally:
         stop_server(proc)
+
+
+def test_library_and_cli_refuse_times_outside_the_range():
+    import subprocess
+    import sys
+
+    from ptype.clock import parse_time
+    from ptype.errors import OptionError
+    for when in EDGE_TIMES:
+        with pytest.raises(OptionError, match="1900"):
+            parse_time(when, "now")
+    series = sorted((Path(__file__).parents[1] / "soundings_demo" / "series" /
+                     "drovan-junction").glob("*.json"))[:3]
+    r = subprocess.run([sys.executable, "-m", "ptype", "timeline", *map(str, series), "--now",
+                        "0001-01-01T00:00:00+14:00"], capture_output=True, text=True,
+                       timeout=120, check=False)
+    assert r.returncode == 2 and len(r.stderr.strip().splitlines()) == 1, r.stderr
+    assert "now" in r.stderr and "2200" in r.stderr
