@@ -246,20 +246,19 @@ class Health(ResponseModel, extra="forbid"):
 
 
 # -- verification ----------------------------------------------------------------------
-class VerifyCase(BodyModel):
+class VerifyCase(RequestModel):
     """One paired case: a profile and the present weather observed with it."""
 
     profile: ProfileDocument
-    observed: Line = Field(..., max_length=200, description=(
+    observed: str = Field(..., max_length=200, description=(
         "Present weather as written in a METAR/SYNOP-style report, e.g. `-FZRA BR`, "
         "`FZRA PL`, `+SN BLSN`, `NSW` (docs/verification.md has the mapping table)."),
         examples=["-FZRA BR"])
     valid_time: str | None = Field(None, description="ISO 8601 time; overrides the profile's.")
-    site: Line | None = Field(None, max_length=200,
-                              description="Site name shown in the report.")
+    site: str | None = Field(None, description="Site name shown in the report.")
 
 
-class VerifyRequest(BodyModel):
+class VerifyRequest(RequestModel):
     """Cases to verify and the Monte-Carlo settings."""
 
     cases: list[VerifyCase] = Field(..., min_length=1, description=(

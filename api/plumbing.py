@@ -163,8 +163,6 @@ def check_levels(document: Any, field_prefix: str = "") -> None:
 
 #: Content types of a single profile in text, mapped to the reader format (None = detect).
 TEXT_FORMATS = {"text/csv": "csv", "text/plain": None}
-JSON_TYPES = ("application/json",)
-
 
 media_type = inputs.media_type
 is_json_request = inputs.is_json_request
