@@ -15,11 +15,13 @@ error body, the health check, the batch and demo envelopes) say so with ``extra=
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationInfo, field_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationInfo, field_validator
 
+from ptype.clock import in_time_range
 from ptype.profile.document import ProfileDocument
+from ptype.store.text import single_line
 from ptype.verify.report import DEFAULT_SEED
 
 PTYPE_CODES = ("NONE", "RA", "SN", "PL", "FZRA", "FZDZ", "DZ", "RASN", "RAPL", "FZRAPL")
@@ -36,6 +38,19 @@ class RequestModel(BaseModel):
     """Base of request bodies and query options: an unknown field is refused, by name."""
 
     model_config = ConfigDict(extra="forbid")
+
+
+class BodyModel(RequestModel):
+    """Base of JSON request bodies: strict types as well (a number is never a boolean or a
+    string), times excepted (:data:`ApiTime` parses ISO 8601 strings)."""
+
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+
+#: A time in a request body: ISO 8601, within the range of :mod:`ptype.clock`.
+ApiTime = Annotated[datetime, Field(strict=False), AfterValidator(in_time_range)]
+#: One line of text (names, codes, sources): no control characters or line breaks.
+Line = Annotated[str, AfterValidator(single_line)]
 
 
 class ResponseModel(BaseModel):
@@ -272,7 +287,7 @@ class VerifyReport(ResponseModel):
 
 
 # -- sites: requests ------------------------------------------------------------------
-class RoadThresholds(RequestModel):
+class RoadThresholds(BodyModel):
     """Per-site alert thresholds (all optional; defaults in ``ptype.roads.alerts.rules``)."""
 
     freezing_probability: float | None = Field(None, ge=0, le=1)
@@ -285,30 +300,31 @@ class RoadThresholds(RequestModel):
     snow_window_hours: float | None = Field(None, gt=0, le=48)
 
 
-class SiteIn(RequestModel):
-    name: str = Field(..., min_length=1, max_length=200)
+class SiteIn(BodyModel):
+    name: Line = Field(..., min_length=1, max_length=200, description=(
+        "One line: no control characters, line breaks or non-characters (docs/api.md)."))
     latitude: float = Field(..., ge=-90, le=90)
     longitude: float = Field(..., ge=-180, le=180)
     elevation_m: float | None = Field(None, ge=-500, le=9000)
-    code: str | None = Field(None, min_length=1, max_length=100,
+    code: Line | None = Field(None, min_length=1, max_length=100,
                              description="Your own identifier for the site (unique).")
     thresholds: RoadThresholds | None = None
 
 
-class ProfilesIn(RequestModel):
+class ProfilesIn(BodyModel):
     profiles: list[dict[str, Any]] = Field(..., min_length=1)
-    issued_time: datetime | None = None
-    source: str | None = Field(None, min_length=1, max_length=200)
+    issued_time: ApiTime | None = None
+    source: Line | None = Field(None, min_length=1, max_length=200)
 
 
-class ObservationIn(RequestModel):
-    time: datetime
+class ObservationIn(BodyModel):
+    time: ApiTime
     air_temperature_c: float | None = Field(None, ge=-80, le=60)
     dewpoint_c: float | None = Field(None, ge=-100, le=60)
     road_surface_temperature_c: float | None = Field(None, ge=-80, le=90)
     precipitation_rate_mm_h: float | None = Field(None, ge=0, le=500)
     wind_speed_m_s: float | None = Field(None, ge=0, le=120)
-    present_weather: str | None = Field(None, max_length=40)
+    present_weather: Line | None = Field(None, max_length=40)
 
     @field_validator("dewpoint_c")
     @classmethod
@@ -321,7 +337,7 @@ class ObservationIn(RequestModel):
         return v
 
 
-class ObservationsIn(RequestModel):
+class ObservationsIn(BodyModel):
     observations: list[ObservationIn] = Field(..., min_length=1, max_length=1000)
 
 
@@ -335,6 +351,8 @@ class SiteOut(ResponseModel):
     longitude: float
     elevation_m: float | None = None
     code: str | None = None
+    owner: str | None = Field(None, description="Whose site it is: the owner of the key that "
+                                                "created it (docs/api.md, Owners).")
     thresholds: dict[str, Any] | None = None
 
 
@@ -404,7 +422,7 @@ class AlertList(ResponseModel):
 
 
 class AlertListOptions(RequestModel):
-    site: int | None = Field(None, description="Only this site's alerts.")
+    site: int | None = Field(None, ge=1, le=2 ** 63 - 1, description="Only this site's alerts.")
     active: str | None = Field(None, description="`1` for active alerts only (default: active "
                                                  "and recently ended).")
 

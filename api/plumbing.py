@@ -3,7 +3,7 @@
 * answers: :func:`json_response` (strict, compact JSON), :func:`secure_html` (headers of
   the HTML pages);
 * requests: :func:`parse_options` (query string -> model), :func:`diagnose_kwargs`,
-  :func:`load_json_body` (strict JSON), :func:`request_json` (lenient JSON),
+  :func:`load_json_body` (strict JSON, :mod:`ptype.api.inputs`),
   :func:`validate_body` (JSON object -> model), :func:`profile_from_request` (a JSON, CSV
   or WMO TEMP body -> :class:`ptype.Profile`) and the work limits;
 * state: :func:`store_for` / :func:`get_store`, :func:`now` (the service clock),
@@ -20,10 +20,11 @@ import json
 import math
 import threading
 from datetime import datetime
-from typing import Any, NoReturn, TypeVar
+from typing import Any, TypeVar
 
 import sqlalchemy as sa
 from flask import Flask, Response, current_app, request
+from ptype.api import inputs
 from ptype.api.errors import ApiError
 from ptype.api.models import DiagnoseOptions
 from pydantic import BaseModel, ValidationError
@@ -162,18 +163,9 @@ def check_levels(document: Any, field_prefix: str = "") -> None:
 
 #: Content types of a single profile in text, mapped to the reader format (None = detect).
 TEXT_FORMATS = {"text/csv": "csv", "text/plain": None}
-JSON_TYPES = ("application/json",)
 
-
-def media_type() -> str:
-    """The request's media type, lower case ("" when none was sent)."""
-    return (request.mimetype or "").lower()
-
-
-def is_json_request() -> bool:
-    """True when the request says its body is JSON (``application/json`` or ``...+json``)."""
-    kind = media_type()
-    return kind in JSON_TYPES or kind.endswith("+json")
+media_type = inputs.media_type
+is_json_request = inputs.is_json_request
 
 
 def json_kind(value: Any) -> str:
@@ -182,35 +174,9 @@ def json_kind(value: Any) -> str:
             int: "a number", float: "a number"}.get(type(value), type(value).__name__)
 
 
-def _reject_constant(name: str) -> NoReturn:
-    raise ApiError(400, "invalid_json", f"request body: {name} is not valid JSON; "
-                                        "use null for a missing value")
-
-
-def load_json_body() -> Any:
-    """The request body decoded as strict JSON (no NaN/Infinity); 400 when it is not JSON."""
-    raw = request.get_data(cache=True)
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise ApiError(400, "invalid_json", "request body is not UTF-8 text") from None
-    if not text.strip():
-        raise ApiError(400, "invalid_json", "request body is empty; expected a JSON object")
-    try:
-        return json.loads(text, parse_constant=_reject_constant)
-    except json.JSONDecodeError as exc:
-        raise ApiError(400, "invalid_json", f"request body: line {exc.lineno} column {exc.colno}: "
-                                            f"invalid JSON ({exc.msg})") from None
-    except RecursionError:
-        raise ApiError(400, "invalid_json", "request body is nested too deeply") from None
-
-
-def request_json(code: str, message: str) -> Any:
-    """The body as read by Flask's JSON reader; a 400 ``code``/``message`` when it is not JSON."""
-    data = request.get_json(silent=True)
-    if data is None:
-        raise ApiError(400, code, message)
-    return data
+def load_json_body(expected: str = "a JSON object") -> Any:
+    """The request body as strict, checked JSON (:func:`ptype.api.inputs.json_body`)."""
+    return inputs.json_body(expected)
 
 
 def validate_body(model: type[Model], data: Any) -> Model:
@@ -231,19 +197,31 @@ def validate_body(model: type[Model], data: Any) -> Model:
         elif kind == "missing":
             msg = f"{field}: required field is missing"
         else:
-            msg = f"{field}: {err['msg']} (got {err.get('input')!r})"
+            msg = f"{field}: {_short(err['msg'])} (got {_shown(err.get('input'))})"
         raise ApiError(422, "invalid_body", msg, field) from None
+
+
+def _short(message: str) -> str:
+    """A pydantic message without its "Value error, " prefix."""
+    return message.removeprefix("Value error, ")
+
+
+def _shown(value: Any) -> str:
+    """``repr(value)``, cut to a readable length for a message."""
+    shown = repr(value)
+    return shown if len(shown) <= 60 else shown[:57] + "..."
 
 
 def _profile_text(options: DiagnoseOptions, kind: str) -> dict:
     """The profile document of a CSV or WMO TEMP body."""
-    raw = request.get_data(cache=True)
+    raw = inputs.read_body()
     if not raw.strip():
         raise ApiError(400, "empty_body", "request body is empty; expected a profile")
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError:
         raise ApiError(400, "invalid_text", "request body is not UTF-8 text") from None
+    inputs.check_text_body(text)
     # Always hand the reader text with a line break, so that it is never taken for a
     # file path (the service reads nothing from its own disk on a client's behalf).
     if "\n" not in text:

@@ -41,7 +41,8 @@ def site_or_404(session: Session, site_id: int) -> Site:
 def site_dict(site: Site, session: Session | None = None) -> dict[str, Any]:
     """A site as JSON; with a ``session``, also its latest issue of profiles and observation."""
     d: dict[str, Any] = {
-        "id": site.id, "code": site.code, "name": site.name, "latitude": site.latitude,
+        "id": site.id, "code": site.code, "name": site.name, "owner": site.owner,
+        "latitude": site.latitude,
         "longitude": site.longitude, "elevation_m": site.elevation_m,
         "thresholds": site.thresholds or {}, "created": iso(site.created_at)}
     if session is not None:
@@ -58,9 +59,12 @@ def site_dict(site: Site, session: Session | None = None) -> dict[str, Any]:
     return d
 
 
-def site_ids(session: Session) -> list[int]:
-    """Every site id, in order."""
-    return list(session.scalars(sa.select(Site.id).order_by(Site.id)))
+def site_ids(session: Session, owner: str | None = None) -> list[int]:
+    """Every site id (of ``owner`` when given), in order."""
+    query = sa.select(Site.id).order_by(Site.id)
+    if owner is not None:
+        query = query.where(Site.owner == owner)
+    return list(session.scalars(query))
 
 
 def evaluate_alerts(site_id: int) -> list[dict]:
@@ -94,14 +98,16 @@ def evaluate_after_ingest(site_id: int) -> list[dict] | dict:
         return {"error": "alerts not evaluated: internal error (logged)"}
 
 
-def current_alerts(site_id: int | None = None, include_recent: bool = True) -> list[dict]:
-    """The alerts at the service clock (due ones expired first), optionally of one site."""
+def current_alerts(site_id: int | None = None, include_recent: bool = True, *,
+                   owner: str | None = None) -> list[dict]:
+    """The alerts at the service clock (due ones expired first), optionally of one site or of
+    one owner's sites."""
     t = now()
     with get_store().write() as s:
         service.expire_due(s, t)
     with get_store().read() as s:
         return service.list_alerts(s, t, cap_sender(), include_recent=include_recent,
-                                   site_id=site_id)
+                                   site_id=site_id, owner=owner)
 
 
 def demo_requested(app: Flask) -> bool:

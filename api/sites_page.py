@@ -13,6 +13,7 @@ from typing import Any
 import sqlalchemy as sa
 from flask import Blueprint, Response, make_response, render_template, request
 from ptype.api.plumbing import cap_sender, get_store, now, secure_html
+from ptype.api.tenants import read_owner, reader
 
 from ptype.clock import iso
 from ptype.codes import LABELS, Code
@@ -103,13 +104,17 @@ def sites_page() -> Response:
     """Every site with its active alerts and an hourly type strip (``?hours=``, 1 to 48)."""
     t = now()
     hours = page_hours(request.args.get("hours"))
+    owner = read_owner(reader())  # owner-scoped reads: a key, and only its owner's sites
+    query = sa.select(Site).order_by(Site.id)
+    if owner is not None:
+        query = query.where(Site.owner == owner)
     store = get_store()
     with store.write() as s:
         service.expire_due(s, t)
     sections = []
     with store.read() as s:
         sender = cap_sender()
-        for site in list(s.scalars(sa.select(Site).order_by(Site.id))):
+        for site in list(s.scalars(query)):
             timeline = service.site_timeline(s, site, t, hours=hours, step="1h", members=0)
             alerts = service.list_alerts(s, t, sender, include_recent=False, site_id=site.id)
             sections.append(site_view(site, timeline, alerts))

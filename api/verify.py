@@ -20,7 +20,7 @@ from ptype.api.errors import ApiError
 from ptype.api.examples import VERIFY_EXAMPLE
 from ptype.api.models import VERIFY_MEMBERS, VerifyReport, VerifyRequest
 from ptype.api.openapi import Operation
-from ptype.api.plumbing import request_json
+from ptype.api.plumbing import load_json_body
 
 from ptype.verify.manifest import cases_from_entries
 from ptype.verify.report import DEFAULT_SEED, run_verification
@@ -41,11 +41,10 @@ BODY_FIELDS = ("cases", "members", "seed", "methods")
                 "probabilities, Brier and ranked probability scores and reliability "
                 "data. Unverifiable observations are excluded and counted by reason.",
     body={"application/json": {"schema": VerifyRequest, "example": VERIFY_EXAMPLE}},
-    ok=VerifyReport, errors=(400, 413, 422))
+    ok=VerifyReport, errors=(400, 413, 415, 422))
 def verify() -> Response:
     """Diagnose and score the cases of the body; the answer is the verification report."""
-    body = request_json("invalid_json", "request body must be JSON (Content-Type: "
-                        "application/json) holding {\"cases\": [...]}")
+    body = load_json_body('{"cases": [...]}')
     if not isinstance(body, dict):
         raise ApiError(400, "invalid_body", f"request body must be a JSON object, got "
                        f"{type(body).__name__}")

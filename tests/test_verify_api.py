@@ -107,7 +107,10 @@ def test_verify_unknown_method_is_400(client):
 
 
 def test_verify_not_json(client):
+    # A body that is not JSON by its Content-Type is refused as such (415, docs/api.md).
     r = client.post("/v1/verify", data="cases", content_type="text/plain")
+    assert r.status_code == 415 and r.json["error"]["code"] == "unsupported_media_type"
+    r = client.post("/v1/verify", data="cases", content_type="application/json")
     assert r.status_code == 400 and r.json["error"]["code"] == "invalid_json"
     r = client.post("/v1/verify", json=[1, 2])
     assert r.status_code == 400 and r.json["error"]["code"] == "invalid_body"

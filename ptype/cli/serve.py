@@ -117,7 +117,7 @@ def run(args: argparse.Namespace) -> int:
         os.environ["PTYPE_DEMO"] = "1"
     data_dir = os.environ.get("PTYPE_DATA_DIR") or os.path.join(os.getcwd(), ".data")
     os.environ["PTYPE_DATA_DIR"] = data_dir
-    os.makedirs(data_dir, exist_ok=True)
+    os.makedirs(data_dir, mode=0o700, exist_ok=True)  # private, as the store makes it
 
     from gunicorn.app.base import BaseApplication
 

@@ -19,7 +19,7 @@ import sqlalchemy as sa
 from ptype.clock import parse_time
 from ptype.readers import read_profile
 from ptype.store import Store
-from ptype.store.models import ProfileRecord, Site
+from ptype.store.models import ADMIN_OWNER, ProfileRecord, Site
 
 
 def default_demo_dir() -> Path:
@@ -53,7 +53,7 @@ def load_demo(store: Store, demo_dir: Path | None = None, *, now: datetime) -> d
             if site is None:
                 site = Site(code=code, name=entry["name"], latitude=entry["latitude"],
                             longitude=entry["longitude"], elevation_m=entry.get("elevation_m"),
-                            thresholds={}, created_at=now)
+                            thresholds={}, created_at=now, owner=ADMIN_OWNER)
                 s.add(site)
                 s.flush()
                 added_sites.append(site.id)

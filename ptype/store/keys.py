@@ -8,6 +8,10 @@ row, ``secret`` (32 random bytes, URL-safe base64) is checked against
 KDF is defence in depth against a leaked database, not the main barrier; its
 cost (n = 2**14, r = 8, p = 1, about 16 MiB and a few tens of ms) follows the
 RFC 7914 interactive-login example.
+
+Every key belongs to an owner (the key's name unless another is given): the sites it
+creates are that owner's and it may write only to them; an administrator's key
+(``admin=True``) may write everywhere.
 """
 
 from __future__ import annotations
@@ -52,29 +56,52 @@ class KeyInfo:
     name: str
     created_at: datetime
     revoked_at: datetime | None
+    owner: str = ""
+    admin: bool = False
 
     def to_dict(self) -> dict:
         """JSON-ready form with the status (active or revoked)."""
         from ptype.clock import iso
-        return {"key_id": self.key_id, "name": self.name, "created_at": iso(self.created_at),
+        return {"key_id": self.key_id, "name": self.name, "owner": self.owner,
+                "admin": self.admin, "created_at": iso(self.created_at),
                 "revoked_at": iso(self.revoked_at),
                 "status": "revoked" if self.revoked_at else "active"}
 
 
 def _info(row: ApiKey) -> KeyInfo:
-    return KeyInfo(row.key_id, row.name, row.created_at, row.revoked_at)
+    return KeyInfo(row.key_id, row.name, row.created_at, row.revoked_at, row.owner,
+                   bool(row.is_admin))
 
 
-def create_key(session: Session, name: str, now: datetime) -> tuple[str, KeyInfo]:
-    """Store a new key and return ``(full_key, info)``; the full key is never stored."""
-    name = (name or "").strip()
-    if not name:
-        raise ValueError("name: expected a non-empty key name")
+def _label(value: str | None, field: str) -> str:
+    """A key name or owner: one line of 1 to 200 characters, stripped."""
+    from ptype.store.text import first_bad_line_character
+    text = (value or "").strip()
+    if not text:
+        raise ValueError(f"{field}: expected a non-empty {field}")
+    if len(text) > 200:
+        raise ValueError(f"{field}: {len(text)} characters; at most 200")
+    bad = first_bad_line_character(text)
+    if bad is not None:
+        raise ValueError(f"{field}: holds the character U+{ord(bad):04X}; control characters "
+                         "and line breaks are not allowed")
+    return text
+
+
+def create_key(session: Session, name: str, now: datetime, *, owner: str | None = None,
+               admin: bool = False) -> tuple[str, KeyInfo]:
+    """Store a new key and return ``(full_key, info)``; the full key is never stored.
+
+    ``owner`` defaults to ``name``; ``admin`` makes it an administrator's key.
+    """
+    name = _label(name, "name")
+    owner = _label(owner, "owner") if owner is not None else name
     key_id = secrets.token_hex(6)
     secret = secrets.token_urlsafe(32)
     salt = secrets.token_bytes(16)
-    row = ApiKey(key_id=key_id, name=name[:200], salt_hex=salt.hex(),
-                 hash_hex=hash_secret(secret, salt).hex(), kdf=KDF_NAME, created_at=now)
+    row = ApiKey(key_id=key_id, name=name, salt_hex=salt.hex(),
+                 hash_hex=hash_secret(secret, salt).hex(), kdf=KDF_NAME, created_at=now,
+                 owner=owner, is_admin=bool(admin))
     session.add(row)
     session.flush()
     return f"{PREFIX}_{key_id}_{secret}", _info(row)

@@ -103,9 +103,32 @@ def _v1_initial(conn: Connection) -> None:
     md.create_all(conn)
 
 
+#: The owner of what existed before owners (the demo sites among it): an administrator's
+#: (the same name as :data:`ptype.store.models.ADMIN_OWNER`, frozen here with the schema).
+ADMIN_OWNER = "admin"
+
+
+def _v2_owners(conn: Connection) -> None:
+    """Owners: every key belongs to one (and may be an administrator's), every site too.
+
+    Keys made before owners could write everywhere, so they keep that right (administrator
+    keys, each its own owner, named after the key); sites made before belong to
+    :data:`ADMIN_OWNER`.  Plain SQL that SQLite and PostgreSQL both run.
+    """
+    conn.execute(sa.text("ALTER TABLE api_keys ADD COLUMN owner VARCHAR(200) NOT NULL "
+                         f"DEFAULT '{ADMIN_OWNER}'"))
+    conn.execute(sa.text("ALTER TABLE api_keys ADD COLUMN is_admin BOOLEAN NOT NULL "
+                         "DEFAULT FALSE"))
+    conn.execute(sa.text("UPDATE api_keys SET owner = name, is_admin = TRUE"))
+    conn.execute(sa.text("ALTER TABLE sites ADD COLUMN owner VARCHAR(200) NOT NULL "
+                         f"DEFAULT '{ADMIN_OWNER}'"))
+    conn.execute(sa.text("CREATE INDEX ix_sites_owner ON sites (owner)"))
+
+
 #: Ordered migrations: (version, name, function(connection)).  Append only.
 MIGRATIONS: list[tuple[int, str, Callable[[Connection], None]]] = [
     (1, "initial schema: keys, sites, profiles, observations, alerts, alert messages", _v1_initial),
+    (2, "owners of keys and sites; administrator keys", _v2_owners),
 ]
 
 LATEST_VERSION = MIGRATIONS[-1][0]
@@ -126,8 +149,12 @@ def current_version(conn: Connection) -> int:
     return int(value or 0)
 
 
-def migrate(engine: sa.Engine) -> list[int]:
-    """Apply the missing migrations in order; returns the versions applied by this call."""
+def migrate(engine: sa.Engine, until: int | None = None) -> list[int]:
+    """Apply the missing migrations in order; returns the versions applied by this call.
+
+    ``until`` stops after that version (a store at an earlier schema, for tests of the
+    migrations themselves).
+    """
     applied: list[int] = []
     # ptype_write makes the SQLite begin listener take the write lock up front.
     with engine.execution_options(ptype_write=True).begin() as conn:
@@ -136,7 +163,7 @@ def migrate(engine: sa.Engine) -> list[int]:
         _version_table.create(conn, checkfirst=True)
         have = current_version(conn)
         for version, name, func in MIGRATIONS:
-            if version <= have:
+            if version <= have or (until is not None and version > until):
                 continue
             func(conn)
             conn.execute(_version_table.insert().values(

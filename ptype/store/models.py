@@ -42,8 +42,17 @@ class Base(DeclarativeBase):
     """The declarative base of every table."""
 
 
+#: The owner of the sites no key created (the demo) and of those that existed before owners.
+ADMIN_OWNER = "admin"
+
+
 class ApiKey(Base):
-    """An API key: only a per-key salt and the scrypt hash of the secret are kept."""
+    """An API key: only a per-key salt and the scrypt hash of the secret are kept.
+
+    A key belongs to an ``owner``: the sites it creates are that owner's, and it may write
+    only to them, unless it is an administrator's key (``is_admin``), which may write
+    everywhere.
+    """
 
     __tablename__ = "api_keys"
     id: Mapped[int] = mapped_column(primary_key=True)
@@ -54,10 +63,12 @@ class ApiKey(Base):
     kdf: Mapped[str] = mapped_column(sa.String(64))
     created_at: Mapped[datetime] = mapped_column(UTCDateTime)
     revoked_at: Mapped[datetime | None] = mapped_column(UTCDateTime, nullable=True)
+    owner: Mapped[str] = mapped_column(sa.String(200))
+    is_admin: Mapped[bool] = mapped_column(sa.Boolean, default=False)
 
 
 class Site(Base):
-    """A road-weather site: name, position and its own alert thresholds."""
+    """A road-weather site: name, position, its own alert thresholds and its owner."""
 
     __tablename__ = "sites"
     id: Mapped[int] = mapped_column(primary_key=True)
@@ -68,6 +79,7 @@ class Site(Base):
     elevation_m: Mapped[float | None] = mapped_column(sa.Float, nullable=True)
     thresholds: Mapped[dict[str, Any]] = mapped_column(sa.JSON, default=dict)
     created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    owner: Mapped[str] = mapped_column(sa.String(200), default=ADMIN_OWNER, index=True)
 
     profiles: Mapped[list[ProfileRecord]] = relationship(back_populates="site",
                                                            cascade="all, delete-orphan")

@@ -9,10 +9,11 @@ Element order follows the CAP 1.2 schema's sequences exactly::
            instruction?, web?, contact?, parameter*, resource*, area*
     area:  areaDesc, polygon*, circle*, geocode*, altitude?, ceiling?
 
-Times are ``YYYY-MM-DDThh:mm:ss+00:00`` (no fractional seconds, no "Z", as the schema's
-pattern requires).  ``references`` lists the earlier messages of the same alert as
-space-separated ``sender,identifier,sent`` triples.  The GRIB2 code table 4.201 value of the
-dominant precipitation type is carried in a ``parameter``.
+Text passes through :func:`ptype.store.text.xml_safe`, so a message is well-formed XML
+whatever was stored.  Times are ``YYYY-MM-DDThh:mm:ss+00:00`` (no fractional seconds, no
+"Z", as the schema's pattern requires).  ``references`` lists the earlier messages of the
+same alert as space-separated ``sender,identifier,sent`` triples.  The GRIB2 code table
+4.201 value of the dominant precipitation type is carried in a ``parameter``.
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ from typing import Any
 from xml.etree import ElementTree as ET
 
 from ptype.roads.alerts.rules import EVENTS
+from ptype.store.text import xml_safe
 
 NAMESPACE = "urn:oasis:names:tc:emergency:cap:1.2"
 STATUS = ("Actual", "Exercise", "System", "Test", "Draft")
@@ -50,9 +52,12 @@ def reference(sender: str, identifier: str, sent: datetime) -> str:
 
 
 def _sub(parent, tag, text=None):
+    # Every text goes through xml_safe: ElementTree writes whatever it is given, and one
+    # character XML 1.0 forbids (in a site name stored long ago, say) would make the whole
+    # message unreadable to every consumer.
     el = ET.SubElement(parent, f"{{{NAMESPACE}}}{tag}")
     if text is not None:
-        el.text = str(text)
+        el.text = xml_safe(text)
     return el
 
 

@@ -205,8 +205,9 @@ def alert_dict(alert: Alert, sender: str) -> dict:
 
 
 def list_alerts(session: Session, now: datetime, sender: str, *, include_recent: bool = True,
-                site_id: int | None = None) -> list[dict]:
-    """Active alerts (and, with ``include_recent``, those ended recently), by onset."""
+                site_id: int | None = None, owner: str | None = None) -> list[dict]:
+    """Active alerts (and, with ``include_recent``, those ended recently), by onset; of one
+    site and of one owner's sites when those are given."""
     q = sa.select(Alert)
     if include_recent:
         q = q.where(sa.or_(Alert.status == "active", Alert.ended_at >= now - RECENT))
@@ -214,6 +215,8 @@ def list_alerts(session: Session, now: datetime, sender: str, *, include_recent:
         q = q.where(Alert.status == "active")
     if site_id is not None:
         q = q.where(Alert.site_id == site_id)
+    if owner is not None:
+        q = q.where(Alert.site_id.in_(sa.select(Site.id).where(Site.owner == owner)))
     rows = session.scalars(q.order_by(Alert.onset, Alert.id))
     return [alert_dict(a, sender) for a in rows]
 
