@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import os
 
-from flask import Blueprint, Response, current_app, jsonify, request
+from flask import Blueprint, Flask, Response, current_app, jsonify, request
 from ptype.api.errors import ApiError
 from ptype.api.inputs import check_id
 from ptype.api.models import AlertList, AlertListOptions, EvaluateResult
@@ -28,7 +28,7 @@ bp = Blueprint("alerts", __name__, url_prefix="/v1")
 MAX_ALERT_ID = 64
 
 
-def init_app(app) -> None:
+def init_app(app: Flask) -> None:
     """Check the deployment's CAP scope settings when the service starts, not at the first
     CAP request."""
     try:
