@@ -31,6 +31,7 @@ EXIT_BAD_INPUT = 2
 #: The top-level modules each extra of ``pyproject.toml`` installs, by extra.
 EXTRA_MODULES: dict[str, tuple[str, ...]] = {
     "plot": ("matplotlib", "metpy", "jinja2"),
+    "formats": ("eccodes",),
     "service": ("flask", "gunicorn", "sqlalchemy"),
     "grid": ("distributed",),
     "postgres": ("psycopg",),
