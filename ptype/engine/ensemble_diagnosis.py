@@ -65,8 +65,8 @@ def diagnose_ensemble(documents: Iterable[dict], *, members: int = 0, seed: int 
                confidence=confidence_word(p), members=members)
     out["ensemble"] = {"members": len(results), "member_types": [c.name for c in types],
                        "perturbations_per_member": members, "explained_member": k}
-    out["warnings"] = list(out.get("warnings", [])) + [
-        f"ensemble of {len(results)} members: {code.name} in "
-        f"{sum(1 for c in types if c == code)} of them; the reasoning shown is that of "
-        f"member {k}"]
+    note = (f"ensemble of {len(results)} members: {code.name} in "
+            f"{sum(1 for c in types if c == code)} of them; the reasoning shown is that of "
+            f"member {k}")
+    out["warnings"] = [*out.get("warnings", []), note]
     return out

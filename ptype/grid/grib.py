@@ -240,10 +240,10 @@ def open_grib_dataset(paths: str | os.PathLike | Sequence) -> xr.Dataset:
                               f"{geometry['shape']} of {os.fspath(paths[0])}", field="input")
         geometry = geometry or geo
         messages.extend(got)
-    return _assemble(messages, geometry, [os.fspath(p) for p in paths])
+    return assemble(messages, geometry, [os.fspath(p) for p in paths])
 
 
-def _assemble(messages: list[_Message], geometry: dict[str, Any], names: list[str]):
+def assemble(messages: list[_Message], geometry: dict[str, Any], names: list[str]):
     """Stack the messages into dimensioned arrays with CF attributes."""
     import xarray as xr
     by_role: dict[str, list[_Message]] = {}
