@@ -293,3 +293,46 @@ def test_watch_once_command(run_file, tmp_path, capsys, monkeypatch):
     assert "run_06.grib2: 3 profiles for 1 sites" in out and "Guidance only" in out
     assert main(["watch", str(tmp_path / "missing")]) == 2
     assert "not a directory" in capsys.readouterr().err
+
+
+# --- POST /v1/ingest -------------------------------------------------------------------------
+
+@pytest.fixture
+def api(make_app, tmp_path):
+    from ptype.api.plumbing import store_for
+    from ptype.store import keys
+    app = make_app(PTYPE_NOW=REF.isoformat(), PTYPE_ALERT_MEMBERS=5,
+                   PTYPE_MAX_INGEST_BYTES=2_000_000)
+    with store_for(app).write() as s:
+        key, _ = keys.create_key(s, "model feed", REF)
+        s.add(Site(code="mistleby-bridge", name="Mistleby Bridge", latitude=46.6,
+                   longitude=-32.3, elevation_m=250.0, thresholds={}, created_at=REF))
+    return app.test_client(), {"Authorization": f"Bearer {key}"}
+
+
+def test_api_ingest_needs_a_key_and_stores_once(api, run_file):
+    client, auth = api
+    body = run_file.read_bytes()
+    headers = {"Content-Type": "application/x-grib2"}
+    assert client.post("/v1/ingest", data=body, headers=headers).status_code == 401
+    r = client.post("/v1/ingest?name=run_06.grib2", data=body, headers={**headers, **auth})
+    assert r.status_code == 201, r.json
+    assert r.json["status"] == "ingested" and r.json["profiles"] == 3
+    assert r.json["runs"][0]["reference_time"] == REF.isoformat()
+    r = client.post("/v1/ingest", data=body, headers={**headers, **auth})
+    assert r.status_code == 200 and r.json["status"] == "already ingested"
+    tl = client.get("/v1/sites/1/timeline?hours=6&members=0")
+    assert tl.status_code == 200 and tl.json["steps"]
+    assert tl.json["issued_time"].startswith("2031-01-14T06:00")
+
+
+def test_api_ingest_refusals(api, tmp_path):
+    client, auth = api
+    r = client.post("/v1/ingest", data=b"x" * 2_000_001,
+                    headers={"Content-Type": "application/x-grib2", **auth})
+    assert r.status_code == 413 and "2000000" in r.json["error"]["message"]
+    r = client.post("/v1/ingest", data=b"GRIB" + b"\0" * 60,
+                    headers={"Content-Type": "application/x-grib2", **auth})
+    assert r.status_code == 422 and "message 1" in r.json["error"]["message"]
+    r = client.post("/v1/ingest", json={"a": 1}, headers=auth)
+    assert r.status_code == 415
