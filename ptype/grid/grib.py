@@ -83,7 +83,7 @@ class _Message:
     reference: datetime
     valid: datetime
     member: int | None
-    values: np.ndarray    # (ny, nx)
+    values: np.ndarray    # (ny * nx,) float32 (what the dataset stores)
 
 
 def is_grib(path: str | os.PathLike) -> bool:
@@ -159,7 +159,8 @@ def _decode(ec, h, name: str, index: int, shape: tuple[int, int] | None) -> _Mes
                                     ec.codes_get_long(h, "dataTime")),
                     valid=_time(ec.codes_get_long(h, "validityDate"),
                                 ec.codes_get_long(h, "validityTime")),
-                    member=member, values=values * PARAMETERS[key][3])
+                    member=member,
+                    values=(values * PARAMETERS[key][3]).astype(np.float32))
 
 
 def read_messages(path: str | os.PathLike) -> tuple[list[_Message], dict[str, Any]]:

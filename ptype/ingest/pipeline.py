@@ -38,7 +38,7 @@ from typing import Any
 import numpy as np
 import sqlalchemy as sa
 
-from ptype.errors import ReaderError
+from ptype.errors import OptionError, ProfileError, ReaderError
 from ptype.ingest.site_columns import SitePoint, columns_at_sites
 from ptype.store import IngestedFile, ProfileRecord, Site, Store
 
@@ -268,6 +268,7 @@ def ingest_file(store: Store, path: str | os.PathLike, *, now: datetime,
     except ReaderError as exc:
         reject(store, key, str(exc), now)
         raise
+    log.info("%s: read %d runs", name, len(runs))
     sites = _site_points(store)
     rows, skipped, run_info = [], [], []
     for run in runs:
@@ -282,13 +283,13 @@ def ingest_file(store: Store, path: str | os.PathLike, *, now: datetime,
     summary = {"file": name, "status": "ingested", "file_key": key, "source": source,
                "runs": run_info, "profiles": len(rows), "sites": len(site_ids),
                "skipped": skipped}
-    log.info("%s: %d runs read, %d profiles for %d sites extracted", name, len(runs),
-             len(rows), len(site_ids))
+    log.info("%s: extracted %d profiles for %d sites", name, len(rows), len(site_ids))
     _store(store, key, rows, summary, now)
     log.info("%s: stored", name)
     if evaluate and site_ids:
         summary["alerts"] = evaluate_sites(store, site_ids, now, members=members,
                                            cap_status=cap_status)
+        log.info("%s: alerts evaluated (%s)", name, summary["alerts"])
     return summary
 
 
@@ -299,12 +300,17 @@ def evaluate_sites(store: Store, site_ids: Iterable[int], now: datetime, *,
     from ptype.roads.alerts import service
     members = service.ALERT_MEMBERS if members is None else members
     candidates = {}
+    counts: dict[str, int] = {}
     with store.read() as s:
         for site_id in site_ids:
             site = s.get(Site, site_id)
-            if site is not None:
+            if site is None:
+                continue
+            try:
                 candidates[site_id] = service.site_candidates(s, site, now, members=members)
-    counts: dict[str, int] = {}
+            except (ProfileError, OptionError) as exc:  # the profiles stay stored
+                log.warning("site %s: alerts not evaluated: %s", site_id, exc)
+                counts["not_evaluated"] = counts.get("not_evaluated", 0) + 1
     with store.write() as s:
         for site_id, cands in candidates.items():
             site = s.get(Site, site_id)

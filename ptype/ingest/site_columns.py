@@ -49,6 +49,9 @@ STANDARD_LAPSE_K_M = 0.0065
 KELVIN = 273.15
 #: Decimal places kept in the stored documents (finer than any model field's precision).
 DECIMALS = 2
+#: Model levels closer than this to the site's ground pressure are left out, hPa (our
+#: choice: the screen-level air stands for them).
+SURFACE_GAP_HPA = 0.5
 
 
 @dataclasses.dataclass(frozen=True)
@@ -215,8 +218,10 @@ def column_documents(c: Columns, surface: dict[str, np.ndarray]) -> list[dict | 
     """One profile document (levels and surface) per column (step 4 of the module notes);
     None for a column with fewer than three levels above its ground."""
     p = c.pressure_hpa
-    keep = (np.isfinite(c.temperature_c) & (p[None, :] < surface["p_site"][:, None])
-            & (p[None, :] < surface["p_model"][:, None]))
+    # A level within SURFACE_GAP_HPA of the new ground is replaced by the screen-level air
+    # (the two would be one level once rounded).
+    p_ground = np.minimum(np.round(surface["p_site"], DECIMALS), surface["p_model"])
+    keep = np.isfinite(c.temperature_c) & (p[None, :] < p_ground[:, None] - SURFACE_GAP_HPA)
     if c.height_m is not None:
         keep &= ~(c.height_m <= surface["z_site"][:, None] + 1.0)
     t, td = _round(c.temperature_c), _round(c.dewpoint_c)
