@@ -293,28 +293,79 @@ def ingest_file(store: Store, path: str | os.PathLike, *, now: datetime,
     return summary
 
 
+#: Environment variable: processes that build the sites' timelines (default: the cores, at
+#: most 4; 1 builds them in this process).
+WORKERS_ENV = "PTYPE_INGEST_WORKERS"
+#: Fewer sites than this are evaluated in this process (starting workers costs more).
+MIN_SITES_PER_WORKER = 50
+
+
+def _workers(n_sites: int) -> int:
+    wanted = os.environ.get(WORKERS_ENV)
+    n = int(wanted) if wanted and wanted.isdigit() else min(os.cpu_count() or 1, 4)
+    return max(1, min(n, n_sites // MIN_SITES_PER_WORKER))
+
+
+def _candidates(url: str | Store, site_ids: Sequence[int], now: datetime,
+                members: int) -> dict[int, Any]:
+    """Alert candidates of the sites (read-only: their timelines); a site whose profiles
+    cannot be used gets its error message instead."""
+    from ptype.roads.alerts import service
+    store = Store(url, migrate=False) if isinstance(url, str) else url
+    out: dict[int, Any] = {}
+    try:
+        with store.read() as s:
+            for site_id in site_ids:
+                site = s.get(Site, site_id)
+                if site is None:
+                    continue
+                try:
+                    out[site_id] = service.site_candidates(s, site, now, members=members)
+                except (ProfileError, OptionError) as exc:  # the profiles stay stored
+                    out[site_id] = str(exc)
+    finally:
+        if isinstance(url, str):
+            store.dispose()
+    return out
+
+
+def _all_candidates(store: Store, site_ids: list[int], now: datetime,
+                    members: int) -> dict[int, Any]:
+    """Candidates of every site, the sites shared among worker processes (each builds whole
+    timelines, so every site's result is the one its own timeline gives)."""
+    workers = _workers(len(site_ids))
+    if workers == 1:
+        return _candidates(store, site_ids, now, members)
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+    chunks = [site_ids[k::workers] for k in range(workers)]
+    # fork: the workers inherit the compiled kernels; each opens its own connections.
+    with ProcessPoolExecutor(workers, mp_context=multiprocessing.get_context("fork")) as pool:
+        parts = pool.map(_candidates, [store.url] * workers, chunks, [now] * workers,
+                         [members] * workers)
+        out: dict[int, Any] = {}
+        for part in parts:
+            out.update(part)
+    return out
+
+
 def evaluate_sites(store: Store, site_ids: Iterable[int], now: datetime, *,
                    members: int | None = None, cap_status: str | None = None) -> dict:
-    """Re-evaluate the alerts of the sites: timelines read outside the write lock, the
-    decisions in one write transaction; counts of the actions taken."""
+    """Re-evaluate the alerts of the sites: timelines read outside the write lock (in
+    worker processes when there are many sites, :data:`WORKERS_ENV`), the decisions in one
+    write transaction; counts of the actions taken."""
     from ptype.roads.alerts import service
     members = service.ALERT_MEMBERS if members is None else members
-    candidates = {}
+    candidates = _all_candidates(store, list(site_ids), now, members)
     counts: dict[str, int] = {}
-    with store.read() as s:
-        for site_id in site_ids:
-            site = s.get(Site, site_id)
-            if site is None:
-                continue
-            try:
-                candidates[site_id] = service.site_candidates(s, site, now, members=members)
-            except (ProfileError, OptionError) as exc:  # the profiles stay stored
-                log.warning("site %s: alerts not evaluated: %s", site_id, exc)
-                counts["not_evaluated"] = counts.get("not_evaluated", 0) + 1
     with store.write() as s:
         for site_id, cands in candidates.items():
             site = s.get(Site, site_id)
             if site is None:
+                continue
+            if isinstance(cands, str):
+                log.warning("site %s: alerts not evaluated: %s", site_id, cands)
+                counts["not_evaluated"] = counts.get("not_evaluated", 0) + 1
                 continue
             for act in service.apply_candidates(s, site, cands, now, cap_status=cap_status):
                 counts[act["action"]] = counts.get(act["action"], 0) + 1

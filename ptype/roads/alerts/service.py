@@ -64,12 +64,28 @@ def observation_dict(o: Observation) -> dict:
             "wind_speed_m_s": o.wind_speed_m_s, "present_weather": o.present_weather}
 
 
+def covering(records: Sequence[ProfileRecord], start: datetime,
+             end: datetime) -> list[ProfileRecord]:
+    """The records (sorted by valid time) a timeline from ``start`` to ``end`` reads: those
+    inside, and the last one before and the first one after (interpolation brackets)."""
+    times = [r.valid_time for r in records]
+    lo = max((i for i, t in enumerate(times) if t <= start), default=0)
+    hi = min((i for i, t in enumerate(times) if t >= end), default=len(times) - 1)
+    return list(records[lo:hi + 1])
+
+
 def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
                   step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
-                  adjustments: Iterable[str] | None = None) -> dict[str, Any]:
-    """The site's timeline from its latest issue of profiles and its recent observations."""
+                  adjustments: Iterable[str] | None = None,
+                  covering_only: bool = False) -> dict[str, Any]:
+    """The site's timeline from its latest issue of profiles and its recent observations.
+
+    ``covering_only`` reads only the profiles the time window needs (:func:`covering`; the
+    steps are the same, ``issued_profiles`` lists only those): for alerts, on long runs."""
     from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
     records = latest_issue(session, site.id)
+    if covering_only and records:
+        records = covering(records, now, now + timedelta(hours=hours))
     base = {"site": site_summary(site)}
     if not records:
         from ptype.constants import CAUTION
@@ -115,7 +131,7 @@ def site_candidates(session: Session, site: Site, now: datetime, *,
     None when no forecast covers now: active alerts are then neither updated nor cancelled
     (they still expire), because "the hazard left the forecast" cannot be told from "there is
     no forecast"."""
-    timeline = site_timeline(session, site, now, members=members)
+    timeline = site_timeline(session, site, now, members=members, covering_only=True)
     if not timeline.get("steps"):
         return None  # no forecast covers now: nothing can be said about the hazards
     return evaluate_rules(timeline, now, site.name, site.thresholds)
