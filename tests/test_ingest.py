@@ -29,6 +29,7 @@ from ptype.ingest import pipeline as ingest
 from ptype.ingest import site_columns
 from ptype.ingest.inbox import Inbox
 from ptype.roads.alerts import service
+from ptype.roads.nowcast import build_timeline
 from ptype.store import IngestedFile, ProfileRecord, Site, Store
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -336,3 +337,46 @@ def test_api_ingest_refusals(api, tmp_path):
     assert r.status_code == 422 and "message 1" in r.json["error"]["message"]
     r = client.post("/v1/ingest", json={"a": 1}, headers=auth)
     assert r.status_code == 415
+
+
+def test_ensemble_run_gives_site_timelines_with_member_fractions(fields, tmp_path):
+    members = []
+    for k in range(3):
+        m = fields.drop_vars("orog").copy(deep=True)
+        m["ta"] = m["ta"] + (k - 1) * 2.0
+        m["tas"] = m["tas"] + (k - 1) * 2.0
+        members.append(m)
+    ens = xr.concat(members, dim="realization", data_vars="all", coords="minimal",
+                    compat="override")
+    ens = ens.assign_coords(realization=("realization", np.arange(3),
+                                         {"standard_name": "realization"}))
+    ens["orog"] = fields["orog"]
+    path = tmp_path / "ens_06.grib2"
+    grib.write_fields_grib2(ens, path, GRID, REF)
+    store = _store(tmp_path, [(47.1, -33.0, 300.0)])
+    result = ingest.ingest_file(store, path, now=REF, evaluate=False)
+    assert result["profiles"] == 3 * 3
+    with store.read() as s:
+        site = s.get(Site, 1)
+        tl = service.site_timeline(s, site, REF, hours=6, step="1h", members=0,
+                                   adjustments=[])
+        singles = []
+        for k in range(3):
+            rows = s.scalars(sa.select(ProfileRecord).where(
+                ProfileRecord.source == f"model member {k}").order_by(
+                ProfileRecord.valid_time)).all()
+            singles.append(build_timeline([ptype.Profile.from_document(r.document)
+                                           for r in rows], now=REF, hours=6, step="1h",
+                                          members=0, adjustments=[]))
+    assert tl["ensemble"] == {"members": 3, "labels": ["0", "1", "2"]}
+    assert tl["source"] == "model"
+    spread = False
+    for i, st in enumerate(tl["steps"]):
+        types = [one["steps"][i]["ptype"] for one in singles]
+        assert st["member_types"] == types
+        for code in set(types):
+            # Fraction of the members (Wilks 2011, sec. 8.1).
+            assert st["probabilities"][code] == pytest.approx(types.count(code) / 3, abs=1e-3)
+        assert types.count(st["ptype"]) == max(types.count(t) for t in types)
+        spread |= len(set(types)) > 1
+    assert spread  # the cold and warm members disagree at some step: a real test

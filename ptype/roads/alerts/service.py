@@ -84,21 +84,50 @@ def site_timeline(session: Session, site: Site, now: datetime, *, hours: float =
     steps are the same, ``issued_profiles`` lists only those): for alerts, on long runs."""
     from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
     records = latest_issue(session, site.id)
-    if covering_only and records:
-        records = covering(records, now, now + timedelta(hours=hours))
     base = {"site": site_summary(site)}
     if not records:
         from ptype.constants import CAUTION
         return {**base, "now": iso(now), "steps": [], "transitions": [], "totals": {},
                 "caution": CAUTION, "message": "no profiles have been posted for this site"}
-    profiles = [Profile.from_document(r.document) for r in records]
-    out = build_timeline(profiles, now=now, hours=hours, step=step,
-                         observations=recent_observations(session, site.id, now),
-                         adjustments=ADJUSTMENTS if adjustments is None else adjustments,
-                         members=members, seed=seed)
+    groups = ensemble_members(session, records)
+    observations = recent_observations(session, site.id, now)
+    timelines = []
+    for group in groups.values():
+        if covering_only:
+            group = covering(group, now, now + timedelta(hours=hours))
+        profiles = [Profile.from_document(r.document) for r in group]
+        timelines.append(build_timeline(
+            profiles, now=now, hours=hours, step=step, observations=observations,
+            adjustments=ADJUSTMENTS if adjustments is None else adjustments,
+            members=members, seed=seed))
+    if len(timelines) == 1:
+        out = timelines[0]
+        out["source"] = records[0].source
+    else:
+        from ptype.roads.ensemble_timeline import combine_timelines
+        out = combine_timelines(timelines, list(groups), step)
+        out["source"] = records[0].source.rpartition(" member ")[0]
     out["issued_time"] = iso(records[0].issued_time)
-    out["source"] = records[0].source
     return {**base, **out}
+
+
+def ensemble_members(session: Session, records: Sequence[ProfileRecord]
+                     ) -> dict[str, list[ProfileRecord]]:
+    """The latest issue by source: one group, or, when it is an ensemble member (source
+    ``NAME member K``, as the model-run ingest names them), every member of that run."""
+    source = records[0].source
+    base, mark, _ = source.rpartition(" member ")
+    if not mark:
+        return {source: list(records)}
+    rows = session.scalars(
+        sa.select(ProfileRecord).where(ProfileRecord.site_id == records[0].site_id,
+                                       ProfileRecord.issued_time == records[0].issued_time,
+                                       ProfileRecord.source.like(f"{base} member %"))
+        .order_by(ProfileRecord.source, ProfileRecord.valid_time))
+    groups: dict[str, list[ProfileRecord]] = {}
+    for r in rows:
+        groups.setdefault(r.source.rpartition(" member ")[2], []).append(r)
+    return groups
 
 
 def site_summary(site: Site) -> dict:
