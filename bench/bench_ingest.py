@@ -3,7 +3,8 @@
 The run is an invented GRIB2 file on a 0.25 degree regular latitude/longitude grid over a
 European-sized box (30-72 N, 25 W-45 E: 169 x 281 points), 49 hourly steps (0-48 h),
 13 pressure levels with temperature, relative humidity and geopotential height, and surface
-pressure, 2 m temperature and dew point per step and the orography once: 2,059 messages
+pressure, 2 m temperature and dew point and precipitation rate per step and the orography
+once: 2,108 messages
 encoded by ecCodes with 16-bit simple packing (about 200 MB).  The atmosphere is analytic
 and invented: a warm nose aloft south of a front that moves north through the run, a moist
 band along the front, mountains.  2,000 sites are spread at random over the box (seeded),
@@ -32,7 +33,7 @@ import re
 import subprocess
 import sys
 import time
-from datetime import UTC, datetime, timedelta
+from datetime import UTC, datetime
 from pathlib import Path
 
 import numpy as np
@@ -54,24 +55,29 @@ def std_height_m(p_hpa):
 
 
 def step_fields(lat2, lon2, orog, hour):
-    """The invented atmosphere at one step: level fields (L, ny, nx) and surface fields."""
+    """The invented atmosphere at one step: level fields (L, ny, nx) and surface fields.
+
+    A front runs west-east and moves north through the run; south of it the air is mild,
+    north of it cold at the ground; along a band north of the front a warm nose aloft
+    (about 1.5 km) rides over the cold air and it precipitates (up to 2 mm/h)."""
     front = 40.0 + 0.35 * hour + 2.0 * np.sin(np.radians(lon2 * 4.0))
-    south = 1.0 / (1.0 + np.exp(-(front - lat2) / 1.2))       # 1 south of the front
-    band = np.exp(-((lat2 - front - 1.5) / 3.0) ** 2)          # moist band along it
-    t_sl = 279.0 - 0.55 * (lat2 - 45.0) + 2.0 * np.sin(2 * np.pi * (hour - 9) / 24.0) \
-        - 5.0 * (1 - south)
+    south = 1.0 / (1.0 + np.exp(-(front - lat2) / 0.8))        # 1 south of the front
+    band = np.exp(-((lat2 - front - 1.5) / 2.0) ** 2)           # the precipitating band
+    t_sl = 274.0 - 0.45 * (lat2 - 45.0) + 1.5 * np.sin(2 * np.pi * (hour - 9) / 24.0) \
+        + 5.0 * south
     t, r, z = [], [], []
     for p in LEVELS_HPA:
         zp = std_height_m(p) + 8.0 * (t_sl - 281.0)
-        nose = 7.0 * south * band * np.exp(-((zp - 1500.0) / 600.0) ** 2)
+        nose = 9.0 * band * (1.0 - 0.5 * south) * np.exp(-((zp - 1600.0) / 700.0) ** 2)
         t.append(t_sl - 0.0065 * zp + nose)
-        r.append(np.clip(55.0 + 42.0 * band * (p >= 500) + 10 * south, 5.0, 100.0))
+        r.append(np.clip(55.0 + 44.0 * band * (p >= 500) + 10 * south, 5.0, 100.0))
         z.append(zp)
     ps = 101325.0 * (1.0 - 0.0065 * orog / 288.15) ** 5.2559
     t2 = t_sl - 0.0065 * orog
-    td2 = t2 - (1.0 + 4.0 * (1 - band))
+    td2 = t2 - (0.5 + 4.0 * (1 - band))
+    rate = 2.0 / 3600.0 * np.where(band > 0.3, band, 0.0)      # kg m-2 s-1
     return {"t": np.array(t), "r": np.array(r), "gh": np.array(z)}, \
-        {"sp": ps, "t2": t2, "td2": td2}
+        {"sp": ps, "t2": t2, "td2": td2, "rate": rate}
 
 
 def make_run(path: Path, ny: int, nx: int, steps: int) -> Path:
@@ -100,6 +106,7 @@ def make_run(path: Path, ny: int, nx: int, steps: int) -> Path:
                                     grib.SURFACE_ABOVE_GROUND, 2.0)
             yield grib.FieldMessage((0, 0, 6), sf["td2"], REFERENCE, h,
                                     grib.SURFACE_ABOVE_GROUND, 2.0)
+            yield grib.FieldMessage((0, 1, 52), sf["rate"], REFERENCE, h, grib.SURFACE_GROUND)
     tmp = path.with_suffix(".tmp")
     grib.write_messages(tmp, messages(), grid, packing="grid_simple", bits=16)
     os.replace(tmp, path)
@@ -200,7 +207,7 @@ def main() -> int:
     ny, nx, steps, sites = (41, 61, 13, 100) if args.quick else (169, 281, 49, 2000)
     sites = args.sites or sites
     t0 = time.perf_counter()
-    path = make_run(bench_dir / f"run_{ny}x{nx}x{steps}.grib2", ny, nx, steps)
+    path = make_run(bench_dir / f"run2_{ny}x{nx}x{steps}.grib2", ny, nx, steps)
     generation = time.perf_counter() - t0
     data_dir = bench_dir / f"ingest-store-{sites}"
     make_store(data_dir, sites, ny, nx)

@@ -20,6 +20,8 @@ d/c/n       parameter (code table 4.2)        surface (code table 4.5)   CF stan
 0/3/5       geopotential height, gpm          1 ground surface           surface_altitude
 0/3/4       geopotential, m2 s-2 (/ g0)       100 or 1                   as 0/3/5
 0/3/0       pressure, Pa                      1 ground surface           surface_air_pressure
+0/1/52      total precipitation rate,         1 ground surface           precipitation_flux
+            kg m-2 s-1
 ==========  ================================  =========================  =================
 
 Other messages are skipped.  Times: the valid time (``validityDate``/``validityTime``) is the
@@ -68,6 +70,7 @@ PARAMETERS = {
     (0, 3, 5): ("gh", "geopotential_height", "m", 1.0),
     (0, 3, 4): ("gh", "geopotential_height", "m", 1.0 / G0),
     (0, 3, 0): ("p", "surface_air_pressure", "Pa", 1.0),
+    (0, 1, 52): ("prate", "precipitation_flux", "kg m-2 s-1", 1.0),
 }
 #: The type product: discipline 0, category 1, parameter 19 (values: code table 4.201).
 TYPE_PARAMETER = (0, 1, 19)
@@ -210,7 +213,7 @@ def _role(msg: _Message) -> str | None:
     if msg.surface == SURFACE_ABOVE_GROUND and abs(msg.level - 2.0) < 1e-6:
         return {"t": "t2m", "td": "td2m"}.get(short)
     if msg.surface == SURFACE_GROUND:
-        return {"gh": "orog", "p": "sp"}.get(short)
+        return {"gh": "orog", "p": "sp", "prate": "prate"}.get(short)
     return None
 
 
@@ -218,7 +221,8 @@ _CF = {"t": ("ta", "air_temperature", "K"), "td": ("tda", "dew_point_temperature
        "r": ("hur", "relative_humidity", "%"), "q": ("hus", "specific_humidity", "kg kg-1"),
        "gh": ("zg", "geopotential_height", "m"), "t2m": ("tas", "air_temperature", "K"),
        "td2m": ("tds", "dew_point_temperature", "K"), "sp": ("ps", "surface_air_pressure", "Pa"),
-       "orog": ("orog", "surface_altitude", "m")}
+       "orog": ("orog", "surface_altitude", "m"),
+       "prate": ("pr", "precipitation_flux", "kg m-2 s-1")}
 
 
 def open_grib_dataset(paths: str | os.PathLike | Sequence) -> xr.Dataset:

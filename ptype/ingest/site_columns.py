@@ -79,6 +79,7 @@ class Columns:
     model_ground_m: np.ndarray | None
     temperature_2m_c: np.ndarray | None
     dewpoint_2m_c: np.ndarray | None
+    precipitation_rate_mm_h: np.ndarray | None = None
 
 
 def _horizontal(ds, fields: GridFields) -> tuple[str, str]:
@@ -149,13 +150,35 @@ def extract_columns(ds, fields: GridFields, w: points.PointWeights,
     ps = col(fields.surface_pressure, False)
     zs = col(fields.surface_altitude, False)
     t2, td2 = col(fields.temperature_2m, False), col(fields.dewpoint_2m, False)
+    flux, to_si = _precipitation_flux(ds, fields)
+    rate = col(flux, False)
     return Columns(
         pressure_hpa=p, temperature_c=t, dewpoint_c=np.minimum(td, t),
         height_m=None if z is None else z * consts["_z_scale"],
         surface_pressure_hpa=None if ps is None else ps * consts["_ps_scale"],
         model_ground_m=None if zs is None else zs * consts["_zs_scale"],
         temperature_2m_c=None if t2 is None else t2 - consts["_t2_offset"],
-        dewpoint_2m_c=None if td2 is None else td2 - consts["_td2_offset"])
+        dewpoint_2m_c=None if td2 is None else td2 - consts["_td2_offset"],
+        # kg m-2 s-1 of water is mm s-1: x 3600 for mm/h.
+        precipitation_rate_mm_h=None if rate is None
+        else np.clip(rate * to_si * 3600.0, 0.0, 500.0))
+
+
+#: Units of a precipitation flux understood, as the factor to kg m-2 s-1.
+PRECIPITATION_FLUX_UNITS = {"kg m-2 s-1": 1.0, "kg m**-2 s**-1": 1.0, "mm s-1": 1.0,
+                            "mm/s": 1.0, "mm h-1": 1.0 / 3600.0, "mm/h": 1.0 / 3600.0}
+
+
+def _precipitation_flux(ds, fields: GridFields) -> tuple[str | None, float]:
+    """The surface precipitation rate (CF ``precipitation_flux``) on the temperature's
+    horizontal grid and its factor to kg m-2 s-1, when the run has one in units understood."""
+    dims = set(ds[fields.temperature].dims) - {fields.level_dim}
+    for name, var in ds.data_vars.items():
+        units = str(var.attrs.get("units", "")).strip()
+        if (var.attrs.get("standard_name") == "precipitation_flux" and set(var.dims) <= dims
+                and units in PRECIPITATION_FLUX_UNITS):
+            return str(name), PRECIPITATION_FLUX_UNITS[units]
+    return None, 1.0
 
 
 def _lowest_valid(values: np.ndarray, p: np.ndarray, psfc: np.ndarray) -> np.ndarray:
@@ -228,6 +251,7 @@ def column_documents(c: Columns, surface: dict[str, np.ndarray]) -> list[dict | 
     z = _round(c.height_m)
     ps, zs = _round(surface["p_site"]), _round(surface["z_site"])
     ts, tds = _round(surface["t_site"]), _round(surface["td_site"])
+    rate = _round(c.precipitation_rate_mm_h)
     p_list = p.tolist()
     order = np.argsort(-p).tolist()
     docs: list[dict | None] = []
@@ -248,8 +272,10 @@ def column_documents(c: Columns, surface: dict[str, np.ndarray]) -> list[dict | 
         if len(levels) < 3:
             docs.append(None)
             continue
-        docs.append({"levels": levels, "surface": {
-            "temperature_2m_c": ts[k], "dewpoint_2m_c": tds[k], "pressure_hpa": ps[k]}})
+        sfc = {"temperature_2m_c": ts[k], "dewpoint_2m_c": tds[k], "pressure_hpa": ps[k]}
+        if rate is not None and rate[k] == rate[k]:
+            sfc["precipitation_rate_mm_h"] = rate[k]
+        docs.append({"levels": levels, "surface": sfc})
     return docs
 
 
