@@ -182,3 +182,39 @@ def test_grib_without_temperature_is_an_error(fields, tmp_path):
     grib.write_messages(path, msgs, GRID)
     with pytest.raises(ReaderError, match="no temperature on pressure levels"):
         grib.open_grib_dataset(path)
+
+
+def lambert_template(nx: int, ny: int) -> bytes:
+    """A GRIB2 message on a Lambert conformal grid (grid definition template 3.30), built by
+    ecCodes from its GRIB2 sample: the grid of the fields below (invented, 20 km)."""
+    h = eccodes.codes_grib_new_from_samples("GRIB2")
+    try:
+        eccodes.codes_set(h, "gridDefinitionTemplateNumber", 30)
+        for key, value in (("Nx", nx), ("Ny", ny), ("latitudeOfFirstGridPointInDegrees", 45.0),
+                           ("longitudeOfFirstGridPointInDegrees", 326.0),
+                           ("LaDInDegrees", 46.0), ("LoVInDegrees", 328.0),
+                           ("Latin1InDegrees", 46.0), ("Latin2InDegrees", 46.0),
+                           ("DxInMetres", 20000), ("DyInMetres", 20000),
+                           ("iScansNegatively", 0), ("jScansPositively", 1),
+                           ("latitudeOfSouthernPoleInDegrees", -90),
+                           ("longitudeOfSouthernPoleInDegrees", 0)):
+            eccodes.codes_set(h, key, value)
+        eccodes.codes_set_values(h, np.zeros(nx * ny))
+        return eccodes.codes_get_message(h)
+    finally:
+        eccodes.codes_release(h)
+
+
+def test_grib_on_a_lambert_grid_equals_cf_netcdf(files, fields, tmp_path):
+    path = tmp_path / "lambert.grib2"
+    grib.write_fields_grib2(fields, path, lambert_template(16, 12), REFERENCE)
+    ds = grib.open_grib_dataset(path)
+    assert ds["ta"].dims == ("time", "plev", "y", "x")
+    assert ds["latitude"].dims == ("y", "x")
+    # The first grid point is where the template puts it; latitudes grow northward (rows
+    # scan south to north, jScansPositively = 1).
+    assert float(ds["latitude"][0, 0]) == pytest.approx(45.0, abs=1e-6)
+    assert float(ds["latitude"][-1, 0]) > float(ds["latitude"][0, 0])
+    a = grid.diagnose_dataset(grid.open_grid(str(path))).compute()["precipitation_type"]
+    b = grid.diagnose_dataset(grid.open_grid(files["nc"])).compute()["precipitation_type"]
+    np.testing.assert_array_equal(a.values, b.values)

@@ -380,3 +380,40 @@ def test_ensemble_run_gives_site_timelines_with_member_fractions(fields, tmp_pat
         assert types.count(st["ptype"]) == max(types.count(t) for t in types)
         spread |= len(set(types)) > 1
     assert spread  # the cold and warm members disagree at some step: a real test
+
+
+def test_ingest_on_a_lambert_grid_takes_the_column_at_a_grid_point(fields, tmp_path):
+    from test_grib import lambert_template
+    path = tmp_path / "lambert.grib2"
+    grib.write_fields_grib2(fields, path, lambert_template(16, 12), REF)
+    ds = grib.open_grib_dataset(path)
+    j, i = 6, 9
+    lat, lon = float(ds["latitude"][j, i]), float(ds["longitude"][j, i])
+    orog = float(fields["orog"].values[j, i])
+    store = _store(tmp_path, [(lat, lon, orog), (lat + 0.05, lon + 0.07, None)])
+    assert ingest.ingest_file(store, path, now=REF, evaluate=False)["profiles"] == 6
+    with store.read() as s:
+        doc = s.scalars(sa.select(ProfileRecord).where(ProfileRecord.site_id == 1,
+                                                       ProfileRecord.valid_time == REF)).one()
+        doc = doc.document
+    by_p = {lv["pressure_hpa"]: lv["temperature_c"] for lv in doc["levels"][1:]}
+    t_model = fields["ta"].values[0, :, j, i] - 273.15
+    checked = 0
+    for p, t in zip(fields["plev"].values, t_model):
+        if p in by_p:
+            assert by_p[p] == pytest.approx(t, abs=0.006)
+            checked += 1
+    assert checked >= 10
+
+
+def test_ingest_command_bad_file_is_one_line(tmp_path, capsys, monkeypatch):
+    _store(tmp_path, [(46.6, -32.3, 250.0)]).dispose()
+    monkeypatch.setenv("PTYPE_DATA_DIR", str(tmp_path))
+    monkeypatch.delenv("PTYPE_DATABASE_URL", raising=False)
+    bad = tmp_path / "cut.grib2"
+    bad.write_bytes(b"GRIB\0\0\0\x02" + b"\0" * 30)
+    assert main(["ingest", str(bad)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "cut.grib2" in err and "Traceback" not in err
+    assert main(["ingest", str(tmp_path / "missing.grib2")]) == 2
+    assert "missing.grib2" in capsys.readouterr().err

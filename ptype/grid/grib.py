@@ -543,13 +543,14 @@ def _cf_fields(ds, fields) -> list[tuple[str, tuple[int, int, int], int]]:
     return out
 
 
-def write_fields_grib2(ds: xr.Dataset, path: str | os.PathLike, grid: RegularGrid,
+def write_fields_grib2(ds: xr.Dataset, path: str | os.PathLike, grid: RegularGrid | bytes,
                        reference: datetime, *, packing: str = "grid_ieee",
                        bits: int = 16) -> int:
     """Encode the model fields of a CF dataset (as :func:`ptype.grid.find_fields` finds them,
-    in SI units: K, %, kg kg-1, m, Pa) as GRIB2 on a regular lat/lon ``grid`` whose rows are
-    the dataset's first horizontal dimension; steps are hours after ``reference``; a
-    ``realization`` dimension becomes perturbation numbers.  Returns the message count."""
+    in SI units: K, %, kg kg-1, m, Pa) as GRIB2 on a regular lat/lon ``grid``, or on the
+    grid of a template message (bytes), whose rows are the dataset's first horizontal
+    dimension; steps are hours after ``reference``; a ``realization`` dimension becomes
+    perturbation numbers.  Returns the message count."""
     from ptype.grid.fields import find_fields
     fields = find_fields(ds)
     member_dim = "realization" if "realization" in ds.dims else None
