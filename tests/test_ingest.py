@@ -6,6 +6,7 @@ Every model file is written by the real encoders (ecCodes, netCDF4) from invente
 from __future__ import annotations
 
 import importlib.util
+import json
 import os
 import signal
 import subprocess
@@ -220,17 +221,37 @@ def _ptype(args, data_dir, **env):
 
 
 def test_grib2_to_cap_alerts_in_two_commands(run_file, tmp_path):
-    store = _store(tmp_path, [(47.4, -33.2, 1380.0), (46.6, -32.3, 250.0)])
-    store.dispose()
+    sites = tmp_path / "sites.json"
+    sites.write_text(json.dumps({"sites": [
+        {"id": "korrim-pass", "name": "Korrim Pass", "latitude": 47.4, "longitude": -33.2,
+         "elevation_m": 1380.0, "description": "invented"},
+        {"id": "mistleby-bridge", "name": "Mistleby Bridge", "latitude": 46.6,
+         "longitude": -32.3, "elevation_m": 250.0}]}))
     env = {"PTYPE_NOW": REF.isoformat()}
-    r = _ptype(["ingest", str(run_file)], tmp_path, **env)
+    r = _ptype(["ingest", str(run_file), "--sites", str(sites)], tmp_path, **env)
     out, err = r.communicate(timeout=300)
     assert r.returncode == 0, err
-    assert "6 profiles for 2 sites" in out and "Guidance only" in out
+    assert "2 sites added" in out and "6 profiles for 2 sites" in out
+    assert "Guidance only" in out
     r = _ptype(["alerts", "--format", "cap"], tmp_path, **env)
     out, err = r.communicate(timeout=300)
     assert r.returncode == 0, err
     assert "urn:oasis:names:tc:emergency:cap:1.2" in out
+
+
+def test_sites_file_errors_name_the_field(tmp_path):
+    from ptype.ingest.sites_file import load_sites
+    store = _store(tmp_path, [])
+    bad = tmp_path / "sites.json"
+    bad.write_text(json.dumps({"sites": [{"id": "a", "name": "A", "latitude": 95.0,
+                                          "longitude": 1.0}]}))
+    with pytest.raises(ReaderError, match=r"sites\[0\]\.latitude = 95.0: expected a number"):
+        load_sites(store, bad, REF)
+    good = tmp_path / "good.json"
+    good.write_text(json.dumps({"sites": [{"id": "a", "name": "A", "latitude": 45.0,
+                                           "longitude": 1.0}]}))
+    assert load_sites(store, good, REF) == {"added": 1, "updated": 0}
+    assert load_sites(store, good, REF) == {"added": 0, "updated": 1}
 
 
 def test_crash_mid_ingest_leaves_no_partial_run(run_file, tmp_path):

@@ -18,8 +18,13 @@ def register(sub: argparse._SubParsersAction) -> None:
                     "reference time, one per valid time); then the sites' alerts are "
                     "evaluated.  A file already ingested is skipped; a newer run supersedes "
                     "an older one.  See docs/operations.md.",
-        epilog="Example: ptype ingest run_2031011406.grib2 && ptype alerts --format cap")
+        epilog="Example: ptype ingest run_2031011406.grib2 --sites my_sites.json && "
+               "ptype alerts --format cap")
     p.add_argument("files", nargs="+", metavar="FILE", help="GRIB2 or CF NetCDF model run(s)")
+    p.add_argument("--sites", default=None, metavar="SITES.json",
+                   help="first add or update the road sites of this file ({\"sites\": "
+                        "[{\"id\", \"name\", \"latitude\", \"longitude\", "
+                        "\"elevation_m\", \"thresholds\"}]}, as soundings_demo/sites.json)")
     p.add_argument("--source", default=None, metavar="NAME",
                    help="source name of the stored profiles (default: model)")
     p.add_argument("--no-alerts", action="store_true",
@@ -44,6 +49,11 @@ def run(args: argparse.Namespace) -> int:
         if not os.path.isfile(path):
             raise FileNotFoundError(2, "No such file or directory", path)
     store = open_store()
+    if args.sites:
+        from ptype.ingest.sites_file import load_sites
+        counts = load_sites(store, args.sites, utcnow())
+        if args.format == "text":
+            print(f"{args.sites}: {counts['added']} sites added, {counts['updated']} updated")
     results = []
     for path in args.files:
         results.append(ingest_file(store, path, now=utcnow(), source=args.source or

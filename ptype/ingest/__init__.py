@@ -7,6 +7,7 @@ Modules::
                    as profile documents (pure arrays)
     pipeline       ingest_file: claim -> read -> extract -> store (one transaction) -> alerts
     inbox          Inbox: a polled folder whose complete files are ingested once
+    sites_file     road sites from a JSON file (``ptype ingest --sites``)
 """
 
 from __future__ import annotations
