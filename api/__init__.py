@@ -26,7 +26,7 @@ from flask import Flask
 #: Blueprint modules, registered in this order, which is also the order of the operations
 #: in the OpenAPI document.  Each exposes ``bp`` and may expose ``init_app(app)``.
 BLUEPRINT_MODULES = ["ptype.api.diagnose", "ptype.api.diagram", "ptype.api.demo",
-                     "ptype.api.health", "ptype.api.verify", "ptype.api.sites",
+                     "ptype.api.health", "ptype.api.verify", "ptype.api.sites", "ptype.api.ingest",
                      "ptype.api.alerts", "ptype.api.page", "ptype.api.docs",
                      "ptype.api.sites_page"]
 
@@ -43,6 +43,8 @@ DEFAULT_CONFIG: dict[str, Any] = {
     # bounds the time and memory one request can take (about 3 s and 1 GB at this limit on
     # a 2-core machine; 60 levels x 50 members is 3000).
     "PTYPE_MAX_MEMBER_LEVELS": 1_000_000,
+    # Largest model file accepted by POST /v1/ingest, bytes.
+    "PTYPE_MAX_INGEST_BYTES": 1 << 30,
     # Largest number of cases in one verification request.
     "PTYPE_MAX_VERIFY_CASES": 500,
     # Largest cases x members product in one verification request (bounds its work).

@@ -369,6 +369,23 @@ class IngestResult(ResponseModel):
                                          description="Alerts created, updated or cancelled.")
 
 
+class IngestFileResult(ResponseModel):
+    """What ``POST /v1/ingest`` did with one model file."""
+
+    file: str
+    status: str = Field(description="ingested, already ingested, already rejected or busy.")
+    file_key: str = Field(description="SHA-256 of the file's content.")
+    source: str | None = None
+    runs: list[dict[str, Any]] = Field(default_factory=list,
+                                       description="Each run: reference time, steps, profiles.")
+    profiles: int = 0
+    sites: int = 0
+    skipped: list[dict[str, Any]] = Field(default_factory=list,
+                                          description="Sites outside the model grid.")
+    alerts: dict[str, int] = Field(default_factory=dict,
+                                   description="Alert actions taken, by kind.")
+
+
 class TimelineStep(ResponseModel):
     valid_time: str
     ptype: str

@@ -163,6 +163,8 @@ def check_levels(document: Any, field_prefix: str = "") -> None:
 
 #: Content types of a single profile in text, mapped to the reader format (None = detect).
 TEXT_FORMATS = {"text/csv": "csv", "text/plain": None}
+#: Media types of a WMO BUFR body (the ``x-`` form is the common one; both accepted).
+BUFR_TYPES = ("application/x-bufr", "application/bufr")
 
 media_type = inputs.media_type
 is_json_request = inputs.is_json_request
@@ -235,6 +237,19 @@ def _profile_text(options: DiagnoseOptions, kind: str) -> dict:
     return document
 
 
+def _profile_bufr() -> dict:
+    """The profile document of a WMO BUFR body (exactly one report)."""
+    from ptype.readers import bufr_format
+    raw = request.get_data(cache=True)
+    if not raw:
+        raise ApiError(400, "empty_body", "request body is empty; expected a BUFR message")
+    documents = bufr_format.read_bufr_documents(raw, "request body")
+    if len(documents) != 1:
+        raise ReaderError(f"request body: holds {len(documents)} radiosonde reports; send one "
+                          "per request")
+    return documents[0]
+
+
 def profile_from_request(options: DiagnoseOptions) -> ptype.Profile:
     """Read the single profile of the request body (JSON document, CSV or WMO TEMP text)."""
     kind = media_type()
@@ -245,11 +260,14 @@ def profile_from_request(options: DiagnoseOptions) -> ptype.Profile:
                                                    f"document), got {json_kind(document)}")
     elif kind in TEXT_FORMATS:
         document = _profile_text(options, kind)
+    elif kind in BUFR_TYPES:
+        document = _profile_bufr()
     else:
         shown = kind or "none"
         raise ApiError(415, "unsupported_media_type",
                        f"Content-Type {shown!r} is not accepted; send application/json (profile "
-                       "document), text/csv or text/plain (WMO TEMP or CSV)")
+                       "document), text/csv, text/plain (WMO TEMP or CSV) or application/x-bufr "
+                       "(WMO BUFR radiosonde report)")
     check_levels(document)
     return ptype.Profile.from_document(document)
 

@@ -120,3 +120,25 @@ def test_page_upload_csv_file(server, browser, tmp_path):
                            timeout=30000)
     # Snow: no layer above 0 degC anywhere (common practice; Bourgouin 2000).
     assert page.inner_text("#verdict-code") == "SN"
+
+
+def test_page_upload_bufr_file(server, browser, tmp_path):
+    from datetime import datetime
+
+    pytest.importorskip("eccodes")
+    from bufr_support import encode_temp_bufr
+    doc = snow_document()
+    path = tmp_path / "ascent.bufr"
+    path.write_bytes(encode_temp_bufr([{
+        "station": "99914", "launch": datetime(2031, 1, 14, 6), "latitude": 47.3,
+        "longitude": -33.4, "elevation_m": 100.0, "levels": doc["levels"]}]))
+    page = browser.new_page()
+    page.goto(server + "/")
+    page.set_input_files("#profile-file", str(path))
+    page.wait_for_function("() => document.getElementById('profile-text').value.includes("
+                           "'WMO BUFR')")
+    page.click("#diagnose-button")
+    page.wait_for_function("() => document.getElementById('verdict-code').textContent.length > 0",
+                           timeout=30000)
+    # Snow: no layer above 0 degC anywhere (common practice; Bourgouin 2000).
+    assert page.inner_text("#verdict-code") == "SN"

@@ -86,6 +86,7 @@
     setStatus("Loading " + name + "…");
     const response = await fetch("/v1/demo/" + encodeURIComponent(name));
     if (!response.ok) { showError(await errorMessage(response)); setStatus(""); return; }
+    binaryBody = null;
     $("profile-text").value = await response.text();
     await diagnose();
   }
@@ -99,6 +100,21 @@
     });
   }
 
+  // A binary upload (WMO BUFR) is kept as bytes and sent as they are; the text box only
+  // shows a note about it until the user types there.
+  let binaryBody = null;
+
+  async function readUpload(file) {
+    const head = new Uint8Array(await file.slice(0, 200).arrayBuffer());
+    const marker = String.fromCharCode.apply(null, head);
+    if (marker.indexOf("BUFR") >= 0) {
+      binaryBody = { text: await file.arrayBuffer(), type: "application/x-bufr" };
+      return "WMO BUFR file " + file.name + " (" + file.size + " bytes): sent as it is.";
+    }
+    binaryBody = null;
+    return readFile(file);
+  }
+
   async function diagnose() {
     const text = $("profile-text").value;
     if (!text.trim()) {
@@ -109,7 +125,7 @@
     showError("");
     setStatus("Diagnosing…");
     $("diagnose-button").disabled = true;
-    const body = { text: text, type: contentType(text) };
+    const body = binaryBody || { text: text, type: contentType(text) };
     runSeed = Math.floor(Math.random() * 2147483647);
     try {
       const response = await fetch("/v1/diagnose?" + query(), {
@@ -237,12 +253,13 @@
       const file = ev.target.files[0];
       if (!file) return;
       try {
-        $("profile-text").value = await readFile(file);
+        $("profile-text").value = await readUpload(file);
         setStatus("Read " + file.name + ".");
       } catch (e) {
         showError("Could not read the file: " + e.message);
       }
     });
+    $("profile-text").addEventListener("input", () => { binaryBody = null; });
     $("sounding-form").addEventListener("submit", (ev) => { ev.preventDefault(); diagnose(); });
   });
 })();

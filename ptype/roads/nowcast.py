@@ -106,10 +106,30 @@ def _seconds(times: Sequence[datetime]) -> np.ndarray:
     return np.array([t.timestamp() for t in times], dtype=np.float64)
 
 
+def _on_common_levels(profiles: Sequence[Profile]) -> bool:
+    """True when the profiles share their levels above the lowest one (model output on
+    pressure levels, whose lowest level is the surface, moving with the surface pressure)."""
+    aloft = [pr.pressure_hpa[1:] for pr in profiles]
+    longest = max(a.size for a in aloft)
+    return np.unique(np.round(np.concatenate(aloft), 3)).size <= longest
+
+
 def _common_grid(profiles: Sequence[Profile]) -> np.ndarray:
-    """Terrain-following levels s = ln(p/p_sfc) (0 at the ground, negative upward) shared by all."""
+    """Terrain-following levels s = ln(p/p_sfc) (0 at the ground, negative upward) shared by all.
+
+    Profiles on common pressure levels (model runs) keep their own levels: the grid is the
+    s-levels of the one with the most levels.  Their union would hold a copy of every level
+    per valid time (the surface pressure moves, so s moves) and be resampled to
+    :data:`MAX_GRID_LEVELS`, ten times the work for no information (measured,
+    bench/bench_ingest.py).  Other series use the union of their levels."""
     s_each = [np.log(pr.pressure_hpa / pr.pressure_hpa[0]) for pr in profiles]
     s_top = max(float(s.min()) for s in s_each)  # the lowest of the tops: all cover it
+    if len(profiles) > 1 and _on_common_levels(profiles):
+        own = np.unique(np.round(max(s_each, key=len), 6))
+        own = own[(own >= s_top - 1e-9) & (own <= 0.0)]
+        if s_top < own.min() - 1e-9 or own.size < 2:
+            own = np.unique(np.append(own, s_top))
+        return np.sort(own)[::-1]
     grid = np.unique(np.round(np.concatenate(s_each), 6))
     grid = grid[(grid >= s_top - 1e-9) & (grid <= 0.0)]
     if grid.size > MAX_GRID_LEVELS:

@@ -30,13 +30,23 @@ from sqlalchemy import event
 from sqlalchemy.orm import Session, sessionmaker
 
 from ptype.store import migrations
-from ptype.store.models import Alert, AlertMessage, ApiKey, Base, Observation, ProfileRecord, Site
+from ptype.store.models import (
+    Alert,
+    AlertMessage,
+    ApiKey,
+    Base,
+    IngestedFile,
+    Observation,
+    ProfileRecord,
+    Site,
+)
 
 __all__ = [
     "Alert",
     "AlertMessage",
     "ApiKey",
     "Base",
+    "IngestedFile",
     "Observation",
     "ProfileRecord",
     "Site",

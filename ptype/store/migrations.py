@@ -125,10 +125,31 @@ def _v2_owners(conn: Connection) -> None:
     conn.execute(sa.text("CREATE INDEX ix_sites_owner ON sites (owner)"))
 
 
+def _v3_ingested_files(conn: Connection) -> None:
+    """Model-run files taken in by ``ptype ingest``/``watch``/``POST /v1/ingest``: one row per
+    file content (its SHA-256), claimed by one process at a time."""
+    md = sa.MetaData()
+    dt = sa.DateTime
+    sa.Table("ingested_files", md,
+             sa.Column("id", sa.Integer, primary_key=True),
+             sa.Column("file_key", sa.String(64), nullable=False, unique=True),
+             sa.Column("name", sa.String(500), nullable=False),
+             sa.Column("size_bytes", sa.BigInteger, nullable=False),
+             sa.Column("status", sa.String(16), nullable=False),
+             sa.Column("claimed_by", sa.String(200), nullable=False),
+             sa.Column("claimed_at", dt, nullable=False),
+             sa.Column("finished_at", dt, nullable=True),
+             sa.Column("reason", sa.Text, nullable=True),
+             sa.Column("summary", sa.JSON, nullable=True),
+             sa.Index("ix_ingested_files_status", "status"))
+    md.create_all(conn)
+
+
 #: Ordered migrations: (version, name, function(connection)).  Append only.
 MIGRATIONS: list[tuple[int, str, Callable[[Connection], None]]] = [
     (1, "initial schema: keys, sites, profiles, observations, alerts, alert messages", _v1_initial),
     (2, "owners of keys and sites; administrator keys", _v2_owners),
+    (3, "ingested model-run files (ptype ingest, watch)", _v3_ingested_files),
 ]
 
 LATEST_VERSION = MIGRATIONS[-1][0]

@@ -158,3 +158,22 @@ class AlertMessage(Base):
     snapshot: Mapped[dict[str, Any]] = mapped_column(sa.JSON)
 
     alert: Mapped[Alert] = relationship(back_populates="messages")
+
+
+class IngestedFile(Base):
+    """A model-run file taken in (by content: SHA-256), and where its ingest stands.
+
+    ``status``: ``claimed`` (a process works on it; ``claimed_by`` host:pid), ``done``,
+    ``rejected`` (unreadable; ``reason``).  A claim whose process is gone is taken over."""
+
+    __tablename__ = "ingested_files"
+    id: Mapped[int] = mapped_column(primary_key=True)
+    file_key: Mapped[str] = mapped_column(sa.String(64), unique=True)
+    name: Mapped[str] = mapped_column(sa.String(500))
+    size_bytes: Mapped[int] = mapped_column(sa.BigInteger)
+    status: Mapped[str] = mapped_column(sa.String(16))
+    claimed_by: Mapped[str] = mapped_column(sa.String(200))
+    claimed_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    finished_at: Mapped[datetime | None] = mapped_column(UTCDateTime, nullable=True)
+    reason: Mapped[str | None] = mapped_column(sa.Text, nullable=True)
+    summary: Mapped[dict[str, Any] | None] = mapped_column(sa.JSON, nullable=True)

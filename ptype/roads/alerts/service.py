@@ -64,10 +64,24 @@ def observation_dict(o: Observation) -> dict:
             "wind_speed_m_s": o.wind_speed_m_s, "present_weather": o.present_weather}
 
 
+def covering(records: Sequence[ProfileRecord], start: datetime,
+             end: datetime) -> list[ProfileRecord]:
+    """The records (sorted by valid time) a timeline from ``start`` to ``end`` reads: those
+    inside, and the last one before and the first one after (interpolation brackets)."""
+    times = [r.valid_time for r in records]
+    lo = max((i for i, t in enumerate(times) if t <= start), default=0)
+    hi = min((i for i, t in enumerate(times) if t >= end), default=len(times) - 1)
+    return list(records[lo:hi + 1])
+
+
 def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
                   step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
-                  adjustments: Iterable[str] | None = None) -> dict[str, Any]:
-    """The site's timeline from its latest issue of profiles and its recent observations."""
+                  adjustments: Iterable[str] | None = None,
+                  covering_only: bool = False) -> dict[str, Any]:
+    """The site's timeline from its latest issue of profiles and its recent observations.
+
+    ``covering_only`` reads only the profiles the time window needs (:func:`covering`; the
+    steps are the same, ``issued_profiles`` lists only those): for alerts, on long runs."""
     from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
     records = latest_issue(session, site.id)
     base = {"site": site_summary(site)}
@@ -75,14 +89,45 @@ def site_timeline(session: Session, site: Site, now: datetime, *, hours: float =
         from ptype.constants import CAUTION
         return {**base, "now": iso(now), "steps": [], "transitions": [], "totals": {},
                 "caution": CAUTION, "message": "no profiles have been posted for this site"}
-    profiles = [Profile.from_document(r.document) for r in records]
-    out = build_timeline(profiles, now=now, hours=hours, step=step,
-                         observations=recent_observations(session, site.id, now),
-                         adjustments=ADJUSTMENTS if adjustments is None else adjustments,
-                         members=members, seed=seed)
+    groups = ensemble_members(session, records)
+    observations = recent_observations(session, site.id, now)
+    timelines = []
+    for group in groups.values():
+        if covering_only:
+            group = covering(group, now, now + timedelta(hours=hours))
+        profiles = [Profile.from_document(r.document) for r in group]
+        timelines.append(build_timeline(
+            profiles, now=now, hours=hours, step=step, observations=observations,
+            adjustments=ADJUSTMENTS if adjustments is None else adjustments,
+            members=members, seed=seed))
+    if len(timelines) == 1:
+        out = timelines[0]
+        out["source"] = records[0].source
+    else:
+        from ptype.roads.ensemble_timeline import combine_timelines
+        out = combine_timelines(timelines, list(groups), step)
+        out["source"] = records[0].source.rpartition(" member ")[0]
     out["issued_time"] = iso(records[0].issued_time)
-    out["source"] = records[0].source
     return {**base, **out}
+
+
+def ensemble_members(session: Session, records: Sequence[ProfileRecord]
+                     ) -> dict[str, list[ProfileRecord]]:
+    """The latest issue by source: one group, or, when it is an ensemble member (source
+    ``NAME member K``, as the model-run ingest names them), every member of that run."""
+    source = records[0].source
+    base, mark, _ = source.rpartition(" member ")
+    if not mark:
+        return {source: list(records)}
+    rows = session.scalars(
+        sa.select(ProfileRecord).where(ProfileRecord.site_id == records[0].site_id,
+                                       ProfileRecord.issued_time == records[0].issued_time,
+                                       ProfileRecord.source.like(f"{base} member %"))
+        .order_by(ProfileRecord.source, ProfileRecord.valid_time))
+    groups: dict[str, list[ProfileRecord]] = {}
+    for r in rows:
+        groups.setdefault(r.source.rpartition(" member ")[2], []).append(r)
+    return groups
 
 
 def site_summary(site: Site) -> dict:
@@ -115,7 +160,7 @@ def site_candidates(session: Session, site: Site, now: datetime, *,
     None when no forecast covers now: active alerts are then neither updated nor cancelled
     (they still expire), because "the hazard left the forecast" cannot be told from "there is
     no forecast"."""
-    timeline = site_timeline(session, site, now, members=members)
+    timeline = site_timeline(session, site, now, members=members, covering_only=True)
     if not timeline.get("steps"):
         return None  # no forecast covers now: nothing can be said about the hazards
     return evaluate_rules(timeline, now, site.name, site.thresholds)
