@@ -84,7 +84,7 @@ def alerts_atom() -> Response:
     id="alerts_evaluate", tag="Alerts", auth=True,
     summary="Re-evaluate every site's alerts now",
     description="For a scheduler: re-runs the rules of every site and expires due alerts.",
-    ok=EvaluateResult, errors=(401, 403))
+    ok=EvaluateResult, errors=(401, 403, 429, 503))
 def evaluate() -> Response:
     """Re-run every site's alert rules at the service clock and expire due alerts."""
     require_key()

@@ -40,7 +40,8 @@ bp = Blueprint("diagnose", __name__, url_prefix="/v1")
                 "answer gives the consensus type, its probabilities, each method's result "
                 "with the rule that fired, the layers, a plain-language explanation and "
                 "the caution.",
-    query=DiagnoseOptions, body=PROFILE_BODIES, ok=Diagnosis, errors=(400, 413, 415, 422))
+    query=DiagnoseOptions, body=PROFILE_BODIES, ok=Diagnosis,
+    errors=(400, 413, 415, 422, 503))
 def diagnose() -> Response:
     """Diagnose the one profile of the request body."""
     options = parse_options()
@@ -62,7 +63,7 @@ def diagnose() -> Response:
     query=DiagnoseOptions,
     body={"application/json": {"schema": BatchRequest,
                                "example": {"profiles": [EXAMPLE_DOCUMENT]}}},
-    ok=BatchResponse, errors=(400, 413, 415, 422),
+    ok=BatchResponse, errors=(400, 413, 415, 422, 503),
     curl="curl -s -X POST {url} -H 'Content-Type: application/json' "
          "--data '{\"profiles\": [...]}'")
 def diagnose_batch() -> Response:

@@ -38,7 +38,7 @@ def image_format(options: DiagramOptions) -> str:
     ok={"description": "The diagram.",
         "content": {"image/png": {"schema": {"type": "string", "format": "binary"}},
                     "image/svg+xml": {"schema": {"type": "string"}}}},
-    errors=(400, 413, 415, 422),
+    errors=(400, 413, 415, 422, 503),
     curl="curl -s -X POST '{url}?format=svg' -H 'Content-Type: application/json' "
          "--data @profile.json -o diagram.svg")
 def diagram() -> Response:

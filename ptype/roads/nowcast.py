@@ -58,6 +58,9 @@ CLOUD_BASE_RH_PCT = 90.0
 MELTING_MAX_HOURS = 3.0
 #: Largest number of levels in the common grid (finer inputs are resampled evenly in s).
 MAX_GRID_LEVELS = 200
+#: Member columns x levels diagnosed together in one engine pass: bounds a timeline's memory
+#: (tens of MB per pass) whatever its steps and members (our choice).
+MAX_MEMBER_LEVELS_PER_PASS = 250_000
 
 ADJUSTMENTS = ("observation", "onset", "melting")
 
@@ -299,6 +302,19 @@ def _iso(t: datetime) -> str:
 def _r(x, nd=2):
     x = float(x)
     return None if not math.isfinite(x) else round(x, nd)
+
+
+def timeline_size(profiles: Sequence[Profile], *, now: datetime | None = None,
+                  hours: float = 12.0, step: str | timedelta = "15min") -> tuple[int, int]:
+    """``(steps, levels)`` of the timeline these arguments ask for, without diagnosing
+    anything: its work is ``steps x levels`` per member (a work budget reads it first).
+
+    Raises what :func:`validate_series` and :func:`step_times` raise for bad arguments.
+    """
+    profiles, step_td, _ = validate_series(profiles, hours, step, ())
+    times = [pr.valid_time for pr in profiles]
+    n_steps = len(step_times(times[0], times[-1], now or times[0], hours, step_td))
+    return n_steps, int(_common_grid(profiles).size)
 
 
 def validate_series(profiles: Iterable[Profile], hours: float, step: str | timedelta | float,
@@ -591,7 +607,10 @@ def diagnose_steps(cols: StepColumns, spells: Spells, members: int, seed: int | 
         road_surface_temperature_c=cols.road_surface_temperature_c,
         precipitation_rate_mm_h=cols.precipitation_rate_mm_h,
         wind_speed_m_s=cols.wind_speed_m_s)
-    run = run_columns(columns, members, seed, methods, calibration=calibration)
+    member_levels = members * columns.pressure_hpa.shape[1]
+    per_pass = max(1, MAX_MEMBER_LEVELS_PER_PASS // max(member_levels, 1))
+    run = run_columns(columns, members, seed, methods, calibration=calibration,
+                      batch_columns=per_pass)
     codes_wet = np.asarray(run.codes, dtype=int)
     probs = run.probabilities if members else np.eye(len(Code))[codes_wet]
     dry = spells.known & ~spells.precipitating

@@ -66,8 +66,13 @@ def observation_dict(o: Observation) -> dict:
 
 def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
                   step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
-                  adjustments: Iterable[str] | None = None) -> dict[str, Any]:
-    """The site's timeline from its latest issue of profiles and its recent observations."""
+                  adjustments: Iterable[str] | None = None,
+                  max_member_levels: int | None = None) -> dict[str, Any]:
+    """The site's timeline from its latest issue of profiles and its recent observations.
+
+    With ``max_member_levels``, a timeline whose ``max(members, 1) x steps x levels`` is larger
+    is refused with :class:`ptype.errors.WorkLimitError` before any diagnosis.
+    """
     from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
     records = latest_issue(session, site.id)
     base = {"site": site_summary(site)}
@@ -76,6 +81,8 @@ def site_timeline(session: Session, site: Site, now: datetime, *, hours: float =
         return {**base, "now": iso(now), "steps": [], "transitions": [], "totals": {},
                 "caution": CAUTION, "message": "no profiles have been posted for this site"}
     profiles = [Profile.from_document(r.document) for r in records]
+    if max_member_levels is not None:
+        check_timeline_work(profiles, now, hours, step, members, max_member_levels)
     out = build_timeline(profiles, now=now, hours=hours, step=step,
                          observations=recent_observations(session, site.id, now),
                          adjustments=ADJUSTMENTS if adjustments is None else adjustments,
@@ -83,6 +90,22 @@ def site_timeline(session: Session, site: Site, now: datetime, *, hours: float =
     out["issued_time"] = iso(records[0].issued_time)
     out["source"] = records[0].source
     return {**base, **out}
+
+
+def check_timeline_work(profiles: list[Profile], now: datetime, hours: float, step: str,
+                        members: int, limit: int) -> None:
+    """Refuse (:class:`ptype.errors.WorkLimitError`) a timeline of more than ``limit``
+    member-levels (``max(members, 1) x steps x levels``), before any diagnosis."""
+    from ptype.errors import WorkLimitError
+    from ptype.roads.nowcast import timeline_size
+    n_steps, n_levels = timeline_size(profiles, now=now, hours=hours, step=step)
+    asked = max(members, 1) * n_steps * n_levels
+    if asked > limit:
+        raise WorkLimitError(
+            f"members = {members} x {n_steps} steps x {n_levels} levels = {asked} "
+            f"member-levels; this server computes at most {limit} per timeline (ask for "
+            "fewer members, a longer step or fewer hours)",
+            asked=asked, limit=limit, unit="member-levels", field="members")
 
 
 def site_summary(site: Site) -> dict:
