@@ -322,8 +322,12 @@ _verified_lock = threading.Lock()
 def require_key() -> str:
     """Check the bearer key of a write; returns its key id.
 
-    A missing or unknown key is a 401, a revoked one a 403 (:class:`ApiError`).
+    A missing or unknown key is a 401, a revoked one a 403 (:class:`ApiError`); an address
+    that sent too many wrong keys lately is refused (429) before its key is looked at
+    (:mod:`ptype.api.clients`).
     """
+    from ptype.api import clients
+    clients.refuse_if_blocked()
     header = request.headers.get("Authorization", "")
     scheme, _, token = header.partition(" ")
     if not header:
@@ -343,6 +347,7 @@ def require_key() -> str:
         if key_id is None:
             status, info = keystore.verify_key(s, token)
             if status == "unknown":
+                clients.count_failure()
                 raise ApiError(401, "unauthorized", "the API key is not valid", "Authorization")
             key_id = info.key_id
             if status == "ok":
