@@ -4,11 +4,12 @@
   for a profile, summed over a batch; members x steps x levels for a timeline; cases x
   members for a verification) and a request over its limit is a 422 ``too_much_work``
   whose error names the ``limit``, the ``asked`` amount and their ``unit``.
-* **Slots**: at most ``PTYPE_WORK_SLOTS`` computing requests run at once in one worker
-  process; a request that finds none free within ``PTYPE_SLOT_WAIT_S`` is a 503 ``busy``
-  with ``Retry-After``.  The other requests (``/healthz``, reads, pages) never wait for one,
-  so they keep answering while heavy ones queue.
-* **Time limit**: a computing request runs under :func:`ptype.engine.deadline.time_limit`
+* **Slots**: at most ``PTYPE_WORK_SLOTS`` computations run at once in one worker process
+  (:func:`computing`, around the engine call of a view, after its budget check); a
+  request that finds none free within ``PTYPE_SLOT_WAIT_S`` is a 503 ``busy`` with
+  ``Retry-After``.  Everything else (``/healthz``, reads, pages, a refusal, the write of a
+  write request) never waits for one, so it keeps answering while heavy work queues.
+* **Time limit**: a computation runs under :func:`ptype.engine.deadline.time_limit`
   (``PTYPE_REQUEST_DEADLINE_S``); past it the engine stops between member batches and the
   answer is a 503 ``timeout`` with ``Retry-After``, never a worker killed by the server.
 
@@ -20,10 +21,11 @@ from __future__ import annotations
 
 import os
 import threading
-from contextlib import ExitStack
+from collections.abc import Iterator
+from contextlib import contextmanager
 from typing import Any
 
-from flask import Flask, Response, current_app, g, jsonify, request
+from flask import Flask, Response, current_app, jsonify
 from ptype.api.errors import error_body
 
 from ptype.engine import deadline
@@ -44,18 +46,38 @@ SETTINGS: dict[str, tuple[Any, type, str]] = {
     "PTYPE_RETRY_AFTER_S": (5, int, "Retry-After of a 503 busy or timeout answer, seconds"),
 }
 
-#: Views that run the engine (or evaluate alerts after a write): they take a slot.
-COMPUTING_ENDPOINTS = frozenset({
-    "diagnose.diagnose", "diagnose.diagnose_batch", "diagram.diagram", "verify.verify",
-    "sites.get_timeline", "sites.post_profiles", "sites.post_observations",
-    "alerts.evaluate"})
-
 #: Key of the slot semaphore in ``app.extensions``.
 EXTENSION = "ptype_work_slots"
 
 
 class Busy(Exception):
     """No work slot came free in time."""
+
+
+#: Whether this thread holds a slot already (a computation inside another takes none).
+_holding = threading.local()
+
+
+@contextmanager
+def computing() -> Iterator[None]:
+    """Run the block in a work slot of this process, under the request time limit.
+
+    Raises :class:`Busy` when no slot comes free within ``PTYPE_SLOT_WAIT_S``; the block
+    raises :class:`ptype.errors.DeadlineExceeded` past ``PTYPE_REQUEST_DEADLINE_S``.
+    """
+    if getattr(_holding, "slot", False):
+        yield
+        return
+    slots = current_app.extensions[EXTENSION]
+    if not slots.acquire(timeout=setting("PTYPE_SLOT_WAIT_S")):
+        raise Busy()
+    _holding.slot = True
+    try:
+        with deadline.time_limit(setting("PTYPE_REQUEST_DEADLINE_S")):
+            yield
+    finally:
+        _holding.slot = False
+        slots.release()
 
 
 def setting(name: str, config: Any = None) -> Any:
@@ -85,26 +107,9 @@ def refuse(asked: int, limit: int, unit: str, message: str, field: str | None) -
 
 
 def init_app(app: Flask) -> None:
-    """Register the slots, the time limit and the answers to work refused or cut short."""
+    """Make the slots, and register the answers to work refused or cut short."""
     app.extensions[EXTENSION] = threading.BoundedSemaphore(
         max(1, setting("PTYPE_WORK_SLOTS", app.config)))
-
-    @app.before_request
-    def _take_slot() -> None:
-        if request.endpoint not in COMPUTING_ENDPOINTS:
-            return
-        slots = current_app.extensions[EXTENSION]
-        if not slots.acquire(timeout=setting("PTYPE_SLOT_WAIT_S")):
-            raise Busy()
-        stack = g.ptype_work = ExitStack()
-        stack.callback(slots.release)
-        stack.enter_context(deadline.time_limit(setting("PTYPE_REQUEST_DEADLINE_S")))
-
-    @app.teardown_request
-    def _give_slot_back(_exc: BaseException | None) -> None:
-        stack = g.pop("ptype_work", None)
-        if stack is not None:
-            stack.close()
 
     @app.errorhandler(WorkLimitError)
     def _too_much_work(exc: WorkLimitError) -> tuple[Response, int]:

@@ -10,6 +10,7 @@ from __future__ import annotations
 from typing import Any
 
 from flask import Blueprint, Response, current_app
+from ptype.api import budget
 from ptype.api.errors import ApiError, error_body
 from ptype.api.examples import EXAMPLE_DOCUMENT, PROFILE_BODIES
 from ptype.api.models import BatchRequest, BatchResponse, DiagnoseOptions, Diagnosis
@@ -48,7 +49,8 @@ def diagnose() -> Response:
     kwargs = diagnose_kwargs(options)
     profile = profile_from_request(options)
     check_work(profile.n_levels, kwargs)
-    result = ptype.diagnose(profile, **kwargs)
+    with budget.computing():
+        result = ptype.diagnose(profile, **kwargs)
     return json_response(result.to_dict())
 
 
@@ -80,8 +82,9 @@ def diagnose_batch() -> Response:
         else:
             valid.append((i, item))
     check_work(sum(p.n_levels for _, p in valid), kwargs)
-    for i, diagnosis in zip((i for i, _ in valid),
-                            ptype.diagnose_many([p for _, p in valid], **kwargs)):
+    with budget.computing():
+        diagnoses = ptype.diagnose_many([p for _, p in valid], **kwargs)
+    for (i, _), diagnosis in zip(valid, diagnoses):
         results[i] = diagnosis.to_dict()
     return json_response({"results": results})
 

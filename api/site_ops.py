@@ -15,12 +15,13 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Flask, current_app
+from ptype.api import budget
 from ptype.api.errors import ApiError
 from ptype.api.plumbing import cap_sender, get_store, now, store_for
 from sqlalchemy.orm import Session
 
 from ptype.clock import iso, utcnow
-from ptype.errors import OptionError, ProfileError
+from ptype.errors import DeadlineExceeded, OptionError, ProfileError
 from ptype.roads.alerts import service
 from ptype.store import Observation, Site
 
@@ -69,7 +70,7 @@ def evaluate_alerts(site_id: int) -> list[dict]:
     t = now()
     members = int(current_app.config.get("PTYPE_ALERT_MEMBERS")
                   or os.environ.get("PTYPE_ALERT_MEMBERS") or service.ALERT_MEMBERS)
-    with store.read() as s:
+    with store.read() as s, budget.computing():
         site = site_or_404(s, site_id)
         candidates = service.site_candidates(s, site, t, members=members)
     cap_status = current_app.config.get("PTYPE_CAP_STATUS") or os.environ.get("PTYPE_CAP_STATUS")
@@ -89,6 +90,10 @@ def evaluate_after_ingest(site_id: int) -> list[dict] | dict:
     except (ProfileError, OptionError) as exc:
         log.warning("alert evaluation for site %s failed: %s", site_id, exc)
         return {"error": f"alerts not evaluated: {exc}"}
+    except (budget.Busy, DeadlineExceeded):
+        log.warning("alert evaluation for site %s postponed: server busy", site_id)
+        return {"error": "alerts not evaluated now: the server is busy; they are evaluated "
+                         "again on the next write or POST /v1/alerts/evaluate"}
     except Exception:  # the write is committed; never turn it into a 500
         log.exception("alert evaluation for site %s failed", site_id)
         return {"error": "alerts not evaluated: internal error (logged)"}

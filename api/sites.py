@@ -249,5 +249,6 @@ def get_timeline(site_id: int) -> Response:
         out = service.site_timeline(
             s, site, t, hours=hours, step=args.get("step", "15min"), members=members,
             adjustments=adjustments,
-            max_member_levels=budget.setting("PTYPE_MAX_TIMELINE_MEMBER_LEVELS"))
+            max_member_levels=budget.setting("PTYPE_MAX_TIMELINE_MEMBER_LEVELS"),
+            guard=budget.computing)
     return jsonify(out)

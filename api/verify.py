@@ -70,8 +70,9 @@ def verify() -> Response:
                        "methods")
     _check_levels(cases)
     parsed = cases_from_entries(cases, name="cases", allow_paths=False)
-    report = run_verification(parsed, members=members, seed=seed, methods=methods,
-                              source="request")
+    with budget.computing():
+        report = run_verification(parsed, members=members, seed=seed, methods=methods,
+                                  source="request")
     return jsonify(report)
 
 

@@ -67,6 +67,19 @@ def test_thousand_members_one_minute_steps_refused_before_work(make_app, engine_
     assert error["asked"] == 1000 * steps * levels and error["unit"] == "member-levels"
     assert error["limit"] == budget.SETTINGS["PTYPE_MAX_TIMELINE_MEMBER_LEVELS"][0]
     assert engine_calls == []  # refused before the engine ran
+    # ... and without waiting for a work slot: a refusal costs no computation.
+    app.config["PTYPE_SLOT_WAIT_S"] = 0.05
+    slots = app.extensions[budget.EXTENSION]
+    held = [slots.acquire(timeout=1) for _ in range(2)]
+    try:
+        again = app.test_client().get(f"/v1/sites/{site}/timeline?hours=240&step=1min"
+                                      "&members=1000")
+        assert again.status_code == 422
+        busy = app.test_client().get(f"/v1/sites/{site}/timeline?hours=6&members=10")
+        assert busy.status_code == 503 and busy.get_json()["error"]["code"] == "busy"
+    finally:
+        for _ in held:
+            slots.release()
     ok = app.test_client().get(f"/v1/sites/{site}/timeline?hours=12&step=15min&members=20")
     assert ok.status_code == 200 and len(ok.get_json()["steps"]) == 49
 

@@ -130,9 +130,35 @@ def _serial_kernels() -> None:
     fast.set_parallel(False)
 
 
+#: glibc ``mallopt`` parameters (malloc.h): a fixed mmap threshold and the number of arenas.
+_M_MMAP_THRESHOLD, _M_ARENA_MAX = -3, -8
+
+
+def _bounded_malloc() -> None:
+    """Keep a threaded worker's memory from creeping (glibc only; elsewhere nothing).
+
+    By default glibc raises its mmap threshold after large blocks are freed, so later large
+    numpy arrays come from the heap arenas (one per thread, up to 8 per core) and their
+    memory is kept after use; a fixed 1 MiB threshold returns every large array to the
+    system when it is freed, and 4 arenas bound the rest (mallopt(3)).
+    """
+    import ctypes
+    import ctypes.util
+    name = ctypes.util.find_library("c")
+    if not name or "musl" in name:
+        return
+    try:
+        libc = ctypes.CDLL(name)
+        libc.mallopt(_M_MMAP_THRESHOLD, 1 << 20)
+        libc.mallopt(_M_ARENA_MAX, 4)
+    except (OSError, AttributeError):
+        return
+
+
 def _post_fork(_server, _worker) -> None:
     """gunicorn's hook in each new worker."""
     _serial_kernels()
+    _bounded_malloc()
 
 
 def run(args: argparse.Namespace) -> int:

@@ -9,7 +9,8 @@ always has its alerts evaluated.
 from __future__ import annotations
 
 import uuid
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from contextlib import AbstractContextManager, nullcontext
 from datetime import datetime, timedelta
 from typing import Any
 
@@ -67,11 +68,14 @@ def observation_dict(o: Observation) -> dict:
 def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
                   step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
                   adjustments: Iterable[str] | None = None,
-                  max_member_levels: int | None = None) -> dict[str, Any]:
+                  max_member_levels: int | None = None,
+                  guard: Callable[[], AbstractContextManager] | None = None) -> dict[str, Any]:
     """The site's timeline from its latest issue of profiles and its recent observations.
 
     With ``max_member_levels``, a timeline whose ``max(members, 1) x steps x levels`` is larger
-    is refused with :class:`ptype.errors.WorkLimitError` before any diagnosis.
+    is refused with :class:`ptype.errors.WorkLimitError` before any diagnosis.  ``guard()``,
+    when given, is entered around the computation, after that check (the service's work
+    slot and time limit).
     """
     from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
     records = latest_issue(session, site.id)
@@ -83,10 +87,11 @@ def site_timeline(session: Session, site: Site, now: datetime, *, hours: float =
     profiles = [Profile.from_document(r.document) for r in records]
     if max_member_levels is not None:
         check_timeline_work(profiles, now, hours, step, members, max_member_levels)
-    out = build_timeline(profiles, now=now, hours=hours, step=step,
-                         observations=recent_observations(session, site.id, now),
-                         adjustments=ADJUSTMENTS if adjustments is None else adjustments,
-                         members=members, seed=seed)
+    with guard() if guard is not None else nullcontext():
+        out = build_timeline(profiles, now=now, hours=hours, step=step,
+                             observations=recent_observations(session, site.id, now),
+                             adjustments=ADJUSTMENTS if adjustments is None else adjustments,
+                             members=members, seed=seed)
     out["issued_time"] = iso(records[0].issued_time)
     out["source"] = records[0].source
     return {**base, **out}
