@@ -45,8 +45,8 @@ import requests
 
 ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT / "bench"))
-from _common import code_version  # noqa: E402
-from load_diagnose import free_port, profile_document, stop_server  # noqa: E402
+from _common import code_version
+from load_diagnose import free_port, profile_document, stop_server
 
 RESULTS = ROOT / "bench" / "results" / "soak.json"
 PTYPE = Path(sys.executable).with_name("ptype")

@@ -97,7 +97,7 @@ def _slow_client(port: int, stop: threading.Event, closed_after: list[float]) ->
 
 
 def test_healthz_answers_with_slow_and_idle_clients(demo_server):
-    proc, url = demo_server
+    _, url = demo_server
     port = int(url.rsplit(":", 1)[1])
     idle = [socket.create_connection(("127.0.0.1", port)) for _ in range(20)]
     stop = threading.Event()
