@@ -70,9 +70,12 @@ def evaluate_alerts(site_id: int) -> list[dict]:
     t = now()
     members = int(current_app.config.get("PTYPE_ALERT_MEMBERS")
                   or os.environ.get("PTYPE_ALERT_MEMBERS") or service.ALERT_MEMBERS)
-    with store.read() as s, budget.computing():
+    with store.read() as s:
         site = site_or_404(s, site_id)
-        candidates = service.site_candidates(s, site, t, members=members)
+        inputs = service.timeline_inputs(s, site, t)
+    with budget.computing():  # no database connection held meanwhile
+        timeline = service.timeline_from_inputs(inputs, t, members=members)
+        candidates = service.candidates_from_timeline(timeline, t, site)
     cap_status = current_app.config.get("PTYPE_CAP_STATUS") or os.environ.get("PTYPE_CAP_STATUS")
     with store.write() as s:
         site = site_or_404(s, site_id)

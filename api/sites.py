@@ -245,10 +245,12 @@ def get_timeline(site_id: int) -> Response:
         adjustments = [] if text in ("", "none") else [a.strip() for a in text.split(",")]
     t = parse_time(args["now"], "now") if "now" in args else now()
     with get_store().read() as s:
-        site = site_or_404(s, site_id)
-        out = service.site_timeline(
-            s, site, t, hours=hours, step=args.get("step", "15min"), members=members,
-            adjustments=adjustments,
-            max_member_levels=budget.setting("PTYPE_MAX_TIMELINE_MEMBER_LEVELS"),
-            guard=budget.computing)
+        inputs = service.timeline_inputs(s, site_or_404(s, site_id), t)
+    # Computed with no database connection held: a request waiting for a work slot does not
+    # take one of the pool's connections from the reads.
+    out = service.timeline_from_inputs(
+        inputs, t, hours=hours, step=args.get("step", "15min"), members=members,
+        adjustments=adjustments,
+        max_member_levels=budget.setting("PTYPE_MAX_TIMELINE_MEMBER_LEVELS"),
+        guard=budget.computing)
     return jsonify(out)

@@ -256,6 +256,16 @@ def summary(args, rec: Record, samples: list, health: list[float], counts: dict,
     all_ms = [v for kind, vs in rec.latency_ms.items() for v in vs]
     rss = [s["rss_mb"] for s in samples]
     settled = [s["rss_mb"] for s in samples if s["t_s"] >= 60] or rss
+    # After the warm-up (the first fifth of the run: lazy imports, the first large arrays
+    # of each thread), a least-squares slope of the total and the two halves' means.
+    warm = [(s["t_s"] / 60, s["rss_mb"]) for s in samples if s["t_s"] >= elapsed_s / 5]
+    half = len(warm) // 2
+    slope = None
+    if len(warm) >= 4:
+        mt = sum(t for t, _ in warm) / len(warm)
+        mr = sum(r for _, r in warm) / len(warm)
+        slope = round(sum((t - mt) * (r - mr) for t, r in warm)
+                      / sum((t - mt) ** 2 for t, _ in warm), 2)
     return {
         "duration_minutes": round(elapsed_s / 60, 2), "asked_minutes": args.minutes,
         "clients": {"mixed": args.clients, "slow": args.slow, "idle": args.idle,
@@ -272,7 +282,13 @@ def summary(args, rec: Record, samples: list, health: list[float], counts: dict,
                           "max_ms": round(max(health), 1) if health else None,
                           "over_1s": sum(1 for v in health if v > 1000)},
         "memory_mb": {"first": rss[0], "after_1_min": settled[0], "last": rss[-1],
-                      "peak": max(rss), "drift_after_1_min": round(rss[-1] - settled[0], 1)},
+                      "peak": max(rss), "drift_after_1_min": round(rss[-1] - settled[0], 1),
+                      "after_warm_up": {
+                          "from_s": round(elapsed_s / 5), "slope_mb_per_min": slope,
+                          "first_half_mean": round(sum(r for _, r in warm[:half])
+                                                   / max(half, 1), 1),
+                          "second_half_mean": round(sum(r for _, r in warm[half:])
+                                                    / max(len(warm) - half, 1), 1)}},
         "worker_pids_seen": len(workers), "worker_restarts": max(0, len(workers) - 2),
         "connections": dict(counts),
         "log": {"fork_warnings": log.count("fork()"),

@@ -7,6 +7,7 @@ a request cut short answers 503 with Retry-After instead of holding its worker.
 
 from __future__ import annotations
 
+import time
 from datetime import timedelta
 
 import pytest
@@ -150,3 +151,34 @@ def test_openapi_states_the_limits(client):
     assert "Retry-After" in timeline["503"]["headers"]
     detail = doc["components"]["schemas"]["ErrorDetail"]["properties"]
     assert {"limit", "asked", "unit"} <= set(detail)
+
+
+def test_requests_waiting_for_a_slot_hold_no_database_connection(make_app):
+    import threading
+    app = make_app(PTYPE_NOW=NOW, PTYPE_ALERT_MEMBERS=2, PTYPE_WORK_SLOTS=1,
+                   PTYPE_SLOT_WAIT_S=5)
+    site = _site_with_day(app)
+    slots = app.extensions[budget.EXTENSION]
+    engine = store_for(app).engine
+    answers = []
+
+    def timeline():
+        r = app.test_client().get(f"/v1/sites/{site}/timeline?hours=3&members=5")
+        answers.append(r.status_code)
+
+    assert slots.acquire(timeout=1)
+    waiting = [threading.Thread(target=timeline) for _ in range(20)]
+    try:
+        for t in waiting:
+            t.start()
+        deadline_s = time.monotonic() + 4
+        while engine.pool.checkedout() and time.monotonic() < deadline_s:
+            time.sleep(0.05)
+        # 20 requests wait for the slot; none of them holds a connection, reads go on.
+        assert engine.pool.checkedout() == 0 and answers == []
+        assert app.test_client().get("/v1/sites").status_code == 200
+    finally:
+        slots.release()
+    for t in waiting:
+        t.join(timeout=60)
+    assert answers.count(200) + answers.count(503) == 20 and 200 in answers

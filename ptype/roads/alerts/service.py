@@ -11,6 +11,7 @@ from __future__ import annotations
 import uuid
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from contextlib import AbstractContextManager, nullcontext
+from dataclasses import dataclass
 from datetime import datetime, timedelta
 from typing import Any
 
@@ -65,12 +66,41 @@ def observation_dict(o: Observation) -> dict:
             "wind_speed_m_s": o.wind_speed_m_s, "present_weather": o.present_weather}
 
 
-def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
-                  step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
-                  adjustments: Iterable[str] | None = None,
-                  max_member_levels: int | None = None,
-                  guard: Callable[[], AbstractContextManager] | None = None) -> dict[str, Any]:
-    """The site's timeline from its latest issue of profiles and its recent observations.
+@dataclass(frozen=True)
+class TimelineInputs:
+    """What a site's timeline is built from, read from the store (no session needed after):
+    the site's summary, its latest issue (documents, issued time, source) and its recent
+    observations."""
+
+    site: dict
+    documents: tuple[dict, ...]
+    issued_time: datetime | None
+    source: str | None
+    observations: tuple[dict, ...]
+
+
+def timeline_inputs(session: Session, site: Site, now: datetime) -> TimelineInputs:
+    """Read what the site's timeline at ``now`` needs (cheap: a few queries)."""
+    records = latest_issue(session, site.id)
+    return TimelineInputs(site_summary(site), tuple(r.document for r in records),
+                          records[0].issued_time if records else None,
+                          records[0].source if records else None,
+                          tuple(recent_observations(session, site.id, now)))
+
+
+def site_timeline(session: Session, site: Site, now: datetime, **options: Any) -> dict[str, Any]:
+    """The site's timeline from its latest issue of profiles and its recent observations
+    (:func:`timeline_from_inputs` of :func:`timeline_inputs`; same options)."""
+    return timeline_from_inputs(timeline_inputs(session, site, now), now, **options)
+
+
+def timeline_from_inputs(inputs: TimelineInputs, now: datetime, *, hours: float = ALERT_HOURS,
+                         step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
+                         adjustments: Iterable[str] | None = None,
+                         max_member_levels: int | None = None,
+                         guard: Callable[[], AbstractContextManager] | None = None
+                         ) -> dict[str, Any]:
+    """The timeline of ``inputs`` (:func:`timeline_inputs`), no store needed.
 
     With ``max_member_levels``, a timeline whose ``max(members, 1) x steps x levels`` is larger
     is refused with :class:`ptype.errors.WorkLimitError` before any diagnosis.  ``guard()``,
@@ -78,22 +108,21 @@ def site_timeline(session: Session, site: Site, now: datetime, *, hours: float =
     slot and time limit).
     """
     from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
-    records = latest_issue(session, site.id)
-    base = {"site": site_summary(site)}
-    if not records:
+    base = {"site": inputs.site}
+    if not inputs.documents:
         from ptype.constants import CAUTION
         return {**base, "now": iso(now), "steps": [], "transitions": [], "totals": {},
                 "caution": CAUTION, "message": "no profiles have been posted for this site"}
-    profiles = [Profile.from_document(r.document) for r in records]
+    profiles = [Profile.from_document(d) for d in inputs.documents]
     if max_member_levels is not None:
         check_timeline_work(profiles, now, hours, step, members, max_member_levels)
     with guard() if guard is not None else nullcontext():
         out = build_timeline(profiles, now=now, hours=hours, step=step,
-                             observations=recent_observations(session, site.id, now),
+                             observations=list(inputs.observations),
                              adjustments=ADJUSTMENTS if adjustments is None else adjustments,
                              members=members, seed=seed)
-    out["issued_time"] = iso(records[0].issued_time)
-    out["source"] = records[0].source
+    out["issued_time"] = iso(inputs.issued_time)
+    out["source"] = inputs.source
     return {**base, **out}
 
 
@@ -143,7 +172,13 @@ def site_candidates(session: Session, site: Site, now: datetime, *,
     None when no forecast covers now: active alerts are then neither updated nor cancelled
     (they still expire), because "the hazard left the forecast" cannot be told from "there is
     no forecast"."""
-    timeline = site_timeline(session, site, now, members=members)
+    return candidates_from_timeline(site_timeline(session, site, now, members=members), now,
+                                    site)
+
+
+def candidates_from_timeline(timeline: dict[str, Any], now: datetime,
+                             site: Site) -> list | None:
+    """Alert candidates of a site's timeline (see :func:`site_candidates`)."""
     if not timeline.get("steps"):
         return None  # no forecast covers now: nothing can be said about the hazards
     return evaluate_rules(timeline, now, site.name, site.thresholds)
