@@ -66,7 +66,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
         Overrides of :data:`DEFAULT_CONFIG` (and any Flask setting).  ``PTYPE_DATA_DIR``
         defaults to the environment variable of that name, else ``./.data``.
     """
-    from ptype.api import errors, headers, plumbing, site_ops
+    from ptype.api import budget, clients, errors, headers, plumbing, site_ops
     app = Flask(__name__, static_folder="static", static_url_path="/static")
     app.config.update(DEFAULT_CONFIG)
     app.config["PTYPE_DATA_DIR"] = os.environ.get("PTYPE_DATA_DIR") or str(Path.cwd() / ".data")
@@ -75,6 +75,8 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
     app.json.sort_keys = False
     errors.init_app(app)
     headers.init_app(app)
+    budget.init_app(app)
+    clients.init_app(app)
     plumbing.init_app(app)
     for name in BLUEPRINT_MODULES:
         module = importlib.import_module(name)

@@ -103,7 +103,7 @@ def alerts_atom() -> Response:
     summary="Re-evaluate every site's alerts now",
     description="For a scheduler: re-runs the rules of every site the key may write to "
                 "(its owner's; every site for an administrator's key) and expires due alerts.",
-    ok=EvaluateResult, errors=(401, 403))
+    ok=EvaluateResult, errors=(401, 403, 429, 503))
 def evaluate() -> Response:
     """Re-run the alert rules of the caller's sites at the service clock, expire due alerts."""
     caller = require_caller()

@@ -69,6 +69,12 @@ class ErrorDetail(ResponseModel, extra="forbid"):
         examples=["levels[2].temperature_c = 'warm': expected a number"])
     field: str | None = Field(None, description="Dotted path of the offending field when known.",
                               examples=["levels[2].temperature_c"])
+    limit: int | None = Field(None, description="`too_much_work` only: the most work this "
+                                                "server does for the request, in `unit`.")
+    asked: int | None = Field(None, description="`too_much_work` only: the work the request "
+                                                "asks for, in `unit`.")
+    unit: str | None = Field(None, description="`too_much_work` only: what `limit` and "
+                                               "`asked` count, e.g. `member-levels`.")
 
 
 class ErrorResponse(ResponseModel, extra="forbid"):

@@ -135,15 +135,18 @@ def diagnose_kwargs(options: DiagnoseOptions) -> dict[str, Any]:
 
 
 def check_work(n_levels: int, kwargs: dict[str, Any]) -> None:
-    """Refuse (413) a request whose members x levels exceed ``PTYPE_MAX_MEMBER_LEVELS``."""
+    """Refuse (422, :mod:`ptype.api.budget`) a request whose members x levels exceed
+    ``PTYPE_MAX_MEMBER_LEVELS``, before any work."""
+    from ptype.api import budget
+
     from ptype.engine.probability import DEFAULT_MEMBERS
     members = kwargs.get("members", DEFAULT_MEMBERS)
-    limit = current_app.config["PTYPE_MAX_MEMBER_LEVELS"]
-    if members * n_levels > limit:
-        raise ApiError(413, "too_much_work",
-                       f"members = {members} x {n_levels} levels = {members * n_levels} "
-                       f"member-levels; this server accepts at most {limit} per request "
-                       "(ask for fewer members or send fewer levels)", "members")
+    limit = budget.setting("PTYPE_MAX_MEMBER_LEVELS")
+    asked = max(members, 1) * n_levels
+    budget.refuse(asked, limit, "member-levels",
+                  f"members = {members} x {n_levels} levels = {asked} member-levels; this "
+                  f"server accepts at most {limit} per request (ask for fewer members or send "
+                  "fewer levels)", "members")
 
 
 def check_levels(document: Any, field_prefix: str = "") -> None:
@@ -316,8 +319,12 @@ _verified_lock = threading.Lock()
 def require_key() -> str:
     """Check the bearer key of a write; returns its key id.
 
-    A missing or unknown key is a 401, a revoked one a 403 (:class:`ApiError`).
+    A missing or unknown key is a 401, a revoked one a 403 (:class:`ApiError`); an address
+    that sent too many wrong keys lately is refused (429) before its key is looked at
+    (:mod:`ptype.api.clients`).
     """
+    from ptype.api import clients
+    clients.refuse_if_blocked()
     header = request.headers.get("Authorization", "")
     scheme, _, token = header.partition(" ")
     if not header:
@@ -337,6 +344,7 @@ def require_key() -> str:
         if key_id is None:
             status, info = keystore.verify_key(s, token)
             if status == "unknown":
+                clients.count_failure()
                 raise ApiError(401, "unauthorized", "the API key is not valid", "Authorization")
             key_id = info.key_id
             if status == "ok":

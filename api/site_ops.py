@@ -15,12 +15,13 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Flask, current_app
+from ptype.api import budget
 from ptype.api.errors import ApiError
 from ptype.api.plumbing import cap_sender, get_store, now, store_for
 from sqlalchemy.orm import Session
 
 from ptype.clock import iso, utcnow
-from ptype.errors import OptionError, ProfileError
+from ptype.errors import DeadlineExceeded, OptionError, ProfileError
 from ptype.roads.alerts import service
 from ptype.store import Observation, Site
 
@@ -75,7 +76,10 @@ def evaluate_alerts(site_id: int) -> list[dict]:
                   or os.environ.get("PTYPE_ALERT_MEMBERS") or service.ALERT_MEMBERS)
     with store.read() as s:
         site = site_or_404(s, site_id)
-        candidates = service.site_candidates(s, site, t, members=members)
+        inputs = service.timeline_inputs(s, site, t, covering_hours=service.ALERT_HOURS)
+    with budget.computing():  # no database connection held meanwhile
+        timeline = service.timeline_from_inputs(inputs, t, members=members)
+        candidates = service.candidates_from_timeline(timeline, t, site)
     cap_status = current_app.config.get("PTYPE_CAP_STATUS") or os.environ.get("PTYPE_CAP_STATUS")
     with store.write() as s:
         site = site_or_404(s, site_id)
@@ -93,6 +97,10 @@ def evaluate_after_ingest(site_id: int) -> list[dict] | dict:
     except (ProfileError, OptionError) as exc:
         log.warning("alert evaluation for site %s failed: %s", site_id, exc)
         return {"error": f"alerts not evaluated: {exc}"}
+    except (budget.Busy, DeadlineExceeded):
+        log.warning("alert evaluation for site %s postponed: server busy", site_id)
+        return {"error": "alerts not evaluated now: the server is busy; they are evaluated "
+                         "again on the next write or POST /v1/alerts/evaluate"}
     except Exception:  # the write is committed; never turn it into a 500
         log.exception("alert evaluation for site %s failed", site_id)
         return {"error": "alerts not evaluated: internal error (logged)"}

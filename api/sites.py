@@ -18,7 +18,7 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Blueprint, Response, current_app, jsonify, request
-from ptype.api import examples
+from ptype.api import budget, examples
 from ptype.api.errors import ApiError
 from ptype.api.inputs import query_time
 from ptype.api.models import (
@@ -53,7 +53,7 @@ bp = Blueprint("sites", __name__, url_prefix="/v1")
 SITE_ID = {"site_id": {"description": "Site id from `POST /v1/sites` or `GET /v1/sites`.",
                        "schema": {"type": "integer", "minimum": 1}}}
 #: The statuses of a write.
-WRITE_ERRORS = (400, 401, 403, 404, 413, 415, 422)
+WRITE_ERRORS = (400, 401, 403, 404, 413, 415, 422, 429, 503)
 #: The statuses of a read that only owner-scoped reads (``PTYPE_OWNER_READS``) give.
 READ_ERRORS = (401, 403)
 
@@ -86,7 +86,7 @@ def _upsert(session: Session, model: type, values: dict, keys: tuple[str, ...]) 
     id="site_create", tag="Sites", auth=True, status=201, summary="Register a road site",
     description="Name, position, elevation and optional alert thresholds. Needs an API key.",
     body={"application/json": {"schema": SiteIn, "example": examples.SITE_EXAMPLE}},
-    ok=SiteOut, errors=(400, 401, 403, 409, 413, 415, 422))
+    ok=SiteOut, errors=(400, 401, 403, 409, 413, 415, 422, 429))
 def create_site() -> tuple[Response, int, dict[str, str]]:
     """Store a new site, owned by the key's owner; 409 when its ``code`` is taken."""
     caller = require_caller()
@@ -243,7 +243,8 @@ def _timeline_members() -> int:
     id="site_timeline", tag="Sites", summary="Type timeline, transitions and road hazards",
     description="Built from the latest issue of profiles, interpolated in time, with the "
                 "nowcast adjustments of docs/nowcast.md.",
-    path_params=SITE_ID, query=TimelineOptions, ok=Timeline, errors=(400, *READ_ERRORS, 404, 422))
+    path_params=SITE_ID, query=TimelineOptions, ok=Timeline,
+    errors=(400, *READ_ERRORS, 404, 422, 503))
 def get_timeline(site_id: int) -> Response:
     """The site's type timeline, transitions and road hazards from its latest issue."""
     args = request.args
@@ -262,6 +263,12 @@ def get_timeline(site_id: int) -> Response:
     with get_store().read() as s:
         site = site_or_404(s, site_id)
         check_read(caller, site)
-        out = service.site_timeline(s, site, t, hours=hours, step=args.get("step", "15min"),
-                                    members=members, adjustments=adjustments)
+        inputs = service.timeline_inputs(s, site, t)
+    # Computed with no database connection held: a request waiting for a work slot does not
+    # take one of the pool's connections from the reads.
+    out = service.timeline_from_inputs(
+        inputs, t, hours=hours, step=args.get("step", "15min"), members=members,
+        adjustments=adjustments,
+        max_member_levels=budget.setting("PTYPE_MAX_TIMELINE_MEMBER_LEVELS"),
+        guard=budget.computing)
     return jsonify(out)

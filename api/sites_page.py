@@ -12,6 +12,7 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Blueprint, Response, make_response, render_template, request
+from ptype.api import budget
 from ptype.api.plumbing import cap_sender, get_store, now, secure_html
 from ptype.api.tenants import read_owner, reader
 
@@ -115,7 +116,8 @@ def sites_page() -> Response:
     with store.read() as s:
         sender = cap_sender()
         for site in list(s.scalars(query)):
-            timeline = service.site_timeline(s, site, t, hours=hours, step="1h", members=0)
+            with budget.computing():
+                timeline = service.site_timeline(s, site, t, hours=hours, step="1h", members=0)
             alerts = service.list_alerts(s, t, sender, include_recent=False, site_id=site.id)
             sections.append(site_view(site, timeline, alerts))
     html = render_template("sites.html", sites=sections, hours=f"{hours:g}", now=iso(t) or "",

@@ -58,7 +58,7 @@ def test_verify_returns_report(client):
     ({}, 400, "invalid_field", "cases"),
     ({"cases": "x"}, 400, "invalid_field", "cases"),
     ({"cases": [{"observed": "SN"}] * 6}, 400, "too_many_cases", "cases"),
-    ({"cases": [{"profile": {}, "observed": "SN"}] * 3, "members": 20}, 400, "too_much_work",
+    ({"cases": [{"profile": {}, "observed": "SN"}] * 3, "members": 20}, 422, "too_much_work",
      "members"),
     ({"cases": [], "colour": 1}, 400, "unknown_field", "colour"),
     ({"cases": [{"profile": {}, "observed": "SN"}], "members": "many"}, 400, "invalid_field",

@@ -130,12 +130,20 @@ def _configure_sqlite(engine: sa.Engine) -> None:
         conn.exec_driver_sql("BEGIN IMMEDIATE" if immediate else "BEGIN")
 
 
+#: Connections a store keeps open, and how many more it may open under load.
+POOL_SIZE, POOL_OVERFLOW = 5, 35
+
+
 class Store:
     """Engine plus session factories.  Use :meth:`read` and :meth:`write` as context managers."""
 
     def __init__(self, url: str, *, migrate: bool = True):
         self.url = url
-        kwargs: dict[str, Any] = {"future": True}
+        # A threaded server may have every thread of a worker in a session at once: the pool
+        # holds that many connections (gunicorn threads per worker, ptype serve: 32) rather
+        # than making reads wait on it.
+        kwargs: dict[str, Any] = {"future": True, "pool_size": POOL_SIZE,
+                                  "max_overflow": POOL_OVERFLOW}
         if url.startswith("sqlite"):
             _create_private(url)
             kwargs["connect_args"] = {"timeout": BUSY_TIMEOUT_MS / 1000, "check_same_thread": False}

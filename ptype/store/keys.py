@@ -1,7 +1,8 @@
 """API keys: random secrets shown once, stored only as a salted scrypt hash.
 
 A key reads ``ptk_<key_id>_<secret>``: ``key_id`` (12 hex digits) finds the
-row, ``secret`` (32 random bytes, URL-safe base64) is checked against
+row (a key whose id names no row is refused without computing any hash), and
+``secret`` (32 random bytes, URL-safe base64) is checked against
 ``scrypt(secret, salt)`` with a per-key 16-byte salt (RFC 7914; Python's
 ``hashlib.scrypt``) and compared in constant time with
 :func:`hmac.compare_digest`.  The secret carries 256 bits of entropy, so the
@@ -30,6 +31,9 @@ from ptype.store.models import ApiKey
 PREFIX = "ptk"
 SCRYPT_N, SCRYPT_R, SCRYPT_P = 2 ** 14, 8, 1
 KDF_NAME = f"scrypt:n={SCRYPT_N},r={SCRYPT_R},p={SCRYPT_P}"
+#: Longest key id and secret a presented key may have (ours: 12 and 43 characters).
+KEY_ID_MAX_LENGTH = 32
+SECRET_MAX_LENGTH = 128
 
 
 def _parse_kdf(kdf: str) -> tuple[int, int, int]:
@@ -129,10 +133,13 @@ def verify_key(session: Session, presented: str) -> tuple[str, KeyInfo | None]:
     parts = presented.strip().split("_", 2)
     if len(parts) != 3 or parts[0] != PREFIX or not parts[1] or not parts[2]:
         return "unknown", None
+    if len(parts[1]) > KEY_ID_MAX_LENGTH or len(parts[2]) > SECRET_MAX_LENGTH:
+        return "unknown", None
     row = session.scalars(sa.select(ApiKey).where(ApiKey.key_id == parts[1])).first()
     if row is None:
-        # Spend the same work as a real check so the response time says nothing.
-        hash_secret(parts[2], b"\0" * 16)
+        # No scrypt for a key id that names no key: an unknown key costs one indexed
+        # lookup, so guessing keys cannot load the server.  (That a key id exists says
+        # nothing about its 256-bit secret.)
         return "unknown", None
     digest = hash_secret(parts[2], bytes.fromhex(row.salt_hex), row.kdf)
     if not hmac.compare_digest(digest, bytes.fromhex(row.hash_hex)):

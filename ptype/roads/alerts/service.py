@@ -9,7 +9,9 @@ always has its alerts evaluated.
 from __future__ import annotations
 
 import uuid
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from contextlib import AbstractContextManager, nullcontext
+from dataclasses import dataclass
 from datetime import datetime, timedelta
 from typing import Any
 
@@ -74,40 +76,88 @@ def covering(records: Sequence[ProfileRecord], start: datetime,
     return list(records[lo:hi + 1])
 
 
-def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
-                  step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
-                  adjustments: Iterable[str] | None = None,
-                  covering_only: bool = False) -> dict[str, Any]:
-    """The site's timeline from its latest issue of profiles and its recent observations.
+@dataclass(frozen=True)
+class TimelineInputs:
+    """What a site's timeline is built from, read from the store (no session needed after):
+    the site's summary, its latest issue (documents by ensemble member: one group for a
+    deterministic run; issued time, source) and its recent observations."""
 
-    ``covering_only`` reads only the profiles the time window needs (:func:`covering`; the
-    steps are the same, ``issued_profiles`` lists only those): for alerts, on long runs."""
-    from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
+    site: dict
+    groups: tuple[tuple[str, tuple[dict, ...]], ...]
+    issued_time: datetime | None
+    source: str | None
+    observations: tuple[dict, ...]
+
+
+def timeline_inputs(session: Session, site: Site, now: datetime, *,
+                    covering_hours: float | None = None) -> TimelineInputs:
+    """Read what the site's timeline at ``now`` needs (cheap: a few queries).
+
+    ``covering_hours`` reads only the profiles a window of that length needs
+    (:func:`covering`; the steps are the same, ``issued_profiles`` lists only those): for
+    alerts, on long runs."""
     records = latest_issue(session, site.id)
-    base = {"site": site_summary(site)}
-    if not records:
+    groups = ensemble_members(session, records) if records else {}
+    out = []
+    for name, group in groups.items():
+        if covering_hours is not None:
+            group = covering(group, now, now + timedelta(hours=covering_hours))
+        out.append((name, tuple(r.document for r in group)))
+    source = records[0].source if records else None
+    if source and len(out) > 1:
+        source = source.rpartition(" member ")[0]
+    return TimelineInputs(site_summary(site), tuple(out),
+                          records[0].issued_time if records else None, source,
+                          tuple(recent_observations(session, site.id, now)))
+
+
+def site_timeline(session: Session, site: Site, now: datetime, *, covering_only: bool = False,
+                  **options: Any) -> dict[str, Any]:
+    """The site's timeline from its latest issue of profiles and its recent observations
+    (:func:`timeline_from_inputs` of :func:`timeline_inputs`; same options, and
+    ``covering_only`` as ``covering_hours`` there)."""
+    hours = options.get("hours", ALERT_HOURS) if covering_only else None
+    return timeline_from_inputs(timeline_inputs(session, site, now, covering_hours=hours), now,
+                                **options)
+
+
+def timeline_from_inputs(inputs: TimelineInputs, now: datetime, *, hours: float = ALERT_HOURS,
+                         step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
+                         adjustments: Iterable[str] | None = None,
+                         max_member_levels: int | None = None,
+                         guard: Callable[[], AbstractContextManager] | None = None
+                         ) -> dict[str, Any]:
+    """The timeline of ``inputs`` (:func:`timeline_inputs`), no store needed; an ensemble
+    run's members are combined (:mod:`ptype.roads.ensemble_timeline`).
+
+    With ``max_member_levels``, a timeline whose ``max(members, 1) x steps x levels`` (summed
+    over the ensemble's members) is larger is refused with
+    :class:`ptype.errors.WorkLimitError` before any diagnosis.  ``guard()``, when given, is
+    entered around the computation, after that check (the service's work slot and time
+    limit).
+    """
+    from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
+    base = {"site": inputs.site}
+    if not inputs.groups:
         from ptype.constants import CAUTION
         return {**base, "now": iso(now), "steps": [], "transitions": [], "totals": {},
                 "caution": CAUTION, "message": "no profiles have been posted for this site"}
-    groups = ensemble_members(session, records)
-    observations = recent_observations(session, site.id, now)
-    timelines = []
-    for group in groups.values():
-        if covering_only:
-            group = covering(group, now, now + timedelta(hours=hours))
-        profiles = [Profile.from_document(r.document) for r in group]
-        timelines.append(build_timeline(
-            profiles, now=now, hours=hours, step=step, observations=observations,
-            adjustments=ADJUSTMENTS if adjustments is None else adjustments,
-            members=members, seed=seed))
+    groups = [[Profile.from_document(d) for d in docs] for _, docs in inputs.groups]
+    if max_member_levels is not None:
+        check_timeline_work(groups, now, hours, step, members, max_member_levels)
+    with guard() if guard is not None else nullcontext():
+        timelines = [build_timeline(profiles, now=now, hours=hours, step=step,
+                                    observations=list(inputs.observations),
+                                    adjustments=ADJUSTMENTS if adjustments is None
+                                    else adjustments, members=members, seed=seed)
+                     for profiles in groups]
     if len(timelines) == 1:
         out = timelines[0]
-        out["source"] = records[0].source
     else:
         from ptype.roads.ensemble_timeline import combine_timelines
-        out = combine_timelines(timelines, list(groups), step)
-        out["source"] = records[0].source.rpartition(" member ")[0]
-    out["issued_time"] = iso(records[0].issued_time)
+        out = combine_timelines(timelines, [name for name, _ in inputs.groups], step)
+    out["source"] = inputs.source
+    out["issued_time"] = iso(inputs.issued_time)
     return {**base, **out}
 
 
@@ -128,6 +178,28 @@ def ensemble_members(session: Session, records: Sequence[ProfileRecord]
     for r in rows:
         groups.setdefault(r.source.rpartition(" member ")[2], []).append(r)
     return groups
+
+
+def check_timeline_work(groups: list[list[Profile]], now: datetime, hours: float, step: str,
+                        members: int, limit: int) -> None:
+    """Refuse (:class:`ptype.errors.WorkLimitError`) a timeline of more than ``limit``
+    member-levels (``max(members, 1) x steps x levels``, summed over the groups of an
+    ensemble run), before any diagnosis."""
+    from ptype.errors import WorkLimitError
+    from ptype.roads.nowcast import timeline_size
+    asked, parts = 0, []
+    for profiles in groups:
+        n_steps, n_levels = timeline_size(profiles, now=now, hours=hours, step=step)
+        asked += max(members, 1) * n_steps * n_levels
+        parts.append((n_steps, n_levels))
+    if asked > limit:
+        n_steps, n_levels = parts[0]
+        runs = f" x {len(groups)} ensemble members" if len(groups) > 1 else ""
+        raise WorkLimitError(
+            f"members = {members} x {n_steps} steps x {n_levels} levels{runs} = {asked} "
+            f"member-levels; this server computes at most {limit} per timeline (ask for "
+            "fewer members, a longer step or fewer hours)",
+            asked=asked, limit=limit, unit="member-levels", field="members")
 
 
 def site_summary(site: Site) -> dict:
@@ -160,7 +232,13 @@ def site_candidates(session: Session, site: Site, now: datetime, *,
     None when no forecast covers now: active alerts are then neither updated nor cancelled
     (they still expire), because "the hazard left the forecast" cannot be told from "there is
     no forecast"."""
-    timeline = site_timeline(session, site, now, members=members, covering_only=True)
+    return candidates_from_timeline(
+        site_timeline(session, site, now, members=members, covering_only=True), now, site)
+
+
+def candidates_from_timeline(timeline: dict[str, Any], now: datetime,
+                             site: Site) -> list | None:
+    """Alert candidates of a site's timeline (see :func:`site_candidates`)."""
     if not timeline.get("steps"):
         return None  # no forecast covers now: nothing can be said about the hazards
     return evaluate_rules(timeline, now, site.name, site.thresholds)
