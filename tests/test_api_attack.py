@@ -77,9 +77,9 @@ def make_service(**config):
     return app, auths
 
 
-#: Reads open (the default), and reads scoped to the key's owner (PTYPE_OWNER_READS).
+#: A service to read the operations and the kinds of caller from (each example of the state
+#: machines below gets a new one, so that a replayed example meets the same store).
 OPEN_READS = make_service()
-OWNER_READS = make_service(PTYPE_OWNER_READS=True)
 AUTHS = OPEN_READS[1]
 #: Which owner each auth writes for (None: cannot write).
 WRITES_FOR = {"north": "north", "south": "south", "admin": "*"}
@@ -184,15 +184,15 @@ class ServiceUnderAttack(RuleBasedStateMachine):
 
     sites = Bundle("sites")
     alerts = Bundle("alerts")
-    service = OPEN_READS
-    #: The owner of every site created in the service's store (which outlives one example).
-    owners: ClassVar[dict[int, str]] = {}
+    #: Settings of the service under attack.
+    config: ClassVar[dict] = {}
 
     def __init__(self):
         super().__init__()
-        self.client = self.service[0].test_client()
-        self.auths = self.service[1]
-        self.owner_of = self.owners
+        app, self.auths = make_service(**self.config)
+        self.client = app.test_client()
+        #: The owner of every site created in this example's store.
+        self.owner_of: dict[int, str] = {}
 
     def call(self, method, path, auth=None, content=None, query=None, operation=None):
         headers = {"Authorization": self.auths[auth]} if self.auths.get(auth) else {}
@@ -217,6 +217,15 @@ class ServiceUnderAttack(RuleBasedStateMachine):
         """A site of each owner, so that writes across owners are tried from the start."""
         made = [self.create_site(auth, {"name": f"Mistleby Bridge {auth}", "latitude": 47.0,
                                         "longitude": 9.0}) for auth in ("north", "south")]
+        # The invented storm on the north site: its alerts exist from the start, so every
+        # example reaches the alert and CAP states (each example has a new store).
+        r = self.call("POST", f"/v1/sites/{made[0]}/profiles", "north",
+                      json_body({"profiles": storm_docs(), "issued_time": NOW}),
+                      operation=("POST", "/v1/sites/{site_id}/profiles"))
+        assert r.status_code == 201, r.json
+        alerts = self.client.get("/v1/alerts", headers={"Authorization": self.auths["admin"]})
+        for alert in alerts.json["alerts"][:1]:
+            self.read_cap(alert["id"])
         return multiple(*made)
 
     @initialize(auth=AUTH, content=BODIES, ident=IDS)
@@ -313,8 +322,7 @@ class ServiceUnderAttack(RuleBasedStateMachine):
 class OwnerReadsUnderAttack(ServiceUnderAttack):
     """The same with owner-scoped reads: no key reads another owner's sites."""
 
-    service = OWNER_READS
-    owners: ClassVar[dict[int, str]] = {}
+    config: ClassVar[dict] = {"PTYPE_OWNER_READS": True}
 
     @invariant()
     def reads_show_only_the_owners_sites(self):
