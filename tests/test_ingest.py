@@ -438,3 +438,28 @@ def test_ingest_command_bad_file_is_one_line(tmp_path, capsys, monkeypatch):
     assert err.count("\n") == 1 and "cut.grib2" in err and "Traceback" not in err
     assert main(["ingest", str(tmp_path / "missing.grib2")]) == 2
     assert "missing.grib2" in capsys.readouterr().err
+
+
+def test_a_file_claimed_by_a_live_process_is_left_to_it(run_file, tmp_path):
+    """Several watchers on one inbox: the claim (a unique row per content) decides; a claim
+    of a live process is respected, one of a dead process is taken over."""
+    import socket
+    store = _store(tmp_path, [(46.6, -32.3, 250.0)])
+    key = ingest.file_key(run_file)
+    with store.write() as s:
+        s.add(IngestedFile(file_key=key, name="run_06.grib2", size_bytes=1, status="claimed",
+                           claimed_by=f"{socket.gethostname()}:{os.getppid()}",
+                           claimed_at=REF))
+    assert ingest.ingest_file(store, run_file, now=REF)["status"] == "busy"
+    gone = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True, check=True)
+    with store.write() as s:
+        row = s.scalars(sa.select(IngestedFile)).one()
+        row.claimed_by = f"{socket.gethostname()}:{gone.stdout.strip()}"
+    assert ingest.ingest_file(store, run_file, now=REF, evaluate=False)["status"] == "ingested"
+    # A claim from another host is taken over only after the lease.
+    with store.write() as s:
+        s.add(IngestedFile(file_key="0" * 64, name="other", size_bytes=1, status="claimed",
+                           claimed_by="elsewhere:1", claimed_at=REF))
+    assert ingest.claim_file(store, "0" * 64, "other", 1, REF + timedelta(minutes=5)) == "busy"
+    assert ingest.claim_file(store, "0" * 64, "other", 1, REF + timedelta(hours=2)) == "claimed"
