@@ -358,6 +358,11 @@ def test_api_ingest_refusals(api, tmp_path):
     assert r.status_code == 422 and "message 1" in r.json["error"]["message"]
     r = client.post("/v1/ingest", json={"a": 1}, headers=auth)
     assert r.status_code == 415
+    # Above the service's 1 MB limit for other requests, below this one's: read, then
+    # refused for what it is.
+    r = client.post("/v1/ingest", data=b"GRIB" + b"\0" * 1_500_000,
+                    headers={"Content-Type": "application/octet-stream", **auth})
+    assert r.status_code == 422, r.json
 
 
 def test_ensemble_run_gives_site_timelines_with_member_fractions(fields, tmp_path):
