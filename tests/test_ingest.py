@@ -468,3 +468,24 @@ def test_a_file_claimed_by_a_live_process_is_left_to_it(run_file, tmp_path):
                            claimed_by="elsewhere:1", claimed_at=REF))
     assert ingest.claim_file(store, "0" * 64, "other", 1, REF + timedelta(minutes=5)) == "busy"
     assert ingest.claim_file(store, "0" * 64, "other", 1, REF + timedelta(hours=2)) == "claimed"
+
+
+def test_timeline_grid_of_model_profiles_is_their_own_levels():
+    """Profiles on common pressure levels whose surface moves (a model run at a site): the
+    timeline works on the levels of one of them, not on a copy of every level per step;
+    profiles that share all their levels get exactly those levels."""
+    from series_helpers import storm_docs
+
+    from ptype.roads import nowcast
+    same = [ptype.Profile.from_document(d) for d in storm_docs()]
+    grid_same = nowcast._common_grid(same)
+    s0 = np.log(same[0].pressure_hpa / same[0].pressure_hpa[0])
+    np.testing.assert_allclose(grid_same, s0, atol=1e-12)
+    moving = []
+    for k, d in enumerate(storm_docs() * 10):
+        levels = [dict(lv) for lv in d["levels"][1:]]
+        surface = {"pressure_hpa": 1003.0 + 0.37 * k, "temperature_c": -3.0, "dewpoint_c": -3.5}
+        moving.append(ptype.Profile.from_document({"levels": [surface, *levels]}))
+    grid = nowcast._common_grid(moving)
+    assert grid.size == len(moving[0].pressure_hpa)  # not one level per profile and level
+    assert grid[0] == 0.0 and np.all(np.diff(grid) < 0)
