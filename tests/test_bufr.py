@@ -139,3 +139,38 @@ def test_api_diagnose_bad_bufr_is_a_4xx_naming_the_message(client, temp_document
     two = encode_temp_bufr([_report(temp_document), _report(temp_document, "99913")])
     r = client.post("/v1/diagnose", data=two, headers={"Content-Type": "application/x-bufr"})
     assert r.status_code == 422 and "2 radiosonde reports" in r.json["error"]["message"]
+
+
+@pytest.mark.parametrize("sequence", [309057, 309056])
+def test_bufr_other_radiosonde_sequences(sequence, temp_document):
+    """3 09 057 (TEMP converted to BUFR) and 3 09 056 (descents) carry the same level
+    elements (WMO-No. 306 Table D): the same reader reads them."""
+    import eccodes as ec
+    import numpy as np
+    levels = temp_document["levels"][:8]
+    h = ec.codes_bufr_new_from_samples("BUFR4")
+    try:
+        for key, value in (("masterTableNumber", 0), ("dataCategory", 2),
+                           ("internationalDataSubCategory", 4),
+                           ("masterTablesVersionNumber", 32), ("numberOfSubsets", 1),
+                           ("observedData", 1), ("compressedData", 0)):
+            ec.codes_set(h, key, value)
+        ec.codes_set_array(h, "inputDelayedDescriptorReplicationFactor", [len(levels), 0, 0])
+        ec.codes_set_array(h, "inputExtendedDelayedDescriptorReplicationFactor", [len(levels)])
+        ec.codes_set(h, "unexpandedDescriptors", sequence)
+        pressure = np.full(ec.codes_get_size(h, "pressure"), -1e100)
+        pressure[:len(levels)] = [lv["pressure_hpa"] * 100.0 for lv in levels]
+        ec.codes_set_array(h, "pressure", pressure)
+        ec.codes_set_array(h, "airTemperature",
+                           [lv["temperature_c"] + 273.15 for lv in levels])
+        ec.codes_set_array(h, "dewpointTemperature",
+                           [lv["dewpoint_c"] + 273.15 for lv in levels])
+        ec.codes_set(h, "pack", 1)
+        raw = ec.codes_get_message(h)
+    finally:
+        ec.codes_release(h)
+    (doc,) = bufr_format.read_bufr_documents(raw)
+    assert [lv["pressure_hpa"] for lv in doc["levels"]] == [lv["pressure_hpa"] for lv in levels]
+    assert [lv["temperature_c"] for lv in doc["levels"]] == \
+        pytest.approx([lv["temperature_c"] for lv in levels], abs=0.01)
+    assert str(sequence) in doc["source"]

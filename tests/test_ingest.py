@@ -365,6 +365,11 @@ def test_api_ingest_refusals(api, tmp_path):
     assert r.status_code == 422 and "message 1" in r.json["error"]["message"]
     r = client.post("/v1/ingest", json={"a": 1}, headers=auth)
     assert r.status_code == 415
+    # Above the service's 1 MB limit for other requests, below this one's: read, then
+    # refused for what it is.
+    r = client.post("/v1/ingest", data=b"GRIB" + b"\0" * 1_500_000,
+                    headers={"Content-Type": "application/octet-stream", **auth})
+    assert r.status_code == 422, r.json
 
 
 def test_ensemble_run_gives_site_timelines_with_member_fractions(fields, tmp_path):
@@ -445,3 +450,49 @@ def test_ingest_command_bad_file_is_one_line(tmp_path, capsys, monkeypatch):
     assert err.count("\n") == 1 and "cut.grib2" in err and "Traceback" not in err
     assert main(["ingest", str(tmp_path / "missing.grib2")]) == 2
     assert "missing.grib2" in capsys.readouterr().err
+
+
+def test_a_file_claimed_by_a_live_process_is_left_to_it(run_file, tmp_path):
+    """Several watchers on one inbox: the claim (a unique row per content) decides; a claim
+    of a live process is respected, one of a dead process is taken over."""
+    import socket
+    store = _store(tmp_path, [(46.6, -32.3, 250.0)])
+    key = ingest.file_key(run_file)
+    with store.write() as s:
+        s.add(IngestedFile(file_key=key, name="run_06.grib2", size_bytes=1, status="claimed",
+                           claimed_by=f"{socket.gethostname()}:{os.getppid()}",
+                           claimed_at=REF))
+    assert ingest.ingest_file(store, run_file, now=REF)["status"] == "busy"
+    gone = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"],
+                          capture_output=True, text=True, check=True)
+    with store.write() as s:
+        row = s.scalars(sa.select(IngestedFile)).one()
+        row.claimed_by = f"{socket.gethostname()}:{gone.stdout.strip()}"
+    assert ingest.ingest_file(store, run_file, now=REF, evaluate=False)["status"] == "ingested"
+    # A claim from another host is taken over only after the lease.
+    with store.write() as s:
+        s.add(IngestedFile(file_key="0" * 64, name="other", size_bytes=1, status="claimed",
+                           claimed_by="elsewhere:1", claimed_at=REF))
+    assert ingest.claim_file(store, "0" * 64, "other", 1, REF + timedelta(minutes=5)) == "busy"
+    assert ingest.claim_file(store, "0" * 64, "other", 1, REF + timedelta(hours=2)) == "claimed"
+
+
+def test_timeline_grid_of_model_profiles_is_their_own_levels():
+    """Profiles on common pressure levels whose surface moves (a model run at a site): the
+    timeline works on the levels of one of them, not on a copy of every level per step;
+    profiles that share all their levels get exactly those levels."""
+    from series_helpers import storm_docs
+
+    from ptype.roads import nowcast
+    same = [ptype.Profile.from_document(d) for d in storm_docs()]
+    grid_same = nowcast._common_grid(same)
+    s0 = np.log(same[0].pressure_hpa / same[0].pressure_hpa[0])
+    np.testing.assert_allclose(grid_same, s0, atol=1e-12)
+    moving = []
+    for k, d in enumerate(storm_docs() * 10):
+        levels = [dict(lv) for lv in d["levels"][1:]]
+        surface = {"pressure_hpa": 1003.0 + 0.37 * k, "temperature_c": -3.0, "dewpoint_c": -3.5}
+        moving.append(ptype.Profile.from_document({"levels": [surface, *levels]}))
+    grid = nowcast._common_grid(moving)
+    assert grid.size == len(moving[0].pressure_hpa)  # not one level per profile and level
+    assert grid[0] == 0.0 and np.all(np.diff(grid) < 0)

@@ -554,34 +554,39 @@ def write_fields_grib2(ds: xr.Dataset, path: str | os.PathLike, grid: RegularGri
     from ptype.grid.fields import find_fields
     fields = find_fields(ds)
     member_dim = "realization" if "realization" in ds.dims else None
-    members = list(ds[member_dim].values) if member_dim else [None]
-    times = ds[fields.time_dim].values if fields.time_dim else [None]
+    members = [int(m) for m in ds[member_dim].values] if member_dim else []
+    times = ds[fields.time_dim].values if fields.time_dim else []
     levels = ds[fields.level_dim].values * fields.level_to_hpa
 
     def messages():
         for name, parameter, surface in _cf_fields(ds, fields):
-            var = ds[name]
-            for it, t in enumerate(times):
-                if t is None or fields.time_dim not in var.dims:
-                    if it:
-                        continue
-                    step = 0
+            for it, member, sub in _slices(ds[name], fields.time_dim, member_dim, len(times),
+                                           members):
+                step = 0 if it is None else round(
+                    (_as_datetime(times[it]) - reference).total_seconds() / 3600.0)
+                if fields.level_dim in sub.dims:
+                    for il, lev in enumerate(levels):
+                        yield FieldMessage(parameter, sub.isel({fields.level_dim: il}).values,
+                                           reference, step, surface, float(lev), member,
+                                           len(members))
                 else:
-                    step = round((_as_datetime(t) - reference).total_seconds() / 3600.0)
-                for im, m in enumerate(members):
-                    if m is not None and member_dim not in var.dims and im:
-                        continue
-                    sel = {}
-                    if t is not None and fields.time_dim in var.dims:
-                        sel[fields.time_dim] = it
-                    if m is not None and member_dim in var.dims:
-                        sel[member_dim] = im
-                    sub = var.isel(sel)
-                    mem = None if m is None or member_dim not in var.dims else int(m)
-                    levs = enumerate(levels) if fields.level_dim in sub.dims else [(None, 2.0)]
-                    for il, lev in levs:
-                        v = sub.isel({fields.level_dim: il}) if il is not None else sub
-                        level = float(lev) if surface != SURFACE_GROUND else 0.0
-                        yield FieldMessage(parameter, np.asarray(v.values), reference, step,
-                                           surface, level, mem, len(members))
+                    level = 2.0 if surface == SURFACE_ABOVE_GROUND else 0.0
+                    yield FieldMessage(parameter, sub.values, reference, step, surface, level,
+                                       member, len(members))
     return write_messages(path, messages(), grid, packing=packing, bits=bits)
+
+
+def _slices(var, time_dim: str | None, member_dim: str | None, n_times: int,
+            members: list[int]):
+    """``(time index, member number, sub-array)`` of a variable, one per time and member it
+    has (None for a dimension it lacks)."""
+    t_index = range(n_times) if time_dim and time_dim in var.dims else [None]
+    m_index = range(len(members)) if member_dim and member_dim in var.dims else [None]
+    for it in t_index:
+        for im in m_index:
+            sel = {}
+            if it is not None:
+                sel[time_dim] = it
+            if im is not None:
+                sel[member_dim] = im
+            yield it, (None if im is None else members[im]), var.isel(sel)

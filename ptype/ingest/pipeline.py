@@ -239,6 +239,17 @@ def _store(store: Store, key: str, rows: list[dict], summary: dict, now: datetim
         row.status, row.finished_at, row.summary = "done", now, summary
 
 
+def _cpu_s() -> float:
+    """CPU seconds of this process and its finished children (the timeline workers)."""
+    try:
+        import resource
+    except ImportError:  # pragma: no cover - not on this platform
+        return time.process_time()
+    own, kids = resource.getrusage(resource.RUSAGE_SELF), \
+        resource.getrusage(resource.RUSAGE_CHILDREN)
+    return own.ru_utime + own.ru_stime + kids.ru_utime + kids.ru_stime
+
+
 def reject(store: Store, key: str, reason: str, now: datetime) -> None:
     """Mark a claimed file rejected with its reason."""
     with store.write() as s:
@@ -262,13 +273,13 @@ def ingest_file(store: Store, path: str | os.PathLike, *, now: datetime,
     if state != "claimed":
         status = {"done": "already ingested", "rejected": "already rejected"}.get(state, state)
         return {"file": name, "status": status, "file_key": key}
-    log.info("%s: claimed (%s)", name, key[:12])
+    log.info("%s: claimed %s (cpu %.2f s)", name, key[:12], _cpu_s())
     try:
         runs = model_runs(path)
     except ReaderError as exc:
         reject(store, key, str(exc), now)
         raise
-    log.info("%s: read %d runs", name, len(runs))
+    log.info("%s: read %d runs (cpu %.2f s)", name, len(runs), _cpu_s())
     sites = _site_points(store)
     rows, skipped, run_info = [], [], []
     for run in runs:
@@ -283,13 +294,14 @@ def ingest_file(store: Store, path: str | os.PathLike, *, now: datetime,
     summary = {"file": name, "status": "ingested", "file_key": key, "source": source,
                "runs": run_info, "profiles": len(rows), "sites": len(site_ids),
                "skipped": skipped}
-    log.info("%s: extracted %d profiles for %d sites", name, len(rows), len(site_ids))
+    log.info("%s: extracted %d profiles for %d sites (cpu %.2f s)", name, len(rows),
+             len(site_ids), _cpu_s())
     _store(store, key, rows, summary, now)
-    log.info("%s: stored", name)
+    log.info("%s: stored (cpu %.2f s)", name, _cpu_s())
     if evaluate and site_ids:
         summary["alerts"] = evaluate_sites(store, site_ids, now, members=members,
                                            cap_status=cap_status)
-        log.info("%s: alerts evaluated (%s)", name, summary["alerts"])
+        log.info("%s: alerts evaluated %s (cpu %.2f s)", name, summary["alerts"], _cpu_s())
     return summary
 
 

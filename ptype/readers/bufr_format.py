@@ -2,8 +2,9 @@
 
 The reports are the radiosonde sequences of WMO Manual on Codes (WMO-No. 306) Vol. I.2,
 Table D, category 02: 3 09 052 "TEMP, TEMP SHIP and TEMP MOBIL" observations with the
-high-resolution level sequence 3 03 054, and sequences built the same way (any sequence
-whose levels carry these element descriptors of Table B):
+high-resolution level sequence 3 03 054, 3 09 057 (TEMP reports converted to BUFR),
+3 09 056 (descents) and sequences built the same way (any sequence whose levels carry
+these element descriptors of Table B; tests/test_bufr.py reads the three):
 
 =========  ====================================  ===========================
 descriptor element                               profile field

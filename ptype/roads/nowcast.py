@@ -130,9 +130,9 @@ def _common_grid(profiles: Sequence[Profile]) -> np.ndarray:
     # would sit up to 5e-7 below its own rounded level and be added again beside it.
     s_top = round(max(float(s.min()) for s in s_each), 6)
     if len(profiles) > 1 and _on_common_levels(profiles):
-        own = np.unique(np.round(max(s_each, key=len), 6))
-        own = own[(own >= s_top - 1e-9) & (own <= 0.0)]
-        if s_top < own.min() - 1e-9 or own.size < 2:
+        own = np.unique(max(s_each, key=len))
+        own = own[(own >= s_top - 1e-6) & (own <= 0.0)]
+        if s_top < own.min() - 1e-6 or own.size < 2:  # the common top is above its last level
             own = np.unique(np.append(own, s_top))
         return np.sort(own)[::-1]
     grid = np.unique(np.round(np.concatenate(s_each), 6))
