@@ -6,11 +6,13 @@ from __future__ import annotations
 
 import os
 
-from flask import Blueprint, Response, current_app, jsonify, request
-from ptype.api.errors import ApiError
+from flask import (
+    Blueprint, Response, current_app, jsonify, make_response, render_template, request,
+)
+from ptype.api.errors import ApiError, wants_html
 from ptype.api.models import AlertList, AlertListOptions, EvaluateResult
 from ptype.api.openapi import Operation, text_answer
-from ptype.api.plumbing import cap_sender, get_store, now, require_key
+from ptype.api.plumbing import cap_sender, get_store, now, require_key, secure_html
 from ptype.api.site_ops import current_alerts, evaluate_alerts, site_ids
 
 from ptype.clock import iso
@@ -70,11 +72,17 @@ def alert_cap(alert_id: str) -> Response:
 
 @bp.get("/alerts.atom")
 @Operation(id="alerts_atom", tag="Alerts", summary="Atom feed of the alerts (RFC 4287)",
-           description="One entry per alert, linking to its CAP document.",
+           description="One entry per alert, linking to its CAP document. A browser that "
+                       "asks for HTML first gets the same entries as a page in the site's "
+                       "frame; feed readers (and `?raw=1`) get the XML.",
            ok=text_answer("application/atom+xml"))
 def alerts_atom() -> Response:
-    """The alerts as an Atom feed, one entry per alert."""
-    xml = build_feed(current_alerts(), base_url=request.host_url.rstrip("/"),
+    """The alerts as an Atom feed, one entry per alert (a page for browsers)."""
+    alerts = current_alerts()
+    if wants_html() and request.args.get("raw") != "1":
+        html = render_template("feed.html", alerts=alerts)
+        return secure_html(make_response(html))
+    xml = build_feed(alerts, base_url=request.host_url.rstrip("/"),
                      sender=cap_sender(), now=now())
     return Response(xml, mimetype="application/atom+xml")
 

@@ -150,10 +150,7 @@ def _band_colours():
         else:
             w = min(mid / BANDS_C[-1], 1.0)
             colours.append(white + (warm_end - white) * (0.2 + 0.8 * w))
-    cmap = ListedColormap(colours)
-    cmap.set_under(cold_end)
-    cmap.set_over(warm_end)
-    return cmap
+    return ListedColormap(colours).with_extremes(under=cold_end, over=warm_end)
 
 
 def _strip(ax, steps) -> None:

@@ -29,6 +29,8 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from ptype import __version__
+from ptype.style import FIGURE, TYPE_STYLES
+from ptype.style.css import palette_css
 from ptype.codes import LABELS, NO_RESULT, Code
 from ptype.constants import CAUTION
 from ptype.engine.methods import METHOD_NAMES
@@ -337,12 +339,10 @@ def _calibration_lines(report: dict) -> list[str]:
 
 # --------------------------------------------------------------------------- figures + HTML
 
-_INK = "#1f2933"
-_ACCENT = "#2b6cb0"
-_MUTED = "#9aa5b1"
-_CLASS_COLOURS = {"SN": "#3c6fd1", "PL": "#8e44ad", "RASN": "#2a9d8f", "FZRAPL": "#c2185b",
-                  "RAPL": "#b07d2b", "FZRA": "#d1495b", "FZDZ": "#f28482", "RA": "#2e8b57",
-                  "DZ": "#84a98c", "NONE": "#7b8794"}
+_INK = FIGURE["text"]
+_ACCENT = FIGURE["series-1"]
+_MUTED = FIGURE["muted"]
+_CLASS_COLOURS = {code: style.colour for code, style in TYPE_STYLES.items()}
 
 
 def _png(fig) -> bytes:
@@ -403,7 +403,7 @@ def make_figures(report: dict) -> dict[str, bytes]:
             ("gerrity", "Gerrity"))
     x = np.arange(len(names))
     width = 0.2
-    shades = ("#9fb3c8", _ACCENT, "#d1495b", "#2a9d8f")
+    shades = (FIGURE["series-4"], FIGURE["series-1"], FIGURE["series-2"], FIGURE["series-3"])
     for k, ((key, label), colour) in enumerate(zip(keys, shades)):
         vals = [b[key] if b[key] is not None else np.nan for b in blocks]
         ax.bar(x + (k - 1.5) * width, vals, width, label=label, color=colour)
@@ -488,6 +488,7 @@ def html_context(report: dict, figures: dict[str, bytes],
         "report": report, "excluded": report["excluded"], "cons": cons, "caution": CAUTION,
         "images": figure_sources(figures, image_files),
         "labels": {c.name: LABELS[c] for c in Code},
+        "palette_css": palette_css(),
     }
     if cons is None:
         return context
