@@ -74,7 +74,10 @@ def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
     assert page.evaluate("document.activeElement.id") == "demo-load"
     page.keyboard.press("Enter")
 
-    page.wait_for_function("() => document.getElementById('verdict-code').textContent.length > 0",
+    # The user's run ends with the focus on the result heading (the page's own opening run
+    # never moves the focus).
+    page.wait_for_function("() => document.activeElement.id === 'result-heading' &&"
+                           " document.getElementById('verdict-code').textContent.length > 0",
                            timeout=30000)
     # Freezing rain: Bourgouin (2000) warm nose over a shallow refreezing layer, cold ground.
     assert page.inner_text("#verdict-code") == "FZRA"
