@@ -253,3 +253,45 @@ def test_sites_page_in_browser_no_console_errors(app, client, auth):
             browser.close()
     finally:
         server.shutdown()
+
+
+def test_time_height_view_renders_for_every_demo_site(make_app):
+    # The demo (invented region) loaded as `ptype serve --demo` loads it; every site's view
+    # is a PNG, and an SVG keeps its caption text as text.
+    app = make_app(PTYPE_DEMO=True)
+    client = app.test_client()
+    sites = client.get("/v1/sites").json["sites"]
+    assert len(sites) >= 6
+    for site in sites:
+        r = client.get(f"/v1/sites/{site['id']}/timeline.png?hours=12")
+        assert r.status_code == 200 and r.data.startswith(b"\x89PNG"), site["name"]
+    svg = client.get(f"/v1/sites/{sites[0]['id']}/timeline.svg?hours=12")
+    assert svg.mimetype == "image/svg+xml" and b"Guidance only" in svg.data
+    assert client.get(f"/v1/sites/{sites[0]['id']}/timeline.gif").status_code == 400
+    assert client.get("/v1/sites/9999/timeline.png").status_code == 404
+    bad = client.get(f"/v1/sites/{sites[0]['id']}/timeline.png?hours=lots")
+    assert bad.status_code == 400 and bad.json["error"]["field"] == "hours"
+
+
+def test_sites_page_cells_match_the_linked_json(make_app):
+    app = make_app(PTYPE_DEMO=True)
+    client = app.test_client()
+    html = client.get("/sites?hours=24").get_data(as_text=True)
+    import re
+    link = re.search(r'href="(/v1/sites/1/timeline\?[^"]+)"', html).group(1).replace("&amp;", "&")
+    steps = client.get(link).json["steps"]
+    first = html.split("<ol class=\"strip\"", 2)[1].split("</ol>")[0]
+    assert first.count("<li ") == len(steps) == 24
+    assert ">dry<" not in html  # one vocabulary: the code NONE, labelled in the legend
+
+
+def test_errors_are_pages_for_browsers_and_json_for_clients(client):
+    page = client.get("/missing", headers={"Accept": "text/html,application/xhtml+xml,*/*;q=0.8"})
+    assert page.status_code == 404 and page.mimetype == "text/html"
+    assert "Guidance only" in page.get_data(as_text=True)
+    assert client.get("/missing").json["error"]["code"] == "not_found"
+    assert client.get("/missing", headers={"Accept": "application/json"}).mimetype == \
+        "application/json"
+    feed = client.get("/v1/alerts.atom", headers={"Accept": "text/html"})
+    assert feed.mimetype == "text/html" and "Alert feed" in feed.get_data(as_text=True)
+    assert client.get("/v1/alerts.atom").mimetype == "application/atom+xml"

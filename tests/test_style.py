@@ -200,3 +200,16 @@ def test_the_stray_colour_check_catches_literals():
     assert NAMED_COLOUR.search('ax.set_facecolor("white")') is None  # call, not keyword
     assert NAMED_COLOUR.search('facecolor="white"')
     assert not COLOUR_LITERAL.search('<a href="#main">')
+
+
+def test_palette_document_lists_every_type_with_its_colour():
+    text = (ROOT / "docs" / "palette.md").read_text()
+    for s in TYPE_STYLES.values():
+        assert f"| {s.code} | {s.label} | `{s.colour}` |" in text, s.code
+    assert (ROOT / "docs" / "images" / "palette.png").stat().st_size > 10_000
+
+
+def test_swatch_draws_from_the_palette():
+    pytest.importorskip("matplotlib")
+    from ptype.plot.swatch import draw_swatch
+    assert draw_swatch().startswith(b"\x89PNG")

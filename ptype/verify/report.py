@@ -346,6 +346,8 @@ _CLASS_COLOURS = {code: style.colour for code, style in TYPE_STYLES.items()}
 
 
 def _png(fig) -> bytes:
+    """The figure as PNG, with the caution every figure carries under it."""
+    fig.text(0.01, -0.02, CAUTION, fontsize=6, color=_MUTED, va="top")
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110, bbox_inches="tight")
     return buf.getvalue()
@@ -370,8 +372,8 @@ def make_figures(report: dict) -> dict[str, bytes]:
         # Classes with enough observations, bins with at least 5 cases: fewer, readable lines.
         for name, rel in cons["reliability"]["classes"].items():
             if (cons["brier"][name]["observed_frequency"] or 0) >= 0.05:
-                curve(rel, min_count=5, color=_CLASS_COLOURS.get(name, _MUTED), lw=1, ms=3,
-                      alpha=0.8, label=f"{name} (bins with 5+ cases)")
+                curve(rel, min_count=5, color=_CLASS_COLOURS.get(name, _MUTED), lw=1.4, ms=4,
+                      mec=_INK, mew=0.5, label=f"{name} (bins with 5+ cases)")
         pooled = cons["reliability"]["all"]
         curve(pooled, color=_INK, lw=2.2, ms=5, label="all classes pooled")
         n_classes = len(ORDER)
@@ -440,7 +442,6 @@ def _calibration_figure(held: dict) -> bytes:
                  f"cross-validation, {held['n']} cases; bins of 5+)", fontsize=9)
     ax.legend(fontsize=8, frameon=False, loc="upper left")
     ax.grid(alpha=0.3)
-    fig.text(0.01, 0.005, CAUTION, fontsize=6, color=_MUTED)
     return _png(fig)
 
 
