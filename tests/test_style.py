@@ -12,7 +12,12 @@ import pytest
 from ptype.codes import Code
 from ptype.style import GRIB2_STYLE, TYPE_STYLES, UI
 from ptype.style.colourvision import (
-    CVD_KINDS, ciede2000, contrast_ratio, hex_to_rgb, min_pair_difference, simulate_cvd,
+    CVD_KINDS,
+    ciede2000,
+    contrast_ratio,
+    hex_to_rgb,
+    min_pair_difference,
+    simulate_cvd,
     srgb_to_lab,
 )
 from ptype.style.css import palette_css

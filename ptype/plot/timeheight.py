@@ -157,6 +157,7 @@ def _strip(ax, steps) -> None:
     """The hourly types as coloured, patterned cells with their letters."""
     from matplotlib.dates import date2num
     from matplotlib.patches import Rectangle
+
     from ptype.clock import parse_time
     ax.set_yticks([])
     ax.set_ylim(0, 1)

@@ -6,8 +6,15 @@ else in the code base writes a colour literal (a test holds us to it).
 """
 
 from ptype.style.palette import (
-    FIGURE, GRIB2_STYLE, HAZARD_STYLES, SEVERITY_COLOURS, TYPE_STYLES, UI, HazardStyle,
-    TypeStyle, type_style,
+    FIGURE,
+    GRIB2_STYLE,
+    HAZARD_STYLES,
+    SEVERITY_COLOURS,
+    TYPE_STYLES,
+    UI,
+    HazardStyle,
+    TypeStyle,
+    type_style,
 )
 
 __all__ = ["FIGURE", "GRIB2_STYLE", "HAZARD_STYLES", "SEVERITY_COLOURS", "TYPE_STYLES", "UI",

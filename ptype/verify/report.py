@@ -29,11 +29,11 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from ptype import __version__
-from ptype.style import FIGURE, TYPE_STYLES
-from ptype.style.css import palette_css
 from ptype.codes import LABELS, NO_RESULT, Code
 from ptype.constants import CAUTION
 from ptype.engine.methods import METHOD_NAMES
+from ptype.style import FIGURE, TYPE_STYLES
+from ptype.style.css import palette_css
 from ptype.verify import scores as sc
 from ptype.verify.manifest import Case
 from ptype.verify.observations import parse_observation
