@@ -39,6 +39,10 @@ PALETTE = FIGURE
 
 FORMATS = {"png": "image/png", "svg": "image/svg+xml"}
 
+#: Top of the surface box in the column right of the chart, fraction of the axes height;
+#: energy labels start above it.
+SURFACE_BOX_TOP = 0.24
+
 #: Upper edge of the drawing, hPa: precipitation type is decided below ~500 hPa (common practice);
 #: we show a little more for the cloud tops.
 TOP_HPA = 400.0
@@ -233,9 +237,11 @@ def _surface_marker(skew, p0: float, t0: float, tw0: float, td0: float) -> None:
     parts = [f"T {t0:.1f} \u00b0C"]
     parts += [f"{name} {v:.1f} \u00b0C" for name, v in (("Tw", tw0), ("Td", td0))
               if np.isfinite(v)]
-    ax.annotate("Surface " + f"{p0:.0f} hPa\n" + "  ".join(parts), xy=(t0, p0),
-                xycoords="data", xytext=(0.98, 0.05), textcoords="axes fraction",
-                ha="right", va="bottom", fontsize=9, color=PALETTE["text"], zorder=11,
+    # In the column right of the chart, at its foot: nothing is drawn over the surface.
+    ax.annotate(f"Surface {p0:.0f} hPa\n" + "\n".join(parts), xy=(t0, p0),
+                xycoords="data", xytext=(1.03, 0.0), textcoords="axes fraction",
+                ha="left", va="bottom", fontsize=9, color=PALETTE["text"], zorder=11,
+                annotation_clip=False, gid="surface-values",
                 bbox={"boxstyle": "round,pad=0.3", "facecolor": PALETTE["axes"],
                       "edgecolor": PALETTE["temperature"]},
                 arrowprops={"arrowstyle": "-", "color": PALETTE["temperature"],
@@ -261,8 +267,13 @@ def _low_panel(fig, prof: dict, layers: list[dict]) -> None:
             ax.plot(values[low], agl_km[low], style, color=colour, linewidth=2, label=label)
     ax.fill_betweenx(agl_km[low], 0, t[low], where=t[low] > 0, color=PALETTE["melt"],
                      alpha=0.5, linewidth=0)
-    ax.fill_betweenx(agl_km[low], 0, t[low], where=t[low] < 0, color=PALETTE["refreeze"],
-                     alpha=0.35, linewidth=0)
+    # Cold air counts as refreezing only under a melting layer (as on the chart above).
+    warm_heights = agl_km[low][t[low] > 0]
+    if warm_heights.size:
+        under = t[low] < 0
+        under &= agl_km[low] <= warm_heights.max()
+        ax.fill_betweenx(agl_km[low], 0, t[low], where=under, color=PALETTE["refreeze"],
+                         alpha=0.35, linewidth=0)
     ax.axvline(0.0, color=PALETTE["zero"], linewidth=1.4)
     ax.set_ylim(0, 3)
     ax.grid(True, color=PALETTE["grid"], linewidth=0.5)
@@ -343,18 +354,19 @@ def _energy_labels(ax, labels: list[tuple[float, str, float, str]]) -> None:
         return
     y0, y1 = ax.get_ylim()  # bottom (high pressure), top
     span = np.log(y0) - np.log(y1)
-    # Positions as fractions of the axis height, pushed apart by at least 0.075.
+    # Positions as fractions of the axis height, pushed apart by at least 0.075 and kept
+    # above the surface box at the foot of the column.
     wanted = sorted(((np.log(y0) - np.log(mid)) / span, i) for i, (mid, *_r) in
                     enumerate(labels))
     placed: dict[int, float] = {}
     last = -1.0
     for frac, i in wanted:
-        frac = max(frac, last + 0.075, 0.04)
+        frac = max(frac, last + 0.075, SURFACE_BOX_TOP)
         placed[i] = last = frac
     trans = blended_transform_factory(ax.transAxes, ax.transAxes)
     for i, (mid, kind, area, colour) in enumerate(labels):
         word = "melting" if kind == "warm" else "refreezing"
-        ax.annotate(f"{word} {area:.0f} J/kg", xy=(0.0, mid), xycoords="data",
+        ax.annotate(f"{word} {area:.0f} J/kg", xy=(0.0, mid), xycoords="data", gid="energy",
                     xytext=(1.03, min(placed[i], 0.97)), textcoords=trans, fontsize=8.5,
                     color=PALETTE["text"], ha="left", va="center", zorder=8,
                     annotation_clip=False,
