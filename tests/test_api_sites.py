@@ -295,3 +295,12 @@ def test_errors_are_pages_for_browsers_and_json_for_clients(client):
     feed = client.get("/v1/alerts.atom", headers={"Accept": "text/html"})
     assert feed.mimetype == "text/html" and "Alert feed" in feed.get_data(as_text=True)
     assert client.get("/v1/alerts.atom").mimetype == "application/atom+xml"
+
+
+def test_sites_page_says_when_the_forecast_is_shorter_than_the_horizon(client, auth):
+    site = _site(client, auth)
+    client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs(), "issued_time": NOW},
+                headers=auth)
+    html = client.get("/sites?hours=24").get_data(as_text=True)
+    # 6 h of profiles at 1-hour steps: 7 cells, and the page says so.
+    assert "The stored forecast ends at 06:00 UTC: 7 of the 24 hours are shown." in html

@@ -219,6 +219,18 @@ def test_opening_demo_never_replaces_what_the_user_typed(server, browser):  # no
     context.close()
 
 
+def test_forecaster_without_demo_shows_the_three_ways_in(server, page):
+    # No demo installed (the list answers empty): the right half explains what to do.
+    page.route("**/v1/demo", lambda route: route.fulfill(
+        status=200, content_type="application/json", body='{"soundings": []}'))
+    page.goto(server + "/")
+    page.wait_for_function("() => document.getElementById('demo-select').options[0]"
+                           ".textContent.includes('No demo')")
+    assert page.locator("#empty-state").is_visible()
+    assert page.locator("#empty-state li").count() == 3
+    assert page.locator("#result").is_hidden()
+
+
 def test_new_run_clears_previous_result_and_options_are_remembered(server, page):
     page.goto(server + "/")
     page.wait_for_function("() => document.getElementById('verdict-code').textContent",
