@@ -27,8 +27,8 @@ from flask import Flask
 #: in the OpenAPI document.  Each exposes ``bp`` and may expose ``init_app(app)``.
 BLUEPRINT_MODULES = ["ptype.api.diagnose", "ptype.api.diagram", "ptype.api.demo",
                      "ptype.api.health", "ptype.api.verify", "ptype.api.sites", "ptype.api.ingest",
-                     "ptype.api.alerts", "ptype.api.page", "ptype.api.docs",
-                     "ptype.api.sites_page"]
+                     "ptype.api.site_figures", "ptype.api.alerts", "ptype.api.page",
+                     "ptype.api.docs", "ptype.api.sites_page", "ptype.api.frame"]
 
 DEFAULT_CONFIG: dict[str, Any] = {
     # Largest request body accepted, bytes.

@@ -6,12 +6,21 @@ from __future__ import annotations
 
 import os
 
-from flask import Blueprint, Flask, Response, current_app, jsonify, request
-from ptype.api.errors import ApiError
+from flask import (
+    Blueprint,
+    Flask,
+    Response,
+    current_app,
+    jsonify,
+    make_response,
+    render_template,
+    request,
+)
+from ptype.api.errors import ApiError, wants_html
 from ptype.api.inputs import check_id
 from ptype.api.models import AlertList, AlertListOptions, EvaluateResult
 from ptype.api.openapi import Operation, text_answer
-from ptype.api.plumbing import cap_sender, get_store, now
+from ptype.api.plumbing import cap_sender, get_store, now, secure_html
 from ptype.api.site_ops import current_alerts, evaluate_alerts, site_ids
 from ptype.api.tenants import read_owner, reader, require_caller
 
@@ -86,12 +95,17 @@ def alert_cap(alert_id: str) -> Response:
 
 @bp.get("/alerts.atom")
 @Operation(id="alerts_atom", tag="Alerts", summary="Atom feed of the alerts (RFC 4287)",
-           description="One entry per alert, linking to its CAP document.",
+           description="One entry per alert, linking to its CAP document. A browser that "
+                       "asks for HTML first gets the same entries as a page in the site's "
+                       "frame; feed readers (and `?raw=1`) get the XML.",
            ok=text_answer("application/atom+xml"), errors=(401, 403))
 def alerts_atom() -> Response:
     """The alerts as an Atom feed, one entry per alert (of the reader's owner when reads are
-    owner-scoped)."""
+    owner-scoped; a page for browsers)."""
     alerts = current_alerts(owner=read_owner(reader()))
+    if wants_html() and request.args.get("raw") != "1":
+        html = render_template("feed.html", alerts=alerts)
+        return secure_html(make_response(html))
     xml = build_feed(alerts, base_url=request.host_url.rstrip("/"), sender=cap_sender(),
                      now=now())
     return Response(xml, mimetype="application/atom+xml")

@@ -2,7 +2,7 @@
 
 The body is the same as for ``POST /v1/diagnose`` (JSON document, CSV or WMO TEMP); the
 image format comes from ``?format=png|svg`` or else the ``Accept`` header (PNG by
-default).  Errors are JSON like everywhere else.
+default).  Errors are JSON for API clients, as everywhere else.
 """
 
 from __future__ import annotations
