@@ -10,7 +10,7 @@ from flask import Blueprint, Response, current_app, jsonify, request
 from ptype.api.errors import ApiError
 from ptype.api.models import AlertList, AlertListOptions, EvaluateResult
 from ptype.api.openapi import Operation, text_answer
-from ptype.api.plumbing import cap_sender, get_store, now, require_key
+from ptype.api.plumbing import cap_sender, clock, get_store, now, require_key
 from ptype.api.site_ops import current_alerts, evaluate_alerts, site_ids
 
 from ptype.clock import iso
@@ -44,7 +44,9 @@ def list_alerts() -> Response:
         raise ApiError(400, "invalid_option", f"site = {site!r}: expected a site id",
                        "site") from None
     active_only = request.args.get("active") in ("1", "true", "yes")
-    return jsonify({"alerts": current_alerts(site_id, not active_only), "now": iso(now()),
+    service_clock = clock()
+    return jsonify({"alerts": current_alerts(site_id, not active_only),
+                    "now": iso(service_clock.now), "clock": service_clock.to_dict(),
                     "caution": CAUTION})
 
 

@@ -397,9 +397,19 @@ class AlertOut(ResponseModel):
     references: list
 
 
+class ClockOut(ResponseModel, extra="forbid"):
+    """The one clock of the service: the time it used and where that time came from."""
+
+    now: str = Field(..., description="The time used, ISO 8601 UTC.")
+    source: str = Field(..., description="`PTYPE_NOW` (fixed by configuration), `demo` (the "
+                                         "issue time of the invented demo storm) or `system`.")
+    text: str = Field(..., description="The time and its source in words, for screens.")
+
+
 class AlertList(ResponseModel):
     alerts: list[AlertOut]
     now: str
+    clock: ClockOut
     caution: str
 
 

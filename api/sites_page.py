@@ -104,8 +104,6 @@ def sites_page() -> Response:
     t = now()
     hours = page_hours(request.args.get("hours"))
     store = get_store()
-    with store.write() as s:
-        service.expire_due(s, t)
     sections = []
     with store.read() as s:
         sender = cap_sender()

@@ -103,9 +103,18 @@ def _v1_initial(conn: Connection) -> None:
     md.create_all(conn)
 
 
+def _v2_settings(conn: Connection) -> None:
+    md = sa.MetaData()
+    sa.Table("settings", md,
+             sa.Column("name", sa.String(64), primary_key=True),
+             sa.Column("value", sa.String(400), nullable=False))
+    md.create_all(conn)
+
+
 #: Ordered migrations: (version, name, function(connection)).  Append only.
 MIGRATIONS: list[tuple[int, str, Callable[[Connection], None]]] = [
     (1, "initial schema: keys, sites, profiles, observations, alerts, alert messages", _v1_initial),
+    (2, "settings of the store (the demo's clock)", _v2_settings),
 ]
 
 LATEST_VERSION = MIGRATIONS[-1][0]

@@ -146,3 +146,11 @@ class AlertMessage(Base):
     snapshot: Mapped[dict[str, Any]] = mapped_column(sa.JSON)
 
     alert: Mapped[Alert] = relationship(back_populates="messages")
+
+
+class Setting(Base):
+    """A named value that belongs to the store itself (e.g. ``demo_clock``)."""
+
+    __tablename__ = "settings"
+    name: Mapped[str] = mapped_column(sa.String(64), primary_key=True)
+    value: Mapped[str] = mapped_column(sa.String(400))
