@@ -193,6 +193,9 @@ class Diagnosis(ResponseModel):
                                 description="Input oddities that were accepted but adjusted.")
     site: dict[str, Any] | None = None
     valid_time: str | None = None
+    when: str | None = Field(None, description="The time for a verdict line: the valid time, "
+                             "or the day and hour of a WMO TEMP message (which gives no month "
+                             "or year).")
 
 
 # -- batch ------------------------------------------------------------------------------

@@ -131,6 +131,21 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+#: Library hints that name a Python argument, and what a terminal user types instead.
+LIBRARY_HINTS = {"pass format= explicitly": "name it with --input-format json|csv|temp|netcdf"}
+
+
+def cli_words(message: str, args: argparse.Namespace) -> str:
+    """``message`` with hints about Python arguments put in terms of the command's options."""
+    for hint, option in LIBRARY_HINTS.items():
+        if hint in message:
+            flag = option.split()[3]
+            usable = hasattr(args, flag.lstrip("-").replace("-", "_"))
+            message = message.replace(hint, option if usable else
+                                      "give the file a .json, .csv or .txt (TEMP) name")
+    return message
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; the exit status (2 for bad input, with one line on
     stderr)."""
@@ -146,7 +161,7 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return int(args.func(args) or 0)
     except (ProfileError, OptionError) as exc:
-        print(f"ptype {args.command}: error: {exc}", file=sys.stderr)
+        print(f"ptype {args.command}: error: {cli_words(str(exc), args)}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except (FileNotFoundError, IsADirectoryError, PermissionError) as exc:
         print(f"ptype {args.command}: error: {exc.filename}: {exc.strerror}", file=sys.stderr)

@@ -8,6 +8,7 @@ import shutil
 import sys
 
 from ptype.constants import CAUTION
+from ptype.engine.methods import method_label
 from ptype.engine.probability import DEFAULT_MEMBERS
 
 BAR_WIDTH = 30
@@ -21,6 +22,8 @@ def register(sub: argparse._SubParsersAction) -> None:
                                    "and the reasoning of every method.")
     p.add_argument("paths", nargs="+", metavar="PATH", help="profile files (- for standard input)")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format")
+    p.add_argument("--input-format", choices=("json", "csv", "temp", "netcdf"), default=None,
+                   help="format of the profiles (default: from the file name or content)")
     p.add_argument("--members", type=int, default=DEFAULT_MEMBERS,
                    help=f"Monte-Carlo members for the probabilities (default {DEFAULT_MEMBERS}; "
                         "0 = none)")
@@ -35,10 +38,12 @@ def register(sub: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     """Diagnose every profile named in ``args`` and print the result; exit status."""
     from ptype.engine.diagnosis import diagnose
+    from ptype.readers import read_profile
     out = []
     for path in args.paths:
         source = sys.stdin.read() if path == "-" else path
-        d = diagnose(source, members=args.members, seed=args.seed, methods=args.methods,
+        profile = read_profile(source, format=args.input_format)
+        d = diagnose(profile, members=args.members, seed=args.seed, methods=args.methods,
                      wetbulb=args.wetbulb)
         result = d.to_dict()
         result["source"] = path
@@ -57,12 +62,7 @@ def render_table(r: dict) -> str:
     """A readable terminal summary of one diagnosis dict."""
     width = min(shutil.get_terminal_size((100, 24)).columns, 110)
     lines = []
-    title = r.get("source", "")
-    site = (r.get("site") or {}).get("name")
-    if site:
-        title = f"{site} - {title}"
-    if r.get("valid_time"):
-        title += f" - valid {r['valid_time']}"
+    title = title_line(r)
     lines.append(title)
     lines.append("=" * min(len(title), width))
     head = f"{r['ptype']}  {r['ptype_label']}"
@@ -76,13 +76,14 @@ def render_table(r: dict) -> str:
             bar = "#" * max(1, round(p * BAR_WIDTH)) if p > 0 else ""
             lines.append(f"  {code:<7} {bar:<{BAR_WIDTH}} {p:5.2f}")
     lines.append("")
-    lines.append(f"  {'method':<16} {'type':<7} rule that fired")
+    lines.append(f"  {'type':<7} each method's own judgement (the rule that fired)")
     for name, m in r["methods"].items():
         fired = [s for s in m["steps"] if s["rule"] == m.get("rule")]
         text = (fired or m["steps"] or [{"text": ""}])[-1]["text"]
         code = m["ptype"] or "-"
-        lines.append(f"  {name:<16} {code:<7} {_clip(text, width - 27)}")
+        lines.append(f"  {code:<7} {_clip(f'{method_label(name)}: {text}', width - 10)}")
     lines.append("")
+    lines.append("  Overall, all methods together:")
     for sentence in r["explanation"]:
         lines.append(_wrap(sentence, width, "  "))
     for w in r.get("warnings", []):
@@ -90,6 +91,15 @@ def render_table(r: dict) -> str:
     lines.append("")
     lines.append(_wrap(CAUTION, width, ""))
     return "\n".join(lines)
+
+
+def title_line(r: dict) -> str:
+    """The verdict's first line: the place (site name, else station or site id), the time
+    and the file."""
+    site = r.get("site") or {}
+    place = site.get("name") or (f"station {site['id']}" if site.get("id") else None)
+    parts = [p for p in (place, r.get("when") and f"valid {r['when']}", r.get("source")) if p]
+    return " - ".join(parts)
 
 
 def _clip(text: str, n: int) -> str:
