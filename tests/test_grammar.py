@@ -168,3 +168,19 @@ def test_a_temp_verdict_names_station_and_time(client):
     # Each method's row says whose judgement it is; the explanation is introduced as overall.
     assert "  FZRA    Cloud-top method: " in r.stdout
     assert "Overall, all methods together:" in r.stdout
+
+
+@pytest.mark.parametrize("args,start", [
+    (["timeline", "{series}", "--step", "7x"], "--step '7x'"),
+    (["timeline", "{series}", "--now", "tomorrow"], "--now 'tomorrow'"),
+    (["diagnose", "{series}", "--members", "-1"], "--members -1"),
+])
+def test_cli_errors_name_the_option(args, start):
+    import subprocess
+    import sys
+    series = str(min((DEMO / "series").glob("*/*.json")))
+    argv = [a.replace("{series}", series) for a in args]
+    r = subprocess.run([sys.executable, "-m", "ptype", *argv], text=True, capture_output=True,
+                       timeout=60, check=False,
+                       env={"PYTHONPATH": str(ROOT), "PATH": "/usr/bin:/bin"})
+    assert r.returncode == 2 and r.stderr.startswith(f"ptype {args[0]}: error: {start}"), r.stderr
