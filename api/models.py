@@ -361,6 +361,16 @@ class TimelineStep(ResponseModel):
     hazards: dict[str, Any]
 
 
+class ClockOut(ResponseModel, extra="forbid"):
+    """The one clock of the service: the time it used and where that time came from."""
+
+    now: str = Field(..., description="The time used, ISO 8601 UTC.")
+    source: str = Field(..., description="`PTYPE_NOW` (fixed by configuration), `demo` (the "
+                                         "issue time of the invented demo storm), `system`, or "
+                                         "`request` (a time the request asked for).")
+    text: str = Field(..., description="The time and its source in words, for screens.")
+
+
 class Timeline(ResponseModel):
     """Steps, type transitions and hazard totals for one site; guidance only."""
 
@@ -368,6 +378,7 @@ class Timeline(ResponseModel):
     transitions: list[dict[str, Any]] = Field(
         ..., description="`{time, from, to}` changes of type.")
     totals: dict[str, Any]
+    clock: ClockOut
     caution: str
 
 
@@ -398,15 +409,6 @@ class AlertOut(ResponseModel):
     msg_type: str = Field(
         ..., description="CAP msgType of the latest message: Alert, Update, Cancel.")
     references: list
-
-
-class ClockOut(ResponseModel, extra="forbid"):
-    """The one clock of the service: the time it used and where that time came from."""
-
-    now: str = Field(..., description="The time used, ISO 8601 UTC.")
-    source: str = Field(..., description="`PTYPE_NOW` (fixed by configuration), `demo` (the "
-                                         "issue time of the invented demo storm) or `system`.")
-    text: str = Field(..., description="The time and its source in words, for screens.")
 
 
 class AlertList(ResponseModel):

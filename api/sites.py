@@ -30,12 +30,20 @@ from ptype.api.models import (
     TimelineOptions,
 )
 from ptype.api.openapi import Operation
-from ptype.api.plumbing import get_store, now, request_json, require_key, store_for, validate_body
+from ptype.api.plumbing import (
+    clock,
+    get_store,
+    now,
+    request_json,
+    require_key,
+    store_for,
+    validate_body,
+)
 from ptype.api.site_ops import evaluate_after_ingest, site_dict, site_or_404
 from sqlalchemy.orm import Session
 
 from ptype import Profile
-from ptype.clock import iso, parse_time
+from ptype.clock import Clock, iso, parse_time
 from ptype.errors import OptionError, ProfileError
 from ptype.roads.alerts import service
 from ptype.store import Observation, ProfileRecord, Site
@@ -243,9 +251,10 @@ def get_timeline(site_id: int) -> Response:
     if "adjustments" in args:
         text = args["adjustments"].strip()
         adjustments = [] if text in ("", "none") else [a.strip() for a in text.split(",")]
-    t = parse_time(args["now"], "now") if "now" in args else now()
+    used = Clock(parse_time(args["now"], "now"), "request") if "now" in args else clock()
     with get_store().read() as s:
         site = site_or_404(s, site_id)
-        out = service.site_timeline(s, site, t, hours=hours, step=args.get("step", "15min"),
-                                    members=members, adjustments=adjustments)
-    return jsonify(out)
+        out = service.site_timeline(s, site, used.now, hours=hours,
+                                    step=args.get("step", "15min"), members=members,
+                                    adjustments=adjustments)
+    return jsonify({**out, "clock": used.to_dict()})

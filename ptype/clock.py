@@ -65,12 +65,14 @@ CLOCK_SOURCES = {
     "PTYPE_NOW": "fixed by PTYPE_NOW",
     "demo": "demo clock: the issue time of the invented demo storm; set PTYPE_NOW to change it",
     "system": "system clock",
+    "request": "the time the request asked for",
 }
 
 
 @dataclass(frozen=True)
 class Clock:
-    """A time and the clock it was read from (``PTYPE_NOW``, ``demo`` or ``system``)."""
+    """A time and the clock it was read from (``PTYPE_NOW``, ``demo`` or ``system``; or
+    ``request`` for a time a request asked for)."""
 
     now: datetime
     source: str

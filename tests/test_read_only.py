@@ -137,6 +137,13 @@ def test_cli_and_service_agree_on_active_alerts_at_the_demo_clock(demo_store, mo
     table = _ptype(["alerts"], data_dir).stdout
     assert f"Active alerts at {DEMO_CLOCK} (demo clock" in table
     assert table.count("\nactive ") == len(served["alerts"])
+    # The timeline JSON states the same clock, or the time a request asked for.
+    site = served["alerts"][0]["site"]["id"]
+    client = app.test_client()
+    timeline = client.get(f"/v1/sites/{site}/timeline?hours=1&members=0").get_json()
+    assert timeline["clock"] == served["clock"] and timeline["now"] == DEMO_CLOCK
+    asked = client.get(f"/v1/sites/{site}/timeline?hours=1&members=0&now={DAY_LATER}")
+    assert asked.get_json()["clock"]["source"] == "request"
     # The page of sites shows the same alerts.
     page = app.test_client().get("/sites").get_data(as_text=True)
     for a in served["alerts"]:
