@@ -36,6 +36,11 @@ MISTAKES: list[tuple[str, str]] = [
     (r"\d(?:m|K|h|s)\b", "number and unit not spaced"),
     (r"(?<![\d.])-\d", "hyphen for a minus sign"),
     (r"\brefreeze them\b", "'them' with nothing to refer to"),
+    (r">=|<=|!=", "ASCII comparison sign in a sentence (use the true sign)"),
+    (r":\s[^:;.,()]{1,25}:\s", "two colons a few words apart"),
+    (r"(?<![+\u2212\d.,])(?:[1-9]\d*(?:\.\d+)?|0\.\d*[1-9]\d*) °C",
+     "temperature without its sign"),
+    (r"^But\b", "a sentence that only reads after another one"),
     # Subject-verb pairs we know are wrong.
     ((r"(?i)\b(?:drops|layers|methods|members|particles) "
       r"(?:stays|melts|refreezes|gives|is|was|has)\b"), "plural subject with a singular verb"),
@@ -65,7 +70,9 @@ def test_the_rules_catch_what_they_name():
            "The air is 5°C.", "Drops stays liquid.", "The cloud reach 400 hPa.",
            "the cloud top is at 400 hPa.", "The cloud top is at 400 hPa",
            "The probability is nan.", "Snow is 70% likely.", "The air is -5.0 °C.",
-           "A ice pellet falls.", "Less than needed to refreeze them."]
+           "A ice pellet falls.", "Less than needed to refreeze them.",
+           "Rule liquid >= 0.9: rain.", "Surface warm area 8 J/kg: partial melting: rain.",
+           "Surface air 4.2 °C: drizzle.", "But there is no cloud."]
     for sentence in bad:
         assert problems(sentence), sentence
     assert not problems("The cloud top is at 400 hPa, where the cloud reaches −29.5 °C: cold "
