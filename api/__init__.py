@@ -26,9 +26,9 @@ from flask import Flask
 #: Blueprint modules, registered in this order, which is also the order of the operations
 #: in the OpenAPI document.  Each exposes ``bp`` and may expose ``init_app(app)``.
 BLUEPRINT_MODULES = ["ptype.api.diagnose", "ptype.api.diagram", "ptype.api.demo",
-                     "ptype.api.health", "ptype.api.verify", "ptype.api.sites",
-                     "ptype.api.alerts", "ptype.api.page", "ptype.api.docs",
-                     "ptype.api.sites_page"]
+                     "ptype.api.health", "ptype.api.verify", "ptype.api.sites", "ptype.api.ingest",
+                     "ptype.api.site_figures", "ptype.api.alerts", "ptype.api.page",
+                     "ptype.api.docs", "ptype.api.sites_page", "ptype.api.frame"]
 
 DEFAULT_CONFIG: dict[str, Any] = {
     # Largest request body accepted, bytes.
@@ -43,6 +43,8 @@ DEFAULT_CONFIG: dict[str, Any] = {
     # bounds the time and memory one request can take (about 3 s and 1 GB at this limit on
     # a 2-core machine; 60 levels x 50 members is 3000).
     "PTYPE_MAX_MEMBER_LEVELS": 1_000_000,
+    # Largest model file accepted by POST /v1/ingest, bytes.
+    "PTYPE_MAX_INGEST_BYTES": 1 << 30,
     # Largest number of cases in one verification request.
     "PTYPE_MAX_VERIFY_CASES": 500,
     # Largest cases x members product in one verification request (bounds its work).
@@ -64,7 +66,7 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
         Overrides of :data:`DEFAULT_CONFIG` (and any Flask setting).  ``PTYPE_DATA_DIR``
         defaults to the environment variable of that name, else ``./.data``.
     """
-    from ptype.api import errors, plumbing, site_ops
+    from ptype.api import budget, clients, errors, headers, plumbing, site_ops
     app = Flask(__name__, static_folder="static", static_url_path="/static")
     app.config.update(DEFAULT_CONFIG)
     app.config["PTYPE_DATA_DIR"] = os.environ.get("PTYPE_DATA_DIR") or str(Path.cwd() / ".data")
@@ -72,6 +74,9 @@ def create_app(config: Mapping[str, Any] | None = None) -> Flask:
         app.config.update(dict(config))
     app.json.sort_keys = False
     errors.init_app(app)
+    headers.init_app(app)
+    budget.init_app(app)
+    clients.init_app(app)
     plumbing.init_app(app)
     for name in BLUEPRINT_MODULES:
         module = importlib.import_module(name)

@@ -10,6 +10,7 @@ from __future__ import annotations
 from typing import Any
 
 from flask import Blueprint, Response, current_app
+from ptype.api import budget
 from ptype.api.errors import ApiError, error_body
 from ptype.api.examples import EXAMPLE_DOCUMENT, PROFILE_BODIES
 from ptype.api.models import BatchRequest, BatchResponse, DiagnoseOptions, Diagnosis
@@ -40,14 +41,16 @@ bp = Blueprint("diagnose", __name__, url_prefix="/v1")
                 "answer gives the consensus type, its probabilities, each method's result "
                 "with the rule that fired, the layers, a plain-language explanation and "
                 "the caution.",
-    query=DiagnoseOptions, body=PROFILE_BODIES, ok=Diagnosis, errors=(400, 413, 415, 422))
+    query=DiagnoseOptions, body=PROFILE_BODIES, ok=Diagnosis,
+    errors=(400, 413, 415, 422, 503))
 def diagnose() -> Response:
     """Diagnose the one profile of the request body."""
     options = parse_options()
     kwargs = diagnose_kwargs(options)
     profile = profile_from_request(options)
     check_work(profile.n_levels, kwargs)
-    result = ptype.diagnose(profile, **kwargs)
+    with budget.computing():
+        result = ptype.diagnose(profile, **kwargs)
     return json_response(result.to_dict())
 
 
@@ -62,7 +65,7 @@ def diagnose() -> Response:
     query=DiagnoseOptions,
     body={"application/json": {"schema": BatchRequest,
                                "example": {"profiles": [EXAMPLE_DOCUMENT]}}},
-    ok=BatchResponse, errors=(400, 413, 415, 422),
+    ok=BatchResponse, errors=(400, 413, 415, 422, 503),
     curl="curl -s -X POST {url} -H 'Content-Type: application/json' "
          "--data '{\"profiles\": [...]}'")
 def diagnose_batch() -> Response:
@@ -79,8 +82,9 @@ def diagnose_batch() -> Response:
         else:
             valid.append((i, item))
     check_work(sum(p.n_levels for _, p in valid), kwargs)
-    for i, diagnosis in zip((i for i, _ in valid),
-                            ptype.diagnose_many([p for _, p in valid], **kwargs)):
+    with budget.computing():
+        diagnoses = ptype.diagnose_many([p for _, p in valid], **kwargs)
+    for (i, _), diagnosis in zip(valid, diagnoses):
         results[i] = diagnosis.to_dict()
     return json_response({"results": results})
 

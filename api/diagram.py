@@ -2,12 +2,13 @@
 
 The body is the same as for ``POST /v1/diagnose`` (JSON document, CSV or WMO TEMP); the
 image format comes from ``?format=png|svg`` or else the ``Accept`` header (PNG by
-default).  Errors are JSON like everywhere else.
+default).  Errors are JSON for API clients, as everywhere else.
 """
 
 from __future__ import annotations
 
 from flask import Blueprint, Response, request
+from ptype.api import budget
 from ptype.api.examples import PROFILE_BODIES
 from ptype.api.models import DiagramOptions
 from ptype.api.openapi import Operation
@@ -38,7 +39,7 @@ def image_format(options: DiagramOptions) -> str:
     ok={"description": "The diagram.",
         "content": {"image/png": {"schema": {"type": "string", "format": "binary"}},
                     "image/svg+xml": {"schema": {"type": "string"}}}},
-    errors=(400, 413, 415, 422),
+    errors=(400, 413, 415, 422, 503),
     curl="curl -s -X POST '{url}?format=svg' -H 'Content-Type: application/json' "
          "--data @profile.json -o diagram.svg")
 def diagram() -> Response:
@@ -48,8 +49,9 @@ def diagram() -> Response:
     fmt = image_format(options)
     profile = profile_from_request(options)
     check_work(profile.n_levels, kwargs)
-    result = ptype.diagnose(profile, **kwargs)
-    image = draw_diagram(result, fmt)
+    with budget.computing():
+        result = ptype.diagnose(profile, **kwargs)
+        image = draw_diagram(result, fmt)
     response = Response(image, mimetype=FORMATS[fmt])
     response.headers["Cache-Control"] = "no-store"
     return response

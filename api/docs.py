@@ -12,6 +12,7 @@ from typing import Any
 
 from flask import Blueprint, Flask, Response, current_app, make_response, render_template
 from markupsafe import Markup, escape
+from ptype.api import budget
 from ptype.api.openapi import DocumentedRoute, build_openapi, documented_routes
 from ptype.api.plumbing import json_response, secure_html
 
@@ -42,7 +43,8 @@ def openapi_document() -> dict:
     cached = current_app.extensions.get(EXTENSION)
     if cached is None:
         routes = documented_routes(current_app)
-        cached = build_openapi(routes, current_app.config.get("MAX_CONTENT_LENGTH"))
+        cached = build_openapi(routes, current_app.config.get("MAX_CONTENT_LENGTH"),
+                               budget.describe(current_app.config))
         current_app.extensions[EXTENSION] = cached
     return cached
 

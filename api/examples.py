@@ -39,6 +39,11 @@ PROFILE_BODIES: dict[str, dict[str, Any]] = {
     "text/plain": {"schema": {"type": "string",
                               "description": "WMO TEMP message (TTAA/TTBB) or CSV text."},
                    "example": EXAMPLE_CSV},
+    "application/x-bufr": {"schema": {"type": "string", "format": "binary",
+                                      "description": "WMO BUFR radiosonde report (one "
+                                                     "report; docs/formats.md)."},
+                           "example": "BUFR... (binary: one WMO BUFR edition 4 message, "
+                                      "radiosonde sequence 3 09 052)"},
 }
 
 #: A road site with one of its alert thresholds.

@@ -15,11 +15,13 @@ error body, the health check, the batch and demo envelopes) say so with ``extra=
 from __future__ import annotations
 
 from datetime import datetime
-from typing import Any, Literal
+from typing import Annotated, Any, Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationInfo, field_validator
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationInfo, field_validator
 
+from ptype.clock import in_time_range
 from ptype.profile.document import ProfileDocument
+from ptype.store.text import single_line
 from ptype.verify.report import DEFAULT_SEED
 
 PTYPE_CODES = ("NONE", "RA", "SN", "PL", "FZRA", "FZDZ", "DZ", "RASN", "RAPL", "FZRAPL")
@@ -38,6 +40,19 @@ class RequestModel(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
 
+class BodyModel(RequestModel):
+    """Base of JSON request bodies: strict types as well (a number is never a boolean or a
+    string), times excepted (:data:`ApiTime` parses ISO 8601 strings)."""
+
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+
+#: A time in a request body: ISO 8601, within the range of :mod:`ptype.clock`.
+ApiTime = Annotated[datetime, Field(strict=False), AfterValidator(in_time_range)]
+#: One line of text (names, codes, sources): no control characters or line breaks.
+Line = Annotated[str, AfterValidator(single_line)]
+
+
 class ResponseModel(BaseModel):
     """Base of answers: open, as an answer may gain fields in later versions."""
 
@@ -54,6 +69,12 @@ class ErrorDetail(ResponseModel, extra="forbid"):
         examples=["levels[2].temperature_c = 'warm': expected a number"])
     field: str | None = Field(None, description="Dotted path of the offending field when known.",
                               examples=["levels[2].temperature_c"])
+    limit: int | None = Field(None, description="`too_much_work` only: the most work this "
+                                                "server does for the request, in `unit`.")
+    asked: int | None = Field(None, description="`too_much_work` only: the work the request "
+                                                "asks for, in `unit`.")
+    unit: str | None = Field(None, description="`too_much_work` only: what `limit` and "
+                                               "`asked` count, e.g. `member-levels`.")
 
 
 class ErrorResponse(ResponseModel, extra="forbid"):
@@ -275,7 +296,7 @@ class VerifyReport(ResponseModel):
 
 
 # -- sites: requests ------------------------------------------------------------------
-class RoadThresholds(RequestModel):
+class RoadThresholds(BodyModel):
     """Per-site alert thresholds (all optional; defaults in ``ptype.roads.alerts.rules``)."""
 
     freezing_probability: float | None = Field(None, ge=0, le=1)
@@ -288,30 +309,31 @@ class RoadThresholds(RequestModel):
     snow_window_hours: float | None = Field(None, gt=0, le=48)
 
 
-class SiteIn(RequestModel):
-    name: str = Field(..., min_length=1, max_length=200)
+class SiteIn(BodyModel):
+    name: Line = Field(..., min_length=1, max_length=200, description=(
+        "One line: no control characters, line breaks or non-characters (docs/api.md)."))
     latitude: float = Field(..., ge=-90, le=90)
     longitude: float = Field(..., ge=-180, le=180)
     elevation_m: float | None = Field(None, ge=-500, le=9000)
-    code: str | None = Field(None, min_length=1, max_length=100,
+    code: Line | None = Field(None, min_length=1, max_length=100,
                              description="Your own identifier for the site (unique).")
     thresholds: RoadThresholds | None = None
 
 
-class ProfilesIn(RequestModel):
+class ProfilesIn(BodyModel):
     profiles: list[dict[str, Any]] = Field(..., min_length=1)
-    issued_time: datetime | None = None
-    source: str | None = Field(None, min_length=1, max_length=200)
+    issued_time: ApiTime | None = None
+    source: Line | None = Field(None, min_length=1, max_length=200)
 
 
-class ObservationIn(RequestModel):
-    time: datetime
+class ObservationIn(BodyModel):
+    time: ApiTime
     air_temperature_c: float | None = Field(None, ge=-80, le=60)
     dewpoint_c: float | None = Field(None, ge=-100, le=60)
     road_surface_temperature_c: float | None = Field(None, ge=-80, le=90)
     precipitation_rate_mm_h: float | None = Field(None, ge=0, le=500)
     wind_speed_m_s: float | None = Field(None, ge=0, le=120)
-    present_weather: str | None = Field(None, max_length=40)
+    present_weather: Line | None = Field(None, max_length=40)
 
     @field_validator("dewpoint_c")
     @classmethod
@@ -324,7 +346,7 @@ class ObservationIn(RequestModel):
         return v
 
 
-class ObservationsIn(RequestModel):
+class ObservationsIn(BodyModel):
     observations: list[ObservationIn] = Field(..., min_length=1, max_length=1000)
 
 
@@ -338,6 +360,8 @@ class SiteOut(ResponseModel):
     longitude: float
     elevation_m: float | None = None
     code: str | None = None
+    owner: str | None = Field(None, description="Whose site it is: the owner of the key that "
+                                                "created it (docs/api.md, Owners).")
     thresholds: dict[str, Any] | None = None
 
 
@@ -352,6 +376,23 @@ class IngestResult(ResponseModel):
     stored: int
     alerts: list[dict[str, Any]] = Field(default_factory=list,
                                          description="Alerts created, updated or cancelled.")
+
+
+class IngestFileResult(ResponseModel):
+    """What ``POST /v1/ingest`` did with one model file."""
+
+    file: str
+    status: str = Field(description="ingested, already ingested, already rejected or busy.")
+    file_key: str = Field(description="SHA-256 of the file's content.")
+    source: str | None = None
+    runs: list[dict[str, Any]] = Field(default_factory=list,
+                                       description="Each run: reference time, steps, profiles.")
+    profiles: int = 0
+    sites: int = 0
+    skipped: list[dict[str, Any]] = Field(default_factory=list,
+                                          description="Sites outside the model grid.")
+    alerts: dict[str, int] = Field(default_factory=dict,
+                                   description="Alert actions taken, by kind.")
 
 
 class TimelineStep(ResponseModel):
@@ -419,7 +460,7 @@ class AlertList(ResponseModel):
 
 
 class AlertListOptions(RequestModel):
-    site: int | None = Field(None, description="Only this site's alerts.")
+    site: int | None = Field(None, ge=1, le=2 ** 63 - 1, description="Only this site's alerts.")
     active: str | None = Field(None, description="`1` for active alerts only (default: active "
                                                  "and recently ended).")
 

@@ -48,6 +48,11 @@ EXAMPLE_ERRORS = {
                                     "text/plain (WMO TEMP or CSV)"), None),
     422: ("invalid_profile", "levels[2].temperature_c = 'warm': expected a number",
            "levels[2].temperature_c"),
+    429: ("too_many_failed_keys", ("too many requests with a wrong API key from this "
+                                   "address; try again after the time in Retry-After"),
+          "Authorization"),
+    503: ("busy", ("the server is busy with other computations; try again after the time in "
+                   "Retry-After"), None),
 }
 #: What each error status means, for the document.
 ERROR_TEXT = {400: "Bad query option or unreadable JSON.", 404: "No such resource.",
@@ -55,7 +60,12 @@ ERROR_TEXT = {400: "Bad query option or unreadable JSON.", 404: "No such resourc
               409: "Conflicts with what is stored.",
               413: "Body, levels, batch or members x levels larger than the server accepts.",
               415: "Content type not accepted.",
-              422: "The body was read but is not a valid profile."}
+              422: "The body was read but is not valid, or the request asks for more work "
+                   "than the server's budget (`too_much_work`, with `limit` and `asked`).",
+              429: "Too many requests with a wrong API key from this address "
+                   "(`Retry-After` says when to try again).",
+              503: "Busy or past the time limit (`busy`, `timeout`); `Retry-After` says "
+                   "when to try again."}
 
 #: Pattern of a path parameter without a schema of its own (a file name or an id).
 NAME_PATTERN = r"^[A-Za-z0-9][A-Za-z0-9_.-]*$"
@@ -206,8 +216,14 @@ def _error_response(status: int, ref: str) -> dict:
     example = {"error": {"code": code, "message": message}}
     if field:
         example["error"]["field"] = field
-    return {"description": ERROR_TEXT.get(status, "Error."),
-            "content": {"application/json": {"schema": {"$ref": ref}, "example": example}}}
+    answer: dict[str, Any] = {
+        "description": ERROR_TEXT.get(status, "Error."),
+        "content": {"application/json": {"schema": {"$ref": ref}, "example": example}}}
+    if status in (429, 503):
+        answer["headers"] = {"Retry-After": {"description": "Seconds to wait before trying "
+                                                            "again.",
+                                             "schema": {"type": "integer", "minimum": 0}}}
+    return answer
 
 
 def _operation_object(op: Operation, refs: Mapping[type[BaseModel], str]) -> dict[str, Any]:
@@ -231,10 +247,12 @@ def _operation_object(op: Operation, refs: Mapping[type[BaseModel], str]) -> dic
     return operation
 
 
-def build_openapi(routes: list[DocumentedRoute], max_body_bytes: int | None = None) -> dict:
+def build_openapi(routes: list[DocumentedRoute], max_body_bytes: int | None = None,
+                  limits: str = "") -> dict:
     """The OpenAPI 3.1 document of ``routes`` (see :func:`documented_routes`).
 
-    ``max_body_bytes``, when given, is stated in the description.
+    ``max_body_bytes``, when given, and ``limits`` (a sentence on the work limits) are
+    stated in the description.
     """
     schemas, refs = _schemas(routes)
     paths: dict[str, dict] = {}
@@ -251,7 +269,8 @@ def build_openapi(routes: list[DocumentedRoute], max_body_bytes: int | None = No
                                 "vertical sounding, with each method's reasoning, "
                                 "probabilities and a diagram. Every error is "
                                 "`{\"error\": {\"code\", \"message\", \"field\"?}}`."
-                                + limit + "\n\n" + ptype.CAUTION,
+                                + limit + ("\n\n" + limits if limits else "")
+                                + "\n\n" + ptype.CAUTION,
                  "license": {"name": "Apache-2.0", "identifier": "Apache-2.0"}},
         "jsonSchemaDialect": "https://spec.openapis.org/oas/3.1/dialect/base",
         "tags": [{"name": tag} for tag in tags],

@@ -3,7 +3,7 @@
 * answers: :func:`json_response` (strict, compact JSON), :func:`secure_html` (headers of
   the HTML pages);
 * requests: :func:`parse_options` (query string -> model), :func:`diagnose_kwargs`,
-  :func:`load_json_body` (strict JSON), :func:`request_json` (lenient JSON),
+  :func:`load_json_body` (strict JSON, :mod:`ptype.api.inputs`),
   :func:`validate_body` (JSON object -> model), :func:`profile_from_request` (a JSON, CSV
   or WMO TEMP body -> :class:`ptype.Profile`) and the work limits;
 * state: :func:`store_for` / :func:`get_store`, :func:`now` (the service clock),
@@ -20,10 +20,11 @@ import json
 import math
 import threading
 from datetime import datetime
-from typing import Any, NoReturn, TypeVar
+from typing import Any, TypeVar
 
 import sqlalchemy as sa
 from flask import Flask, Response, current_app, request
+from ptype.api import inputs
 from ptype.api.errors import ApiError
 from ptype.api.models import DiagnoseOptions
 from pydantic import BaseModel, ValidationError
@@ -134,15 +135,18 @@ def diagnose_kwargs(options: DiagnoseOptions) -> dict[str, Any]:
 
 
 def check_work(n_levels: int, kwargs: dict[str, Any]) -> None:
-    """Refuse (413) a request whose members x levels exceed ``PTYPE_MAX_MEMBER_LEVELS``."""
+    """Refuse (422, :mod:`ptype.api.budget`) a request whose members x levels exceed
+    ``PTYPE_MAX_MEMBER_LEVELS``, before any work."""
+    from ptype.api import budget
+
     from ptype.engine.probability import DEFAULT_MEMBERS
     members = kwargs.get("members", DEFAULT_MEMBERS)
-    limit = current_app.config["PTYPE_MAX_MEMBER_LEVELS"]
-    if members * n_levels > limit:
-        raise ApiError(413, "too_much_work",
-                       f"members = {members} x {n_levels} levels = {members * n_levels} "
-                       f"member-levels; this server accepts at most {limit} per request "
-                       "(ask for fewer members or send fewer levels)", "members")
+    limit = budget.setting("PTYPE_MAX_MEMBER_LEVELS")
+    asked = max(members, 1) * n_levels
+    budget.refuse(asked, limit, "member-levels",
+                  f"members = {members} x {n_levels} levels = {asked} member-levels; this "
+                  f"server accepts at most {limit} per request (ask for fewer members or send "
+                  "fewer levels)", "members")
 
 
 def check_levels(document: Any, field_prefix: str = "") -> None:
@@ -162,18 +166,11 @@ def check_levels(document: Any, field_prefix: str = "") -> None:
 
 #: Content types of a single profile in text, mapped to the reader format (None = detect).
 TEXT_FORMATS = {"text/csv": "csv", "text/plain": None}
-JSON_TYPES = ("application/json",)
+#: Media types of a WMO BUFR body (the ``x-`` form is the common one; both accepted).
+BUFR_TYPES = ("application/x-bufr", "application/bufr")
 
-
-def media_type() -> str:
-    """The request's media type, lower case ("" when none was sent)."""
-    return (request.mimetype or "").lower()
-
-
-def is_json_request() -> bool:
-    """True when the request says its body is JSON (``application/json`` or ``...+json``)."""
-    kind = media_type()
-    return kind in JSON_TYPES or kind.endswith("+json")
+media_type = inputs.media_type
+is_json_request = inputs.is_json_request
 
 
 def json_kind(value: Any) -> str:
@@ -182,35 +179,9 @@ def json_kind(value: Any) -> str:
             int: "a number", float: "a number"}.get(type(value), type(value).__name__)
 
 
-def _reject_constant(name: str) -> NoReturn:
-    raise ApiError(400, "invalid_json", f"request body: {name} is not valid JSON; "
-                                        "use null for a missing value")
-
-
-def load_json_body() -> Any:
-    """The request body decoded as strict JSON (no NaN/Infinity); 400 when it is not JSON."""
-    raw = request.get_data(cache=True)
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise ApiError(400, "invalid_json", "request body is not UTF-8 text") from None
-    if not text.strip():
-        raise ApiError(400, "invalid_json", "request body is empty; expected a JSON object")
-    try:
-        return json.loads(text, parse_constant=_reject_constant)
-    except json.JSONDecodeError as exc:
-        raise ApiError(400, "invalid_json", f"request body: line {exc.lineno} column {exc.colno}: "
-                                            f"invalid JSON ({exc.msg})") from None
-    except RecursionError:
-        raise ApiError(400, "invalid_json", "request body is nested too deeply") from None
-
-
-def request_json(code: str, message: str) -> Any:
-    """The body as read by Flask's JSON reader; a 400 ``code``/``message`` when it is not JSON."""
-    data = request.get_json(silent=True)
-    if data is None:
-        raise ApiError(400, code, message)
-    return data
+def load_json_body(expected: str = "a JSON object") -> Any:
+    """The request body as strict, checked JSON (:func:`ptype.api.inputs.json_body`)."""
+    return inputs.json_body(expected)
 
 
 def validate_body(model: type[Model], data: Any) -> Model:
@@ -231,19 +202,31 @@ def validate_body(model: type[Model], data: Any) -> Model:
         elif kind == "missing":
             msg = f"{field}: required field is missing"
         else:
-            msg = f"{field}: {err['msg']} (got {err.get('input')!r})"
+            msg = f"{field}: {_short(err['msg'])} (got {_shown(err.get('input'))})"
         raise ApiError(422, "invalid_body", msg, field) from None
+
+
+def _short(message: str) -> str:
+    """A pydantic message without its "Value error, " prefix."""
+    return message.removeprefix("Value error, ")
+
+
+def _shown(value: Any) -> str:
+    """``repr(value)``, cut to a readable length for a message."""
+    shown = repr(value)
+    return shown if len(shown) <= 60 else shown[:57] + "..."
 
 
 def _profile_text(options: DiagnoseOptions, kind: str) -> dict:
     """The profile document of a CSV or WMO TEMP body."""
-    raw = request.get_data(cache=True)
+    raw = inputs.read_body()
     if not raw.strip():
         raise ApiError(400, "empty_body", "request body is empty; expected a profile")
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError:
         raise ApiError(400, "invalid_text", "request body is not UTF-8 text") from None
+    inputs.check_text_body(text)
     # Always hand the reader text with a line break, so that it is never taken for a
     # file path (the service reads nothing from its own disk on a client's behalf).
     if "\n" not in text:
@@ -257,6 +240,19 @@ def _profile_text(options: DiagnoseOptions, kind: str) -> dict:
     return document
 
 
+def _profile_bufr() -> dict:
+    """The profile document of a WMO BUFR body (exactly one report)."""
+    from ptype.readers import bufr_format
+    raw = request.get_data(cache=True)
+    if not raw:
+        raise ApiError(400, "empty_body", "request body is empty; expected a BUFR message")
+    documents = bufr_format.read_bufr_documents(raw, "request body")
+    if len(documents) != 1:
+        raise ReaderError(f"request body: holds {len(documents)} radiosonde reports; send one "
+                          "per request")
+    return documents[0]
+
+
 def profile_from_request(options: DiagnoseOptions) -> ptype.Profile:
     """Read the single profile of the request body (JSON document, CSV or WMO TEMP text)."""
     kind = media_type()
@@ -267,11 +263,14 @@ def profile_from_request(options: DiagnoseOptions) -> ptype.Profile:
                                                    f"document), got {json_kind(document)}")
     elif kind in TEXT_FORMATS:
         document = _profile_text(options, kind)
+    elif kind in BUFR_TYPES:
+        document = _profile_bufr()
     else:
         shown = kind or "none"
         raise ApiError(415, "unsupported_media_type",
                        f"Content-Type {shown!r} is not accepted; send application/json (profile "
-                       "document), text/csv or text/plain (WMO TEMP or CSV)")
+                       "document), text/csv, text/plain (WMO TEMP or CSV) or application/x-bufr "
+                       "(WMO BUFR radiosonde report)")
     check_levels(document)
     return ptype.Profile.from_document(document)
 
@@ -334,8 +333,12 @@ _verified_lock = threading.Lock()
 def require_key() -> str:
     """Check the bearer key of a write; returns its key id.
 
-    A missing or unknown key is a 401, a revoked one a 403 (:class:`ApiError`).
+    A missing or unknown key is a 401, a revoked one a 403 (:class:`ApiError`); an address
+    that sent too many wrong keys lately is refused (429) before its key is looked at
+    (:mod:`ptype.api.clients`).
     """
+    from ptype.api import clients
+    clients.refuse_if_blocked()
     header = request.headers.get("Authorization", "")
     scheme, _, token = header.partition(" ")
     if not header:
@@ -355,6 +358,7 @@ def require_key() -> str:
         if key_id is None:
             status, info = keystore.verify_key(s, token)
             if status == "unknown":
+                clients.count_failure()
                 raise ApiError(401, "unauthorized", "the API key is not valid", "Authorization")
             key_id = info.key_id
             if status == "ok":

@@ -15,12 +15,13 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Flask, current_app
+from ptype.api import budget
 from ptype.api.errors import ApiError
 from ptype.api.plumbing import DEMO_CLOCK, cap_sender, get_store, now, store_for
 from sqlalchemy.orm import Session
 
 from ptype.clock import iso
-from ptype.errors import OptionError, ProfileError
+from ptype.errors import DeadlineExceeded, OptionError, ProfileError
 from ptype.roads.alerts import service
 from ptype.store import Observation, Site
 
@@ -41,7 +42,8 @@ def site_or_404(session: Session, site_id: int) -> Site:
 def site_dict(site: Site, session: Session | None = None) -> dict[str, Any]:
     """A site as JSON; with a ``session``, also its latest issue of profiles and observation."""
     d: dict[str, Any] = {
-        "id": site.id, "code": site.code, "name": site.name, "latitude": site.latitude,
+        "id": site.id, "code": site.code, "name": site.name, "owner": site.owner,
+        "latitude": site.latitude,
         "longitude": site.longitude, "elevation_m": site.elevation_m,
         "thresholds": site.thresholds or {}, "created": iso(site.created_at)}
     if session is not None:
@@ -58,9 +60,12 @@ def site_dict(site: Site, session: Session | None = None) -> dict[str, Any]:
     return d
 
 
-def site_ids(session: Session) -> list[int]:
-    """Every site id, in order."""
-    return list(session.scalars(sa.select(Site.id).order_by(Site.id)))
+def site_ids(session: Session, owner: str | None = None) -> list[int]:
+    """Every site id (of ``owner`` when given), in order."""
+    query = sa.select(Site.id).order_by(Site.id)
+    if owner is not None:
+        query = query.where(Site.owner == owner)
+    return list(session.scalars(query))
 
 
 def evaluate_alerts(site_id: int) -> list[dict]:
@@ -71,7 +76,10 @@ def evaluate_alerts(site_id: int) -> list[dict]:
                   or os.environ.get("PTYPE_ALERT_MEMBERS") or service.ALERT_MEMBERS)
     with store.read() as s:
         site = site_or_404(s, site_id)
-        candidates = service.site_candidates(s, site, t, members=members)
+        inputs = service.timeline_inputs(s, site, t, covering_hours=service.ALERT_HOURS)
+    with budget.computing():  # no database connection held meanwhile
+        timeline = service.timeline_from_inputs(inputs, t, members=members)
+        candidates = service.candidates_from_timeline(timeline, t, site)
     cap_status = current_app.config.get("PTYPE_CAP_STATUS") or os.environ.get("PTYPE_CAP_STATUS")
     with store.write() as s:
         site = site_or_404(s, site_id)
@@ -89,18 +97,24 @@ def evaluate_after_ingest(site_id: int) -> list[dict] | dict:
     except (ProfileError, OptionError) as exc:
         log.warning("alert evaluation for site %s failed: %s", site_id, exc)
         return {"error": f"alerts not evaluated: {exc}"}
+    except (budget.Busy, DeadlineExceeded):
+        log.warning("alert evaluation for site %s postponed: server busy", site_id)
+        return {"error": "alerts not evaluated now: the server is busy; they are evaluated "
+                         "again on the next write or POST /v1/alerts/evaluate"}
     except Exception:  # the write is committed; never turn it into a 500
         log.exception("alert evaluation for site %s failed", site_id)
         return {"error": "alerts not evaluated: internal error (logged)"}
 
 
-def current_alerts(site_id: int | None = None, include_recent: bool = True) -> list[dict]:
-    """The alerts as seen at the service clock, optionally of one site (read-only: due ones
-    are shown expired, and are marked so in the store only by an evaluation)."""
+def current_alerts(site_id: int | None = None, include_recent: bool = True, *,
+                   owner: str | None = None) -> list[dict]:
+    """The alerts as seen at the service clock, optionally of one site or of one owner's sites
+    (read-only: due ones are shown expired, and are marked so in the store only by an
+    evaluation)."""
     t = now()
     with get_store().read() as s:
         return service.list_alerts(s, t, cap_sender(), include_recent=include_recent,
-                                   site_id=site_id)
+                                   site_id=site_id, owner=owner)
 
 
 def demo_requested(app: Flask) -> bool:

@@ -5,8 +5,10 @@
 ``GET /v1/sites/<id>/timeline?hours=12&step=15min``.
 
 Writes need ``Authorization: Bearer <key>`` (see ``ptype keys create``); a missing key is
-401, an unknown key 401, a revoked key 403.  Every acknowledged write has been committed
-(and its alerts evaluated) before the response is sent.
+401, an unknown key 401, a revoked key 403, a key of another owner than the site's 403
+(:mod:`ptype.api.tenants`; reads may be owner-scoped by configuration).  Every
+acknowledged write has been committed (and its alerts evaluated) before the response is
+sent.
 """
 
 from __future__ import annotations
@@ -16,8 +18,9 @@ from typing import Any
 
 import sqlalchemy as sa
 from flask import Blueprint, Response, current_app, jsonify, request
-from ptype.api import examples
+from ptype.api import budget, examples
 from ptype.api.errors import ApiError
+from ptype.api.inputs import query_time
 from ptype.api.models import (
     IngestResult,
     ObservationIn,
@@ -30,16 +33,9 @@ from ptype.api.models import (
     TimelineOptions,
 )
 from ptype.api.openapi import Operation
-from ptype.api.plumbing import (
-    clock,
-    get_store,
-    now,
-    request_json,
-    require_key,
-    store_for,
-    validate_body,
-)
+from ptype.api.plumbing import clock, get_store, load_json_body, now, store_for, validate_body
 from ptype.api.site_ops import evaluate_after_ingest, site_dict, site_or_404
+from ptype.api.tenants import check_read, check_write, read_owner, reader, require_caller
 from sqlalchemy.orm import Session
 
 from ptype import Profile
@@ -57,12 +53,14 @@ bp = Blueprint("sites", __name__, url_prefix="/v1")
 SITE_ID = {"site_id": {"description": "Site id from `POST /v1/sites` or `GET /v1/sites`.",
                        "schema": {"type": "integer", "minimum": 1}}}
 #: The statuses of a write.
-WRITE_ERRORS = (400, 401, 403, 404, 413, 415, 422)
+WRITE_ERRORS = (400, 401, 403, 404, 413, 415, 422, 429, 503)
+#: The statuses of a read that only owner-scoped reads (``PTYPE_OWNER_READS``) give.
+READ_ERRORS = (401, 403)
 
 
 def _json_body() -> Any:
-    """The JSON body of a write; 400 when there is none."""
-    return request_json("invalid_body", "expected a JSON body (Content-Type: application/json)")
+    """The JSON body of a write: 415 when not JSON by its type, 400 when empty or broken."""
+    return load_json_body()
 
 
 def _naive(dt: datetime) -> datetime:
@@ -88,10 +86,10 @@ def _upsert(session: Session, model: type, values: dict, keys: tuple[str, ...]) 
     id="site_create", tag="Sites", auth=True, status=201, summary="Register a road site",
     description="Name, position, elevation and optional alert thresholds. Needs an API key.",
     body={"application/json": {"schema": SiteIn, "example": examples.SITE_EXAMPLE}},
-    ok=SiteOut, errors=(400, 401, 403, 409, 413, 415, 422))
+    ok=SiteOut, errors=(400, 401, 403, 409, 413, 415, 422, 429))
 def create_site() -> tuple[Response, int, dict[str, str]]:
-    """Store a new site; 409 when its ``code`` is taken."""
-    require_key()
+    """Store a new site, owned by the key's owner; 409 when its ``code`` is taken."""
+    caller = require_caller()
     body = validate_body(SiteIn, _json_body())
     with get_store().write() as s:
         if body.code and s.scalar(sa.select(Site.id).where(Site.code == body.code)) is not None:
@@ -99,7 +97,7 @@ def create_site() -> tuple[Response, int, dict[str, str]]:
         site = Site(name=body.name, latitude=body.latitude, longitude=body.longitude,
                     elevation_m=body.elevation_m, code=body.code,
                     thresholds=body.thresholds.model_dump(exclude_none=True)
-                    if body.thresholds else {}, created_at=now())
+                    if body.thresholds else {}, created_at=now(), owner=caller.owner)
         s.add(site)
         s.flush()
         out = site_dict(site)
@@ -108,22 +106,30 @@ def create_site() -> tuple[Response, int, dict[str, str]]:
 
 @bp.get("/sites")
 @Operation(id="site_list", tag="Sites", summary="List the sites",
-           description="Every registered site.", ok=SiteList)
+           description="Every registered site (only the key owner's when reads are "
+                       "owner-scoped, `PTYPE_OWNER_READS`).", ok=SiteList, errors=READ_ERRORS)
 def list_sites() -> Response:
-    """Every site, by id."""
+    """Every site (every site of the caller's owner when reads are owner-scoped), by id."""
+    owner = read_owner(reader())
+    query = sa.select(Site).order_by(Site.id)
+    if owner is not None:
+        query = query.where(Site.owner == owner)
     with get_store().read() as s:
-        sites = [site_dict(x) for x in s.scalars(sa.select(Site).order_by(Site.id))]
+        sites = [site_dict(x) for x in s.scalars(query)]
     return jsonify({"sites": sites})
 
 
 @bp.get("/sites/<int:site_id>")
 @Operation(id="site_get", tag="Sites", summary="One site",
            description="The site and its thresholds.", path_params=SITE_ID, ok=SiteOut,
-           errors=(404,))
+           errors=(*READ_ERRORS, 404))
 def get_site(site_id: int) -> Response:
     """One site with its latest issue of profiles and latest observation."""
+    caller = reader()
     with get_store().read() as s:
-        return jsonify(site_dict(site_or_404(s, site_id), s))
+        site = site_or_404(s, site_id)
+        check_read(caller, site)
+        return jsonify(site_dict(site, s))
 
 
 def _validated_profiles(documents: list[dict[str, Any]]) -> list[Profile]:
@@ -161,7 +167,7 @@ def _validated_profiles(documents: list[dict[str, Any]]) -> list[Profile]:
     ok=IngestResult, errors=WRITE_ERRORS)
 def post_profiles(site_id: int) -> tuple[Response, int]:
     """Store a model run's profiles (all validated before any is stored), then the alerts."""
-    require_key()
+    caller = require_caller()
     body = validate_body(ProfilesIn, _json_body())
     limit = int(current_app.config.get("PTYPE_MAX_BATCH", 500))
     if len(body.profiles) > limit:
@@ -173,7 +179,7 @@ def post_profiles(site_id: int) -> tuple[Response, int]:
     source = body.source or "unspecified"
     validated = _validated_profiles(body.profiles)
     with get_store().write() as s:
-        site_or_404(s, site_id)
+        check_write(caller, site_or_404(s, site_id))
         existing = set(s.scalars(sa.select(ProfileRecord.valid_time).where(
             ProfileRecord.site_id == site_id, ProfileRecord.source == source,
             ProfileRecord.valid_time.in_([p.valid_time for p in validated]))))
@@ -201,7 +207,7 @@ def post_profiles(site_id: int) -> tuple[Response, int]:
     ok=IngestResult, errors=WRITE_ERRORS)
 def post_observations(site_id: int) -> tuple[Response, int]:
     """Store one observation or ``{"observations": [...]}``, then evaluate the alerts."""
-    require_key()
+    caller = require_caller()
     data = _json_body()
     if isinstance(data, dict) and "observations" in data:
         items = validate_body(ObservationsIn, data).observations
@@ -209,7 +215,7 @@ def post_observations(site_id: int) -> tuple[Response, int]:
         items = [validate_body(ObservationIn, data)]
     t_now = now()
     with get_store().write() as s:
-        site_or_404(s, site_id)
+        check_write(caller, site_or_404(s, site_id))
         for ob in items:
             values = ob.model_dump()
             values["time"] = _naive(parse_time(values["time"]))
@@ -237,7 +243,8 @@ def _timeline_members() -> int:
     id="site_timeline", tag="Sites", summary="Type timeline, transitions and road hazards",
     description="Built from the latest issue of profiles, interpolated in time, with the "
                 "nowcast adjustments of docs/nowcast.md.",
-    path_params=SITE_ID, query=TimelineOptions, ok=Timeline, errors=(400, 404))
+    path_params=SITE_ID, query=TimelineOptions, ok=Timeline,
+    errors=(400, *READ_ERRORS, 404, 422, 503))
 def get_timeline(site_id: int) -> Response:
     """The site's type timeline, transitions and road hazards from its latest issue."""
     args = request.args
@@ -251,10 +258,19 @@ def get_timeline(site_id: int) -> Response:
     if "adjustments" in args:
         text = args["adjustments"].strip()
         adjustments = [] if text in ("", "none") else [a.strip() for a in text.split(",")]
-    used = Clock(parse_time(args["now"], "now"), "request") if "now" in args else clock()
+    asked = query_time("now")
+    used = Clock(asked, "request") if asked is not None else clock()
+    t = used.now
+    caller = reader()
     with get_store().read() as s:
         site = site_or_404(s, site_id)
-        out = service.site_timeline(s, site, used.now, hours=hours,
-                                    step=args.get("step", "15min"), members=members,
-                                    adjustments=adjustments)
+        check_read(caller, site)
+        inputs = service.timeline_inputs(s, site, t)
+    # Computed with no database connection held: a request waiting for a work slot does not
+    # take one of the pool's connections from the reads.
+    out = service.timeline_from_inputs(
+        inputs, t, hours=hours, step=args.get("step", "15min"), members=members,
+        adjustments=adjustments,
+        max_member_levels=budget.setting("PTYPE_MAX_TIMELINE_MEMBER_LEVELS"),
+        guard=budget.computing)
     return jsonify({**out, "clock": used.to_dict()})

@@ -16,11 +16,12 @@ from __future__ import annotations
 from typing import Any
 
 from flask import Blueprint, Response, current_app, jsonify
+from ptype.api import budget
 from ptype.api.errors import ApiError
 from ptype.api.examples import VERIFY_EXAMPLE
 from ptype.api.models import VERIFY_MEMBERS, VerifyReport, VerifyRequest
 from ptype.api.openapi import Operation
-from ptype.api.plumbing import request_json
+from ptype.api.plumbing import load_json_body
 
 from ptype.verify.manifest import cases_from_entries
 from ptype.verify.report import DEFAULT_SEED, run_verification
@@ -41,11 +42,10 @@ BODY_FIELDS = ("cases", "members", "seed", "methods")
                 "probabilities, Brier and ranked probability scores and reliability "
                 "data. Unverifiable observations are excluded and counted by reason.",
     body={"application/json": {"schema": VerifyRequest, "example": VERIFY_EXAMPLE}},
-    ok=VerifyReport, errors=(400, 413, 422))
+    ok=VerifyReport, errors=(400, 413, 415, 422, 503))
 def verify() -> Response:
     """Diagnose and score the cases of the body; the answer is the verification report."""
-    body = request_json("invalid_json", "request body must be JSON (Content-Type: "
-                        "application/json) holding {\"cases\": [...]}")
+    body = load_json_body('{"cases": [...]}')
     if not isinstance(body, dict):
         raise ApiError(400, "invalid_body", f"request body must be a JSON object, got "
                        f"{type(body).__name__}")
@@ -56,11 +56,11 @@ def verify() -> Response:
     cases = _cases(body)
     members = _whole(body, "members", VERIFY_MEMBERS, 0,
                      int(current_app.config["PTYPE_MAX_MEMBERS"]))
-    budget = int(current_app.config["PTYPE_MAX_VERIFY_MEMBER_COLUMNS"])
-    if members * len(cases) > budget:
-        raise ApiError(400, "too_much_work", f"members: {len(cases)} cases x {members} members "
-                       f"= {members * len(cases)} perturbed profiles, more than the limit of "
-                       f"{budget}; send fewer members or fewer cases", "members")
+    limit = budget.setting("PTYPE_MAX_VERIFY_MEMBER_COLUMNS")
+    budget.refuse(members * len(cases), limit, "perturbed profiles",
+                  f"members: {len(cases)} cases x {members} members = {members * len(cases)} "
+                  f"perturbed profiles, more than the limit of {limit}; send fewer members or "
+                  "fewer cases", "members")
     seed = _whole(body, "seed", DEFAULT_SEED, 0, None)
     methods = body.get("methods")
     if methods is not None and not (isinstance(methods, str) or (
@@ -69,8 +69,9 @@ def verify() -> Response:
                        "methods")
     _check_levels(cases)
     parsed = cases_from_entries(cases, name="cases", allow_paths=False)
-    report = run_verification(parsed, members=members, seed=seed, methods=methods,
-                              source="request")
+    with budget.computing():
+        report = run_verification(parsed, members=members, seed=seed, methods=methods,
+                                  source="request")
     return jsonify(report)
 
 

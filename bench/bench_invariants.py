@@ -8,7 +8,9 @@ counts, for the consensus:
   measured for +1 K and +3 K;
 * **melted-to-snow**: a column whose snow melts completely (aloft or in the surface layer,
   :mod:`ptype.engine.phase`) yet reported as SN or RASN;
-* **under-supported reports**: the reported type given by fewer than 25 % of its members;
+* **under-supported reports**: the reported type given by fewer than 25 % of its members
+  while some type the phase path allows reaches 25 % (where the members split over five or
+  more types none may reach it: those columns are counted as ``split_columns``);
 * **probability sums** different from 1.
 
 Targets: all zero.  Writes ``bench/results/invariants.json``.
@@ -76,11 +78,15 @@ def main(argv=None) -> int:
     reported = run.codes
     rows = np.arange(args.n)
     p_reported = run.probabilities[rows, reported]
+    p_best = np.where(run.fields["possible"], run.probabilities, 0.0).max(axis=1)
+    split = p_best < MIN_SUPPORT - 1e-12
     result.update({
         "melted_columns": int(melted.sum()),
         "melted_to_snow": int(np.isin(codes[melted], [Code.SN, Code.RASN]).sum()
                               + np.isin(reported[melted], [Code.SN, Code.RASN]).sum()),
-        "under_supported_reports": int((p_reported < MIN_SUPPORT - 1e-12).sum()),
+        "under_supported_reports": int(((p_reported < MIN_SUPPORT - 1e-12) & ~split).sum()),
+        "split_columns": int(split.sum()),
+        "split_reports_most_probable": int((p_reported[split] >= p_best[split] - 1e-12).sum()),
         "probability_sum_errors": int((np.abs(run.probabilities.sum(axis=1) - 1) > 1e-9).sum()),
         "reported_reasons": dict(Counter(
             ("control", "hazard_preference", "most_probable")[r]

@@ -315,7 +315,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--connections", type=int, default=16, help="concurrent clients")
     parser.add_argument("--workers", type=int, default=2, help="gunicorn workers")
     parser.add_argument("--threads", type=int, default=1,
-                        help="threads per worker (>1 selects gunicorn's gthread worker)")
+                        help="threads per worker (gunicorn gthread worker)")
     parser.add_argument("--levels", type=int, default=60, help="levels in the profile")
     parser.add_argument("--tool", choices=("auto", "wrk", "python"), default="auto")
     parser.add_argument("--out", default=str(RESULTS))
@@ -354,7 +354,7 @@ def main(argv: list[str] | None = None) -> int:
         "date_utc": time.strftime("%Y-%m-%dT%H:%M:%SZ", time.gmtime()),
         "machine": {"cpus": os.cpu_count(), "python": platform.python_version(),
                     "load_average_1m_at_end": round(os.getloadavg()[0], 2)},
-        "server": {"wsgi": "gunicorn", "worker_class": "gthread" if args.threads > 1 else "sync",
+        "server": {"wsgi": "gunicorn", "worker_class": "gthread (ptype BoundedThreadWorker)",
                    "workers": args.workers, "threads": args.threads},
         "load": {"connections": args.connections, "duration_s": args.duration,
                  "profile_levels": args.levels, "members": "default (50)"},

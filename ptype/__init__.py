@@ -24,7 +24,7 @@ from importlib.metadata import version as _version
 from ptype.constants import CAUTION
 from ptype.errors import OptionError, ProfileError, ReaderError
 from ptype.profile import Profile
-from ptype.readers import read_profile
+from ptype.readers import read_profile, read_profiles
 from ptype.thermo import wet_bulb_temperature
 
 try:
@@ -47,6 +47,7 @@ __all__ = [
     "diagnose",
     "diagnose_many",
     "read_profile",
+    "read_profiles",
     "wet_bulb_temperature",
 ]
 

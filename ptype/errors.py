@@ -38,3 +38,23 @@ class OptionError(ValueError):
     def __init__(self, message: str, *, field: str | None = None):
         super().__init__(message)
         self.field = field
+
+
+class WorkLimitError(OptionError):
+    """A request asks for more work than allowed (``asked`` > ``limit``, both in ``unit``),
+    found before any of it is done."""
+
+    def __init__(self, message: str, *, asked: int, limit: int, unit: str,
+                 field: str | None = None):
+        super().__init__(message, field=field)
+        self.asked = asked
+        self.limit = limit
+        self.unit = unit
+
+
+class DeadlineExceeded(RuntimeError):
+    """A computation ran past the time limit it was given (:mod:`ptype.engine.deadline`)."""
+
+    def __init__(self, message: str, *, seconds: float):
+        super().__init__(message)
+        self.seconds = seconds

@@ -187,16 +187,19 @@ def test_diagnose_too_many_levels_413():
     _assert_error(response, 413, "too_many_levels", "levels")
 
 
-def test_diagnose_too_much_work_413():
+def test_diagnose_too_much_work_422():
     app = create_app({"TESTING": True, "PTYPE_MAX_MEMBER_LEVELS": 1000})
     client = app.test_client()
     doc = freezing_rain_document(n_levels=30)
-    _assert_error(client.post("/v1/diagnose?members=40", json=doc), 413, "too_much_work",
-                  "members")
+    answer = client.post("/v1/diagnose?members=40", json=doc)
+    _assert_error(answer, 422, "too_much_work", "members")
+    assert answer.get_json()["error"] | {"message": ""} == {
+        "code": "too_much_work", "message": "", "field": "members", "limit": 1000,
+        "asked": 1200, "unit": "member-levels"}
     assert client.post("/v1/diagnose?members=30", json=doc).status_code == 200
     _assert_error(client.post("/v1/diagnose/batch?members=20", json={"profiles": [doc, doc]}),
-                  413, "too_much_work")
-    _assert_error(client.post("/v1/diagram?members=40", json=doc), 413, "too_much_work")
+                  422, "too_much_work")
+    _assert_error(client.post("/v1/diagram?members=40", json=doc), 422, "too_much_work")
 
 
 @pytest.mark.parametrize("body,content_type", [

@@ -102,3 +102,44 @@ def test_draw_diagram_unusual_pressure_ranges(pressures):
     profile = ptype.Profile.from_document({"levels": levels})
     assert draw_diagram(profile, "png", dpi=40).startswith(PNG_SIGNATURE)
     assert draw_diagram(ptype.diagnose(profile, members=4, seed=0), "svg").startswith(b"<?xml")
+
+
+def test_diagram_surface_values_and_labels_stay_off_the_chart():
+    """The surface T, Tw and Td are written out in a box beside the chart, the energy labels
+    sit in the same column with leader lines, and the lowest 3 km get a panel of their own."""
+    from api_support import freezing_rain_document
+
+    import ptype
+    from ptype.plot.diagram import _as_dict, _figure
+    result = ptype.diagnose(ptype.Profile.from_document(freezing_rain_document()), members=0)
+    data = _as_dict(result)
+    fig = _figure(data, 7.0)
+    fig.canvas.draw()
+    skew_ax = fig.axes[0]
+    chart = skew_ax.get_window_extent()
+    texts = {t.get_gid(): [] for t in skew_ax.texts}
+    for t in skew_ax.texts:
+        texts[t.get_gid()].append(t)
+    from matplotlib.text import Text
+    from matplotlib.transforms import Bbox
+
+    def box_of(text):  # the label itself, without its leader line
+        x, y = skew_ax.transAxes.transform(text.xyann)  # labels are placed in axes fractions
+        size = Text.get_window_extent(text)
+        y0 = y if text.get_va() == "bottom" else y - size.height / 2
+        return Bbox.from_bounds(x, y0, size.width, size.height)
+    surface = texts["surface-values"][0]
+    prof = data["profile"]
+    # The values are those of the lowest level of the profile (its surface).
+    for name, key in (("T", "temperature_c"), ("Tw", "wetbulb_c"), ("Td", "dewpoint_c")):
+        assert f"{name} {prof[key][0]:.1f} \u00b0C" in surface.get_text()
+    assert box_of(surface).x0 >= chart.x1  # not over the curves
+    energy = texts["energy"]
+    assert energy, "a freezing-rain profile has melting and refreezing layers"
+    boxes = [box_of(t) for t in energy + [surface]]
+    for box in boxes:
+        assert box.x0 >= chart.x1
+    for i, a in enumerate(boxes):  # no two labels overlap
+        for b in boxes[i + 1:]:
+            assert not a.overlaps(b)
+    assert any(ax.get_title(loc="left") == "Lowest 3 km" for ax in fig.axes)

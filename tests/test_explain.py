@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import re
 
+import numpy as np
 import pytest
 
 import ptype
@@ -111,3 +112,28 @@ def test_evaporation_note_when_the_wet_bulb_is_below_freezing():
 def test_melting_verdict_follows_bourgouin_thresholds(area, words):
     # The verdict names whose scale it is (a method's own row may judge otherwise).
     assert _melting_verdict(area).startswith("on Bourgouin's scale, " + words)
+
+
+def test_a_split_over_many_types_is_reported_as_uncertain():
+    # Members split over seven types (a case found by bench/bench_invariants.py): no type can
+    # have a quarter of them, the most probable possible type is reported and the sentence
+    # says that no type has a quarter (docs/consensus.md, "The reported type").
+    from types import SimpleNamespace
+
+    from ptype.codes import Code
+    from ptype.engine.explain import support_sentence
+    from ptype.engine.probability import supported_codes
+    probs = np.zeros((1, len(Code)))
+    for code, p in {"RA": 0.16, "PL": 0.22, "FZRA": 0.12, "FZDZ": 0.16, "DZ": 0.2,
+                    "RAPL": 0.12, "FZRAPL": 0.02}.items():
+        probs[0, Code[code]] = p
+    control = np.array([int(Code.SN)])
+    codes, reason = supported_codes(control, probs)
+    assert Code(int(codes[0])) is Code.PL and int(reason[0]) == 2
+    fake = SimpleNamespace(run=SimpleNamespace(fields={"support_reason": reason,
+                                                       "control_ptype": control}),
+                           row=0, members=50, probability_vector=probs[0],
+                           code=Code(int(codes[0])))
+    text = support_sentence(fake)
+    assert "only 0.00 of the members" in text and "PL (0.22)" in text
+    assert "No type has a quarter of the members: they split over 7 types" in text

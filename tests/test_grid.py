@@ -491,3 +491,33 @@ def test_demo_grid_has_no_snow_between_rain_and_freezing_rain():
                                         | ((before == freezing) & (after == rain)))).sum())
     assert band == 0
     assert (codes == rain).any() and (codes == freezing).any() and (codes == snow).any()
+
+
+def test_map_hatches_patterned_types_as_a_second_cue(tmp_path):
+    """Colour is not the only carrier of the type on the map: freezing rain (diagonal
+    hatching in ptype/style/palette.py) shows two colours inside its area, rain (plain) one."""
+    import xarray as xr
+    from PIL import Image
+
+    from ptype.plot.gridmap import plot_types
+    from ptype.style import GRIB2_STYLE
+    from ptype.style.colourvision import hex_to_rgb
+    field = np.tile(np.repeat(np.array([1, 3], dtype="u1"), 20), (30, 1))
+    ds = xr.Dataset({"precipitation_type": (("y", "x"), field)},
+                    coords={"y": np.arange(30.0), "x": np.arange(40.0)})
+    path = plot_types(ds, tmp_path / "map.png")
+    pixels = np.asarray(Image.open(path).convert("RGB"), dtype=int)
+
+    def count_near(colour):
+        return int(np.sum(np.abs(pixels - hex_to_rgb(colour) * 255).max(axis=-1) < 12))
+    rain, fzra = GRIB2_STYLE[1], GRIB2_STYLE[3]
+    assert count_near(rain.colour) > 2000 and count_near(fzra.colour) > 1000
+    # The freezing-rain area carries lines in its text colour; plain rain does not.
+    assert fzra.hatch and not rain.hatch
+    rows = pixels[pixels.shape[0] // 3]
+    fz_cols = np.abs(rows - hex_to_rgb(fzra.colour) * 255).max(axis=-1) < 12
+    ra_cols = np.abs(rows - hex_to_rgb(rain.colour) * 255).max(axis=-1) < 12
+    left, right = np.flatnonzero(fz_cols)[[0, -1]]
+    assert (~fz_cols[left:right]).sum() >= 5  # hatch lines cross the row inside the area
+    lo, hi = np.flatnonzero(ra_cols)[[0, -1]]
+    assert (~ra_cols[lo:hi]).sum() == 0

@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from series_helpers import T0, profile_doc, storm_docs
+from series_helpers import PRESSURES, T0, profile_doc, storm_docs
 
 import ptype
 from ptype import Profile, thermo
@@ -501,3 +501,12 @@ def test_transitions_and_timeline_totals_by_hand():
     assert totals["snow_hours"] == 0.5 and totals["max_freezing_probability"] == 0.9
     empty = nowcast.timeline_totals([], timedelta(minutes=30))
     assert empty["hours_by_type"] == {} and empty["amounts_complete"] is True
+
+
+def test_profiles_on_common_levels_keep_exactly_their_levels():
+    # Model runs (every profile on the same pressure levels) keep their own levels: no level
+    # added twice beside its rounded copy (the top, say).
+    from ptype.roads.nowcast import timeline_size
+    profiles = [Profile.from_document(profile_doc(T0 + timedelta(hours=h), sfc_c=-3.0 + h / 8,
+                                                  nose_c=h / 3)) for h in range(0, 25, 3)]
+    assert timeline_size(profiles, hours=24, step="1h") == (25, len(PRESSURES))

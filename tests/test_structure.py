@@ -32,6 +32,8 @@ LAYER_RULES = {
     "ptype.grid": ("ptype.roads", "ptype.store", "ptype.cli", "ptype.api"),
     "ptype.verify": ("ptype.roads", "ptype.grid", "ptype.store", "ptype.cli", "ptype.api"),
     "ptype.store": ("ptype.engine", "ptype.grid", "ptype.plot", "ptype.cli", "ptype.api"),
+    # Model runs into the store: above grid, roads and store, below the doors.
+    "ptype.ingest": ("ptype.plot", "ptype.cli", "ptype.api"),
     "ptype": ("ptype.api", "ptype.cli"),
     # The doors are the top layer: `ptype serve` starts the service.
     "ptype.cli": (),

@@ -58,7 +58,7 @@ def test_verify_returns_report(client):
     ({}, 400, "invalid_field", "cases"),
     ({"cases": "x"}, 400, "invalid_field", "cases"),
     ({"cases": [{"observed": "SN"}] * 6}, 400, "too_many_cases", "cases"),
-    ({"cases": [{"profile": {}, "observed": "SN"}] * 3, "members": 20}, 400, "too_much_work",
+    ({"cases": [{"profile": {}, "observed": "SN"}] * 3, "members": 20}, 422, "too_much_work",
      "members"),
     ({"cases": [], "colour": 1}, 400, "unknown_field", "colour"),
     ({"cases": [{"profile": {}, "observed": "SN"}], "members": "many"}, 400, "invalid_field",
@@ -107,7 +107,10 @@ def test_verify_unknown_method_is_400(client):
 
 
 def test_verify_not_json(client):
+    # A body that is not JSON by its Content-Type is refused as such (415, docs/api.md).
     r = client.post("/v1/verify", data="cases", content_type="text/plain")
+    assert r.status_code == 415 and r.json["error"]["code"] == "unsupported_media_type"
+    r = client.post("/v1/verify", data="cases", content_type="application/json")
     assert r.status_code == 400 and r.json["error"]["code"] == "invalid_json"
     r = client.post("/v1/verify", json=[1, 2])
     assert r.status_code == 400 and r.json["error"]["code"] == "invalid_body"

@@ -22,6 +22,43 @@
 
   let lastBody = null;
   let diagramUrl = null;
+  // The opening demo load must never replace what the user already did: any input, paste,
+  // upload or run sets userActed, and every run gets a number so a late answer of an older
+  // run is dropped instead of shown over a newer one.
+  let userActed = false;
+  let runCounter = 0;
+  const OPTIONS_KEY = "ptype.options";
+  const OPTION_FIELDS = ["opt-members", "opt-wetbulb", "opt-seed"];
+
+  function saveOptions() {
+    const values = {};
+    for (const id of OPTION_FIELDS) values[id] = $(id).value;
+    try { localStorage.setItem(OPTIONS_KEY, JSON.stringify(values)); } catch (e) { /* private mode */ }
+  }
+
+  function restoreOptions() {
+    let values = null;
+    try { values = JSON.parse(localStorage.getItem(OPTIONS_KEY) || "null"); } catch (e) { values = null; }
+    if (!values) return;
+    for (const id of OPTION_FIELDS) {
+      if (typeof values[id] === "string") $(id).value = values[id];
+    }
+  }
+
+  function clearResult() {
+    // A new run first removes the previous answer, so it can never be read as this one's.
+    $("result").hidden = true;
+    $("verdict-code").textContent = "";
+    $("verdict-code").className = "verdict-code";
+    $("explanation").innerHTML = "";
+    $("bars").innerHTML = "";
+    $("methods-body").innerHTML = "";
+    const img = $("diagram");
+    img.hidden = true;
+    img.removeAttribute("src");
+  }
+
+  function showEmptyState(show) { $("empty-state").hidden = !show; }
 
   function setStatus(text) { $("status").textContent = text; }
 
@@ -73,21 +110,38 @@
         select.add(new Option(entry.title, entry.name));
       }
       if (!body.soundings.length) placeholder.textContent = "No demo soundings installed";
+      return body.soundings;
     } catch (e) {
       select.innerHTML = "";
       select.add(new Option("Demo list unavailable", ""));
+      return [];
     }
   }
 
-  async function loadDemo() {
+  async function loadDemo(opening) {
     const name = $("demo-select").value;
     if (!name) { showError("Choose a demo sounding first."); $("demo-select").focus(); return; }
+    if (!opening) userActed = true;
     showError("");
     setStatus("Loading " + name + "…");
     const response = await fetch("/v1/demo/" + encodeURIComponent(name));
+    if (opening && userActed) { setStatus(""); return; }  // the user got there first
     if (!response.ok) { showError(await errorMessage(response)); setStatus(""); return; }
-    $("profile-text").value = await response.text();
-    await diagnose();
+    binaryBody = null;
+    const text = await response.text();
+    if (opening && userActed) { setStatus(""); return; }
+    $("profile-text").value = text;
+    await diagnose(opening);
+  }
+
+  async function openWithLatestDemo() {
+    // The page opens useful: the most recent demo sounding, diagnosed, unless the user has
+    // already started; with no demo installed the empty state explains the three ways in.
+    const soundings = await loadDemoList();
+    if (userActed || !soundings.length) return;
+    const latest = soundings.reduce((a, b) => ((b.valid_time || "") > (a.valid_time || "") ? b : a));
+    $("demo-select").value = latest.name;
+    await loadDemo(true);
   }
 
   function readFile(file) {
@@ -99,33 +153,56 @@
     });
   }
 
-  async function diagnose() {
+  // A binary upload (WMO BUFR) is kept as bytes and sent as they are; the text box only
+  // shows a note about it until the user types there.
+  let binaryBody = null;
+
+  async function readUpload(file) {
+    const head = new Uint8Array(await file.slice(0, 200).arrayBuffer());
+    const marker = String.fromCharCode.apply(null, head);
+    if (marker.indexOf("BUFR") >= 0) {
+      binaryBody = { text: await file.arrayBuffer(), type: "application/x-bufr" };
+      return "WMO BUFR file " + file.name + " (" + file.size + " bytes): sent as it is.";
+    }
+    binaryBody = null;
+    return readFile(file);
+  }
+
+  async function diagnose(opening) {
     const text = $("profile-text").value;
+    if (!opening) userActed = true;
     if (!text.trim()) {
+      clearResult();
       showError("Paste, upload or load a sounding first.");
       $("profile-text").focus();
       return;
     }
+    const run = ++runCounter;
+    clearResult();
+    showEmptyState(false);
     showError("");
     setStatus("Diagnosing…");
     $("diagnose-button").disabled = true;
-    const body = { text: text, type: contentType(text) };
+    saveOptions();
+    const body = binaryBody || { text: text, type: contentType(text) };
     runSeed = Math.floor(Math.random() * 2147483647);
     try {
       const response = await fetch("/v1/diagnose?" + query(), {
         method: "POST", headers: { "Content-Type": body.type }, body: body.text,
       });
+      if (run !== runCounter) return;  // a newer run started meanwhile
       if (!response.ok) {
         showError(await errorMessage(response));
         setStatus("");
         return;
       }
       const result = await response.json();
+      if (run !== runCounter) return;
       lastBody = body;
       render(result);
       setStatus("Diagnosis ready: " + result.ptype_label + " (" + result.ptype + ").");
-      $("result-heading").focus();
-      await loadDiagram(result);
+      if (!opening) $("result-heading").focus();
+      await loadDiagram(result, run);
     } catch (e) {
       showError("Could not reach the server: " + e.message);
       setStatus("");
@@ -134,15 +211,16 @@
     }
   }
 
-  async function loadDiagram(result) {
+  async function loadDiagram(result, run) {
     const img = $("diagram");
     const params = query();
     params.set("format", "svg");
     const response = await fetch("/v1/diagram?" + params, {
       method: "POST", headers: { "Content-Type": lastBody.type }, body: lastBody.text,
     });
-    if (!response.ok) { img.hidden = true; return; }
+    if (!response.ok || run !== runCounter) { img.hidden = run === runCounter ? true : img.hidden; return; }
     const blob = await response.blob();
+    if (run !== runCounter) return;
     if (diagramUrl) URL.revokeObjectURL(diagramUrl);
     diagramUrl = URL.createObjectURL(blob);
     img.src = diagramUrl;
@@ -162,6 +240,7 @@
     $("result").hidden = false;
     const code = $("verdict-code");
     code.textContent = result.ptype;
+    code.className = "verdict-code ty-" + result.ptype;  // the type's colour and pattern
     $("verdict").className = "verdict" + (FREEZING.has(result.ptype) ? " verdict-freezing" : "");
     $("verdict-label").textContent = result.ptype_label.charAt(0).toUpperCase() + result.ptype_label.slice(1);
     const where = [];
@@ -184,7 +263,7 @@
       li.appendChild(el("span", { class: "bar-name" }, type));
       const track = el("span", { class: "bar-track", role: "meter", "aria-valuemin": "0",
         "aria-valuemax": "100", "aria-valuenow": String(pct), "aria-label": "Probability of " + type });
-      const fill = el("span", { class: "bar-fill" });
+      const fill = el("span", { class: "bar-fill ty-" + type });
       fill.style.width = Math.max(pct, p > 0 ? 1 : 0) + "%";
       track.appendChild(fill);
       li.appendChild(track);
@@ -228,21 +307,27 @@
   }
 
   document.addEventListener("DOMContentLoaded", () => {
-    loadDemoList();
-    $("demo-load").addEventListener("click", loadDemo);
+    restoreOptions();
+    for (const id of OPTION_FIELDS) $(id).addEventListener("change", saveOptions);
+    $("profile-text").addEventListener("input", () => { userActed = true; });
+    $("demo-select").addEventListener("change", () => { userActed = true; });
+    $("demo-load").addEventListener("click", () => loadDemo(false));
     $("demo-select").addEventListener("keydown", (ev) => {
-      if (ev.key === "Enter") { ev.preventDefault(); loadDemo(); }
+      if (ev.key === "Enter") { ev.preventDefault(); loadDemo(false); }
     });
+    openWithLatestDemo();
     $("profile-file").addEventListener("change", async (ev) => {
       const file = ev.target.files[0];
       if (!file) return;
+      userActed = true;
       try {
-        $("profile-text").value = await readFile(file);
+        $("profile-text").value = await readUpload(file);
         setStatus("Read " + file.name + ".");
       } catch (e) {
         showError("Could not read the file: " + e.message);
       }
     });
-    $("sounding-form").addEventListener("submit", (ev) => { ev.preventDefault(); diagnose(); });
+    $("profile-text").addEventListener("input", () => { binaryBody = null; });
+    $("sounding-form").addEventListener("submit", (ev) => { ev.preventDefault(); diagnose(false); });
   });
 })();

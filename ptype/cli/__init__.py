@@ -24,13 +24,14 @@ from ptype import __version__
 
 #: Command modules, in the order ``ptype --help`` lists them.
 COMMAND_MODULES = ["show", "diagnose", "serve", "timeline", "alerts", "keys", "grid", "verify",
-                   "calibrate"]
+                   "calibrate", "ingest", "watch"]
 
 EXIT_BAD_INPUT = 2
 
 #: The top-level modules each extra of ``pyproject.toml`` installs, by extra.
 EXTRA_MODULES: dict[str, tuple[str, ...]] = {
     "plot": ("matplotlib", "metpy", "jinja2"),
+    "formats": ("eccodes",),
     "service": ("flask", "gunicorn", "sqlalchemy"),
     "grid": ("distributed",),
     "postgres": ("psycopg",),
@@ -44,6 +45,7 @@ NEEDS: tuple[tuple[str, str | None, str, tuple[str, ...]], ...] = (
     ("keys", None, "service", ("sqlalchemy",)),
     ("alerts", None, "service", ("sqlalchemy",)),
     ("ingest", None, "service", ("sqlalchemy",)),
+    ("watch", None, "service", ("sqlalchemy",)),
     ("grid", "scheduler", "grid", ("distributed",)),
     ("grid", "plot", "plot", ("matplotlib",)),
     ("verify", "format=html", "plot", ("matplotlib", "jinja2")),

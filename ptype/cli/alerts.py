@@ -33,8 +33,14 @@ def run(args: argparse.Namespace) -> int:
     """List (and with ``--evaluate`` first re-evaluate) the stored alerts; exit status."""
     import os
 
+    from ptype.errors import OptionError
+    from ptype.roads.alerts.cap import deployment_scope
     from ptype.store import open_existing_store, open_store
     from ptype.store.demo import store_clock
+    try:
+        scope = deployment_scope()
+    except ValueError as exc:  # checked before anything is read or written
+        raise OptionError(f"PTYPE_CAP_SCOPE: {exc}", field="PTYPE_CAP_SCOPE") from None
     store = open_store() if args.evaluate else open_existing_store()
     clock = store_clock(store)
     sender = os.environ.get("PTYPE_CAP_SENDER") or "ptype@localhost"
@@ -44,7 +50,7 @@ def run(args: argparse.Namespace) -> int:
             service.evaluate_all(s, clock.now, cap_status=os.environ.get("PTYPE_CAP_STATUS"))
             service.expire_due(s, clock.now)
     if args.format == "cap":
-        _print_cap(store, clock.now, sender, args.all)
+        _print_cap(store, clock.now, sender, args.all, scope)
         return 0
     alerts = _listing(store, clock.now, sender, args.all)
     _print(alerts, clock, sender, args.format, args.all)
@@ -59,7 +65,7 @@ def _listing(store, now, sender: str, include_recent: bool) -> list[dict]:
         return service.list_alerts(s, now, sender, include_recent=include_recent)
 
 
-def _print_cap(store, now, sender: str, include_recent: bool) -> None:
+def _print_cap(store, now, sender: str, include_recent: bool, scope: dict) -> None:
     """One CAP document per listed alert (the status recorded unless PTYPE_CAP_STATUS)."""
     import os
 
@@ -70,7 +76,8 @@ def _print_cap(store, now, sender: str, include_recent: bool) -> None:
     status = os.environ.get("PTYPE_CAP_STATUS")
     with store.read() as s:
         for a in service.list_alerts(s, now, sender, include_recent=include_recent):
-            print(service.cap_for(s.get(Alert, a["id"]), sender, status, 10.0).decode())
+            print(service.cap_for(s.get(Alert, a["id"]), sender, status, 10.0,
+                                  **scope).decode())
 
 
 def _print(alerts: list[dict], clock, sender: str, fmt: str, include_recent: bool) -> None:

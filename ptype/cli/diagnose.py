@@ -38,16 +38,15 @@ def register(sub: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     """Diagnose every profile named in ``args`` and print the result; exit status."""
     from ptype.engine.diagnosis import diagnose
-    from ptype.readers import read_profile
     out = []
     for path in args.paths:
-        source = sys.stdin.read() if path == "-" else path
-        profile = read_profile(source, format=args.input_format)
-        d = diagnose(profile, members=args.members, seed=args.seed, methods=args.methods,
-                     wetbulb=args.wetbulb)
-        result = d.to_dict()
-        result["source"] = path
-        out.append(result)
+        for label, source in _sources(path, args.input_format):
+            d = diagnose(source, members=args.members, seed=args.seed, methods=args.methods,
+                         wetbulb=args.wetbulb)
+            result = d.to_dict()
+            result["source"] = label
+            out.append(result)
+        out.extend(_ensemble_results(path, args))
     if args.format == "json":
         print(json.dumps(out[0] if len(out) == 1 else out, indent=2, ensure_ascii=False))
         return 0
@@ -56,6 +55,41 @@ def run(args: argparse.Namespace) -> int:
             print()
         print(render_table(result))
     return 0
+
+
+def _sources(path: str, input_format: str | None = None):
+    """``(label, profile or text)`` for every profile of one argument: a BUFR file with
+    several reports gives one per report (``PATH#k``); an ensemble NetCDF file gives none
+    here (see :func:`_ensemble_results`).  ``input_format`` (``--input-format``) names the
+    format instead of the file name or content."""
+    from ptype.readers import read_profile
+    if path == "-":
+        return [(path, read_profile(sys.stdin.read(), format=input_format))]
+    if input_format is not None and input_format != "netcdf":
+        return [(path, read_profile(path, format=input_format))]
+    from ptype.readers import read_profiles
+    from ptype.readers.netcdf_format import member_count
+    if path.lower().endswith((".nc", ".nc4", ".cdf")) and member_count(path) > 1:
+        return []
+    profiles = read_profiles(path)
+    if len(profiles) == 1:
+        return [(path, profiles[0])]
+    return [(f"{path}#{k}", pr) for k, pr in enumerate(profiles, start=1)]
+
+
+def _ensemble_results(path: str, args: argparse.Namespace) -> list[dict]:
+    """A multi-member profile file: every member diagnosed, the probabilities the fractions
+    of the members of each type (:func:`ptype.engine.ensemble_diagnosis.diagnose_ensemble`)."""
+    if path == "-" or not path.lower().endswith((".nc", ".nc4", ".cdf")):
+        return []
+    from ptype.readers.netcdf_format import member_count, read_member_documents
+    if member_count(path) <= 1:
+        return []
+    from ptype.engine.ensemble_diagnosis import diagnose_ensemble
+    result = diagnose_ensemble(read_member_documents(path), members=args.members,
+                               seed=args.seed, methods=args.methods, wetbulb=args.wetbulb)
+    result["source"] = path
+    return [result]
 
 
 def render_table(r: dict) -> str:

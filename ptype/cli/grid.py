@@ -16,18 +16,25 @@ CONNECT_TIMEOUT_S = 10
 def register(sub: argparse._SubParsersAction) -> None:
     """Add the ``grid`` command to the sub-command parsers ``sub``."""
     p = sub.add_parser(
-        "grid", help="diagnose every column of CF NetCDF model output on pressure levels",
-        description="Read CF NetCDF model output on pressure levels (variables found by CF "
-                    "standard_name; several files are combined along time), diagnose the "
+        "grid", help="diagnose every column of model output (CF NetCDF or GRIB2) on pressure "
+                     "levels",
+        description="Read CF NetCDF or GRIB2 model output on pressure levels (NetCDF "
+                    "variables found by CF standard_name, GRIB2 fields by their WMO parameter "
+                    "numbers; several files are combined along time; an ensemble member "
+                    "dimension gives probabilities over the members), diagnose the "
                     "precipitation type of every column in chunks, and write CF-1.13 NetCDF with "
                     "the type as WMO GRIB2 code table 4.201 values, layer energies, the "
                     "wet-bulb-zero height and, with --members, per-type probabilities.",
         epilog="Example: ptype grid soundings_demo/grid/demo_grid.nc -o ptype_grid.nc "
                "--members 20 --seed 1 --plot ptype_grid.png")
-    p.add_argument("inputs", nargs="+", metavar="IN.nc", help="model output file(s)")
-    p.add_argument("-o", "--output", required=True, metavar="OUT.nc", help="NetCDF file to write")
+    p.add_argument("inputs", nargs="+", metavar="IN.nc", help="model output file(s): NetCDF "
+                   "or GRIB2")
+    p.add_argument("-o", "--output", required=True, metavar="OUT.nc",
+                   help="file to write: NetCDF, or GRIB2 (the type only, product 0/1/19) when "
+                        "it ends in .grib2/.grb2")
     p.add_argument("--members", type=int, default=0, metavar="N",
-                   help="Monte-Carlo members per column for probabilities (default 0: none)")
+                   help="Monte-Carlo members per column for probabilities (default 0: none; "
+                        "on an ensemble they widen every ensemble member)")
     p.add_argument("--seed", type=int, default=None, metavar="S",
                    help="seed for the members (reproducible for the same seed and chunks)")
     p.add_argument("--chunks", default=None, metavar="DIM=SIZE,...",
@@ -77,17 +84,25 @@ def run(args: argparse.Namespace) -> int:
         out = grid.diagnose_dataset(ds, members=args.members, seed=args.seed,
                                     methods=args.methods, per_method=args.per_method,
                                     fractions=args.fractions, calibration=calibration)
-        grid.write_grid(out, args.output, progress=progress, client=client, argv=_argv(args))
+        if _is_grib_output(args.output):
+            counts = _write_grib(out, args)
+        else:
+            grid.write_grid(out, args.output, progress=progress, client=client,
+                            argv=_argv(args))
+            counts = grid.summary(args.output)
         elapsed = time.perf_counter() - start
     finally:
         if client is not None:
             client.close()
-    counts = grid.summary(args.output)
     total = sum(counts.values())
     print(f"wrote {args.output}: {total} columns in {grid_io.format_seconds(elapsed)}")
     for meaning, k in sorted(counts.items(), key=lambda kv: -kv[1]):
         print(f"  {meaning.replace('_', ' '):<28} {k:>10}  {100.0 * k / total:5.1f} %")
-    if args.plot:
+    if args.plot and _is_grib_output(args.output):
+        from ptype.plot.gridmap import plot_types
+        plot_types(out, args.plot, time_index=args.plot_time or 0)
+        print(f"map: {args.plot}")
+    elif args.plot:
         import xarray as xr
 
         from ptype.plot.gridmap import plot_types
@@ -134,6 +149,33 @@ def _check_plot_time(ds, index: int) -> None:
     if index >= n:
         raise OptionError(f"--plot-time {index}: the input has {n} time step"
                           f"{'s' if n != 1 else ''} (0 to {n - 1})", field="plot_time")
+
+
+def _is_grib_output(path: str) -> bool:
+    from ptype.grid.grib import GRIB_EXTENSIONS
+    return path.lower().endswith(GRIB_EXTENSIONS)
+
+
+def _write_grib(out, args: argparse.Namespace) -> dict[str, int]:
+    """Compute the result and write the type as GRIB2 (0/1/19, code table 4.201), on the
+    grid of the first input when it is GRIB; the counts of each type."""
+    import numpy as np
+
+    from ptype.grid import grib
+    from ptype.grid.dataset import TYPE_FILL
+    out = out.compute()
+    template = grib.first_message(args.inputs[0]) if grib.is_grib(args.inputs[0]) else None
+    grib.write_type_grib2(out, args.output, template)
+    var = out["precipitation_type"]
+    values = np.asarray(var.values)
+    meanings = str(var.attrs["flag_meanings"]).split()
+    counts = {m: int(np.count_nonzero(values == v))
+              for v, m in zip(np.atleast_1d(var.attrs["flag_values"]), meanings)}
+    counts = {m: k for m, k in counts.items() if k}
+    missing = int(np.count_nonzero(values == TYPE_FILL))
+    if missing:
+        counts["not_diagnosed"] = missing
+    return counts
 
 
 def _argv(args: argparse.Namespace) -> list[str]:

@@ -19,6 +19,10 @@ def register(sub: argparse._SubParsersAction) -> None:
     ks = p.add_subparsers(dest="keys_command", metavar="ACTION", parser_class=type(p))
     c = ks.add_parser("create", help="create a key and print it (shown once)")
     c.add_argument("--name", required=True, help="who or what the key is for")
+    c.add_argument("--owner", help="whose sites the key writes (default: the name); sites it "
+                                   "creates belong to this owner")
+    c.add_argument("--admin", action="store_true",
+                   help="an administrator's key: may write to every owner's sites")
     c.set_defaults(func=run_create)
     li = ks.add_parser("list", help="list keys (never the secrets)")
     li.add_argument("--format", choices=("table", "json"), default="table")
@@ -41,11 +45,14 @@ def run_create(args: argparse.Namespace) -> int:
     store = _store()
     try:
         with store.write() as s:
-            key, info = keys.create_key(s, args.name, utcnow())
+            key, info = keys.create_key(s, args.name, utcnow(), owner=args.owner,
+                                        admin=args.admin)
     except ValueError as exc:
         from ptype.errors import OptionError
-        raise OptionError(str(exc), field="name") from None
-    print(f"created key {info.key_id} for {info.name!r}; store it now, it is not shown again:")
+        raise OptionError(str(exc), field=str(exc).split(":")[0]) from None
+    kind = "administrator key" if info.admin else "key"
+    print(f"created {kind} {info.key_id} for {info.name!r} (owner {info.owner!r}); store it "
+          "now, it is not shown again:")
     print(key)
     return 0
 
@@ -58,9 +65,11 @@ def run_list(args: argparse.Namespace) -> int:
     if args.format == "json":
         print(json.dumps({"keys": rows}, indent=2))
         return 0
-    print(f"{'key id':<14} {'status':<8} {'created':<21} name")
+    print(f"{'key id':<14} {'status':<8} {'admin':<6} {'created':<21} {'owner':<20} name")
     for r in rows:
-        print(f"{r['key_id']:<14} {r['status']:<8} {r['created_at']:<21} {r['name']}")
+        admin = "yes" if r["admin"] else "no"
+        print(f"{r['key_id']:<14} {r['status']:<8} {admin:<6} {r['created_at']:<21} "
+              f"{r['owner']:<20} {r['name']}")
     return 0
 
 

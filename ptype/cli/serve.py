@@ -3,6 +3,13 @@
 The application is ``ptype.api:create_app()``; state lives in ``PTYPE_DATA_DIR``
 (default ``./.data``).  ``--demo`` sets ``PTYPE_DEMO=1`` so the application
 loads the demo sites and storm into an empty store on start.
+
+Workers are threaded (:class:`ptype.cli.serve_worker.BoundedThreadWorker`): idle connections
+cost no thread and a slow client holds one for at most the read time limits, so ``/healthz``
+and small requests keep answering while many clients are connected; the computing requests
+are bounded by :mod:`ptype.api.budget`.  The compiled kernels stay serial in the server
+(:func:`ptype.thermo.fast.set_parallel`): no compiled thread pool exists in the master when
+it forks its workers, and the workers run requests side by side instead.
 """
 
 from __future__ import annotations
@@ -14,6 +21,9 @@ import sys
 DEFAULT_HOST = "127.0.0.1"
 DEFAULT_PORT = 8080
 DEFAULT_WORKERS = 2
+#: Threads per worker: enough for dozens of slow clients at once (each holds a thread for
+#: at most the read time limits) while the computing requests queue for their work slots.
+DEFAULT_THREADS = 32
 
 
 def register(sub: argparse._SubParsersAction) -> None:
@@ -27,11 +37,13 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help=f"TCP port (default {DEFAULT_PORT}; 0 picks a free one)")
     p.add_argument("--workers", type=_positive, default=DEFAULT_WORKERS,
                    help=f"worker processes (default {DEFAULT_WORKERS})")
-    p.add_argument("--threads", type=_positive, default=1,
-                   help="threads per worker (default 1; more helps slow clients, not CPU-bound "
-                        "work)")
+    p.add_argument("--threads", type=_positive, default=DEFAULT_THREADS,
+                   help=f"threads per worker (default {DEFAULT_THREADS}; they serve slow and "
+                        "many clients, the computing requests share PTYPE_WORK_SLOTS per "
+                        "worker)")
     p.add_argument("--timeout", type=_positive, default=60,
-                   help="seconds before a stuck worker is restarted (default 60)")
+                   help="seconds before a worker whose main loop is stuck is restarted "
+                        "(default 60; requests themselves stop at PTYPE_REQUEST_DEADLINE_S)")
     p.add_argument("--demo", action="store_true",
                    help="load the demo sites and storm into an empty store on start")
     p.add_argument("--access-log", action="store_true", help="log every request on stderr")
@@ -74,7 +86,7 @@ def gunicorn_options(args: argparse.Namespace) -> dict:
         "bind": bind,
         "workers": args.workers,
         "threads": args.threads,
-        "worker_class": "gthread" if args.threads > 1 else "sync",
+        "worker_class": "ptype.cli.serve_worker.BoundedThreadWorker",
         "timeout": args.timeout,
         "graceful_timeout": 10,
         "keepalive": 5,
@@ -155,7 +167,7 @@ def check_data_dir(data_dir: str) -> None:
     if os.environ.get("PTYPE_DATABASE_URL"):
         return  # the store is elsewhere
     try:
-        os.makedirs(data_dir, exist_ok=True)
+        os.makedirs(data_dir, mode=0o700, exist_ok=True)  # private, as the store makes it
         with tempfile.TemporaryFile(dir=data_dir):
             pass
     except OSError as exc:
@@ -165,6 +177,44 @@ def check_data_dir(data_dir: str) -> None:
     if os.path.exists(db) and not (os.path.isfile(db) and os.access(db, os.R_OK | os.W_OK)):
         raise OptionError(f"store {db}: not a file the service can read and write",
                           field="PTYPE_DATA_DIR")
+
+
+def _serial_kernels() -> None:
+    """Keep the compiled kernels serial in this process (master before ``fork``, and each
+    worker after it): no compiled thread pool is started, so none is forked."""
+    from ptype.thermo import fast
+    fast.set_parallel(False)
+
+
+#: glibc ``mallopt`` parameters (malloc.h): a fixed mmap threshold and the number of arenas.
+_M_MMAP_THRESHOLD, _M_ARENA_MAX = -3, -8
+
+
+def _bounded_malloc() -> None:
+    """Keep a threaded worker's memory from creeping (glibc only; elsewhere nothing).
+
+    By default glibc raises its mmap threshold after large blocks are freed, so later large
+    numpy arrays come from the heap arenas (one per thread, up to 8 per core) and their
+    memory is kept after use; a fixed 1 MiB threshold returns every large array to the
+    system when it is freed, and 4 arenas bound the rest (mallopt(3)).
+    """
+    import ctypes
+    import ctypes.util
+    name = ctypes.util.find_library("c")
+    if not name or "musl" in name:
+        return
+    try:
+        libc = ctypes.CDLL(name)
+        libc.mallopt(_M_MMAP_THRESHOLD, 1 << 20)
+        libc.mallopt(_M_ARENA_MAX, 4)
+    except (OSError, AttributeError):
+        return
+
+
+def _post_fork(_server, _worker) -> None:
+    """gunicorn's hook in each new worker."""
+    _serial_kernels()
+    _bounded_malloc()
 
 
 def run(args: argparse.Namespace) -> int:
@@ -187,9 +237,11 @@ def run(args: argparse.Namespace) -> int:
                 if value is not None:
                     self.cfg.set(key, value)
             self.cfg.set("when_ready", _announce)
+            self.cfg.set("post_fork", _post_fork)
 
         def load(self):
             from ptype.api import create_app
+            _serial_kernels()  # before the demo load computes anything in the master
             app = create_app({"PTYPE_DEMO": bool(args.demo)})
             warm_up()
             return app

@@ -19,6 +19,7 @@ from ptype.engine.consensus import _tally
 from ptype.engine.layers import TOP_LIMIT_HPA
 from ptype.engine.methods import bourgouin, cloud_top
 from ptype.engine.methods.base import Context, MethodResult
+from ptype.engine.probability import MIN_SUPPORT
 from ptype.profile import Profile
 
 _ZERO = w.temperature(0.0, trim=True)
@@ -229,6 +230,11 @@ def support_sentence(diagnosis) -> str | None:
         return (f"The members give {most.name} more often ({probs[most]:.2f}) than {code.name} "
                 f"({probs[code]:.2f}); {code.name} is reported because the profile itself gives "
                 f"it, at least a quarter of the members agree, and {why}.")
-    return (f"The profile itself gives {control.name} ({control.label}), but only "
-            f"{probs[control]:.2f} of the members do, fewer than a quarter; the most probable "
-            f"type, {code.name} ({probs[code]:.2f}), is reported.")
+    sentence = (f"The profile itself gives {control.name} ({control.label}), but only "
+                f"{probs[control]:.2f} of the members do, fewer than a quarter; the most probable "
+                f"type, {code.name} ({probs[code]:.2f}), is reported.")
+    if probs[code] < MIN_SUPPORT - 1e-12:
+        spread = int((np.asarray(probs) > 0).sum())
+        sentence += (f" No type has a quarter of the members: they split over {spread} types, "
+                     "so this answer is uncertain.")
+    return sentence

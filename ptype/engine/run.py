@@ -24,6 +24,7 @@ from typing import Any
 import numpy as np
 
 from ptype.codes import Code
+from ptype.engine import deadline
 from ptype.engine.calibration import Calibration, features
 from ptype.engine.columns import Columns
 from ptype.engine.consensus import VOTERS, consensus
@@ -241,6 +242,7 @@ def run_columns(columns: Columns, members: int = 0, seed: SeedLike = None,
         probs = np.empty((n, len(Code)))
         code_map = possible_code_map(core["ptype"], core["possible"])
         for k, start in enumerate(range(0, n, per_batch)):
+            deadline.check()  # a caller's time limit stops the work between batches
             part = columns.take(slice(start, start + per_batch)) if n > per_batch else columns
             probs[start:start + per_batch] = member_probabilities(
                 part, members, _seed_of_batch(seed, k, start, batch_seed), names,

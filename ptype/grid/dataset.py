@@ -193,11 +193,33 @@ def _output_dataset(ds, fields: GridFields, layout: KernelLayout, packed, seed):
                  "comment": "size-resolved melting and refreezing from the cloud to the "
                             "ground (docs/particles.md); the four fractions sum to 1. "
                             + CAUTION, **extra})
+    out = _with_ensemble(out, ds, fields, layout, field, extra)
     out = _with_coordinates(out, ds, fields, grid_mapping)
     out.attrs.update(_global_attributes(ds, layout, seed))
     hist = ds.attrs.get("history")
     if hist:
         out.attrs["history"] = str(hist)
+    return out
+
+
+def _with_ensemble(out, ds, fields: GridFields, layout: KernelLayout, field, extra: dict):
+    """With an ensemble member dimension: probabilities over the members and the most likely
+    type (:mod:`ptype.grid.ensemble`) replace the per-member probabilities."""
+    from ptype.grid import ensemble
+    member = ensemble.member_dim(ds, fields.horizontal_dims)
+    if member is None:
+        return out
+    probs = ensemble.ensemble_probabilities(field, member, layout.members, ds.sizes[member],
+                                            extra)
+    out = out.drop_vars([k for k in probs if k in out])
+    for name, p in probs.items():
+        out[name] = p
+    col_dims = tuple(d for d in _column_dims(fields) if d != member)
+    out["most_likely_precipitation_type"] = _type_variable(
+        ensemble.most_likely_type(probs).transpose(*col_dims), col_dims, extra,
+        f"most likely precipitation type at the surface over {ds.sizes[member]} ensemble "
+        "members")
+    out.attrs["ptype_ensemble_members"] = np.int32(ds.sizes[member])
     return out
 
 

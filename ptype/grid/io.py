@@ -77,7 +77,8 @@ def default_chunks(ds: xr.Dataset, fields: GridFields, members: int = 0) -> dict
 
 def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | None = None,
               members: int = 0) -> xr.Dataset:
-    """Open one or more NetCDF files as one dask-backed dataset, combined along time.
+    """Open one or more NetCDF files (or GRIB2 files, :mod:`ptype.grid.grib`) as one
+    dask-backed dataset, combined along time.
 
     ``chunks`` maps dimension names to chunk sizes (the level dimension is always whole); the
     dimensions not given follow :func:`default_chunks`, sized for ``members`` Monte-Carlo
@@ -101,10 +102,14 @@ def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | N
             raise ReaderError(f"{path}: not a readable NetCDF file ({reason})",
                               field="input") from None
 
-    datasets = []
     for path in paths:
         if not os.path.exists(path):
             raise FileNotFoundError(2, "No such file or directory", path)
+    from ptype.grid import grib
+    if any(grib.is_grib(p) for p in paths):
+        return _open_grib(paths, chunks, members)
+    datasets = []
+    for path in paths:
         datasets.append((path, _open(path, {})))
     fields = find_fields(datasets[0][1], datasets[0][0])
     for path, ds in datasets[1:]:
@@ -144,6 +149,28 @@ def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | N
                     for path, d in datasets]
         ds = _combine(datasets, fields)
     ds = ds.chunk(full)
+    ds.attrs["_ptype_sources"] = " ".join(os.path.basename(p) for p in paths)
+    return ds
+
+
+def _open_grib(paths: list[str], chunks: Mapping[str, int] | None, members: int):
+    """GRIB2 files through :func:`ptype.grid.grib.open_grib_dataset`, chunked as NetCDF is."""
+    from ptype.grid import grib
+    not_grib = [p for p in paths if not grib.is_grib(p)]
+    if not_grib:
+        raise ReaderError(f"{not_grib[0]}: not GRIB, while other inputs are; give either "
+                          "GRIB2 or NetCDF files", field="input")
+    ds = grib.open_grib_dataset(paths)
+    fields = find_fields(ds, paths[0])
+    want = dict(chunks or {})
+    unknown = sorted(set(want) - set(ds.dims))
+    if unknown:
+        raise OptionError(f"chunks: unknown dimension(s) {', '.join(unknown)}; the input has "
+                          f"{', '.join(map(str, ds.dims))}", field="chunks")
+    full = default_chunks(ds, fields, members)
+    full.update(want)
+    full[fields.level_dim] = -1
+    ds = ds.chunk({d: c for d, c in full.items() if d in ds.dims})
     ds.attrs["_ptype_sources"] = " ".join(os.path.basename(p) for p in paths)
     return ds
 

@@ -13,6 +13,11 @@ U.S. Air Force Air Weather Service report AWS/TR-79/006 - from memory).  The fig
   between the curve and 0 degC and labelled with its area in J/kg (the same
   numbers the methods compared, taken from ``Diagnosis.to_dict()["layers"]``),
 * saturated (cloud) layers as a strip on the right edge,
+* the surface: a marker on each curve and a box with T, Tw and Td (the surface temperature
+  decides freezing rain against rain, so nothing else is drawn over it),
+* the energy labels in a column right of the curves with leader lines to their layers,
+* a second panel with the lowest 3 km against height above ground (where the refreezing
+  layer and the surface decide the type),
 * the consensus type and the probabilities in the title, the caution in small print.
 
 The palette and layout are our own.
@@ -27,30 +32,23 @@ from typing import Any
 import numpy as np
 
 from ptype.constants import CAUTION
+from ptype.style import FIGURE
 
-#: Our palette (colour-blind-safe pairs chosen to differ in lightness as well as hue).
-PALETTE = {
-    "temperature": "#b3261e",     # brick red
-    "dewpoint": "#12715b",        # deep teal
-    "wetbulb": "#5a4fcf",         # indigo, dashed
-    "zero": "#1d2733",            # near-black slate
-    "melt": "#f29e4c",            # apricot fill for melting areas
-    "refreeze": "#5fa8d3",        # sky fill for refreezing areas
-    "cloud": "#8a94a6",           # cloud strip
-    "grid": "#c9cfd8",
-    "text": "#1d2733",
-    "faint": "#d9dee6",
-    "background": "#fbfaf7",
-}
+#: Colours of the figure, from the one palette (ptype/style/palette.py).
+PALETTE = FIGURE
 
 FORMATS = {"png": "image/png", "svg": "image/svg+xml"}
+
+#: Top of the surface box in the column right of the chart, fraction of the axes height;
+#: energy labels start above it.
+SURFACE_BOX_TOP = 0.24
 
 #: Upper edge of the drawing, hPa: precipitation type is decided below ~500 hPa (common practice);
 #: we show a little more for the cloud tops.
 TOP_HPA = 400.0
 
 
-def draw_diagram(diagnosis_or_profile: Any, fmt: str = "png", *, width_in: float = 7.5,
+def draw_diagram(diagnosis_or_profile: Any, fmt: str = "png", *, width_in: float = 7.0,
                  dpi: int = 110) -> bytes:
     """Draw the skew-T log-p diagram and return the image bytes.
 
@@ -163,11 +161,11 @@ def _figure(data: dict, width_in: float):
     td = td[ok] if td.size == ok.size else np.full_like(t, np.nan)
     tw = tw[ok] if tw.size == ok.size else np.full_like(t, np.nan)
 
-    fig = Figure(figsize=(width_in, width_in * 1.12))
+    fig = Figure(figsize=(width_in, width_in * 1.55))
     fig.patch.set_facecolor(PALETTE["background"])
-    skew = SkewT(fig, rotation=40, aspect="auto", rect=(0.1, 0.11, 0.8, 0.7))
+    skew = SkewT(fig, rotation=40, aspect="auto", rect=(0.12, 0.39, 0.62, 0.46))
     ax = skew.ax
-    ax.set_facecolor("white")
+    ax.set_facecolor(PALETTE["axes"])
 
     bottom = float(np.nanmax(p)) + 8 if p.size else 1050.0
     top = max(float(np.nanmin(p)), TOP_HPA) if p.size else TOP_HPA
@@ -181,13 +179,13 @@ def _figure(data: dict, width_in: float):
              if top <= t_ <= bottom]
     ax.set_yticks(ticks)
     ax.set_yticklabels([str(x) for x in ticks])
-    ax.tick_params(colors=PALETTE["text"], labelsize=8)
+    ax.tick_params(colors=PALETTE["text"], labelsize=9)
     ax.grid(True, color=PALETTE["grid"], linewidth=0.5)
     skew.plot_dry_adiabats(colors=PALETTE["faint"], linewidths=0.6, alpha=1.0)
     skew.plot_moist_adiabats(colors=PALETTE["faint"], linewidths=0.6, linestyles="dotted",
                              alpha=1.0)
-    ax.set_xlabel("Temperature (\u00b0C)", color=PALETTE["text"], fontsize=9)
-    ax.set_ylabel("Pressure (hPa)", color=PALETTE["text"], fontsize=9)
+    ax.set_xlabel("Temperature (\u00b0C)", color=PALETTE["text"], fontsize=10)
+    ax.set_ylabel("Pressure (hPa)", color=PALETTE["text"], fontsize=10)
 
     # Melting and refreezing areas, between the curve and 0 degC.
     _shade_layers(skew, data.get("layers") or [], p, t)
@@ -205,23 +203,85 @@ def _figure(data: dict, width_in: float):
                       linestyle=(0, (5, 2)), label="Wet-bulb", zorder=5)
 
     _cloud_strip(ax, data.get("cloud_layers") or [], bottom, top)
+    if p.size:
+        _surface_marker(skew, p[0], t[0], tw[0], td[0])
 
-    legend = ax.legend(loc="upper left", fontsize=8, frameon=True, framealpha=0.92,
+    legend = ax.legend(loc="upper left", fontsize=8.5, frameon=True, framealpha=0.92,
                        edgecolor=PALETTE["grid"])
     legend.set_zorder(10)
+    _low_panel(fig, prof, data.get("layers") or [])
 
     head, where, probs = _title_text(data)
-    fig.text(0.1, 0.95, head, fontsize=14, fontweight="bold", color=PALETTE["text"],
+    fig.text(0.12, 0.955, head, fontsize=15, fontweight="bold", color=PALETTE["text"],
              ha="left", va="bottom")
-    fig.text(0.1, 0.922, where, fontsize=9.5, color="#4a5463", ha="left", va="bottom")
-    fig.text(0.1, 0.894, probs, fontsize=10, color=PALETTE["text"], ha="left", va="bottom")
-    fig.text(0.1, 0.84, "Shaded: apricot = melting (air above 0 \u00b0C), sky = refreezing "
+    fig.text(0.12, 0.935, where, fontsize=10, color=PALETTE["text-soft"], ha="left", va="bottom")
+    fig.text(0.12, 0.915, probs, fontsize=10.5, color=PALETTE["text"], ha="left", va="bottom")
+    fig.text(0.12, 0.875, "Shaded: warm = melting (air above 0 \u00b0C), cool = refreezing\n"
              "(below 0 \u00b0C under a melting layer); labels give the area in J/kg.",
-             fontsize=7.5, color="#4a5463", ha="left", va="bottom")
+             fontsize=8.5, color=PALETTE["text-soft"], ha="left", va="bottom")
     caution = data.get("caution") or CAUTION
-    fig.text(0.5, 0.015, caution, fontsize=7, color="#4a5463", ha="center", va="bottom",
-             wrap=True, style="italic")
+    fig.text(0.5, 0.008, caution, fontsize=7.5, color=PALETTE["text-soft"], ha="center",
+             va="bottom", wrap=True, style="italic")
     return fig
+
+
+def _surface_marker(skew, p0: float, t0: float, tw0: float, td0: float) -> None:
+    """Markers on the three curves at the surface and a box with their values, placed
+    right of the curves with a leader line to the temperature marker."""
+    ax = skew.ax
+    for value, key, marker in ((t0, "temperature", "o"), (tw0, "wetbulb", "s"),
+                               (td0, "dewpoint", "D")):
+        if np.isfinite(value):
+            ax.plot([value], [p0], marker=marker, markersize=7, color=PALETTE[key],
+                    markeredgecolor=PALETTE["axes"], zorder=9, clip_on=False)
+    parts = [f"T {t0:.1f} \u00b0C"]
+    parts += [f"{name} {v:.1f} \u00b0C" for name, v in (("Tw", tw0), ("Td", td0))
+              if np.isfinite(v)]
+    # In the column right of the chart, at its foot: nothing is drawn over the surface.
+    ax.annotate(f"Surface {p0:.0f} hPa\n" + "\n".join(parts), xy=(t0, p0),
+                xycoords="data", xytext=(1.03, 0.0), textcoords="axes fraction",
+                ha="left", va="bottom", fontsize=9, color=PALETTE["text"], zorder=11,
+                annotation_clip=False, gid="surface-values",
+                bbox={"boxstyle": "round,pad=0.3", "facecolor": PALETTE["axes"],
+                      "edgecolor": PALETTE["temperature"]},
+                arrowprops={"arrowstyle": "-", "color": PALETTE["temperature"],
+                            "linewidth": 0.9})
+
+
+def _low_panel(fig, prof: dict, layers: list[dict]) -> None:
+    """The lowest 3 km against height above ground: T, Tw, Td, 0 degC, warm layers."""
+    z = _array(prof.get("height_m"))
+    if z.size < 2 or not np.isfinite(z[0]):
+        return
+    agl_km = (z - z[0]) / 1000.0
+    ax = fig.add_axes((0.12, 0.07, 0.62, 0.22))
+    ax.set_facecolor(PALETTE["axes"])
+    low = agl_km <= 3.05
+    t = _array(prof.get("temperature_c"))
+    for key, label, style in (("temperature_c", "T", "-"), ("wetbulb_c", "Tw", "--"),
+                              ("dewpoint_c", "Td", "-")):
+        values = _array(prof.get(key))
+        colour = PALETTE[{"temperature_c": "temperature", "wetbulb_c": "wetbulb",
+                          "dewpoint_c": "dewpoint"}[key]]
+        if values.size == z.size and np.isfinite(values[low]).any():
+            ax.plot(values[low], agl_km[low], style, color=colour, linewidth=2, label=label)
+    ax.fill_betweenx(agl_km[low], 0, t[low], where=t[low] > 0, color=PALETTE["melt"],
+                     alpha=0.5, linewidth=0)
+    # Cold air counts as refreezing only under a melting layer (as on the chart above).
+    warm_heights = agl_km[low][t[low] > 0]
+    if warm_heights.size:
+        under = t[low] < 0
+        under &= agl_km[low] <= warm_heights.max()
+        ax.fill_betweenx(agl_km[low], 0, t[low], where=under, color=PALETTE["refreeze"],
+                         alpha=0.35, linewidth=0)
+    ax.axvline(0.0, color=PALETTE["zero"], linewidth=1.4)
+    ax.set_ylim(0, 3)
+    ax.grid(True, color=PALETTE["grid"], linewidth=0.5)
+    ax.set_xlabel("Temperature (\u00b0C)", fontsize=10, color=PALETTE["text"])
+    ax.set_ylabel("Height above\nground (km)", fontsize=10, color=PALETTE["text"])
+    ax.tick_params(labelsize=9, colors=PALETTE["text"])
+    ax.set_title("Lowest 3 km", fontsize=10.5, loc="left", color=PALETTE["text"])
+    ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5), fontsize=9, frameon=False)
 
 
 def _fit_x(ax, p: np.ndarray, values: np.ndarray, bottom: float) -> None:
@@ -264,7 +324,7 @@ def _shade_layers(skew, layers: list[dict], p: np.ndarray, t: np.ndarray) -> Non
     if not warm:
         return
     highest_warm_top = max(float(lyr.get("top_hpa") or np.inf) for lyr in warm)
-    ax = skew.ax
+    labels: list[tuple[float, str, float, str]] = []
     for lyr in layers:
         kind = lyr.get("kind")
         pb, pt = lyr.get("bottom_hpa"), lyr.get("top_hpa")
@@ -278,18 +338,42 @@ def _shade_layers(skew, layers: list[dict], p: np.ndarray, t: np.ndarray) -> Non
         colour = PALETTE["melt"] if kind == "warm" else PALETTE["refreeze"]
         where = curve > 0 if kind == "warm" else curve < 0
         skew.shade_area(grid * units.hPa, curve * units.degC, 0 * units.degC, where=where,
-                        facecolor=colour, alpha=0.55, edgecolor="none", zorder=2)
+                        facecolor=colour, alpha=0.55, edgecolor=None, linewidth=0, zorder=2)
         area = lyr.get("area_j_kg")
         if area is None:
             continue
+        labels.append((float(np.sqrt(pb * pt)), kind, area, colour))
+    _energy_labels(skew.ax, labels)
+
+
+def _energy_labels(ax, labels: list[tuple[float, str, float, str]]) -> None:
+    """Each layer's energy in a column outside the axes, right of the curves, with a leader
+    line to the layer's middle on the 0 degC line; labels are spread so none overlap."""
+    from matplotlib.transforms import blended_transform_factory
+    if not labels:
+        return
+    y0, y1 = ax.get_ylim()  # bottom (high pressure), top
+    span = np.log(y0) - np.log(y1)
+    # Positions as fractions of the axis height, pushed apart by at least 0.075 and kept
+    # above the surface box at the foot of the column.
+    wanted = sorted(((np.log(y0) - np.log(mid)) / span, i) for i, (mid, *_r) in
+                    enumerate(labels))
+    placed: dict[int, float] = {}
+    last = -1.0
+    for frac, i in wanted:
+        frac = max(frac, last + 0.075, SURFACE_BOX_TOP)
+        placed[i] = last = frac
+    trans = blended_transform_factory(ax.transAxes, ax.transAxes)
+    for i, (mid, kind, area, colour) in enumerate(labels):
         word = "melting" if kind == "warm" else "refreezing"
-        mid = float(np.sqrt(pb * pt))
-        # Label just right of the 0 degC line, in data coordinates of the skewed axes.
-        label_x = 1.0 if kind == "warm" else -1.0
-        ax.text(label_x, mid, f"{word}\n{area:.0f} J/kg", fontsize=8, color=PALETTE["text"],
-                ha="left" if kind == "warm" else "right", va="center", zorder=8,
-                bbox={"boxstyle": "round,pad=0.25", "facecolor": "white", "alpha": 0.85,
-                      "edgecolor": colour})
+        ax.annotate(f"{word} {area:.0f} J/kg", xy=(0.0, mid), xycoords="data", gid="energy",
+                    xytext=(1.03, min(placed[i], 0.97)), textcoords=trans, fontsize=8.5,
+                    color=PALETTE["text"], ha="left", va="center", zorder=8,
+                    annotation_clip=False,
+                    bbox={"boxstyle": "round,pad=0.25", "facecolor": PALETTE["axes"],
+                          "edgecolor": colour},
+                    arrowprops={"arrowstyle": "-", "color": colour, "linewidth": 0.9,
+                                "shrinkA": 0, "shrinkB": 2})
 
 
 def _cloud_strip(ax, clouds: list[dict], bottom: float, top: float) -> None:
@@ -302,7 +386,7 @@ def _cloud_strip(ax, clouds: list[dict], bottom: float, top: float) -> None:
         if pb <= pt:
             continue
         ax.axhspan(pt, pb, xmin=0.955, xmax=1.0, facecolor=PALETTE["cloud"], alpha=0.75,
-                   edgecolor="none", zorder=7, label="Cloud (saturated)" if first else None)
+                   linewidth=0, zorder=7, label="Cloud (saturated)" if first else None)
         first = False
     ax.text(0.977, 1.005, "cloud", transform=ax.transAxes, fontsize=7, ha="center",
             va="bottom", color=PALETTE["text"])

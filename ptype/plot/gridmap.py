@@ -15,29 +15,38 @@ import numpy as np
 
 from ptype.codes import GRIB2_4201_MEANINGS
 from ptype.errors import OptionError
+from ptype.style import FIGURE, GRIB2_STYLE
 
 if TYPE_CHECKING:
     import xarray as xr
 
-#: ptype's palette for GRIB2 4.201 values (ours): liquid in teals, frozen in indigo/violet,
-#: ice pellets and mixed ice in ambers, freezing types in crimson and rose so the most
-#: hazardous stand out; no precipitation in a pale stone colour.
-PALETTE = {
-    0: "#eeebe3",    # no precipitation
-    1: "#1b7f79",    # rain
-    3: "#a50f15",    # freezing rain
-    4: "#b35806",    # mixed/ice (rain or freezing rain with ice pellets)
-    5: "#4b3f8f",    # snow
-    7: "#9e9ac8",    # rain and snow
-    8: "#e6a117",    # ice pellets
-    11: "#8cc7b9",   # drizzle
-    12: "#f768a1",   # freezing drizzle
-}
-MISSING_COLOUR = "#9a9a9a"
+#: Colour of each GRIB2 4.201 value on the map: the one palette (ptype/style/palette.py),
+#: each value drawn as the ptype type it stands for, with that type's hatching as a
+#: second cue so the map reads without colour.
+PALETTE = {value: style.colour for value, style in GRIB2_STYLE.items()}
+MISSING_COLOUR = FIGURE["missing"]
 
 
 def _label(meaning: str) -> str:
     return meaning.replace("_", " ")
+
+
+def _hatch_types(ax, x, y, index: np.ndarray, codes: list[int]) -> None:
+    """Each patterned type's area hatched in its text colour (the second cue)."""
+    for i, c in enumerate(codes):
+        style = GRIB2_STYLE[c]
+        mask = index == i
+        if not style.hatch or not mask.any():
+            continue
+        with matplotlib_rc({"hatch.color": style.ink, "hatch.linewidth": 0.5}):
+            ax.contourf(x, y, mask.astype(float), levels=[0.5, 1.5], colors="none",
+                        hatches=[style.hatch])
+
+
+def matplotlib_rc(settings: dict):
+    """matplotlib's rc_context (imported late: matplotlib is an optional extra)."""
+    import matplotlib
+    return matplotlib.rc_context(settings)
 
 
 def plot_types(ds: xr.Dataset, path: str | os.PathLike, *, time_index: int = 0,
@@ -85,6 +94,7 @@ def plot_types(ds: xr.Dataset, path: str | os.PathLike, *, time_index: int = 0,
     fig, ax = plt.subplots(figsize=(10.0, min(12.0, max(3.5, map_width_in * aspect) + 1.8)),
                            dpi=110)
     ax.pcolormesh(x, y, index, cmap=cmap, norm=norm, shading="nearest")
+    _hatch_types(ax, x, y, index, codes)
     ax.set_aspect("equal" if xdim in ds.coords and ydim in ds.coords else "auto")
 
     def axis_label(dim):
@@ -101,18 +111,20 @@ def plot_types(ds: xr.Dataset, path: str | os.PathLike, *, time_index: int = 0,
     handles = []
     for i in present:
         if i == len(codes):
-            handles.append(Patch(facecolor=MISSING_COLOUR, edgecolor="#333333",
+            handles.append(Patch(facecolor=MISSING_COLOUR, edgecolor=FIGURE["edge"],
                                  label="not diagnosed"))
         else:
             c = codes[i]
             share = 100.0 * np.count_nonzero(index == i) / index.size
-            handles.append(Patch(facecolor=PALETTE[c], edgecolor="#333333",
+            style = GRIB2_STYLE[c]
+            handles.append(Patch(facecolor=style.colour, edgecolor=style.ink,
+                                 hatch=style.hatch or None, linewidth=0.6,
                                  label=f"{_label(GRIB2_4201_MEANINGS[c])} ({share:.0f} %)"))
     ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False,
               title="type at the surface")
     head = title or "Precipitation type at the surface (ptype consensus)"
     ax.set_title(f"{head}\n{when}" if when else head, fontsize=11)
-    fig.text(0.01, 0.01, CAUTION, fontsize=7, color="#444444", wrap=True)
+    fig.text(0.01, 0.01, CAUTION, fontsize=7, color=FIGURE["text-soft"], wrap=True)
     fig.tight_layout(rect=(0, 0.05, 1, 1))
     fig.savefig(path)
     plt.close(fig)

@@ -12,10 +12,11 @@ from __future__ import annotations
 
 import json
 from datetime import datetime
-from typing import Any
+from typing import Annotated, Any
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError
+from pydantic import AfterValidator, BaseModel, ConfigDict, Field, ValidationError
 
+from ptype.clock import in_time_range
 from ptype.errors import ProfileError
 
 # Strict numbers: a JSON string such as "12.5" is refused rather than coerced,
@@ -82,8 +83,9 @@ class ProfileDocument(_Strict):
     """A single vertical profile with optional site, valid time and surface readings."""
 
     site: Site | None = None
-    valid_time: datetime | None = Field(
-        None, description="ISO 8601 time the profile is valid for; UTC assumed when no offset.")
+    valid_time: Annotated[datetime, AfterValidator(in_time_range)] | None = Field(
+        None, description="ISO 8601 time the profile is valid for; UTC assumed when no offset; "
+                          "from 1900 up to (not including) 2200.")
     source: str | None = Field(None, max_length=200,
                                description="Free text: radiosonde, aircraft, model name...")
     levels: list[Level] = Field(..., description="Levels in any order.")
@@ -118,7 +120,7 @@ def validation_error_to_profile_error(exc: ValidationError) -> ProfileError:
         shown = repr(value)
         if len(shown) > 60:
             shown = shown[:57] + "..."
-        msg = f"{field}: {err['msg'].lower()} (got {shown})"
+        msg = f"{field}: {err['msg'].removeprefix('Value error, ').lower()} (got {shown})"
     if len(exc.errors()) > 1:
         msg += f" (and {len(exc.errors()) - 1} more problem(s))"
     return ProfileError(msg, field=field)

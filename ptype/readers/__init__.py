@@ -15,9 +15,10 @@ from ptype.errors import ReaderError
 from ptype.profile import Profile
 from ptype.readers import csv_format, json_format
 
-FORMATS = ("json", "csv", "temp", "netcdf")
+FORMATS = ("json", "csv", "temp", "netcdf", "bufr")
 _EXTENSIONS = {".json": "json", ".csv": "csv", ".txt": "temp", ".temp": "temp", ".tmp": "temp",
-               ".nc": "netcdf", ".nc4": "netcdf", ".cdf": "netcdf"}
+               ".nc": "netcdf", ".nc4": "netcdf", ".cdf": "netcdf", ".bufr": "bufr",
+               ".bfr": "bufr", ".bufr4": "bufr"}
 
 
 def detect_format(text: str) -> str:
@@ -77,6 +78,9 @@ def read_document(source: str | os.PathLike | bytes,
     if _is_path(source):
         return _read_path(Path(source), format)
     if isinstance(source, bytes):
+        from ptype.readers import bufr_format
+        if format == "bufr" or (format is None and bufr_format.is_bufr(source)):
+            return _single(bufr_format.read_bufr_documents(source), "<bytes>"), "<bytes>"
         if format == "netcdf" or source[:3] == b"CDF" or source[:4] == b"\x89HDF":
             from ptype.readers import netcdf_format
             return netcdf_format.read_netcdf_document(source), "<text>"
@@ -97,6 +101,11 @@ def _read_path(path: Path, format: str | None) -> tuple[dict, str]:
     if not path.exists():
         raise ReaderError(f"{name}: no such file")
     fmt = format or _EXTENSIONS.get(path.suffix.lower())
+    if fmt is None and _starts_with(path, b"BUFR"):
+        fmt = "bufr"
+    if fmt == "bufr":
+        from ptype.readers import bufr_format
+        return _single(bufr_format.read_bufr_documents(path), name), name
     if fmt == "netcdf":
         from ptype.readers import netcdf_format
         return netcdf_format.read_netcdf_document(path), name
@@ -107,6 +116,54 @@ def _read_path(path: Path, format: str | None) -> tuple[dict, str]:
     except OSError as exc:
         raise ReaderError(f"{name}: cannot be read ({exc.strerror})") from None
     return _read_text(text, fmt, name), name
+
+
+def _starts_with(path: Path, magic: bytes) -> bool:
+    try:
+        with path.open("rb") as f:
+            return f.read(len(magic)) == magic
+    except OSError:
+        return False
+
+
+def _single(documents: list[dict], name: str) -> dict:
+    """The one profile of a source that may hold several (BUFR)."""
+    if len(documents) != 1:
+        raise ReaderError(f"{name}: holds {len(documents)} profiles; expected one here "
+                          "(ptype.read_profiles reads them all)")
+    return documents[0]
+
+
+def read_documents(source: str | os.PathLike | bytes,
+                   format: str | None = None) -> tuple[list[dict], str]:
+    """Every profile document of ``source``: several for a BUFR file with several subsets or
+    messages or a TEMP text with several ascents, else the one of :func:`read_document`."""
+    from ptype.readers import bufr_format
+    if isinstance(source, bytes) and (format == "bufr" or (
+            format is None and bufr_format.is_bufr(source))):
+        return bufr_format.read_bufr_documents(source), "<bytes>"
+    if _is_path(source):
+        path = Path(source)
+        fmt = format or _EXTENSIONS.get(path.suffix.lower())
+        if path.exists() and (fmt == "bufr" or (fmt is None and _starts_with(path, b"BUFR"))):
+            return bufr_format.read_bufr_documents(path), str(path)
+        if path.exists() and fmt == "temp":
+            from ptype.readers import temp_format
+            try:
+                text = path.read_text(encoding="utf-8-sig")
+            except (UnicodeDecodeError, OSError):
+                text = None
+            if text is not None:
+                return temp_format.read_temp_documents(text, str(path)), str(path)
+    document, name = read_document(source, format)
+    return [document], name
+
+
+def read_profiles(path_or_bytes: str | os.PathLike | bytes,
+                  format: str | None = None) -> list[Profile]:
+    """Every profile of a file or byte string (see :func:`read_documents`), validated."""
+    documents, name = read_documents(path_or_bytes, format)
+    return [_validated(document, name) for document in documents]
 
 
 def _read_text(text: str, fmt: str | None, name: str) -> dict:
@@ -131,9 +188,9 @@ def read_profile(path_or_text: str | os.PathLike | bytes, format: str | None = N
     Parameters
     ----------
     path_or_text : str, os.PathLike or bytes
-        A path to a ``.json``, ``.csv``, ``.txt``/``.temp`` (WMO TEMP) or ``.nc`` file, or
-        the content itself.
-    format : {"json", "csv", "temp", "netcdf"}, optional
+        A path to a ``.json``, ``.csv``, ``.txt``/``.temp`` (WMO TEMP), ``.nc`` or ``.bufr``
+        (WMO BUFR radiosonde report) file, or the content itself (BUFR and NetCDF as bytes).
+    format : {"json", "csv", "temp", "netcdf", "bufr"}, optional
         Skip detection.
 
     Raises
@@ -144,6 +201,11 @@ def read_profile(path_or_text: str | os.PathLike | bytes, format: str | None = N
         The content was read but is not a valid profile.
     """
     document, name = read_document(path_or_text, format)
+    return _validated(document, name)
+
+
+def _validated(document: dict, name: str) -> Profile:
+    """A document as a validated profile; problems name the source."""
     from ptype.errors import ProfileError
     from ptype.profile.document import parse_document
     try:

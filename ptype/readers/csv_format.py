@@ -112,7 +112,10 @@ def _read_metadata(line: str, doc: dict, site: dict, surface: dict, name: str,
 
 def _read_header(header_line: int, header: str, name: str) -> list[str]:
     """The column names of the header, checked: known, distinct, pressure and temperature."""
-    columns = [c.strip().lower() for c in next(csv.reader([header]))]
+    try:
+        columns = [c.strip().lower() for c in next(csv.reader([header]))]
+    except csv.Error as exc:  # e.g. a field longer than the csv module's limit (128 KiB)
+        raise ReaderError(f"{name}: line {header_line}: not a CSV header ({exc})") from None
     unknown = [c for c in columns if c not in LEVEL_FIELDS]
     if unknown:
         raise ReaderError(f"{name}: line {header_line}: unknown column {unknown[0]!r}; "
@@ -127,9 +130,14 @@ def _read_header(header_line: int, header: str, name: str) -> list[str]:
 
 def _read_rows(data_lines: list[tuple[int, str]], columns: list[str], name: str) -> list[dict]:
     """One level per row; an empty cell is a missing value."""
-    levels = []
     reader = csv.reader(io.StringIO("\n".join(raw for _, raw in data_lines)))
-    for (lineno, _), row in zip(data_lines, reader):
+    try:
+        rows = list(reader)
+    except csv.Error as exc:  # e.g. a field longer than the csv module's limit (128 KiB)
+        lineno = data_lines[min(reader.line_num, len(data_lines)) - 1][0] if data_lines else 0
+        raise ReaderError(f"{name}: line {lineno}: not a CSV row ({exc})") from None
+    levels = []
+    for (lineno, _), row in zip(data_lines, rows):
         if len(row) != len(columns):
             raise ReaderError(f"{name}: line {lineno}: {len(row)} value(s) for {len(columns)} "
                               "columns")

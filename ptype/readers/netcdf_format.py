@@ -279,3 +279,43 @@ def _valid_time(ds) -> str | None:
             if not text.startswith("NaT"):
                 stamp = text + "Z"
     return stamp
+
+
+def _member_dimension(ds) -> str | None:
+    """The ensemble member dimension: a coordinate with CF standard name ``realization``,
+    else a dimension named ``realization``, ``member`` or ``number``."""
+    for name in ds.dims:
+        if name in ds.coords and ds[name].attrs.get("standard_name") == "realization":
+            return str(name)
+    return next((str(d) for d in ds.dims if d in ("realization", "member", "number")), None)
+
+
+def member_count(path: str | os.PathLike) -> int:
+    """The number of ensemble members in a single-profile NetCDF file (0: no member
+    dimension)."""
+    ds = _open(os.fspath(path))
+    try:
+        dim = _member_dimension(ds)
+        return 0 if dim is None else int(ds.sizes[dim])
+    finally:
+        ds.close()
+
+
+def read_member_documents(path: str | os.PathLike) -> list[dict]:
+    """One profile document per ensemble member of a NetCDF file holding one sounding with a
+    member dimension (CF ``realization``); each names its member in ``source``."""
+    name = os.fspath(path)
+    ds = _open(name)
+    try:
+        dim = _member_dimension(ds)
+        if dim is None:
+            return [_read(ds, name)]
+        labels = ds[dim].values if dim in ds.coords else range(ds.sizes[dim])
+        docs = []
+        for k, label in enumerate(labels):
+            doc = _read(ds.isel({dim: k}), name)
+            doc["source"] = f"{doc['source']} (member {label})"[:200]
+            docs.append(doc)
+        return docs
+    finally:
+        ds.close()

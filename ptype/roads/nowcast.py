@@ -58,6 +58,9 @@ CLOUD_BASE_RH_PCT = 90.0
 MELTING_MAX_HOURS = 3.0
 #: Largest number of levels in the common grid (finer inputs are resampled evenly in s).
 MAX_GRID_LEVELS = 200
+#: Member columns x levels diagnosed together in one engine pass: bounds a timeline's memory
+#: (tens of MB per pass) whatever its steps and members (our choice).
+MAX_MEMBER_LEVELS_PER_PASS = 250_000
 
 ADJUSTMENTS = ("observation", "onset", "melting")
 
@@ -106,10 +109,32 @@ def _seconds(times: Sequence[datetime]) -> np.ndarray:
     return np.array([t.timestamp() for t in times], dtype=np.float64)
 
 
+def _on_common_levels(profiles: Sequence[Profile]) -> bool:
+    """True when the profiles share their levels above the lowest one (model output on
+    pressure levels, whose lowest level is the surface, moving with the surface pressure)."""
+    aloft = [pr.pressure_hpa[1:] for pr in profiles]
+    longest = max(a.size for a in aloft)
+    return np.unique(np.round(np.concatenate(aloft), 3)).size <= longest
+
+
 def _common_grid(profiles: Sequence[Profile]) -> np.ndarray:
-    """Terrain-following levels s = ln(p/p_sfc) (0 at the ground, negative upward) shared by all."""
+    """Terrain-following levels s = ln(p/p_sfc) (0 at the ground, negative upward) shared by all.
+
+    Profiles on common pressure levels (model runs) keep their own levels: the grid is the
+    s-levels of the one with the most levels.  Their union would hold a copy of every level
+    per valid time (the surface pressure moves, so s moves) and be resampled to
+    :data:`MAX_GRID_LEVELS`, ten times the work for no information (measured,
+    bench/bench_ingest.py).  Other series use the union of their levels."""
     s_each = [np.log(pr.pressure_hpa / pr.pressure_hpa[0]) for pr in profiles]
-    s_top = max(float(s.min()) for s in s_each)  # the lowest of the tops: all cover it
+    # The lowest of the tops (all profiles cover it), rounded as the levels are: unrounded it
+    # would sit up to 5e-7 below its own rounded level and be added again beside it.
+    s_top = round(max(float(s.min()) for s in s_each), 6)
+    if len(profiles) > 1 and _on_common_levels(profiles):
+        own = np.unique(max(s_each, key=len))
+        own = own[(own >= s_top - 1e-6) & (own <= 0.0)]
+        if s_top < own.min() - 1e-6 or own.size < 2:  # the common top is above its last level
+            own = np.unique(np.append(own, s_top))
+        return np.sort(own)[::-1]
     grid = np.unique(np.round(np.concatenate(s_each), 6))
     grid = grid[(grid >= s_top - 1e-9) & (grid <= 0.0)]
     if grid.size > MAX_GRID_LEVELS:
@@ -299,6 +324,19 @@ def _iso(t: datetime) -> str:
 def _r(x, nd=2):
     x = float(x)
     return None if not math.isfinite(x) else round(x, nd)
+
+
+def timeline_size(profiles: Sequence[Profile], *, now: datetime | None = None,
+                  hours: float = 12.0, step: str | timedelta = "15min") -> tuple[int, int]:
+    """``(steps, levels)`` of the timeline these arguments ask for, without diagnosing
+    anything: its work is ``steps x levels`` per member (a work budget reads it first).
+
+    Raises what :func:`validate_series` and :func:`step_times` raise for bad arguments.
+    """
+    profiles, step_td, _ = validate_series(profiles, hours, step, ())
+    times = [pr.valid_time for pr in profiles]
+    n_steps = len(step_times(times[0], times[-1], now or times[0], hours, step_td))
+    return n_steps, int(_common_grid(profiles).size)
 
 
 def validate_series(profiles: Iterable[Profile], hours: float, step: str | timedelta | float,
@@ -591,7 +629,10 @@ def diagnose_steps(cols: StepColumns, spells: Spells, members: int, seed: int | 
         road_surface_temperature_c=cols.road_surface_temperature_c,
         precipitation_rate_mm_h=cols.precipitation_rate_mm_h,
         wind_speed_m_s=cols.wind_speed_m_s)
-    run = run_columns(columns, members, seed, methods, calibration=calibration)
+    member_levels = members * columns.pressure_hpa.shape[1]
+    per_pass = max(1, MAX_MEMBER_LEVELS_PER_PASS // max(member_levels, 1))
+    run = run_columns(columns, members, seed, methods, calibration=calibration,
+                      batch_columns=per_pass)
     codes_wet = np.asarray(run.codes, dtype=int)
     probs = run.probabilities if members else np.eye(len(Code))[codes_wet]
     dry = spells.known & ~spells.precipitating

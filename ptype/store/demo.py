@@ -20,7 +20,7 @@ import sqlalchemy as sa
 from ptype.clock import Clock, iso, parse_time, service_clock
 from ptype.readers import read_profile
 from ptype.store import Store
-from ptype.store.models import ProfileRecord, Setting, Site
+from ptype.store.models import ADMIN_OWNER, ProfileRecord, Setting, Site
 
 #: Name of the setting that holds the demo's clock (ISO 8601 UTC) in a demo store.
 DEMO_CLOCK = "demo_clock"
@@ -57,7 +57,7 @@ def load_demo(store: Store, demo_dir: Path | None = None, *, now: datetime) -> d
             if site is None:
                 site = Site(code=code, name=entry["name"], latitude=entry["latitude"],
                             longitude=entry["longitude"], elevation_m=entry.get("elevation_m"),
-                            thresholds={}, created_at=now)
+                            thresholds={}, created_at=now, owner=ADMIN_OWNER)
                 s.add(site)
                 s.flush()
                 added_sites.append(site.id)

@@ -103,7 +103,50 @@ def _v1_initial(conn: Connection) -> None:
     md.create_all(conn)
 
 
-def _v2_settings(conn: Connection) -> None:
+#: The owner of what existed before owners (the demo sites among it): an administrator's
+#: (the same name as :data:`ptype.store.models.ADMIN_OWNER`, frozen here with the schema).
+ADMIN_OWNER = "admin"
+
+
+def _v2_owners(conn: Connection) -> None:
+    """Owners: every key belongs to one (and may be an administrator's), every site too.
+
+    Keys made before owners could write everywhere, so they keep that right (administrator
+    keys, each its own owner, named after the key); sites made before belong to
+    :data:`ADMIN_OWNER`.  Plain SQL that SQLite and PostgreSQL both run.
+    """
+    conn.execute(sa.text("ALTER TABLE api_keys ADD COLUMN owner VARCHAR(200) NOT NULL "
+                         f"DEFAULT '{ADMIN_OWNER}'"))
+    conn.execute(sa.text("ALTER TABLE api_keys ADD COLUMN is_admin BOOLEAN NOT NULL "
+                         "DEFAULT FALSE"))
+    conn.execute(sa.text("UPDATE api_keys SET owner = name, is_admin = TRUE"))
+    conn.execute(sa.text("ALTER TABLE sites ADD COLUMN owner VARCHAR(200) NOT NULL "
+                         f"DEFAULT '{ADMIN_OWNER}'"))
+    conn.execute(sa.text("CREATE INDEX ix_sites_owner ON sites (owner)"))
+
+
+def _v3_ingested_files(conn: Connection) -> None:
+    """Model-run files taken in by ``ptype ingest``/``watch``/``POST /v1/ingest``: one row per
+    file content (its SHA-256), claimed by one process at a time."""
+    md = sa.MetaData()
+    dt = sa.DateTime
+    sa.Table("ingested_files", md,
+             sa.Column("id", sa.Integer, primary_key=True),
+             sa.Column("file_key", sa.String(64), nullable=False, unique=True),
+             sa.Column("name", sa.String(500), nullable=False),
+             sa.Column("size_bytes", sa.BigInteger, nullable=False),
+             sa.Column("status", sa.String(16), nullable=False),
+             sa.Column("claimed_by", sa.String(200), nullable=False),
+             sa.Column("claimed_at", dt, nullable=False),
+             sa.Column("finished_at", dt, nullable=True),
+             sa.Column("reason", sa.Text, nullable=True),
+             sa.Column("summary", sa.JSON, nullable=True),
+             sa.Index("ix_ingested_files_status", "status"))
+    md.create_all(conn)
+
+
+def _v4_settings(conn: Connection) -> None:
+    """Named values of the store itself (the demo's clock)."""
     md = sa.MetaData()
     sa.Table("settings", md,
              sa.Column("name", sa.String(64), primary_key=True),
@@ -114,7 +157,9 @@ def _v2_settings(conn: Connection) -> None:
 #: Ordered migrations: (version, name, function(connection)).  Append only.
 MIGRATIONS: list[tuple[int, str, Callable[[Connection], None]]] = [
     (1, "initial schema: keys, sites, profiles, observations, alerts, alert messages", _v1_initial),
-    (2, "settings of the store (the demo's clock)", _v2_settings),
+    (2, "owners of keys and sites; administrator keys", _v2_owners),
+    (3, "ingested model-run files (ptype ingest, watch)", _v3_ingested_files),
+    (4, "settings of the store (the demo's clock)", _v4_settings),
 ]
 
 LATEST_VERSION = MIGRATIONS[-1][0]
@@ -135,8 +180,12 @@ def current_version(conn: Connection) -> int:
     return int(value or 0)
 
 
-def migrate(engine: sa.Engine) -> list[int]:
-    """Apply the missing migrations in order; returns the versions applied by this call."""
+def migrate(engine: sa.Engine, until: int | None = None) -> list[int]:
+    """Apply the missing migrations in order; returns the versions applied by this call.
+
+    ``until`` stops after that version (a store at an earlier schema, for tests of the
+    migrations themselves).
+    """
     applied: list[int] = []
     # ptype_write makes the SQLite begin listener take the write lock up front.
     with engine.execution_options(ptype_write=True).begin() as conn:
@@ -145,7 +194,7 @@ def migrate(engine: sa.Engine) -> list[int]:
         _version_table.create(conn, checkfirst=True)
         have = current_version(conn)
         for version, name, func in MIGRATIONS:
-            if version <= have:
+            if version <= have or (until is not None and version > until):
                 continue
             func(conn)
             conn.execute(_version_table.insert().values(

@@ -42,8 +42,17 @@ class Base(DeclarativeBase):
     """The declarative base of every table."""
 
 
+#: The owner of the sites no key created (the demo) and of those that existed before owners.
+ADMIN_OWNER = "admin"
+
+
 class ApiKey(Base):
-    """An API key: only a per-key salt and the scrypt hash of the secret are kept."""
+    """An API key: only a per-key salt and the scrypt hash of the secret are kept.
+
+    A key belongs to an ``owner``: the sites it creates are that owner's, and it may write
+    only to them, unless it is an administrator's key (``is_admin``), which may write
+    everywhere.
+    """
 
     __tablename__ = "api_keys"
     id: Mapped[int] = mapped_column(primary_key=True)
@@ -54,10 +63,12 @@ class ApiKey(Base):
     kdf: Mapped[str] = mapped_column(sa.String(64))
     created_at: Mapped[datetime] = mapped_column(UTCDateTime)
     revoked_at: Mapped[datetime | None] = mapped_column(UTCDateTime, nullable=True)
+    owner: Mapped[str] = mapped_column(sa.String(200))
+    is_admin: Mapped[bool] = mapped_column(sa.Boolean, default=False)
 
 
 class Site(Base):
-    """A road-weather site: name, position and its own alert thresholds."""
+    """A road-weather site: name, position, its own alert thresholds and its owner."""
 
     __tablename__ = "sites"
     id: Mapped[int] = mapped_column(primary_key=True)
@@ -68,6 +79,7 @@ class Site(Base):
     elevation_m: Mapped[float | None] = mapped_column(sa.Float, nullable=True)
     thresholds: Mapped[dict[str, Any]] = mapped_column(sa.JSON, default=dict)
     created_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    owner: Mapped[str] = mapped_column(sa.String(200), default=ADMIN_OWNER, index=True)
 
     profiles: Mapped[list[ProfileRecord]] = relationship(back_populates="site",
                                                            cascade="all, delete-orphan")
@@ -146,6 +158,25 @@ class AlertMessage(Base):
     snapshot: Mapped[dict[str, Any]] = mapped_column(sa.JSON)
 
     alert: Mapped[Alert] = relationship(back_populates="messages")
+
+
+class IngestedFile(Base):
+    """A model-run file taken in (by content: SHA-256), and where its ingest stands.
+
+    ``status``: ``claimed`` (a process works on it; ``claimed_by`` host:pid), ``done``,
+    ``rejected`` (unreadable; ``reason``).  A claim whose process is gone is taken over."""
+
+    __tablename__ = "ingested_files"
+    id: Mapped[int] = mapped_column(primary_key=True)
+    file_key: Mapped[str] = mapped_column(sa.String(64), unique=True)
+    name: Mapped[str] = mapped_column(sa.String(500))
+    size_bytes: Mapped[int] = mapped_column(sa.BigInteger)
+    status: Mapped[str] = mapped_column(sa.String(16))
+    claimed_by: Mapped[str] = mapped_column(sa.String(200))
+    claimed_at: Mapped[datetime] = mapped_column(UTCDateTime)
+    finished_at: Mapped[datetime | None] = mapped_column(UTCDateTime, nullable=True)
+    reason: Mapped[str | None] = mapped_column(sa.Text, nullable=True)
+    summary: Mapped[dict[str, Any] | None] = mapped_column(sa.JSON, nullable=True)
 
 
 class Setting(Base):

@@ -22,6 +22,14 @@ for calls from the main thread, and a serial ``nogil`` one for calls from worker
 threads (a dask chunk), because numba's default thread pool must not be entered
 from several threads at once and dask already keeps every core busy.
 
+Fork safety: numba's default threading layer on Linux is GNU OpenMP, whose thread pool does
+not survive ``fork()`` (a forked child that enters a parallel kernel is terminated, see the
+GNU libgomp manual, "OpenMP and fork").  Unless ``NUMBA_THREADING_LAYER`` says otherwise, this
+module asks numba for a fork-safe layer (``forksafe``: TBB when installed, else numba's own
+work queue), so a process that forks after computing (gunicorn's master, multiprocessing)
+leaves working kernels to its children.  :func:`set_parallel` turns the parallel builds off
+for the whole process (the HTTP server does: its workers compute requests side by side).
+
 Use :func:`wet_bulb_c`; :func:`ptype.thermo.wetbulb.wet_bulb_temperature` calls it for
 arrays of ``ptype.thermo.wetbulb._FAST_MIN_SIZE`` valid points or more when numba is importable.
 """
@@ -29,6 +37,7 @@ arrays of ``ptype.thermo.wetbulb._FAST_MIN_SIZE`` valid points or more when numb
 from __future__ import annotations
 
 import math
+import os
 import threading
 
 import numpy as np
@@ -71,6 +80,26 @@ else:  # pragma: no cover
 
     def prange(*args):
         return range(*args)
+
+if AVAILABLE and "NUMBA_THREADING_LAYER" not in os.environ:
+    # Before any parallel kernel runs (the layer is fixed at the first launch of threads).
+    numba.config.THREADING_LAYER = "forksafe"
+
+#: Whether calls from the main thread may use the parallel builds (see :func:`set_parallel`).
+_parallel_allowed = os.environ.get("PTYPE_COMPILED_PARALLEL", "1") not in ("0", "false", "no")
+
+
+def set_parallel(allowed: bool) -> None:
+    """Allow (default) or forbid the parallel builds for the whole process; forbidden, every
+    call uses the serial build and no thread pool is ever started."""
+    global _parallel_allowed
+    _parallel_allowed = bool(allowed)
+
+
+def parallel_allowed() -> bool:
+    """Whether the parallel builds may be used in this process (:func:`set_parallel`)."""
+    return _parallel_allowed
+
 
 if AVAILABLE:
     _pjit = njit(cache=True, fastmath=False, nogil=True, parallel=True, error_model="numpy")
@@ -515,7 +544,7 @@ def _flat_inputs(pressure_hpa, temperature_c, dewpoint_c, parallel):
     if parallel is None:
         parallel = (threading.current_thread() is threading.main_thread()
                     and p.size >= PARALLEL_MIN_SIZE)
-    return p, t, td, shape, bool(parallel)
+    return p, t, td, shape, bool(parallel) and _parallel_allowed
 
 
 def _isobaric(p, t, td, parallel: bool) -> np.ndarray:

@@ -86,6 +86,11 @@ def _parse_time(value: Any, where: str) -> datetime | None:
     except ValueError:
         raise ReaderError(f"{where}: field 'valid_time': {value!r} is not an ISO 8601 time "
                           "(e.g. 2025-01-14T06:00Z)", field="valid_time") from None
+    from ptype.clock import time_range_problem
+    problem = time_range_problem(t)
+    if problem is not None:
+        raise ReaderError(f"{where}: field 'valid_time': {value!r}: {problem}",
+                          field="valid_time")
     return t if t.tzinfo is not None else t.replace(tzinfo=UTC)
 
 

@@ -32,6 +32,8 @@ from ptype import __version__
 from ptype.codes import LABELS, NO_RESULT, Code
 from ptype.constants import CAUTION
 from ptype.engine.methods import METHOD_NAMES
+from ptype.style import FIGURE, TYPE_STYLES
+from ptype.style.css import palette_css
 from ptype.verify import scores as sc
 from ptype.verify.manifest import Case
 from ptype.verify.observations import parse_observation
@@ -337,15 +339,15 @@ def _calibration_lines(report: dict) -> list[str]:
 
 # --------------------------------------------------------------------------- figures + HTML
 
-_INK = "#1f2933"
-_ACCENT = "#2b6cb0"
-_MUTED = "#9aa5b1"
-_CLASS_COLOURS = {"SN": "#3c6fd1", "PL": "#8e44ad", "RASN": "#2a9d8f", "FZRAPL": "#c2185b",
-                  "RAPL": "#b07d2b", "FZRA": "#d1495b", "FZDZ": "#f28482", "RA": "#2e8b57",
-                  "DZ": "#84a98c", "NONE": "#7b8794"}
+_INK = FIGURE["text"]
+_ACCENT = FIGURE["series-1"]
+_MUTED = FIGURE["muted"]
+_CLASS_COLOURS = {code: style.colour for code, style in TYPE_STYLES.items()}
 
 
 def _png(fig) -> bytes:
+    """The figure as PNG, with the caution every figure carries under it."""
+    fig.text(0.01, -0.02, CAUTION, fontsize=6, color=_MUTED, va="top")
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110, bbox_inches="tight")
     return buf.getvalue()
@@ -370,8 +372,8 @@ def make_figures(report: dict) -> dict[str, bytes]:
         # Classes with enough observations, bins with at least 5 cases: fewer, readable lines.
         for name, rel in cons["reliability"]["classes"].items():
             if (cons["brier"][name]["observed_frequency"] or 0) >= 0.05:
-                curve(rel, min_count=5, color=_CLASS_COLOURS.get(name, _MUTED), lw=1, ms=3,
-                      alpha=0.8, label=f"{name} (bins with 5+ cases)")
+                curve(rel, min_count=5, color=_CLASS_COLOURS.get(name, _MUTED), lw=1.4, ms=4,
+                      mec=_INK, mew=0.5, label=f"{name} (bins with 5+ cases)")
         pooled = cons["reliability"]["all"]
         curve(pooled, color=_INK, lw=2.2, ms=5, label="all classes pooled")
         n_classes = len(ORDER)
@@ -403,7 +405,7 @@ def make_figures(report: dict) -> dict[str, bytes]:
             ("gerrity", "Gerrity"))
     x = np.arange(len(names))
     width = 0.2
-    shades = ("#9fb3c8", _ACCENT, "#d1495b", "#2a9d8f")
+    shades = (FIGURE["series-4"], FIGURE["series-1"], FIGURE["series-2"], FIGURE["series-3"])
     for k, ((key, label), colour) in enumerate(zip(keys, shades)):
         vals = [b[key] if b[key] is not None else np.nan for b in blocks]
         ax.bar(x + (k - 1.5) * width, vals, width, label=label, color=colour)
@@ -440,7 +442,6 @@ def _calibration_figure(held: dict) -> bytes:
                  f"cross-validation, {held['n']} cases; bins of 5+)", fontsize=9)
     ax.legend(fontsize=8, frameon=False, loc="upper left")
     ax.grid(alpha=0.3)
-    fig.text(0.01, 0.005, CAUTION, fontsize=6, color=_MUTED)
     return _png(fig)
 
 
@@ -488,6 +489,7 @@ def html_context(report: dict, figures: dict[str, bytes],
         "report": report, "excluded": report["excluded"], "cons": cons, "caution": CAUTION,
         "images": figure_sources(figures, image_files),
         "labels": {c.name: LABELS[c] for c in Code},
+        "palette_css": palette_css(),
     }
     if cons is None:
         return context

@@ -1,4 +1,7 @@
-"""An Atom feed (RFC 4287) of alerts, one entry per alert pointing at its CAP message."""
+"""An Atom feed (RFC 4287) of alerts, one entry per alert pointing at its CAP message.
+
+Text passes through :func:`ptype.store.text.xml_safe`: the feed is well-formed XML whatever
+was stored."""
 
 from __future__ import annotations
 
@@ -9,6 +12,7 @@ from typing import Any
 from xml.etree import ElementTree as ET
 
 from ptype.constants import CAUTION
+from ptype.store.text import xml_safe
 
 ATOM = "http://www.w3.org/2005/Atom"
 
@@ -19,9 +23,10 @@ def atom_time(dt: datetime) -> str:
 
 
 def _sub(parent, tag, text=None, **attrs):
-    el = ET.SubElement(parent, f"{{{ATOM}}}{tag}", {k: str(v) for k, v in attrs.items()})
+    # As in CAP: no character XML 1.0 forbids reaches the feed, whatever was stored.
+    el = ET.SubElement(parent, f"{{{ATOM}}}{tag}", {k: xml_safe(v) for k, v in attrs.items()})
     if text is not None:
-        el.text = str(text)
+        el.text = xml_safe(text)
     return el
 
 

@@ -9,10 +9,11 @@ Element order follows the CAP 1.2 schema's sequences exactly::
            instruction?, web?, contact?, parameter*, resource*, area*
     area:  areaDesc, polygon*, circle*, geocode*, altitude?, ceiling?
 
-Times are ``YYYY-MM-DDThh:mm:ss+00:00`` (no fractional seconds, no "Z", as the schema's
-pattern requires).  ``references`` lists the earlier messages of the same alert as
-space-separated ``sender,identifier,sent`` triples.  The GRIB2 code table 4.201 value of the
-dominant precipitation type is carried in a ``parameter``.
+Text passes through :func:`ptype.store.text.xml_safe`, so a message is well-formed XML
+whatever was stored.  Times are ``YYYY-MM-DDThh:mm:ss+00:00`` (no fractional seconds, no
+"Z", as the schema's pattern requires).  ``references`` lists the earlier messages of the
+same alert as space-separated ``sender,identifier,sent`` triples.  The GRIB2 code table
+4.201 value of the dominant precipitation type is carried in a ``parameter``.
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ from typing import Any
 from xml.etree import ElementTree as ET
 
 from ptype.roads.alerts.rules import EVENTS
+from ptype.store.text import xml_safe
 
 NAMESPACE = "urn:oasis:names:tc:emergency:cap:1.2"
 STATUS = ("Actual", "Exercise", "System", "Test", "Draft")
@@ -50,14 +52,57 @@ def reference(sender: str, identifier: str, sent: datetime) -> str:
 
 
 def _sub(parent, tag, text=None):
+    # Every text goes through xml_safe: ElementTree writes whatever it is given, and one
+    # character XML 1.0 forbids (in a site name stored long ago, say) would make the whole
+    # message unreadable to every consumer.
     el = ET.SubElement(parent, f"{{{NAMESPACE}}}{tag}")
     if text is not None:
-        el.text = str(text)
+        el.text = xml_safe(text)
     return el
 
 
+#: The default ``scope``: these messages are automated guidance for the people who run roads
+#: and infrastructure, not public warnings (those come from the official services), so they
+#: are Restricted with a ``restriction`` saying so (ours; CAP 1.2 sec. 3.2.1 requires a
+#: restriction with Restricted and addresses with Private).
+DEFAULT_SCOPE = "Restricted"
+DEFAULT_RESTRICTION = ("Automated road-weather guidance for road and infrastructure operators; "
+                       "not a public warning. Official warnings take precedence.")
+
+
+def check_scope(scope: str, restriction: str | None, addresses: str | None) -> None:
+    """Refuse a scope CAP 1.2 does not know, or one without the element it requires."""
+    if scope not in SCOPES:
+        raise ValueError(f"scope {scope!r}: expected one of {', '.join(SCOPES)}")
+    if scope == "Restricted" and not (restriction or "").strip():
+        raise ValueError("scope Restricted needs a restriction text")
+    if scope == "Private" and not (addresses or "").strip():
+        raise ValueError("scope Private needs addresses")
+
+
+def deployment_scope(config: Mapping[str, Any] | None = None) -> dict[str, str | None]:
+    """The deployment's ``scope``, ``restriction`` and ``addresses``: ``PTYPE_CAP_SCOPE``,
+    ``PTYPE_CAP_RESTRICTION`` and ``PTYPE_CAP_ADDRESSES`` from ``config`` (the service's
+    settings), else the environment, else :data:`DEFAULT_SCOPE` with
+    :data:`DEFAULT_RESTRICTION`; checked (:func:`check_scope`, ValueError)."""
+    import os
+
+    def setting(name):
+        value = (config or {}).get(name) or os.environ.get(name)
+        return str(value).strip() if value else None
+
+    scope = setting("PTYPE_CAP_SCOPE") or DEFAULT_SCOPE
+    restriction = setting("PTYPE_CAP_RESTRICTION") or (
+        DEFAULT_RESTRICTION if scope == "Restricted" else None)
+    addresses = setting("PTYPE_CAP_ADDRESSES")
+    check_scope(scope, restriction, addresses)
+    return {"scope": scope, "restriction": restriction, "addresses": addresses}
+
+
 def build_cap(message: Mapping[str, Any], earlier: Sequence[Mapping[str, Any]], *, sender: str,
-              status: str = "Actual", radius_km: float = DEFAULT_RADIUS_KM) -> bytes:
+              status: str = "Actual", radius_km: float = DEFAULT_RADIUS_KM,
+              scope: str = DEFAULT_SCOPE, restriction: str | None = DEFAULT_RESTRICTION,
+              addresses: str | None = None) -> bytes:
     """CAP 1.2 XML for one stored message.
 
     ``message``: ``identifier``, ``msg_type``, ``sent`` (datetime) and ``snapshot`` (the alert
@@ -68,6 +113,7 @@ def build_cap(message: Mapping[str, Any], earlier: Sequence[Mapping[str, Any]], 
     from ptype.clock import parse_time
     if status not in STATUS:
         raise ValueError(f"status {status!r}: expected one of {', '.join(STATUS)}")
+    check_scope(scope, restriction, addresses)
     snap = message["snapshot"]
     msg_type = message["msg_type"]
     ET.register_namespace("", NAMESPACE)
@@ -78,7 +124,11 @@ def build_cap(message: Mapping[str, Any], earlier: Sequence[Mapping[str, Any]], 
     _sub(alert, "status", status)
     _sub(alert, "msgType", msg_type)
     _sub(alert, "source", "ptype automated road-weather guidance")
-    _sub(alert, "scope", "Public")
+    _sub(alert, "scope", scope)
+    if scope == "Restricted":
+        _sub(alert, "restriction", restriction)
+    if scope == "Private":
+        _sub(alert, "addresses", addresses)
     if msg_type == "Cancel":
         _sub(alert, "note", "The hazard is no longer in the forecast.")
     if earlier:

@@ -9,7 +9,9 @@ always has its alerts evaluated.
 from __future__ import annotations
 
 import uuid
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from contextlib import AbstractContextManager, nullcontext
+from dataclasses import dataclass
 from datetime import datetime, timedelta
 from typing import Any
 
@@ -64,25 +66,140 @@ def observation_dict(o: Observation) -> dict:
             "wind_speed_m_s": o.wind_speed_m_s, "present_weather": o.present_weather}
 
 
-def site_timeline(session: Session, site: Site, now: datetime, *, hours: float = ALERT_HOURS,
-                  step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
-                  adjustments: Iterable[str] | None = None) -> dict[str, Any]:
-    """The site's timeline from its latest issue of profiles and its recent observations."""
-    from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
+def covering(records: Sequence[ProfileRecord], start: datetime,
+             end: datetime) -> list[ProfileRecord]:
+    """The records (sorted by valid time) a timeline from ``start`` to ``end`` reads: those
+    inside, and the last one before and the first one after (interpolation brackets)."""
+    times = [r.valid_time for r in records]
+    lo = max((i for i, t in enumerate(times) if t <= start), default=0)
+    hi = min((i for i, t in enumerate(times) if t >= end), default=len(times) - 1)
+    return list(records[lo:hi + 1])
+
+
+@dataclass(frozen=True)
+class TimelineInputs:
+    """What a site's timeline is built from, read from the store (no session needed after):
+    the site's summary, its latest issue (documents by ensemble member: one group for a
+    deterministic run; issued time, source) and its recent observations."""
+
+    site: dict
+    groups: tuple[tuple[str, tuple[dict, ...]], ...]
+    issued_time: datetime | None
+    source: str | None
+    observations: tuple[dict, ...]
+
+
+def timeline_inputs(session: Session, site: Site, now: datetime, *,
+                    covering_hours: float | None = None) -> TimelineInputs:
+    """Read what the site's timeline at ``now`` needs (cheap: a few queries).
+
+    ``covering_hours`` reads only the profiles a window of that length needs
+    (:func:`covering`; the steps are the same, ``issued_profiles`` lists only those): for
+    alerts, on long runs."""
     records = latest_issue(session, site.id)
-    base = {"site": site_summary(site)}
-    if not records:
+    groups = ensemble_members(session, records) if records else {}
+    out = []
+    for name, group in groups.items():
+        if covering_hours is not None:
+            group = covering(group, now, now + timedelta(hours=covering_hours))
+        out.append((name, tuple(r.document for r in group)))
+    source = records[0].source if records else None
+    if source and len(out) > 1:
+        source = source.rpartition(" member ")[0]
+    return TimelineInputs(site_summary(site), tuple(out),
+                          records[0].issued_time if records else None, source,
+                          tuple(recent_observations(session, site.id, now)))
+
+
+def site_timeline(session: Session, site: Site, now: datetime, *, covering_only: bool = False,
+                  **options: Any) -> dict[str, Any]:
+    """The site's timeline from its latest issue of profiles and its recent observations
+    (:func:`timeline_from_inputs` of :func:`timeline_inputs`; same options, and
+    ``covering_only`` as ``covering_hours`` there)."""
+    hours = options.get("hours", ALERT_HOURS) if covering_only else None
+    return timeline_from_inputs(timeline_inputs(session, site, now, covering_hours=hours), now,
+                                **options)
+
+
+def timeline_from_inputs(inputs: TimelineInputs, now: datetime, *, hours: float = ALERT_HOURS,
+                         step: str = ALERT_STEP, members: int = ALERT_MEMBERS, seed: int = 0,
+                         adjustments: Iterable[str] | None = None,
+                         max_member_levels: int | None = None,
+                         guard: Callable[[], AbstractContextManager] | None = None
+                         ) -> dict[str, Any]:
+    """The timeline of ``inputs`` (:func:`timeline_inputs`), no store needed; an ensemble
+    run's members are combined (:mod:`ptype.roads.ensemble_timeline`).
+
+    With ``max_member_levels``, a timeline whose ``max(members, 1) x steps x levels`` (summed
+    over the ensemble's members) is larger is refused with
+    :class:`ptype.errors.WorkLimitError` before any diagnosis.  ``guard()``, when given, is
+    entered around the computation, after that check (the service's work slot and time
+    limit).
+    """
+    from ptype.roads.nowcast import ADJUSTMENTS, build_timeline
+    base = {"site": inputs.site}
+    if not inputs.groups:
         from ptype.constants import CAUTION
         return {**base, "now": iso(now), "steps": [], "transitions": [], "totals": {},
                 "caution": CAUTION, "message": "no profiles have been posted for this site"}
-    profiles = [Profile.from_document(r.document) for r in records]
-    out = build_timeline(profiles, now=now, hours=hours, step=step,
-                         observations=recent_observations(session, site.id, now),
-                         adjustments=ADJUSTMENTS if adjustments is None else adjustments,
-                         members=members, seed=seed)
-    out["issued_time"] = iso(records[0].issued_time)
-    out["source"] = records[0].source
+    groups = [[Profile.from_document(d) for d in docs] for _, docs in inputs.groups]
+    if max_member_levels is not None:
+        check_timeline_work(groups, now, hours, step, members, max_member_levels)
+    with guard() if guard is not None else nullcontext():
+        timelines = [build_timeline(profiles, now=now, hours=hours, step=step,
+                                    observations=list(inputs.observations),
+                                    adjustments=ADJUSTMENTS if adjustments is None
+                                    else adjustments, members=members, seed=seed)
+                     for profiles in groups]
+    if len(timelines) == 1:
+        out = timelines[0]
+    else:
+        from ptype.roads.ensemble_timeline import combine_timelines
+        out = combine_timelines(timelines, [name for name, _ in inputs.groups], step)
+    out["source"] = inputs.source
+    out["issued_time"] = iso(inputs.issued_time)
     return {**base, **out}
+
+
+def ensemble_members(session: Session, records: Sequence[ProfileRecord]
+                     ) -> dict[str, list[ProfileRecord]]:
+    """The latest issue by source: one group, or, when it is an ensemble member (source
+    ``NAME member K``, as the model-run ingest names them), every member of that run."""
+    source = records[0].source
+    base, mark, _ = source.rpartition(" member ")
+    if not mark:
+        return {source: list(records)}
+    rows = session.scalars(
+        sa.select(ProfileRecord).where(ProfileRecord.site_id == records[0].site_id,
+                                       ProfileRecord.issued_time == records[0].issued_time,
+                                       ProfileRecord.source.like(f"{base} member %"))
+        .order_by(ProfileRecord.source, ProfileRecord.valid_time))
+    groups: dict[str, list[ProfileRecord]] = {}
+    for r in rows:
+        groups.setdefault(r.source.rpartition(" member ")[2], []).append(r)
+    return groups
+
+
+def check_timeline_work(groups: list[list[Profile]], now: datetime, hours: float, step: str,
+                        members: int, limit: int) -> None:
+    """Refuse (:class:`ptype.errors.WorkLimitError`) a timeline of more than ``limit``
+    member-levels (``max(members, 1) x steps x levels``, summed over the groups of an
+    ensemble run), before any diagnosis."""
+    from ptype.errors import WorkLimitError
+    from ptype.roads.nowcast import timeline_size
+    asked, parts = 0, []
+    for profiles in groups:
+        n_steps, n_levels = timeline_size(profiles, now=now, hours=hours, step=step)
+        asked += max(members, 1) * n_steps * n_levels
+        parts.append((n_steps, n_levels))
+    if asked > limit:
+        n_steps, n_levels = parts[0]
+        runs = f" x {len(groups)} ensemble members" if len(groups) > 1 else ""
+        raise WorkLimitError(
+            f"members = {members} x {n_steps} steps x {n_levels} levels{runs} = {asked} "
+            f"member-levels; this server computes at most {limit} per timeline (ask for "
+            "fewer members, a longer step or fewer hours)",
+            asked=asked, limit=limit, unit="member-levels", field="members")
 
 
 def site_summary(site: Site) -> dict:
@@ -115,7 +232,13 @@ def site_candidates(session: Session, site: Site, now: datetime, *,
     None when no forecast covers now: active alerts are then neither updated nor cancelled
     (they still expire), because "the hazard left the forecast" cannot be told from "there is
     no forecast"."""
-    timeline = site_timeline(session, site, now, members=members)
+    return candidates_from_timeline(
+        site_timeline(session, site, now, members=members, covering_only=True), now, site)
+
+
+def candidates_from_timeline(timeline: dict[str, Any], now: datetime,
+                             site: Site) -> list | None:
+    """Alert candidates of a site's timeline (see :func:`site_candidates`)."""
     if not timeline.get("steps"):
         return None  # no forecast covers now: nothing can be said about the hazards
     return evaluate_rules(timeline, now, site.name, site.thresholds)
@@ -219,10 +342,11 @@ def alert_dict(alert: Alert, sender: str, now: datetime | None = None) -> dict:
 
 
 def list_alerts(session: Session, now: datetime, sender: str, *, include_recent: bool = True,
-                site_id: int | None = None) -> list[dict]:
+                site_id: int | None = None, owner: str | None = None) -> list[dict]:
     """Alerts active at ``now`` (and, with ``include_recent``, those ended in the last
-    :data:`RECENT`), by onset.  Read-only: an active alert past its expiry is listed as
-    expired (:func:`status_at`) but stays as stored until the next evaluation."""
+    :data:`RECENT`), by onset; of one site and of one owner's sites when those are given.
+    Read-only: an active alert past its expiry is listed as expired (:func:`status_at`) but
+    stays as stored until the next evaluation."""
     live = sa.and_(Alert.status == "active", Alert.expires > now)
     if include_recent:
         lapsed = sa.and_(Alert.status == "active", Alert.expires <= now,
@@ -233,19 +357,25 @@ def list_alerts(session: Session, now: datetime, sender: str, *, include_recent:
         q = sa.select(Alert).where(live)
     if site_id is not None:
         q = q.where(Alert.site_id == site_id)
+    if owner is not None:
+        q = q.where(Alert.site_id.in_(sa.select(Site.id).where(Site.owner == owner)))
     rows = session.scalars(q.order_by(Alert.onset, Alert.id))
     return [alert_dict(a, sender, now) for a in rows]
 
 
-def cap_for(alert: Alert, sender: str, status: str | None, radius_km: float) -> bytes:
-    """CAP XML of the alert's latest message; ``status`` None uses the one recorded with it."""
+def cap_for(alert: Alert, sender: str, status: str | None, radius_km: float,
+            **scope: str | None) -> bytes:
+    """CAP XML of the alert's latest message; ``status`` None uses the one recorded with it;
+    ``scope`` the deployment's ``scope``, ``restriction`` and ``addresses``
+    (:func:`ptype.roads.alerts.cap.build_cap`; its defaults when not given)."""
     from ptype.roads.alerts.cap import build_cap
     last = alert.messages[-1]
     msg = {"identifier": last.identifier, "msg_type": last.msg_type, "sent": last.sent,
            "snapshot": last.snapshot}
     earlier = [{"identifier": m.identifier, "sent": m.sent} for m in alert.messages[:-1]]
     status = status or last.snapshot.get("cap_status") or "Actual"
-    return build_cap(msg, earlier, sender=sender, status=status, radius_km=radius_km)
+    given = {k: v for k, v in scope.items() if v}
+    return build_cap(msg, earlier, sender=sender, status=status, radius_km=radius_km, **given)
 
 
 def evaluate_all(session: Session, now: datetime, *, members: int = ALERT_MEMBERS,
