@@ -20,7 +20,7 @@ from ptype.api.errors import ApiError, wants_html
 from ptype.api.inputs import check_id
 from ptype.api.models import AlertList, AlertListOptions, EvaluateResult
 from ptype.api.openapi import Operation, text_answer
-from ptype.api.plumbing import cap_sender, get_store, now, secure_html
+from ptype.api.plumbing import cap_sender, clock, get_store, now, secure_html
 from ptype.api.site_ops import current_alerts, evaluate_alerts, site_ids
 from ptype.api.tenants import read_owner, reader, require_caller
 
@@ -64,8 +64,9 @@ def list_alerts() -> Response:
     site_id = check_id(site, "site") if site is not None else None
     active_only = request.args.get("active") in ("1", "true", "yes")
     owner = read_owner(reader())
+    service_clock = clock()
     return jsonify({"alerts": current_alerts(site_id, not active_only, owner=owner),
-                    "now": iso(now()),
+                    "now": iso(service_clock.now), "clock": service_clock.to_dict(),
                     "caution": CAUTION})
 
 

@@ -214,6 +214,9 @@ class Diagnosis(ResponseModel):
                                 description="Input oddities that were accepted but adjusted.")
     site: dict[str, Any] | None = None
     valid_time: str | None = None
+    when: str | None = Field(None, description="The time for a verdict line: the valid time, "
+                             "or the day and hour of a WMO TEMP message (which gives no month "
+                             "or year).")
 
 
 # -- batch ------------------------------------------------------------------------------
@@ -399,6 +402,16 @@ class TimelineStep(ResponseModel):
     hazards: dict[str, Any]
 
 
+class ClockOut(ResponseModel, extra="forbid"):
+    """The one clock of the service: the time it used and where that time came from."""
+
+    now: str = Field(..., description="The time used, ISO 8601 UTC.")
+    source: str = Field(..., description="`PTYPE_NOW` (fixed by configuration), `demo` (the "
+                                         "issue time of the invented demo storm), `system`, or "
+                                         "`request` (a time the request asked for).")
+    text: str = Field(..., description="The time and its source in words, for screens.")
+
+
 class Timeline(ResponseModel):
     """Steps, type transitions and hazard totals for one site; guidance only."""
 
@@ -406,6 +419,7 @@ class Timeline(ResponseModel):
     transitions: list[dict[str, Any]] = Field(
         ..., description="`{time, from, to}` changes of type.")
     totals: dict[str, Any]
+    clock: ClockOut
     caution: str
 
 
@@ -441,6 +455,7 @@ class AlertOut(ResponseModel):
 class AlertList(ResponseModel):
     alerts: list[AlertOut]
     now: str
+    clock: ClockOut
     caution: str
 
 

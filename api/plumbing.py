@@ -7,7 +7,7 @@
   :func:`validate_body` (JSON object -> model), :func:`profile_from_request` (a JSON, CSV
   or WMO TEMP body -> :class:`ptype.Profile`) and the work limits;
 * state: :func:`store_for` / :func:`get_store`, :func:`now` (the service clock),
-  :func:`require_key` (the bearer API key of a write), :func:`cap_sender`.
+  :func:`clock`, :func:`require_key` (the bearer API key of a write), :func:`cap_sender`.
 
 Every problem is raised as :class:`ptype.api.errors.ApiError` (or a ptype domain error), which
 :mod:`ptype.api.errors` turns into a 4xx JSON answer naming the field.
@@ -30,7 +30,7 @@ from ptype.api.models import DiagnoseOptions
 from pydantic import BaseModel, ValidationError
 
 import ptype
-from ptype.clock import utcnow
+from ptype.clock import Clock, service_clock
 from ptype.errors import ReaderError
 from ptype.profile.document import _loc
 from ptype.readers import read_document
@@ -306,9 +306,23 @@ def get_store() -> Store:
     return store_for(current_app._get_current_object())
 
 
+#: Key of ``app.extensions`` caching the demo's clock read from the store (or None).
+DEMO_CLOCK = "ptype.demo_clock"
+
+
+def clock() -> Clock:
+    """The service clock and its source: ``PTYPE_NOW`` when set (tests), else the demo's
+    clock recorded in the store (a demo store), else the system clock."""
+    app = current_app._get_current_object()
+    if DEMO_CLOCK not in app.extensions:
+        from ptype.store.demo import stored_demo_clock
+        app.extensions[DEMO_CLOCK] = stored_demo_clock(store_for(app))
+    return service_clock(app.config, app.extensions[DEMO_CLOCK])
+
+
 def now() -> datetime:
-    """The service clock: ``PTYPE_NOW`` when set (demo, tests), else the real UTC time."""
-    return utcnow(current_app.config)
+    """The time of the service clock (:func:`clock`)."""
+    return clock().now
 
 
 #: Keys already verified in this process, by SHA-256 of the key (never the key itself).

@@ -17,10 +17,10 @@ import sqlalchemy as sa
 from flask import Flask, current_app
 from ptype.api import budget
 from ptype.api.errors import ApiError
-from ptype.api.plumbing import cap_sender, get_store, now, store_for
+from ptype.api.plumbing import DEMO_CLOCK, cap_sender, get_store, now, store_for
 from sqlalchemy.orm import Session
 
-from ptype.clock import iso, utcnow
+from ptype.clock import iso
 from ptype.errors import DeadlineExceeded, OptionError, ProfileError
 from ptype.roads.alerts import service
 from ptype.store import Observation, Site
@@ -108,11 +108,10 @@ def evaluate_after_ingest(site_id: int) -> list[dict] | dict:
 
 def current_alerts(site_id: int | None = None, include_recent: bool = True, *,
                    owner: str | None = None) -> list[dict]:
-    """The alerts at the service clock (due ones expired first), optionally of one site or of
-    one owner's sites."""
+    """The alerts as seen at the service clock, optionally of one site or of one owner's sites
+    (read-only: due ones are shown expired, and are marked so in the store only by an
+    evaluation)."""
     t = now()
-    with get_store().write() as s:
-        service.expire_due(s, t)
     with get_store().read() as s:
         return service.list_alerts(s, t, cap_sender(), include_recent=include_recent,
                                    site_id=site_id, owner=owner)
@@ -127,21 +126,25 @@ def demo_requested(app: Flask) -> bool:
 def load_demo(app: Flask) -> None:
     """Load the invented demo sites and storm into an empty store and evaluate their alerts.
 
-    The clock becomes the series' issued time (unless ``PTYPE_NOW`` is set) and CAP
-    messages say ``Exercise``: the data is invented.
+    The series' issued time becomes the demo's clock, recorded in the store so that the
+    service and ``ptype alerts`` read the same time (``PTYPE_NOW`` still overrides it), and
+    CAP messages say ``Exercise``: the data is invented.
     """
-    from ptype.store.demo import default_demo_dir, demo_issued_time
+    from ptype.store.demo import default_demo_dir, demo_issued_time, record_demo_clock
     from ptype.store.demo import load_demo as load_into
     demo_dir = Path(app.config.get("PTYPE_DEMO_DIR") or default_demo_dir())
     if not (demo_dir / "sites.json").is_file():
         log.warning("demo requested but %s/sites.json is missing", demo_dir)
         return
     issued = demo_issued_time(demo_dir)
-    if issued is not None and not (app.config.get("PTYPE_NOW") or os.environ.get("PTYPE_NOW")):
-        app.config["PTYPE_NOW"] = iso(issued)
-    app.config.setdefault("PTYPE_CAP_STATUS", "Exercise")
     store = store_for(app)
-    added = load_into(store, demo_dir, now=utcnow(app.config))
+    if issued is not None:
+        record_demo_clock(store, issued)
+        app.extensions[DEMO_CLOCK] = issued
+    app.config.setdefault("PTYPE_CAP_STATUS", "Exercise")
+    with app.app_context():
+        t = now()
+    added = load_into(store, demo_dir, now=t)
     if added["profiles"]:
         with app.app_context():
             with store.read() as s:

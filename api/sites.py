@@ -33,13 +33,13 @@ from ptype.api.models import (
     TimelineOptions,
 )
 from ptype.api.openapi import Operation
-from ptype.api.plumbing import get_store, load_json_body, now, store_for, validate_body
+from ptype.api.plumbing import clock, get_store, load_json_body, now, store_for, validate_body
 from ptype.api.site_ops import evaluate_after_ingest, site_dict, site_or_404
 from ptype.api.tenants import check_read, check_write, read_owner, reader, require_caller
 from sqlalchemy.orm import Session
 
 from ptype import Profile
-from ptype.clock import iso, parse_time
+from ptype.clock import Clock, iso, parse_time
 from ptype.errors import OptionError, ProfileError
 from ptype.roads.alerts import service
 from ptype.store import Observation, ProfileRecord, Site
@@ -258,7 +258,9 @@ def get_timeline(site_id: int) -> Response:
     if "adjustments" in args:
         text = args["adjustments"].strip()
         adjustments = [] if text in ("", "none") else [a.strip() for a in text.split(",")]
-    t = query_time("now") or now()
+    asked = query_time("now")
+    used = Clock(asked, "request") if asked is not None else clock()
+    t = used.now
     caller = reader()
     with get_store().read() as s:
         site = site_or_404(s, site_id)
@@ -271,4 +273,4 @@ def get_timeline(site_id: int) -> Response:
         adjustments=adjustments,
         max_member_levels=budget.setting("PTYPE_MAX_TIMELINE_MEMBER_LEVELS"),
         guard=budget.computing)
-    return jsonify(out)
+    return jsonify({**out, "clock": used.to_dict()})

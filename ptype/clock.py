@@ -3,14 +3,21 @@
 Everything that needs "now" (the timeline start, alert onset and expiry, the
 ``sent`` time of a CAP message, stored ``received_at`` stamps) asks
 :func:`utcnow`, which honours a fixed time given as ``PTYPE_NOW`` (ISO 8601) in
-the application config or the environment.  Tests and the demo pin the clock
-this way so that their results are deterministic.
+the application config or the environment.  Tests pin the clock this way so
+that their results are deterministic.
+
+The service and the store's commands (``ptype alerts``) share *one* clock,
+:func:`service_clock`: ``PTYPE_NOW`` when set, else the demo's clock when the store
+holds the invented demo (the issue time of its storm, recorded in the store when the
+demo is loaded), else the system clock.  :class:`Clock` carries the time together with
+where it came from, so that every screen and listing can state which clock it used.
 """
 
 from __future__ import annotations
 
 import os
 from collections.abc import Mapping
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from typing import Any
 
@@ -87,3 +94,45 @@ def iso(dt: datetime | None) -> str | None:
     if dt is None:
         return None
     return dt.astimezone(UTC).replace(microsecond=0).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+#: Where a :class:`Clock` reads its time, and how a screen names it.
+CLOCK_SOURCES = {
+    "PTYPE_NOW": "fixed by PTYPE_NOW",
+    "demo": "demo clock: the issue time of the invented demo storm; set PTYPE_NOW to change it",
+    "system": "system clock",
+    "request": "the time the request asked for",
+}
+
+
+@dataclass(frozen=True)
+class Clock:
+    """A time and the clock it was read from (``PTYPE_NOW``, ``demo`` or ``system``; or
+    ``request`` for a time a request asked for)."""
+
+    now: datetime
+    source: str
+
+    def describe(self) -> str:
+        """``2026-01-27T06:00:00Z (demo clock: ...)``: the time and where it came from."""
+        return f"{iso(self.now)} ({CLOCK_SOURCES[self.source]})"
+
+    def to_dict(self) -> dict[str, str | None]:
+        """``{"now", "source", "text"}`` for JSON answers and page templates."""
+        return {"now": iso(self.now), "source": self.source, "text": self.describe()}
+
+
+def service_clock(config: Mapping[str, Any] | None = None,
+                  demo_clock: datetime | None = None) -> Clock:
+    """The one clock of the service and the store's commands.
+
+    ``PTYPE_NOW`` (``config``, then the environment) wins; else ``demo_clock`` (the demo's
+    clock recorded in the store, see :func:`ptype.store.demo.stored_demo_clock`); else the
+    system clock.
+    """
+    fixed = (config or {}).get("PTYPE_NOW") or os.environ.get("PTYPE_NOW")
+    if fixed:
+        return Clock(parse_time(fixed, "PTYPE_NOW"), "PTYPE_NOW")
+    if demo_clock is not None:
+        return Clock(parse_time(demo_clock, "demo clock"), "demo")
+    return Clock(datetime.now(UTC).replace(microsecond=0), "system")

@@ -51,4 +51,6 @@ def test_alerts_lists_empty_store(tmp_path, fmt):
     if fmt == "json":
         assert json.loads(r.stdout)["alerts"] == []
     else:
-        assert "no alerts" in r.stdout and "Guidance only" in r.stdout
+        assert "Active alerts at 2026-01-27T00:00:00Z (fixed by PTYPE_NOW)" in r.stdout
+        assert "No active alerts." in r.stdout and "Guidance only" in r.stdout
+    assert not list(tmp_path.iterdir())  # a listing creates no store

@@ -133,6 +133,25 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+#: Library hints that name a Python argument, and what a terminal user types instead.
+LIBRARY_HINTS = {"pass format= explicitly": "name it with --input-format json|csv|temp|netcdf"}
+
+
+def cli_words(message: str, args: argparse.Namespace, field: str | None = None) -> str:
+    """``message`` in terms of the command's options: a library's ``members = -1: ...``
+    becomes ``--members -1: ...`` when the command has that option, and hints about Python
+    arguments name the option to use instead."""
+    if field and hasattr(args, field) and message.startswith(f"{field} = "):
+        message = f"--{field.replace('_', '-')} {message[len(field) + 3:]}"
+    for hint, option in LIBRARY_HINTS.items():
+        if hint in message:
+            flag = option.split()[3]
+            usable = hasattr(args, flag.lstrip("-").replace("-", "_"))
+            message = message.replace(hint, option if usable else
+                                      "give the file a .json, .csv or .txt (TEMP) name")
+    return message
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; the exit status (2 for bad input, with one line on
     stderr)."""
@@ -148,7 +167,8 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return int(args.func(args) or 0)
     except (ProfileError, OptionError) as exc:
-        print(f"ptype {args.command}: error: {exc}", file=sys.stderr)
+        message = cli_words(str(exc), args, getattr(exc, "field", None))
+        print(f"ptype {args.command}: error: {message}", file=sys.stderr)
         return EXIT_BAD_INPUT
     except (FileNotFoundError, IsADirectoryError, PermissionError) as exc:
         print(f"ptype {args.command}: error: {exc.filename}: {exc.strerror}", file=sys.stderr)

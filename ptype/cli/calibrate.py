@@ -43,10 +43,8 @@ def run(args: argparse.Namespace) -> int:
     if args.members < 1:
         raise OptionError(f"--members {args.members}: a calibration needs 1 or more",
                           field="members")
-    out = Path(args.output)
-    if out.parent and not out.parent.is_dir():
-        raise OptionError(f"--output {out}: the folder {out.parent} does not exist",
-                          field="output")
+    from ptype.cli.checks import writable_file
+    out = writable_file(args.output, "--output")
     cases = read_manifest(args.manifest)
     parsed = [parse_observation(c.observed) for c in cases]
     kept = [i for i, ob in enumerate(parsed) if not ob.excluded]

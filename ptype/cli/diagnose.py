@@ -8,6 +8,7 @@ import shutil
 import sys
 
 from ptype.constants import CAUTION
+from ptype.engine.methods import method_label
 from ptype.engine.probability import DEFAULT_MEMBERS
 
 BAR_WIDTH = 30
@@ -21,6 +22,8 @@ def register(sub: argparse._SubParsersAction) -> None:
                                    "and the reasoning of every method.")
     p.add_argument("paths", nargs="+", metavar="PATH", help="profile files (- for standard input)")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format")
+    p.add_argument("--input-format", choices=("json", "csv", "temp", "netcdf"), default=None,
+                   help="format of the profiles (default: from the file name or content)")
     p.add_argument("--members", type=int, default=DEFAULT_MEMBERS,
                    help=f"Monte-Carlo members for the probabilities (default {DEFAULT_MEMBERS}; "
                         "0 = none)")
@@ -37,7 +40,7 @@ def run(args: argparse.Namespace) -> int:
     from ptype.engine.diagnosis import diagnose
     out = []
     for path in args.paths:
-        for label, source in _sources(path):
+        for label, source in _sources(path, args.input_format):
             d = diagnose(source, members=args.members, seed=args.seed, methods=args.methods,
                          wetbulb=args.wetbulb)
             result = d.to_dict()
@@ -54,12 +57,16 @@ def run(args: argparse.Namespace) -> int:
     return 0
 
 
-def _sources(path: str):
+def _sources(path: str, input_format: str | None = None):
     """``(label, profile or text)`` for every profile of one argument: a BUFR file with
     several reports gives one per report (``PATH#k``); an ensemble NetCDF file gives none
-    here (see :func:`_ensemble_results`)."""
+    here (see :func:`_ensemble_results`).  ``input_format`` (``--input-format``) names the
+    format instead of the file name or content."""
+    from ptype.readers import read_profile
     if path == "-":
-        return [(path, sys.stdin.read())]
+        return [(path, read_profile(sys.stdin.read(), format=input_format))]
+    if input_format is not None and input_format != "netcdf":
+        return [(path, read_profile(path, format=input_format))]
     from ptype.readers import read_profiles
     from ptype.readers.netcdf_format import member_count
     if path.lower().endswith((".nc", ".nc4", ".cdf")) and member_count(path) > 1:
@@ -89,12 +96,7 @@ def render_table(r: dict) -> str:
     """A readable terminal summary of one diagnosis dict."""
     width = min(shutil.get_terminal_size((100, 24)).columns, 110)
     lines = []
-    title = r.get("source", "")
-    site = (r.get("site") or {}).get("name")
-    if site:
-        title = f"{site} - {title}"
-    if r.get("valid_time"):
-        title += f" - valid {r['valid_time']}"
+    title = title_line(r)
     lines.append(title)
     lines.append("=" * min(len(title), width))
     head = f"{r['ptype']}  {r['ptype_label']}"
@@ -108,13 +110,14 @@ def render_table(r: dict) -> str:
             bar = "#" * max(1, round(p * BAR_WIDTH)) if p > 0 else ""
             lines.append(f"  {code:<7} {bar:<{BAR_WIDTH}} {p:5.2f}")
     lines.append("")
-    lines.append(f"  {'method':<16} {'type':<7} rule that fired")
+    lines.append(f"  {'type':<7} each method's own judgement (the rule that fired)")
     for name, m in r["methods"].items():
         fired = [s for s in m["steps"] if s["rule"] == m.get("rule")]
         text = (fired or m["steps"] or [{"text": ""}])[-1]["text"]
         code = m["ptype"] or "-"
-        lines.append(f"  {name:<16} {code:<7} {_clip(text, width - 27)}")
+        lines.append(f"  {code:<7} {_clip(f'{method_label(name)}: {text}', width - 10)}")
     lines.append("")
+    lines.append("  Overall, all methods together:")
     for sentence in r["explanation"]:
         lines.append(_wrap(sentence, width, "  "))
     for w in r.get("warnings", []):
@@ -122,6 +125,15 @@ def render_table(r: dict) -> str:
     lines.append("")
     lines.append(_wrap(CAUTION, width, ""))
     return "\n".join(lines)
+
+
+def title_line(r: dict) -> str:
+    """The verdict's first line: the place (site name, else station or site id), the time
+    and the file."""
+    site = r.get("site") or {}
+    place = site.get("name") or (f"station {site['id']}" if site.get("id") else None)
+    parts = [p for p in (place, r.get("when") and f"valid {r['when']}", r.get("source")) if p]
+    return " - ".join(parts)
 
 
 def _clip(text: str, n: int) -> str:

@@ -52,8 +52,8 @@ def register(sub: argparse._SubParsersAction) -> None:
                    help="also write the particle model's mass fractions at the ground (snow, "
                         "melting snow, liquid, refrozen ice)")
     p.add_argument("--plot", default=None, metavar="MAP.png", help="also draw a map of the type")
-    p.add_argument("--plot-time", type=int, default=0, metavar="INDEX",
-                   help="time step drawn by --plot (default 0, the first)")
+    p.add_argument("--plot-time", type=int, default=None, metavar="INDEX",
+                   help="time step drawn by --plot, counted from 0 (default 0, the first)")
     p.add_argument("--progress", action=argparse.BooleanOptionalAction, default=None,
                    help="show a progress bar (default: when standard error is a terminal)")
     p.set_defaults(func=run)
@@ -62,29 +62,25 @@ def register(sub: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     """Diagnose a model grid and write the NetCDF result; exit status."""
     from ptype import grid
-    from ptype.errors import OptionError
     from ptype.grid import io as grid_io
 
-    if os.path.abspath(args.output) in {os.path.abspath(p) for p in args.inputs}:
-        raise OptionError(f"output {args.output}: would overwrite an input file", field="output")
-    out_dir = os.path.dirname(os.path.abspath(args.output))
-    if not os.path.isdir(out_dir):
-        raise OptionError(f"output {args.output}: directory {out_dir} does not exist",
-                          field="output")
+    check_options(args)
     progress = sys.stderr.isatty() if args.progress is None else args.progress
     chunks = grid.parse_chunks(args.chunks)
+    calibration = None
+    if args.calibration:
+        from ptype.engine.calibration import Calibration
+        calibration = Calibration.load(args.calibration)
+    start = time.perf_counter()
+    ds = grid.open_grid(args.inputs, chunks, members=args.members)  # lazy: reads metadata
+    if args.plot:
+        _check_plot_time(ds, args.plot_time or 0)
     client = None
     if args.scheduler:
         client = _connect(args.scheduler)
     else:
         grid.retain_freed_memory()  # this process computes: reuse freed memory (see there)
-    calibration = None
-    if args.calibration:
-        from ptype.engine.calibration import Calibration
-        calibration = Calibration.load(args.calibration)
     try:
-        start = time.perf_counter()
-        ds = grid.open_grid(args.inputs, chunks, members=args.members)
         out = grid.diagnose_dataset(ds, members=args.members, seed=args.seed,
                                     methods=args.methods, per_method=args.per_method,
                                     fractions=args.fractions, calibration=calibration)
@@ -104,17 +100,55 @@ def run(args: argparse.Namespace) -> int:
         print(f"  {meaning.replace('_', ' '):<28} {k:>10}  {100.0 * k / total:5.1f} %")
     if args.plot and _is_grib_output(args.output):
         from ptype.plot.gridmap import plot_types
-        plot_types(out, args.plot, time_index=args.plot_time)
+        plot_types(out, args.plot, time_index=args.plot_time or 0)
         print(f"map: {args.plot}")
     elif args.plot:
         import xarray as xr
 
         from ptype.plot.gridmap import plot_types
         with xr.open_dataset(args.output, engine="netcdf4", mask_and_scale=False) as written:
-            plot_types(written, args.plot, time_index=args.plot_time)
+            plot_types(written, args.plot, time_index=args.plot_time or 0)
         print(f"map: {args.plot}")
     print(CAUTION)
     return 0
+
+
+def check_options(args: argparse.Namespace) -> None:
+    """Every option and output path, checked before any work (one line, exit status 2)."""
+    from ptype.cli.checks import distinct, figure_file, writable_file
+    from ptype.errors import OptionError
+    for path in args.inputs:
+        if not os.path.isfile(path):
+            raise OptionError(f"{path}: no such file", field="inputs")
+    writable_file(args.output, "--output")
+    if args.plot:
+        figure_file(args.plot, "--plot")
+    elif args.plot_time is not None:
+        raise OptionError("--plot-time chooses the time step of --plot; add --plot MAP.png",
+                          field="plot_time")
+    if args.plot_time is not None and args.plot_time < 0:
+        raise OptionError(f"--plot-time {args.plot_time}: expected 0 or more",
+                          field="plot_time")
+    distinct({"--output": args.output, "--plot": args.plot}, args.inputs)
+    if args.members < 0:
+        raise OptionError(f"--members {args.members}: expected 0 or more", field="members")
+    if args.methods:
+        from ptype.engine.methods import get_method
+        for name in (m.strip() for m in args.methods.split(",")):
+            get_method(name)  # an unknown name is an OptionError naming it
+    if args.calibration and not os.path.isfile(args.calibration):
+        raise OptionError(f"--calibration {args.calibration}: no such file",
+                          field="calibration")
+
+
+def _check_plot_time(ds, index: int) -> None:
+    """Refuse a ``--plot-time`` beyond the time steps of the (lazily opened) input."""
+    from ptype.errors import OptionError
+    n = next((ds.sizes[d] for d in ds.dims if d in ds.coords
+              and str(ds[d].dtype).startswith("datetime64")), 1)
+    if index >= n:
+        raise OptionError(f"--plot-time {index}: the input has {n} time step"
+                          f"{'s' if n != 1 else ''} (0 to {n - 1})", field="plot_time")
 
 
 def _is_grib_output(path: str) -> bool:

@@ -123,6 +123,62 @@ def warm_up() -> None:
         print(f"ptype serve: warm-up skipped ({type(exc).__name__}: {exc})", file=sys.stderr)
 
 
+def check_bind(host: str, port: int) -> None:
+    """Refuse, before anything starts, an address this machine cannot listen on.
+
+    Names are resolved and the port bound once (then released) exactly as gunicorn will,
+    so "address in use" or "no such address" is one line at once instead of a server that
+    dies after loading the application.
+    """
+    import errno
+    import socket
+
+    from ptype.errors import OptionError
+    try:
+        infos = socket.getaddrinfo(host, port, type=socket.SOCK_STREAM,
+                                   flags=socket.AI_PASSIVE)
+    except (socket.gaierror, UnicodeError) as exc:
+        raise OptionError(f"--host {host}: not an address of this machine "
+                          f"({getattr(exc, 'strerror', None) or exc})", field="host") from None
+    family, kind, proto, _, address = infos[0]
+    with socket.socket(family, kind, proto) as sock:
+        # gunicorn sets SO_REUSEADDR too: a port held only by closing connections is free.
+        sock.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
+        try:
+            sock.bind(address)
+        except OSError as exc:
+            if exc.errno == errno.EADDRINUSE:
+                raise OptionError(f"--port {port}: {_url(host, port)} is already in use by "
+                                  "another program; choose another --port (0 picks a free one)",
+                                  field="port") from None
+            if exc.errno in (errno.EACCES, errno.EPERM):
+                raise OptionError(f"--port {port}: not allowed to listen on it (ports below "
+                                  "1024 need privileges); choose another --port",
+                                  field="port") from None
+            raise OptionError(f"--host {host}: cannot listen there ({exc.strerror})",
+                              field="host") from None
+
+
+def check_data_dir(data_dir: str) -> None:
+    """Create the data folder if needed and make sure the service can write its store there."""
+    import tempfile
+
+    from ptype.errors import OptionError
+    if os.environ.get("PTYPE_DATABASE_URL"):
+        return  # the store is elsewhere
+    try:
+        os.makedirs(data_dir, mode=0o700, exist_ok=True)  # private, as the store makes it
+        with tempfile.TemporaryFile(dir=data_dir):
+            pass
+    except OSError as exc:
+        raise OptionError(f"data folder {data_dir} (PTYPE_DATA_DIR): cannot write there "
+                          f"({exc.strerror or exc})", field="PTYPE_DATA_DIR") from None
+    db = os.path.join(data_dir, "ptype.sqlite3")
+    if os.path.exists(db) and not (os.path.isfile(db) and os.access(db, os.R_OK | os.W_OK)):
+        raise OptionError(f"store {db}: not a file the service can read and write",
+                          field="PTYPE_DATA_DIR")
+
+
 def _serial_kernels() -> None:
     """Keep the compiled kernels serial in this process (master before ``fork``, and each
     worker after it): no compiled thread pool is started, so none is forked."""
@@ -163,11 +219,13 @@ def _post_fork(_server, _worker) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """Start the HTTP service under gunicorn; exit status."""
+    data_dir = os.path.abspath(os.environ.get("PTYPE_DATA_DIR")
+                               or os.path.join(os.getcwd(), ".data"))
+    check_bind(args.host, args.port)
+    check_data_dir(data_dir)
     if args.demo:
         os.environ["PTYPE_DEMO"] = "1"
-    data_dir = os.environ.get("PTYPE_DATA_DIR") or os.path.join(os.getcwd(), ".data")
     os.environ["PTYPE_DATA_DIR"] = data_dir
-    os.makedirs(data_dir, mode=0o700, exist_ok=True)  # private, as the store makes it
 
     from gunicorn.app.base import BaseApplication
 

@@ -48,6 +48,10 @@ def run(args: argparse.Namespace) -> int:
     from ptype.verify.report import make_figures, render_html, render_table, run_verification
     if args.members < 0:
         raise OptionError(f"--members {args.members}: expected 0 or more", field="members")
+    out_dir = Path(args.out) if args.out else None
+    if out_dir is not None:
+        from ptype.cli.checks import writable_folder
+        writable_folder(out_dir, "--out")
     calibration = None
     if args.calibration:
         from ptype.engine.calibration import Calibration
@@ -56,10 +60,7 @@ def run(args: argparse.Namespace) -> int:
     report = run_verification(cases, members=args.members, seed=args.seed,
                               methods=args.methods, source=str(args.manifest),
                               calibration=calibration)
-    out_dir = Path(args.out) if args.out else None
     if out_dir is not None:
-        if out_dir.exists() and not out_dir.is_dir():
-            raise OptionError(f"--out {out_dir}: exists and is not a folder", field="out")
         out_dir.mkdir(parents=True, exist_ok=True)
     if args.format == "json":
         text = json.dumps(report, indent=2) + "\n"

@@ -23,6 +23,7 @@ import numpy as np
 from ptype.codes import GRIB2_4201, Code
 from ptype.constants import CAUTION
 from ptype.engine import consensus as consensus_module
+from ptype.engine import wording as w
 from ptype.engine.calibration import UNCALIBRATED, Calibration
 from ptype.engine.columns import Columns
 from ptype.engine.layers import analyse_layers, zero_height_m
@@ -121,6 +122,9 @@ class Diagnosis:
             "warnings": list(pr.warnings),
             "site": None if pr.site is None else pr.site.model_dump(exclude_none=True),
             "valid_time": None if pr.valid_time is None else _iso(pr.valid_time),
+            # The time as a verdict line states it (a WMO TEMP message gives day and hour).
+            "when": w.profile_time(None if pr.valid_time is None else _iso(pr.valid_time),
+                                   pr.source),
         }
 
     def _consensus_dict(self) -> dict[str, Any]:

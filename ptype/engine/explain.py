@@ -43,14 +43,16 @@ class Explained(Protocol):
 def _melting_verdict(area: float) -> str:
     # Bourgouin (2000) surface-layer thresholds, used here as a scale of melting.
     snow, rain = w.energy(bourgouin.SURFACE_SNOW_J_KG), w.energy(bourgouin.SURFACE_RAIN_J_KG)
+    # The verdict names its scale: a method's own row may judge the same layer otherwise
+    # (the cloud-top method looks at the peak temperature, not the area).
     if area > bourgouin.SURFACE_RAIN_J_KG:
-        return f"enough to melt snow completely (more than {rain})"
+        return f"on Bourgouin's scale, enough to melt snow completely (more than {rain})"
     if area >= bourgouin.SURFACE_SNOW_J_KG:
         span = w.energy_range(bourgouin.SURFACE_SNOW_J_KG, bourgouin.SURFACE_RAIN_J_KG)
-        return f"enough to melt snow partly ({span})"
+        return f"on Bourgouin's scale, enough to melt snow partly ({span})"
     if area >= bourgouin.MIN_ALOFT_J_KG:
-        return f"too little to melt much snow (under {snow})"
-    return f"negligible (under {w.energy(bourgouin.MIN_ALOFT_J_KG)})"
+        return f"on Bourgouin's scale, too little to melt much snow (under {snow})"
+    return f"on Bourgouin's scale, negligible (under {w.energy(bourgouin.MIN_ALOFT_J_KG)})"
 
 
 def narrative(diagnosis: Explained) -> list[str]:
@@ -138,7 +140,8 @@ def _refreezing_sentences(result: MethodResult, i: int, layers: list[dict]) -> l
     if na > hi:
         verdict = f"more than the {w.energy(hi)} that refreezes drops to ice pellets"
     elif na < lo:
-        verdict = f"less than the {w.energy(lo)} needed to refreeze them, so drops stay liquid"
+        verdict = (f"less than the {w.energy(lo)} needed to refreeze the drops, so they stay "
+                   "liquid")
     else:
         verdict = f"between {w.energy(lo)} and {w.energy(hi)}: some drops refreeze"
     return [(f"Below the warm layer the air is below {_ZERO}, down to "

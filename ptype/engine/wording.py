@@ -38,8 +38,8 @@ NOT_AVAILABLE = "n/a"
 
 __all__ = ["DASH", "DEGREE_C", "GE", "LE", "MINUS", "NOT_AVAILABLE", "area", "code",
            "energy", "energy_range", "fraction", "height", "height_range", "kelvin",
-           "micrometres", "number", "percent", "pressure", "pressure_range", "seconds", "speed",
-           "temperature"]
+           "micrometres", "number", "percent", "pressure", "pressure_range", "profile_time",
+           "seconds", "speed", "temperature"]
 
 
 def number(value: float, digits: int = 1, *, signed: bool = False, trim: bool = False) -> str:
@@ -150,3 +150,17 @@ def code(value: Code | int) -> str:
     """A precipitation type in words with its abbreviation: ``freezing rain (FZRA)``."""
     c = Code(int(value))
     return f"{c.label} ({c.name})"
+
+
+def profile_time(valid_time_iso: str | None, source: str | None = None) -> str | None:
+    """When a profile is valid, for a verdict line: ``2026-01-27 16:00 UTC``; for a WMO TEMP
+    message without month and year (its day and hour are kept in the profile's ``source``),
+    ``day 27 of the month, 16:00 UTC (month and year not in the message)``; else None."""
+    import re
+    if valid_time_iso:
+        return valid_time_iso.replace("T", " ").replace(":00Z", " UTC").replace("Z", " UTC")
+    match = re.search(r"day (\d\d) (\d\d) UTC", source or "")
+    if match:
+        return (f"day {match.group(1)} of the month, {match.group(2)}:00 UTC (month and year "
+                "not in the message)")
+    return None

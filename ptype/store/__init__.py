@@ -38,6 +38,7 @@ from ptype.store.models import (
     IngestedFile,
     Observation,
     ProfileRecord,
+    Setting,
     Site,
 )
 
@@ -49,9 +50,11 @@ __all__ = [
     "IngestedFile",
     "Observation",
     "ProfileRecord",
+    "Setting",
     "Site",
     "Store",
     "database_url",
+    "open_existing_store",
     "open_store",
 ]
 
@@ -63,18 +66,27 @@ FILE_MODE = 0o600
 BUSY_TIMEOUT_MS = 30_000
 
 
-def database_url(config: Mapping[str, Any] | None = None) -> str:
-    """``PTYPE_DATABASE_URL`` (config, then environment), else the SQLite file in the data dir."""
+def database_url(config: Mapping[str, Any] | None = None, *, create: bool = True) -> str:
+    """``PTYPE_DATABASE_URL`` (config, then environment), else the SQLite file in the data dir.
+
+    ``create`` makes the data folder when it is missing (a read-only caller passes False).
+    """
     config = config or {}
     url = config.get("PTYPE_DATABASE_URL") or os.environ.get("PTYPE_DATABASE_URL")
     if url:
         return str(url)
-    data_dir = config.get("PTYPE_DATA_DIR") or os.environ.get("PTYPE_DATA_DIR") or ".data"
-    path = Path(data_dir).expanduser().resolve()
-    # Only the service's own user may enter a data folder it creates (0700); one that exists
-    # keeps the permissions its operator gave it.
-    path.mkdir(parents=True, exist_ok=True, mode=DIR_MODE)
+    path = Path(data_dir(config)).expanduser().resolve()
+    if create:
+        # Only the service's own user may enter a data folder it creates (0700); one that
+        # exists keeps the permissions its operator gave it.
+        path.mkdir(parents=True, exist_ok=True, mode=DIR_MODE)
     return f"sqlite:///{path / DB_FILENAME}"
+
+
+def data_dir(config: Mapping[str, Any] | None = None) -> str:
+    """The data folder: ``PTYPE_DATA_DIR`` (config, then environment), else ``.data``."""
+    return str((config or {}).get("PTYPE_DATA_DIR") or os.environ.get("PTYPE_DATA_DIR")
+               or ".data")
 
 
 def _create_private(url: str) -> None:
@@ -206,3 +218,14 @@ def _forget_pool(ref) -> None:
 def open_store(config: Mapping[str, Any] | None = None) -> Store:
     """Open (and migrate) the store named by the config or environment."""
     return Store(database_url(config))
+
+
+def open_existing_store(config: Mapping[str, Any] | None = None) -> Store | None:
+    """The store for a read-only command, or None when its SQLite file does not exist yet.
+
+    A listing must not create a data folder or an empty database as a side effect.
+    """
+    url = database_url(config, create=False)
+    if url.startswith("sqlite:///") and not Path(url.removeprefix("sqlite:///")).is_file():
+        return None
+    return Store(url)

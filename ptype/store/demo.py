@@ -10,16 +10,20 @@ alerts shown on first start are the same on every machine.
 from __future__ import annotations
 
 import json
+from collections.abc import Mapping
 from datetime import datetime
 from pathlib import Path
 from typing import Any
 
 import sqlalchemy as sa
 
-from ptype.clock import parse_time
+from ptype.clock import Clock, iso, parse_time, service_clock
 from ptype.readers import read_profile
 from ptype.store import Store
-from ptype.store.models import ADMIN_OWNER, ProfileRecord, Site
+from ptype.store.models import ADMIN_OWNER, ProfileRecord, Setting, Site
+
+#: Name of the setting that holds the demo's clock (ISO 8601 UTC) in a demo store.
+DEMO_CLOCK = "demo_clock"
 
 
 def default_demo_dir() -> Path:
@@ -74,3 +78,25 @@ def load_demo(store: Store, demo_dir: Path | None = None, *, now: datetime) -> d
                                     document=pr.to_document(), received_at=now))
                 n_profiles += 1
     return {"sites": added_sites, "profiles": n_profiles}
+
+
+def record_demo_clock(store: Store, clock: datetime) -> None:
+    """Write the demo's clock into the store, so that every reader of it uses the same time."""
+    with store.write() as s:
+        row = s.get(Setting, DEMO_CLOCK)
+        if row is None:
+            s.add(Setting(name=DEMO_CLOCK, value=iso(clock)))
+        elif row.value != iso(clock):
+            row.value = iso(clock)
+
+
+def stored_demo_clock(store: Store) -> datetime | None:
+    """The demo's clock recorded in the store, or None when the store is not a demo store."""
+    with store.read() as s:
+        row = s.get(Setting, DEMO_CLOCK)
+    return None if row is None else parse_time(row.value, DEMO_CLOCK)
+
+
+def store_clock(store: Store | None, config: Mapping[str, Any] | None = None) -> Clock:
+    """The one clock for ``store``: ``PTYPE_NOW``, else its demo clock, else the system's."""
+    return service_clock(config, stored_demo_clock(store) if store is not None else None)

@@ -145,11 +145,21 @@ def _v3_ingested_files(conn: Connection) -> None:
     md.create_all(conn)
 
 
+def _v4_settings(conn: Connection) -> None:
+    """Named values of the store itself (the demo's clock)."""
+    md = sa.MetaData()
+    sa.Table("settings", md,
+             sa.Column("name", sa.String(64), primary_key=True),
+             sa.Column("value", sa.String(400), nullable=False))
+    md.create_all(conn)
+
+
 #: Ordered migrations: (version, name, function(connection)).  Append only.
 MIGRATIONS: list[tuple[int, str, Callable[[Connection], None]]] = [
     (1, "initial schema: keys, sites, profiles, observations, alerts, alert messages", _v1_initial),
     (2, "owners of keys and sites; administrator keys", _v2_owners),
     (3, "ingested model-run files (ptype ingest, watch)", _v3_ingested_files),
+    (4, "settings of the store (the demo's clock)", _v4_settings),
 ]
 
 LATEST_VERSION = MIGRATIONS[-1][0]

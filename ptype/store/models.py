@@ -177,3 +177,11 @@ class IngestedFile(Base):
     finished_at: Mapped[datetime | None] = mapped_column(UTCDateTime, nullable=True)
     reason: Mapped[str | None] = mapped_column(sa.Text, nullable=True)
     summary: Mapped[dict[str, Any] | None] = mapped_column(sa.JSON, nullable=True)
+
+
+class Setting(Base):
+    """A named value that belongs to the store itself (e.g. ``demo_clock``)."""
+
+    __tablename__ = "settings"
+    name: Mapped[str] = mapped_column(sa.String(64), primary_key=True)
+    value: Mapped[str] = mapped_column(sa.String(400))

@@ -9,7 +9,21 @@ from types import ModuleType
 METHOD_NAMES = ("bourgouin", "ramer", "baldwin", "baldwin_revised", "czys", "cloud_top",
                 "thickness", "jennings", "particles")
 
+#: How a sentence names each method, so that a method's verdict reads as its own judgement
+#: ("Cloud-top method: ...") and not as the overall explanation.
+METHOD_LABELS = {
+    "bourgouin": "Bourgouin method", "ramer": "Ramer method", "baldwin": "Baldwin tree",
+    "baldwin_revised": "Revised Baldwin tree", "czys": "Czys method",
+    "cloud_top": "Cloud-top method", "thickness": "Thickness rules",
+    "jennings": "Jennings method", "particles": "Particle model",
+}
+
 _MODULE_OF: dict[str, str] = {}
+
+
+def method_label(name: str) -> str:
+    """The name of method ``name`` as a sentence gives it (``Cloud-top method``)."""
+    return METHOD_LABELS.get(name, name.replace("_", " ").capitalize())
 
 
 def get_method(name: str) -> ModuleType:

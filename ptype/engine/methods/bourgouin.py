@@ -120,9 +120,9 @@ _CASES = (f"D (whole column below {w.temperature(0.0, trim=True)})",
           "C (warm layer at the surface only)",
           "A (warm layer aloft over a cold surface layer)",
           "B (warm surface layer, cold layer, warm layer aloft)")
-_SURFACE_LAYER_OUTCOME = {"surface_layer_snow": "too little to melt snow: snow",
-                          "surface_layer_mix": "partial melting: rain and snow",
-                          "surface_layer_rain": "enough to melt snow: rain"}
+_SURFACE_LAYER_OUTCOME = {"surface_layer_snow": "too little to melt snow, so snow",
+                          "surface_layer_mix": "snow partly melts, so rain and snow",
+                          "surface_layer_rain": "enough to melt snow, so rain"}
 _SURFACE_THRESHOLDS = {"snow_below_j_kg": SURFACE_SNOW_J_KG, "rain_above_j_kg": SURFACE_RAIN_J_KG}
 
 
@@ -142,9 +142,10 @@ def explain(result: MethodResult, i: int) -> list[Step]:
         steps.append(Step(rule, f"No layer above {w.temperature(0.0, trim=True)} below "
                           f"{w.pressure(TOP_LIMIT_HPA)}: snow.", {}, {}, SOURCE))
     elif rule.startswith("surface_layer"):
-        steps.append(Step(rule, f"Surface warm area {w.energy(pas)} against "
-                          f"{w.energy(SURFACE_SNOW_J_KG)} and {w.energy(SURFACE_RAIN_J_KG)}: "
-                          f"{_SURFACE_LAYER_OUTCOME[rule]}.", {"pa_surface_j_kg": pas},
+        steps.append(Step(rule, f"Surface warm area {w.energy(pas)} (snow under "
+                          f"{w.energy(SURFACE_SNOW_J_KG)}, rain over "
+                          f"{w.energy(SURFACE_RAIN_J_KG)}): {_SURFACE_LAYER_OUTCOME[rule]}.",
+                          {"pa_surface_j_kg": pas},
                           _SURFACE_THRESHOLDS, SOURCE))
     else:
         steps.append(_lines_step(v, case))

@@ -309,9 +309,9 @@ def _melting_step(v: dict, rule: str) -> Step:
         "partly_melted_rain_pellets": f"{peak} ({band}): partial melting; the surface air is "
                                       f"{t_sfc}: rain and ice pellets.",
         "surface_melt_rain": f"The surface-based melting layer peaks at "
-                             f"{w.temperature(sfc_l)}: snow melts: rain.",
+                             f"{w.temperature(sfc_l)}: snow melts, so rain.",
         "surface_melt_rain_snow": f"The surface-based melting layer peaks at "
-                                  f"{w.temperature(sfc_l)} ({band}): partial melting: rain and "
+                                  f"{w.temperature(sfc_l)} ({band}): partial melting, so rain and "
                                   "snow.",
         "snow": f"No melting layer reaches {partial} (warmest "
                 f"{w.temperature(max(aloft, sfc_l))}): snow.",

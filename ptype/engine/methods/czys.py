@@ -445,10 +445,10 @@ def _ice_cloud_step(v: dict, rule: str) -> Step:
                     f"{w.temperature(cmin)} ({w.LE} {limit}): ice falls into the warm layer.",
                     values, limits, SOURCE)
     if np.isfinite(cmin):
-        text = (f"But the cloud above the warm layer is no colder than {w.temperature(cmin)}, "
+        text = (f"The cloud above the warm layer is no colder than {w.temperature(cmin)}, "
                 f"warmer than {limit}, so it is unlikely to make ice: {_DOMAIN}.")
     else:
-        text = f"But there is no cloud above the warm layer to make ice: {_DOMAIN}."
+        text = f"There is no cloud above the warm layer to make ice: {_DOMAIN}."
     return Step(rule, text, values, limits, SOURCE)
 
 

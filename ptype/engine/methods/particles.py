@@ -41,6 +41,7 @@ from __future__ import annotations
 import numpy as np
 
 from ptype.codes import NO_RESULT, Code
+from ptype.engine import wording as w
 from ptype.engine.methods.base import Context, MethodResult, Step, select_first
 from ptype.engine.particles import distribution, ground
 from ptype.engine.particles.generating import generating_level
@@ -253,12 +254,12 @@ def _generating_step(v, sfc) -> Step:
     vals = {"generating_height_m": z, "generating_pressure_hpa": p, "cloud_min_c": tmin}
     th = {"ice_nucleation_c": -10.0}
     if v["starts_liquid"]:
-        text = (f"The precipitating cloud is never colder than {_f(tmin)} \u00b0C, so it makes no "
-                f"ice: drizzle drops ({DRIZZLE_DIAMETER_MM} mm) leave its top at "
+        text = (f"The precipitating cloud is never colder than {w.temperature(tmin)}, so it "
+                f"makes no ice: drizzle drops ({DRIZZLE_DIAMETER_MM} mm) leave its top at "
                 f"{p:.0f} hPa ({_agl(z, sfc)}).")
     else:
         text = (f"Snow leaves the top of the ice-making cloud at {p:.0f} hPa ({_agl(z, sfc)}), "
-                f"where the cloud reaches {_f(tmin)} \u00b0C.")
+                f"where the cloud reaches {w.temperature(tmin)}.")
     return Step("generating_level", text, vals, th, SOURCE_CLOUD)
 
 
@@ -312,10 +313,12 @@ def _ground_step(v, rule) -> Step:
     code = Code(int(_CODE_OF_RULE[_RULE[rule]]))
     condition = dict(TYPE_TABLE)[rule]
     surface = ("at or below" if t_sfc <= FREEZING_SURFACE_C else "above")
+    # The rule as a sentence reads it: true comparison signs, not the table's ASCII.
+    condition = condition.replace(">=", w.GE).replace("<=", w.LE)
     text = (f"At the ground: snow {_pct(fr['snow'])}, melting snow {_pct(fr['melting'])}, "
             f"liquid {_pct(fr['liquid'])}, refrozen {_pct(fr['refrozen'])}; surface air "
-            f"{_f(t_sfc)} \u00b0C ({surface} 0 \u00b0C). Rule \u201c{condition}\u201d: "
-            f"{code.label} ({code.name}).")
+            f"{w.temperature(t_sfc)} ({surface} {w.temperature(0.0, trim=True)}). Rule "
+            f"\u201c{condition}\u201d: {code.label} ({code.name}).")
     vals = dict(fr, surface_temperature_c=t_sfc, ground_melted_fraction=float(
         v["ground_melted_fraction"]))
     th = {"dominant": DOMINANT, "mix": MIX, "wet_snow_melted": WET_SNOW_MELTED,

@@ -78,18 +78,18 @@ def explain(result: MethodResult, i: int) -> list[Step]:
         "missing_levels": "The profile does not span 1000 to 500 hPa (1000 hPa below ground or "
                           "the top too low): no thickness result, as the rules are not "
                           "extrapolated.",
-        "snow_850_700": f"{lower} thickness {w.height(low)} {w.LE} "
+        "snow_850_700": f"The {lower} thickness {w.height(low)} {w.LE} "
                         f"{w.height(RAIN_1000_850_MIN_M)} and {upper} {w.height(mid)} {w.LE} "
                         f"{w.height(SNOW_850_700_MAX_M)}: snow.",
-        "liquid_warm_surface": f"{lower} thickness {w.height(low)} (limit "
+        "liquid_warm_surface": f"The {lower} thickness {w.height(low)} (limit "
                                f"{w.height(RAIN_1000_850_MIN_M)}) or {upper} {w.height(mid)} "
                                f"(limit {w.height(PELLETS_850_700_MAX_M)}) says liquid; surface "
                                f"wet-bulb {w.temperature(tw)}: rain.",
-        "liquid_freezing_surface": f"{lower} thickness {w.height(low)} or {upper} "
+        "liquid_freezing_surface": f"The {lower} thickness {w.height(low)} or {upper} "
                                    f"{w.height(mid)} says liquid; surface wet-bulb "
                                    f"{w.temperature(tw)} is not above "
                                    f"{w.temperature(0.0, trim=True)}: freezing rain.",
-        "pellets_850_700": f"{upper} thickness {w.height(mid)} between "
+        "pellets_850_700": f"The {upper} thickness {w.height(mid)} between "
                            f"{w.height(SNOW_850_700_MAX_M)} and "
                            f"{w.height(PELLETS_850_700_MAX_M)}: ice pellets.",
         "none_fired": "No thickness rule fired.",

@@ -39,6 +39,7 @@ from typing import Any
 
 from ptype.codes import GRIB2_4201, Code
 from ptype.constants import CAUTION
+from ptype.engine import wording as w
 
 DEFAULT_THRESHOLDS: dict[str, Any] = {
     "freezing_probability": 0.3,
@@ -230,7 +231,7 @@ def _freezing_rule(r: _Rules) -> None:
         severity = "Severe" if p >= 0.6 or glaze >= ACCRETION_SEVERE_MM else "Moderate"
         r.make("freezing_precipitation", idx, onset, expires, severity, p,
                f"Freezing precipitation on the road surface is forecast with a probability up "
-               f"to {p:.0%}; flat-surface glaze up to {glaze:.1f} mm.",
+               f"to {w.percent(100.0 * p)}; flat-surface glaze up to {glaze:.1f} mm.",
                {"flat_glaze_mm": round(glaze, 2)})
 
 
@@ -261,8 +262,9 @@ def _frost_rule(r: _Rules) -> None:
         idx, onset, expires = span
         road = min(steps[i]["surface"]["road_surface_temperature_c"] for i in idx)
         r.make("frost", idx, onset, expires, "Minor", 0.8,
-               f"Road surface at or below 0 degC and below the frost point of the air "
-               f"(lowest road temperature {road:.1f} degC): hoar frost deposition.",
+               f"Road surface at or below {w.temperature(0.0, trim=True)} and below the "
+               f"frost point of the air (lowest road temperature {w.temperature(road)}): hoar "
+               "frost deposition.",
                {"min_road_surface_temperature_c": road})
 
 
@@ -279,8 +281,9 @@ def _pellets_rule(r: _Rules) -> None:
         severity = ("Severe" if depth >= PELLETS_SEVERE_CM else
                     "Moderate" if depth >= PELLETS_MODERATE_CM else "Minor")
         r.make("ice_pellets", idx, onset, expires, severity, p,
-               f"Ice pellets are forecast with a probability up to {p:.0%}, about {depth:.1f} "
-               f"cm (at a 2.5:1 pellet-to-liquid ratio).", {"ice_pellets_cm": round(depth, 2)})
+               f"Ice pellets are forecast with a probability up to {w.percent(100.0 * p)}, "
+               f"about {depth:.1f} cm (at a 2.5:1 pellet-to-liquid ratio).",
+               {"ice_pellets_cm": round(depth, 2)})
 
 
 def _snow_rule(r: _Rules) -> None:

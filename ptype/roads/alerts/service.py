@@ -299,7 +299,8 @@ def apply_candidates(session: Session, site: Site, candidates: Sequence[Candidat
 
 
 def expire_due(session: Session, now: datetime) -> int:
-    """Mark every active alert whose expiry has passed as expired (cheap; run before listing)."""
+    """Mark every active alert whose expiry has passed as expired (the evaluation path only:
+    listings show the same through :func:`status_at` without writing)."""
     rows = list(session.scalars(sa.select(Alert).where(Alert.status == "active",
                                                        Alert.expires <= now)))
     for a in rows:
@@ -307,14 +308,27 @@ def expire_due(session: Session, now: datetime) -> int:
     return len(rows)
 
 
-def alert_dict(alert: Alert, sender: str) -> dict:
-    """JSON-ready form of a stored alert with its latest message and CAP references."""
+def status_at(alert: Alert, now: datetime | None) -> tuple[str, datetime | None]:
+    """``(status, ended)`` of a stored alert as seen at ``now``, without changing it.
+
+    An alert stored as active whose expiry has passed is shown expired (ended at its
+    expiry): listings read, and only the evaluation path writes the lifecycle.
+    """
+    if now is not None and alert.status == "active" and alert.expires <= now:
+        return "expired", alert.expires
+    return alert.status, alert.ended_at
+
+
+def alert_dict(alert: Alert, sender: str, now: datetime | None = None) -> dict:
+    """JSON-ready form of a stored alert with its latest message and CAP references
+    (its status as seen at ``now``, see :func:`status_at`)."""
     from ptype.roads.alerts.cap import reference
     last = alert.messages[-1]
     earlier = alert.messages[:-1]
     d = alert.details or {}
+    status, ended = status_at(alert, now)
     return {
-        "id": alert.id, "status": alert.status, "event": alert.event,
+        "id": alert.id, "status": status, "event": alert.event,
         "onset": iso(alert.onset), "expires": iso(alert.expires), "sent": iso(last.sent),
         "site": last.snapshot.get("site"), "severity": alert.severity,
         "certainty": alert.certainty, "urgency": alert.urgency, "msg_type": last.msg_type,
@@ -323,25 +337,30 @@ def alert_dict(alert: Alert, sender: str) -> dict:
         "headline": d.get("headline"), "description": d.get("description"),
         "instruction": d.get("instruction"), "parameters": d.get("parameters", {}),
         "created": iso(alert.created_at), "updated": iso(alert.updated_at),
-        "ended": iso(alert.ended_at), "version": alert.version,
+        "ended": iso(ended), "version": alert.version,
     }
 
 
 def list_alerts(session: Session, now: datetime, sender: str, *, include_recent: bool = True,
                 site_id: int | None = None, owner: str | None = None) -> list[dict]:
-    """Active alerts (and, with ``include_recent``, those ended recently), by onset; of one
-    site and of one owner's sites when those are given."""
-    q = sa.select(Alert)
+    """Alerts active at ``now`` (and, with ``include_recent``, those ended in the last
+    :data:`RECENT`), by onset; of one site and of one owner's sites when those are given.
+    Read-only: an active alert past its expiry is listed as expired (:func:`status_at`) but
+    stays as stored until the next evaluation."""
+    live = sa.and_(Alert.status == "active", Alert.expires > now)
     if include_recent:
-        q = q.where(sa.or_(Alert.status == "active", Alert.ended_at >= now - RECENT))
+        lapsed = sa.and_(Alert.status == "active", Alert.expires <= now,
+                         Alert.expires >= now - RECENT)
+        ended = sa.and_(Alert.status != "active", Alert.ended_at >= now - RECENT)
+        q = sa.select(Alert).where(sa.or_(live, lapsed, ended))
     else:
-        q = q.where(Alert.status == "active")
+        q = sa.select(Alert).where(live)
     if site_id is not None:
         q = q.where(Alert.site_id == site_id)
     if owner is not None:
         q = q.where(Alert.site_id.in_(sa.select(Site.id).where(Site.owner == owner)))
     rows = session.scalars(q.order_by(Alert.onset, Alert.id))
-    return [alert_dict(a, sender) for a in rows]
+    return [alert_dict(a, sender, now) for a in rows]
 
 
 def cap_for(alert: Alert, sender: str, status: str | None, radius_km: float,
