@@ -198,3 +198,14 @@ def test_reported_type_is_supported_and_probabilities_sum_to_one(seed):
     assert np.all(p_reported[~split] >= MIN_SUPPORT - 1e-12)
     assert np.all(p_reported[split] >= p_best[split] - 1e-12)
     assert np.all(run.fields["possible"][rows, run.codes])
+
+
+def test_ground_warming_past_zero_keeps_czys_vote_liquid():
+    # A generated sounding (seed 1138, column 27) whose ground warms from -0.8 to +0.2 degC:
+    # Czys et al. (1996) fall silent above 0 degC; with the snow melted aloft that silence is
+    # a rain vote, so the consensus may not move from FZRAPL toward PL (docs/consensus.md).
+    cols = build_columns(draw_parameters(np.random.default_rng(1138), 64))
+    before = diagnose_columns(cols, consensus_only=True)["ptype"]
+    after = diagnose_columns(_warmed(cols, 1.0), consensus_only=True)["ptype"]
+    assert Code(int(before[27])) is Code.FZRAPL
+    assert ICE_OF_CODE[after[27]] <= ICE_OF_CODE[before[27]]

@@ -35,7 +35,7 @@ import numpy as np
 from ptype.codes import HAZARD_RANK, Code
 from ptype.engine import phase
 from ptype.engine import wording as w
-from ptype.engine.methods import cloud_top, jennings
+from ptype.engine.methods import cloud_top, czys, jennings
 from ptype.engine.methods.base import Context, MethodResult, Step, select_first
 
 #: Methods that vote, with their weight: one vote per independent decision procedure.  The
@@ -81,16 +81,21 @@ TIE_TEXT = ("weighted median of the ice content (liquid < mixed < frozen), an ev
 
 
 def vote_counts(results: dict[str, MethodResult], n: int,
-                voter_weights: np.ndarray | None = None) -> tuple[np.ndarray, list[str]]:
+                voter_weights: np.ndarray | None = None,
+                melted_aloft: np.ndarray | None = None) -> tuple[np.ndarray, list[str]]:
     """Weighted votes per code, ``(n, len(Code))``, and the voters present.
 
     ``voter_weights``, ``(n, len(VOTERS))``, multiplies each voter's weight per column (the
-    members' structural perturbation); None keeps :data:`VOTER_WEIGHTS`."""
+    members' structural perturbation); None keeps :data:`VOTER_WEIGHTS`.  ``melted_aloft``
+    (``(n,)``, :func:`ptype.engine.phase.phase_path`) turns Czys's silence over a surface
+    that is not freezing into a vote for rain there (:func:`_czys_votes`)."""
     counts = np.zeros((n, N_CODES))
     rows = np.arange(n)
     voters = [name for name in VOTERS if name in results]
     for name in voters:
         code = results[name].code
+        if name == czys.NAME and melted_aloft is not None:
+            code = _czys_votes(results[name], melted_aloft)
         ok = code >= 0
         w = VOTER_WEIGHTS[name]
         if voter_weights is not None:
@@ -131,20 +136,26 @@ def _median_phase(phase_counts: np.ndarray, codes: np.ndarray
     return np.where(total > 0, winner, -1), split, tie
 
 
+def _czys_votes(result: MethodResult, melted_aloft: np.ndarray) -> np.ndarray:
+    """Czys's codes, with RA where it is silent only because the surface is not freezing and
+    the snow melted completely aloft.
+
+    Czys et al. (1996) decide between freezing rain and ice pellets inside a sub-freezing
+    surface layer; above 0 degC at the ground they say nothing.  A drop that melted completely
+    aloft and lands on a surface above freezing is rain (common practice), so there their
+    silence is a liquid vote.  Without it, warming the ground by a degree silenced a liquid
+    voter and moved the median toward more ice (FZRAPL to PL), which no warming may do
+    (docs/consensus.md, the warming invariant)."""
+    silent_warm = (result.code < 0) & (result.rule == czys.RULES.index("surface_not_freezing"))
+    return np.where(silent_warm & melted_aloft, int(Code.RA), result.code)
+
+
 def consensus(ctx: Context, results: dict[str, MethodResult],
               voter_weights: np.ndarray | None = None) -> MethodResult:
     """Combine method results (all over the same columns) into the consensus."""
     c = ctx.columns
     n = c.n_columns
     rows = np.arange(n)
-    counts, voters = vote_counts(results, n, voter_weights)
-    total = counts.sum(axis=1)
-    phase_counts = np.zeros((n, len(PHASES)))
-    for k in range(N_CODES):
-        phase_counts[:, _PHASE_INDEX[k]] += counts[:, k]
-    sfc_t = c.surface_temperature_c
-    freezing = sfc_t <= cloud_top.FREEZING_SURFACE_C
-    code_of_phase = np.where(freezing[:, None], _FREEZING_CODE[None, :], _WARM_CODE[None, :])
     if "cloud_top" in results:
         ice = results["cloud_top"].values
         ice_in_cloud = ~ice["has_cloud"] | ice["ice"]
@@ -153,6 +164,14 @@ def consensus(ctx: Context, results: dict[str, MethodResult],
         ice_in_cloud = np.ones(n, dtype=bool)
         drizzle_cloud = np.zeros(n, dtype=bool)
     path = phase.phase_path(ctx, ice_in_cloud)
+    counts, voters = vote_counts(results, n, voter_weights, path["melted_aloft"])
+    total = counts.sum(axis=1)
+    phase_counts = np.zeros((n, len(PHASES)))
+    for k in range(N_CODES):
+        phase_counts[:, _PHASE_INDEX[k]] += counts[:, k]
+    sfc_t = c.surface_temperature_c
+    freezing = sfc_t <= cloud_top.FREEZING_SURFACE_C
+    code_of_phase = np.where(freezing[:, None], _FREEZING_CODE[None, :], _WARM_CODE[None, :])
     possible = path["possible"][rows[:, None], code_of_phase]
     vote_phase, _, _ = _median_phase(phase_counts, code_of_phase)
     possible_phase, split, tie = _median_phase(np.where(possible, phase_counts, 0.0),
