@@ -158,7 +158,7 @@ def test_migration_from_version_1_on_a_real_file(tmp_path, make_app):
     db.parent.mkdir()
     old_key = _v1_store(db)
     store = Store(f"sqlite:///{db}")
-    assert store.schema_version() == migrations.LATEST_VERSION == 3
+    assert store.schema_version() == migrations.LATEST_VERSION >= 3
     assert store.integrity_check() == "ok"
     with store.read() as s:
         key = s.scalars(sa.select(ApiKey)).one()
