@@ -7,6 +7,7 @@ import io
 import re
 import xml.etree.ElementTree as ET
 
+import numpy as np
 import pytest
 from api_support import freezing_rain_document, snow_document
 
@@ -143,3 +144,26 @@ def test_diagram_surface_values_and_labels_stay_off_the_chart():
         for b in boxes[i + 1:]:
             assert not a.overlaps(b)
     assert any(ax.get_title(loc="left") == "Lowest 3 km" for ax in fig.axes)
+
+
+def test_diagram_shows_the_particle_fractions_beside_the_lowest_3_km():
+    # The particle model's melted and refrozen mass fractions by height, drawn on the heights
+    # of the lowest-3-km panel: the plotted lines are the profile's own arrays.
+    from api_support import freezing_rain_document
+
+    from ptype.plot.diagram import _as_dict, _figure
+    data = _as_dict(ptype.diagnose(ptype.Profile.from_document(freezing_rain_document()),
+                                   members=0))
+    fig = _figure(data, 7.0)
+    panel = [ax for ax in fig.axes if ax.get_title(loc="left") == "Particles"]
+    assert len(panel) == 1
+    low = next(ax for ax in fig.axes if ax.get_title(loc="left") == "Lowest 3 km")
+    assert panel[0].get_shared_y_axes().joined(panel[0], low)
+    lines = {line.get_label(): line for line in panel[0].get_lines()}
+    prof = data["profile"]
+    z = np.asarray(prof["height_m"], dtype=float)
+    agl_km = (z - z[0]) / 1000.0
+    low_levels = agl_km <= 3.05
+    np.testing.assert_allclose(lines["melted"].get_xdata(),
+                               np.asarray(prof["melted_fraction"], dtype=float)[low_levels])
+    assert {"melted", "refrozen"} <= set(lines)

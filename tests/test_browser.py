@@ -98,6 +98,14 @@ def test_page_loads_demo_and_shows_type_and_diagram(server, new_page, tmp_path):
     assert "Freezing rain" in page.inner_text("#verdict-label")
     assert "freezes on contact" in page.inner_text("#verdict-meaning")
     assert page.locator("#bars li").count() >= 1
+    # The particle model's mass at the ground: four parts in words (the second cue), adding to
+    # 100 % within rounding; a freezing-rain profile brings liquid down (Bourgouin 2000: the
+    # warm nose melts the snow completely, the shallow cold layer refreezes almost none).
+    parts = page.locator("#fractions-legend li").all_inner_texts()
+    assert [t.split(":")[0] for t in parts] == ["snow", "melting snow", "liquid", "refrozen ice"]
+    shares = {t.split(":")[0]: int(t.split(":")[1].strip(" %")) for t in parts}
+    assert abs(sum(shares.values()) - 100) <= 2 and shares["liquid"] >= 90
+    assert "liquid" in page.get_attribute("#fractions", "aria-label")
     assert page.locator("#methods-body tr").count() == len(METHOD_NAMES)
     assert "Guidance only" in page.inner_text("#caution")
 

@@ -236,6 +236,35 @@
     return node;
   }
 
+  // The particle model's mass fractions at the ground, as one stacked bar: each part wears
+  // the colour and pattern of the type it stands for (snow SN, melting snow RASN, liquid RA,
+  // refrozen PL) and carries its name and share in the legend, so colour is never the only cue.
+  const FRACTION_PARTS = [["snow", "snow", "SN"], ["melting", "melting snow", "RASN"],
+                          ["liquid", "liquid", "RA"], ["refrozen", "refrozen ice", "PL"]];
+
+  function renderFractions(result) {
+    const particles = (result.methods || {}).particles;
+    const fractions = particles && particles.mass_fractions;
+    $("fractions-block").hidden = !fractions;
+    const bar = $("fractions");
+    const legend = $("fractions-legend");
+    bar.innerHTML = "";
+    legend.innerHTML = "";
+    if (!fractions) return;
+    const words = [];
+    for (const [key, label, code] of FRACTION_PARTS) {
+      const pct = Math.round((fractions[key] || 0) * 100);
+      words.push(label + " " + pct + " %");
+      legend.appendChild(el("li", {}, label + ": " + pct + " %"));
+      if (pct <= 0) continue;
+      const part = el("span", { class: "fraction ty-" + code, title: label + " " + pct + " %" },
+                      pct >= 12 ? label : "");
+      part.style.width = pct + "%";
+      bar.appendChild(part);
+    }
+    bar.setAttribute("aria-label", "Mass at the ground: " + words.join(", "));
+  }
+
   function render(result) {
     $("result").hidden = false;
     const code = $("verdict-code");
@@ -270,6 +299,8 @@
       li.appendChild(el("span", { class: "bar-value" }, pct + " %"));
       bars.appendChild(li);
     }
+
+    renderFractions(result);
 
     const tbody = $("methods-body");
     tbody.innerHTML = "";

@@ -282,6 +282,31 @@ def _low_panel(fig, prof: dict, layers: list[dict]) -> None:
     ax.tick_params(labelsize=9, colors=PALETTE["text"])
     ax.set_title("Lowest 3 km", fontsize=10.5, loc="left", color=PALETTE["text"])
     ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5), fontsize=9, frameon=False)
+    _fraction_panel(fig, ax, prof, agl_km, low)
+
+
+def _fraction_panel(fig, low_ax, prof: dict, agl_km: np.ndarray, low: np.ndarray) -> None:
+    """Beside the lowest 3 km: the particle model's melted and refrozen mass fractions at
+    each level (:mod:`ptype.engine.particles`), on the same heights, so the melting and
+    refreezing the energies above describe can be read as what happens to the falling mass."""
+    melted = _array(prof.get("melted_fraction"))
+    refrozen = _array(prof.get("refrozen_fraction"))
+    if melted.size != agl_km.size or not np.isfinite(melted[low]).any():
+        return
+    ax = fig.add_axes((0.845, 0.07, 0.125, 0.22), sharey=low_ax)
+    ax.set_facecolor(PALETTE["axes"])
+    ax.plot(melted[low], agl_km[low], "-", color=PALETTE["melt"], linewidth=2.2, label="melted")
+    if refrozen.size == agl_km.size and np.isfinite(refrozen[low]).any():
+        ax.plot(refrozen[low], agl_km[low], "--", color=PALETTE["refreeze"], linewidth=2.2,
+                label="refrozen")
+    ax.set_xlim(-0.02, 1.02)
+    ax.set_xticks([0.0, 0.5, 1.0])
+    ax.grid(True, color=PALETTE["grid"], linewidth=0.5)
+    ax.tick_params(labelsize=8, colors=PALETTE["text"], labelleft=False)
+    ax.set_xlabel("Mass fraction", fontsize=9, color=PALETTE["text"])
+    ax.set_title("Particles", fontsize=10, loc="left", color=PALETTE["text"])
+    ax.legend(loc="upper right", fontsize=7.5, frameon=True, framealpha=0.9,
+              edgecolor=PALETTE["grid"], handlelength=1.6)
 
 
 def _fit_x(ax, p: np.ndarray, values: np.ndarray, bottom: float) -> None:
