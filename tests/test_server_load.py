@@ -57,6 +57,10 @@ def _log(proc) -> str:
 
 def test_large_requests_keep_the_workers_and_their_numbers(demo_server):
     proc, url = demo_server
+    deadline = time.monotonic() + 60  # the second worker may still be starting
+    while len(_workers(proc.pid)) < 2 and time.monotonic() < deadline:
+        time.sleep(0.2)
+    time.sleep(1.0)  # and answering
     before = _workers(proc.pid)
     assert len(before) == 2
     document = freezing_rain_document(n_levels=400)
