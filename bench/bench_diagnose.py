@@ -29,6 +29,10 @@ import ptype
 from ptype.engine.probability import DEFAULT_MEMBERS
 
 TARGET_MS = 5.0
+#: The upper limit of one 50-member diagnosis since the phase path and the particle model
+#: joined the engine (they may cost up to 3x the rest); TARGET_MS is the throughput aim of the
+#: engine before them, kept to show the gap.
+LIMIT_MS = 20.0
 #: Median of this benchmark before the engine's call overhead was cut (same profile, quiet
 #: machine): 8.35 ms with members, 4.82 ms without.
 BEFORE_MS = {"diagnose_ms": 8.35, "diagnose_no_members_ms": 4.82}
@@ -78,6 +82,7 @@ def main() -> dict:
               "metpy_wet_bulb_60_levels_ms": round(t_metpy * 1e3, 2),
               "ratio_metpy_wetbulb_over_full_diagnosis": round(t_metpy / t_diag, 1),
               "target_ms": TARGET_MS, "meets_target": t_diag * 1e3 <= TARGET_MS,
+              "limit_ms": LIMIT_MS, "meets_limit": t_diag * 1e3 <= LIMIT_MS,
               "load_average_1m": round(os.getloadavg()[0], 2), **code_version()}
     out = Path(__file__).parent / "results"
     out.mkdir(exist_ok=True)
