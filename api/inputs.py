@@ -24,7 +24,7 @@ from typing import Any, NoReturn
 from flask import current_app, request
 from ptype.api.errors import ApiError
 
-from ptype.clock import parse_time, time_range_problem
+from ptype.clock import from_iso, parse_time, time_range_problem
 from ptype.store.text import first_bad_character
 
 #: Deepest nesting of arrays and objects accepted in a JSON body when the configuration
@@ -209,11 +209,5 @@ def query_time(name: str) -> datetime | None:
 def time_range_problem_of(value: str) -> str | None:
     """Why the ISO 8601 ``value`` is outside the accepted range; None when inside or when it
     is not a time at all (that is :func:`ptype.clock.parse_time`'s to say)."""
-    text = value.strip()
-    if text.endswith(("Z", "z")):
-        text = text[:-1] + "+00:00"
-    try:
-        dt = datetime.fromisoformat(text)
-    except ValueError:
-        return None
-    return time_range_problem(dt)
+    dt = from_iso(value)
+    return None if dt is None else time_range_problem(dt)

@@ -54,6 +54,18 @@ def in_time_range(dt: datetime) -> datetime:
     return dt
 
 
+def from_iso(value: str) -> datetime | None:
+    """The datetime an ISO 8601 string writes (a trailing ``Z`` read as UTC; naive when it
+    has no offset), or None when it is not one."""
+    text = value.strip()
+    if text.endswith(("Z", "z")):
+        text = text[:-1] + "+00:00"
+    try:
+        return datetime.fromisoformat(text)
+    except ValueError:
+        return None
+
+
 def parse_time(value: Any, field: str = "time") -> datetime:
     """An aware UTC datetime from an ISO 8601 string or datetime (UTC assumed without offset).
 
@@ -62,14 +74,10 @@ def parse_time(value: Any, field: str = "time") -> datetime:
     if isinstance(value, datetime):
         dt = value
     elif isinstance(value, str):
-        text = value.strip()
-        if text.endswith(("Z", "z")):
-            text = text[:-1] + "+00:00"
-        try:
-            dt = datetime.fromisoformat(text)
-        except ValueError:
+        dt = from_iso(value)
+        if dt is None:
             raise OptionError(f"{field} = {value!r}: expected an ISO 8601 time such as "
-                              "2026-01-15T06:00:00Z", field=field) from None
+                              "2026-01-15T06:00:00Z", field=field)
     else:
         raise OptionError(f"{field} = {value!r}: expected an ISO 8601 time string", field=field)
     problem = time_range_problem(dt)

@@ -121,15 +121,7 @@ def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | N
                               f"expected {fields.temperature!r} on {fields.horizontal_dims})",
                               field="input")
     ds = _combine(datasets, fields)
-    want = dict(chunks or {})
-    unknown = sorted(set(want) - set(ds.dims))
-    if unknown:
-        raise OptionError(f"chunks: unknown dimension(s) {', '.join(unknown)}; the input has "
-                          f"{', '.join(map(str, ds.dims))}", field="chunks")
-    full = default_chunks(ds, fields, members)
-    full.update(want)
-    full[fields.level_dim] = -1
-    full = {d: c for d, c in full.items() if d in ds.dims}
+    full = _working_chunks(ds, fields, chunks, members)
     if all(d[fields.temperature].encoding.get("contiguous") for _, d in datasets):
         # A contiguous (unchunked) variable opens as one dask chunk: its whole array would be
         # read by one task, under the HDF5 lock, before any column could be diagnosed.  It is
@@ -153,6 +145,21 @@ def open_grid(paths: str | os.PathLike | Sequence, chunks: Mapping[str, int] | N
     return ds
 
 
+def _working_chunks(ds, fields, chunks: Mapping[str, int] | None, members: int) -> dict:
+    """The chunks a grid is computed in: :func:`default_chunks` with the user's ``chunks``
+    over them (an unknown dimension is an :class:`OptionError`), levels always whole, only
+    the dimensions ``ds`` has."""
+    want = dict(chunks or {})
+    unknown = sorted(set(want) - set(ds.dims))
+    if unknown:
+        raise OptionError(f"chunks: unknown dimension(s) {', '.join(unknown)}; the input has "
+                          f"{', '.join(map(str, ds.dims))}", field="chunks")
+    full = default_chunks(ds, fields, members)
+    full.update(want)
+    full[fields.level_dim] = -1
+    return {d: c for d, c in full.items() if d in ds.dims}
+
+
 def _open_grib(paths: list[str], chunks: Mapping[str, int] | None, members: int):
     """GRIB2 files through :func:`ptype.grid.grib.open_grib_dataset`, chunked as NetCDF is."""
     from ptype.grid import grib
@@ -162,15 +169,7 @@ def _open_grib(paths: list[str], chunks: Mapping[str, int] | None, members: int)
                           "GRIB2 or NetCDF files", field="input")
     ds = grib.open_grib_dataset(paths)
     fields = find_fields(ds, paths[0])
-    want = dict(chunks or {})
-    unknown = sorted(set(want) - set(ds.dims))
-    if unknown:
-        raise OptionError(f"chunks: unknown dimension(s) {', '.join(unknown)}; the input has "
-                          f"{', '.join(map(str, ds.dims))}", field="chunks")
-    full = default_chunks(ds, fields, members)
-    full.update(want)
-    full[fields.level_dim] = -1
-    ds = ds.chunk({d: c for d, c in full.items() if d in ds.dims})
+    ds = ds.chunk(_working_chunks(ds, fields, chunks, members))
     ds.attrs["_ptype_sources"] = " ".join(os.path.basename(p) for p in paths)
     return ds
 
