@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import math
 import socket
+import sqlite3
+from pathlib import Path
 
 import numpy as np
 
@@ -71,3 +73,14 @@ def free_port() -> int:
     with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
         s.bind(("127.0.0.1", 0))
         return s.getsockname()[1]
+
+
+def store_dump(data_dir: Path) -> list[str]:
+    """Every table of the SQLite store in ``data_dir`` as SQL statements (schema and rows):
+    equal before and after means nothing was written."""
+    from ptype.store import DB_FILENAME
+    conn = sqlite3.connect(Path(data_dir) / DB_FILENAME)
+    try:
+        return list(conn.iterdump())
+    finally:
+        conn.close()

@@ -18,6 +18,7 @@ import sys
 from pathlib import Path
 
 import pytest
+from api_support import store_dump
 from ptype.api import create_app
 from ptype.api.plumbing import store_for
 
@@ -29,15 +30,6 @@ DEMO = ROOT / "soundings_demo"
 DEMO_CLOCK = "2026-01-27T00:00:00Z"
 #: A day later, when every demo alert has expired (their windows are under 24 h).
 DAY_LATER = "2026-01-28T06:00:00Z"
-
-
-def dump(data_dir: Path) -> list[str]:
-    """Every table of the store as SQL statements (schema and rows)."""
-    conn = sqlite3.connect(data_dir / DB_FILENAME)
-    try:
-        return list(conn.iterdump())
-    finally:
-        conn.close()
 
 
 @pytest.fixture(scope="module")
@@ -87,10 +79,10 @@ def test_every_get_endpoint_leaves_the_store_unchanged(demo_store, clock, monkey
         assert len(urls) >= 12
         for url in urls:
             for accept in ("application/json", "text/html"):
-                before = dump(data_dir)
+                before = store_dump(data_dir)
                 with client.get(url, headers={"Accept": accept}) as response:
                     assert response.status_code < 500, url
-                assert dump(data_dir) == before, f"GET {url} ({accept}) changed the store"
+                assert store_dump(data_dir) == before, f"GET {url} ({accept}) changed the store"
     finally:
         app.config["PTYPE_NOW"] = None
 
@@ -116,10 +108,10 @@ def test_every_read_command_leaves_the_store_unchanged(demo_store, clock):
     _, data_dir = demo_store
     env = {"PTYPE_NOW": clock} if clock else {}
     for args in READ_COMMANDS:
-        before = dump(data_dir)
+        before = store_dump(data_dir)
         r = _ptype(args, data_dir, **env)
         assert r.returncode == 0, (args, r.stderr)
-        assert dump(data_dir) == before, f"ptype {' '.join(args)} changed the store"
+        assert store_dump(data_dir) == before, f"ptype {' '.join(args)} changed the store"
 
 
 def test_cli_and_service_agree_on_active_alerts_at_the_demo_clock(demo_store, monkeypatch):
@@ -169,9 +161,9 @@ def test_a_day_later_alerts_are_listed_expired_and_only_evaluation_records_it(de
                               PTYPE_NOW=DAY_LATER).stdout)
     assert later["clock"]["source"] == "PTYPE_NOW"
     assert later["alerts"] and {a["status"] for a in later["alerts"]} == {"expired"}
-    before = dump(copy)
+    before = store_dump(copy)
     assert "'active'" in "".join(x for x in before if x.startswith('INSERT INTO "alerts"'))
     r = _ptype(["alerts", "--evaluate"], copy, PTYPE_NOW=DAY_LATER)
     assert r.returncode == 0, r.stderr
-    after = "".join(x for x in dump(copy) if x.startswith('INSERT INTO "alerts"'))
+    after = "".join(x for x in store_dump(copy) if x.startswith('INSERT INTO "alerts"'))
     assert "'active'" not in after and "'expired'" in after

@@ -13,14 +13,13 @@ import os
 import re
 import shlex
 import signal
-import sqlite3
 import subprocess
 import sys
 import time
 from pathlib import Path
 
 import pytest
-from api_support import free_port
+from api_support import free_port, store_dump
 
 from ptype.constants import CAUTION
 from ptype.store import DB_FILENAME
@@ -62,14 +61,6 @@ def _argv(line: str, cwd: Path) -> list[str]:
     return [sys.executable, "-m", "ptype", *rest]
 
 
-def _dump(data_dir: Path) -> list[str]:
-    conn = sqlite3.connect(data_dir / DB_FILENAME)
-    try:
-        return list(conn.iterdump())
-    finally:
-        conn.close()
-
-
 @pytest.fixture(scope="module")
 def service(tmp_path_factory):
     """A real ``ptype serve --demo`` on a free port with a fresh data folder, as make run."""
@@ -102,7 +93,7 @@ def test_first_hour_runs_as_written(service, tmp_path):
     commands = walkthrough_commands()
     assert len(commands) >= 8
     (tmp_path / "soundings_demo").symlink_to(ROOT / "soundings_demo")
-    before = _dump(service)
+    before = store_dump(service)
     for line in commands:
         if line.startswith(("source ", ". ")):
             continue  # activation: this test calls the interpreter of the environment
@@ -117,4 +108,4 @@ def test_first_hour_runs_as_written(service, tmp_path):
         if words[1:2] == ["alerts"] and "json" not in words:
             assert "(demo clock" in r.stdout and "\nactive " in r.stdout, r.stdout
     assert (tmp_path / "first_hour.nc").is_file() and (tmp_path / "first_hour.png").is_file()
-    assert _dump(service) == before, "the walk-through changed the service's store"
+    assert store_dump(service) == before, "the walk-through changed the service's store"
